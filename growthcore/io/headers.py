@@ -1,0 +1,148 @@
+"""Finding the header row and splitting headers such as ``Dry weight (g/L)`` into name and unit."""
+
+from __future__ import annotations
+
+import datetime as dt
+import re
+from dataclasses import dataclass
+from typing import Sequence
+
+from growthcore.io.numbers import NumberFormat, is_missing, parse_number
+from growthcore.io.timeparse import canonical_unit, parse_calendar, parse_duration
+
+_UNIT_TAIL = re.compile(r"^(?P<name>.*?\S)\s*(?:\((?P<p>[^()]*)\)|\[(?P<b>[^\[\]]*)\])$")
+_SLASH_UNIT = re.compile(r"^(?P<name>.*?\S)\s+/\s+(?P<unit>\S.*)$")
+_IN_UNIT = re.compile(r"^(?P<name>.*?\S)\s+in\s+(?P<unit>[^\s]+)$", re.IGNORECASE)
+
+#: How many rows from the top are searched for the header.
+HEADER_SEARCH_ROWS = 100
+
+
+@dataclass(frozen=True)
+class Column:
+    """One column: its header text as written, the name and unit read from it, its position."""
+
+    index: int
+    header: str
+    name: str
+    unit: str
+
+    @property
+    def label(self) -> str:
+        """The header as the user wrote it, or a positional name when the column has none."""
+        return self.header or self.name
+
+
+def split_unit(header: str) -> tuple[str, str]:
+    """``Dry weight (g/L)`` -> (``Dry weight``, ``g/L``); ``OD600 [-]`` -> (``OD600``, ``-``)."""
+    text = " ".join(header.split())
+    m = _UNIT_TAIL.match(text)
+    if m:
+        unit = (m.group("p") if m.group("p") is not None else m.group("b")).strip()
+        return m.group("name").strip(), unit
+    m = _SLASH_UNIT.match(text)
+    if m:
+        return m.group("name").strip(), m.group("unit").strip()
+    m = _IN_UNIT.match(text)
+    if m and canonical_unit(m.group("unit")):
+        return m.group("name").strip(), m.group("unit").strip()
+    return text, ""
+
+
+def cell_kind(value: object, fmt: NumberFormat) -> str:
+    """``blank``, ``number``, ``time`` (clock time or date) or ``text``."""
+    if value is None:
+        return "blank"
+    if isinstance(value, bool):
+        return "text"
+    if isinstance(value, (int, float)):
+        return "number" if value == value else "blank"
+    if isinstance(value, (dt.datetime, dt.date, dt.time, dt.timedelta)):
+        return "time"
+    text = str(value).strip()
+    if is_missing(text):
+        return "blank"
+    if parse_number(text, fmt) is not None:
+        return "number"
+    if parse_duration(text) is not None or parse_calendar(text) is not None:
+        return "time"
+    return "text"
+
+
+def _is_data_row(kinds: Sequence[str]) -> bool:
+    return sum(k in ("number", "time") for k in kinds) >= 2
+
+
+@dataclass(frozen=True)
+class HeaderGuess:
+    """Where the header is (indexes into the table's rows) and where data start."""
+
+    header: int | None
+    units: int | None
+    data_start: int
+
+
+def find_header(rows: Sequence[Sequence[object]], fmt: NumberFormat) -> HeaderGuess | None:
+    """The first row with text in two or more cells that is followed by a row of data.
+
+    Rows above it (titles, comments, metadata) are skipped. A text-only row between the header
+    and the data, of short cells, is taken as a row of units. None when no data row is found.
+    """
+    kinds = [[cell_kind(v, fmt) for v in row] for row in rows[: HEADER_SEARCH_ROWS + 3]]
+    nonblank = [i for i, k in enumerate(kinds) if any(x != "blank" for x in k)]
+    for pos, i in enumerate(nonblank):
+        if i >= HEADER_SEARCH_ROWS:
+            break
+        k = kinds[i]
+        if _is_data_row(k):
+            return HeaderGuess(None, None, i)
+        filled = sum(x != "blank" for x in k)
+        if filled < 2 or "text" not in k:
+            continue
+        following = nonblank[pos + 1 : pos + 3]
+        if not following:
+            continue
+        nxt = following[0]
+        if _is_data_row(kinds[nxt]):
+            return HeaderGuess(i, None, nxt)
+        if len(following) > 1 and _is_data_row(kinds[following[1]]) and _looks_like_units(rows[nxt], kinds[nxt]):
+            return HeaderGuess(i, nxt, following[1])
+    return None
+
+
+def _looks_like_units(row: Sequence[object], kinds: Sequence[str]) -> bool:
+    cells = [str(v).strip() for v, k in zip(row, kinds) if k != "blank"]
+    return bool(cells) and all(k in ("text", "blank") for k in kinds) and all(len(c) <= 16 for c in cells)
+
+
+def make_columns(
+    rows: Sequence[Sequence[object]], guess: HeaderGuess, width: int
+) -> tuple[list[Column], list[str]]:
+    """Columns named from the header (and units) row; unnamed ones get ``column N``."""
+    notes: list[str] = []
+    header = list(rows[guess.header]) if guess.header is not None else []
+    units = list(rows[guess.units]) if guess.units is not None else []
+    columns: list[Column] = []
+    seen: dict[str, int] = {}
+    for j in range(width):
+        raw = header[j] if j < len(header) else None
+        text = "" if raw is None else " ".join(str(raw).split())
+        name, unit = split_unit(text) if text else (f"column {j + 1}", "")
+        if units and j < len(units) and units[j] is not None and str(units[j]).strip():
+            unit_text = str(units[j]).strip()
+            unit = unit_text[1:-1].strip() if unit_text[:1] in "([" and unit_text[-1:] in ")]" else unit_text
+        if not unit:
+            implied = canonical_unit(name)
+            if implied and name.lower() not in ("m", "a", "d", "y", "s"):
+                unit = implied
+        key = (text or name).lower()
+        if key in seen:
+            seen[key] += 1
+            suffix = f" ({seen[key]})"
+            notes.append(f"two columns are headed {text or name!r}: the later is called {(text or name) + suffix!r}")
+            text = (text + suffix) if text else ""
+            name = name + suffix
+        else:
+            seen[key] = 1
+        columns.append(Column(j, text, name, unit))
+    return columns, notes

@@ -1,0 +1,389 @@
+"""Reading a spreadsheet into series: the one entry point for files and uploads."""
+
+from __future__ import annotations
+
+import hashlib
+import os
+from dataclasses import dataclass
+from typing import Sequence
+
+import numpy as np
+
+from growthcore.data import Series
+from growthcore.errors import ImportFailure
+from growthcore.io.headers import Column, find_header, make_columns
+from growthcore.io.layout import choose_layout, profile_columns
+from growthcore.io.numbers import NumberFormat, detect_number_format, is_missing, parse_number, thousands_separator
+from growthcore.io.report import ImportReport, ImportResult, LeftOut, SeriesSummary
+from growthcore.io.sniff import decode_text, detect_format
+from growthcore.io.table import Table
+from growthcore.io.textsheet import read_text_table
+from growthcore.io.timeparse import UNIT_SECONDS, convert_time_column
+from growthcore.io.xlsxsheet import read_xlsx_table
+
+#: Fewest usable points a series needs for any fit.
+MIN_POINTS = 3
+DEFAULT_MAX_BYTES = 20_000_000
+TIME_UNITS = ("s", "min", "h", "d", "wk", "yr")
+
+
+def load_file(
+    path: str | os.PathLike[str],
+    *,
+    sheet: str | None = None,
+    time: str | None = None,
+    value: str | Sequence[str] | None = None,
+    series: str | None = None,
+    time_unit: str | None = None,
+    average_duplicates: bool = False,
+    max_bytes: int = DEFAULT_MAX_BYTES,
+) -> ImportResult:
+    """Read a CSV, TSV or XLSX file into series with a full import report.
+
+    Raises ImportFailure (one line, naming the file) when nothing usable can be read.
+    """
+    name = os.path.basename(os.fspath(path))
+    try:
+        size = os.path.getsize(path)
+    except OSError as exc:
+        raise ImportFailure(f"{name}: cannot be opened ({exc.strerror or exc})") from None
+    _check_size(size, name, max_bytes)
+    try:
+        with open(path, "rb") as fh:
+            data = fh.read(max_bytes + 1)
+    except OSError as exc:
+        raise ImportFailure(f"{name}: cannot be read ({exc.strerror or exc})") from None
+    return load_bytes(
+        data, name, sheet=sheet, time=time, value=value, series=series, time_unit=time_unit,
+        average_duplicates=average_duplicates, max_bytes=max_bytes,
+    )
+
+
+def load_bytes(
+    data: bytes,
+    filename: str,
+    *,
+    sheet: str | None = None,
+    time: str | None = None,
+    value: str | Sequence[str] | None = None,
+    series: str | None = None,
+    time_unit: str | None = None,
+    average_duplicates: bool = False,
+    max_bytes: int = DEFAULT_MAX_BYTES,
+) -> ImportResult:
+    """Read a file's bytes (an upload); ``filename`` picks the format and names it in messages."""
+    name = os.path.basename(filename) or "upload"
+    if time_unit is not None and time_unit not in TIME_UNITS:
+        raise ImportFailure(f"{name}: time unit must be one of {', '.join(TIME_UNITS)}; got {time_unit!r}")
+    _check_size(len(data), name, max_bytes)
+    kind = detect_format(data, name)
+    if kind == "xlsx":
+        table = read_xlsx_table(data, name, sheet, max_unpacked=max(10 * max_bytes, 50_000_000))
+    else:
+        text, encoding, notes = decode_text(data, name)
+        if not text.strip():
+            raise ImportFailure(f"{name}: the file holds no text (only blanks)")
+        table = read_text_table(text, name, encoding)
+        table.notes[:0] = notes
+        if sheet is not None:
+            table.notes.append(f"--sheet {sheet!r} ignored: a text file has no sheets")
+    builder = _Builder(table, name, average_duplicates)
+    return builder.build(
+        sha256=hashlib.sha256(data).hexdigest(), size=len(data), time=time, value=value,
+        series=series, time_unit=time_unit,
+    )
+
+
+def _check_size(size: int, name: str, max_bytes: int) -> None:
+    if size == 0:
+        raise ImportFailure(f"{name}: the file is empty")
+    if size > max_bytes:
+        raise ImportFailure(
+            f"{name}: the file is {size:,} bytes, over the limit of {max_bytes:,} bytes; "
+            "split it or raise the limit"
+        )
+
+
+@dataclass
+class _Point:
+    row: int
+    t: float
+    p: float
+
+
+class _Builder:
+    """Turns a table of cells into series, collecting everything the report must say."""
+
+    def __init__(self, table: Table, name: str, average_duplicates: bool) -> None:
+        self.table = table
+        self.name = name
+        self.average = average_duplicates
+        self.left_out: list[LeftOut] = []
+        self.notes: list[str] = list(table.notes)
+
+    def build(
+        self,
+        *,
+        sha256: str,
+        size: int,
+        time: str | None,
+        value: str | Sequence[str] | None,
+        series: str | None,
+        time_unit: str | None,
+    ) -> ImportResult:
+        t = self.table
+        strings = [c for r in t.rows[:5000] for c in r if isinstance(c, str)]
+        fmt = detect_number_format(strings, t.delimiter if t.format == "csv" else None)
+        fmt = NumberFormat(fmt.decimal, thousands_separator(strings, fmt))
+        if fmt.decimal == ",":
+            self.notes.append("decimal comma: numbers such as 1,25 read as 1.25")
+        if fmt.thousands:
+            sep = {" ": "space", "\u00a0": "no-break space", "\u202f": "narrow space"}.get(fmt.thousands, repr(fmt.thousands))
+            self.notes.append(f"thousands separator {sep} in numbers such as 1{fmt.thousands}250")
+        guess = find_header(t.rows, fmt)
+        if guess is None:
+            raise ImportFailure(
+                f"{self.name}: no rows of data found (a data row has numbers, clock times or dates "
+                "in at least two cells)"
+            )
+        header_row = t.row_numbers[guess.header] if guess.header is not None else None
+        first = guess.header if guess.header is not None else guess.data_start
+        skipped_above = [t.row_numbers[i] for i in range(first) if any(c is not None for c in t.rows[i])]
+        if skipped_above:
+            self.notes.append(f"{len(skipped_above)} line(s) above the header skipped (rows {_ranges(skipped_above)})")
+        if guess.header is None:
+            self.notes.append("no header row found: columns are named by position (column 1, column 2, ...)")
+        if guess.units is not None:
+            self.notes.append(f"row {t.row_numbers[guess.units]} read as the units of the columns")
+        columns, col_notes = make_columns(t.rows, guess, t.width)
+        self.notes.extend(col_notes)
+        data_idx = [i for i in range(guess.data_start, len(t.rows))]
+        blank_rows = [t.row_numbers[i] for i in data_idx if all(c is None for c in t.rows[i])]
+        data_idx = [i for i in data_idx if any(c is not None for c in t.rows[i])]
+        if blank_rows:
+            self.notes.append(f"{len(blank_rows)} blank row(s) skipped (rows {_ranges(blank_rows)})")
+        rows = [t.rows[i] for i in data_idx]
+        rownums = [t.row_numbers[i] for i in data_idx]
+        profiles = profile_columns(columns, rows, fmt)
+        layout = choose_layout(profiles, self.name, time=time, value=value, series=series)
+        self.notes.extend(layout.notes)
+
+        tcol = layout.time
+        tcells = [_cell(r, tcol.index) for r in rows]
+        conv = convert_time_column(
+            tcells, rownums, fmt, column=tcol.label, header_unit=tcol.unit or None, time_unit=time_unit
+        )
+        self.notes.extend(conv.notes)
+        bad_time_rows: set[int] = set()
+        for i, (tv, why) in enumerate(zip(conv.values, conv.reasons)):
+            if tv is None:
+                bad_time_rows.add(i)
+                self._leave_out(rownums[i], tcol, tcells[i], why, data_idx[i])
+
+        groups: list[tuple[str, Column, list[_Point]]] = []
+        if layout.series is not None:
+            scol = layout.series
+            vcol = layout.values[0]
+            by_id: dict[str, list[_Point]] = {}
+            for i, r in enumerate(rows):
+                if i in bad_time_rows:
+                    continue
+                sid = _cell(r, scol.index)
+                if sid is None or is_missing(str(sid)):
+                    self._leave_out(rownums[i], scol, sid, "blank series name", data_idx[i])
+                    continue
+                key = _label(sid)
+                pv = self._value(r, i, vcol, fmt, rownums, data_idx)
+                if pv is not None:
+                    by_id.setdefault(key, []).append(_Point(rownums[i], conv.values[i], pv))  # type: ignore[arg-type]
+                else:
+                    by_id.setdefault(key, [])
+            groups = [(k, vcol, pts) for k, pts in by_id.items()]
+        else:
+            for vcol in layout.values:
+                pts = []
+                for i, r in enumerate(rows):
+                    if i in bad_time_rows:
+                        continue
+                    pv = self._value(r, i, vcol, fmt, rownums, data_idx)
+                    if pv is not None:
+                        pts.append(_Point(rownums[i], conv.values[i], pv))  # type: ignore[arg-type]
+                groups.append((vcol.name, vcol, pts))
+
+        out_series: list[Series] = []
+        summaries: list[SeriesSummary] = []
+        for sname, vcol, pts in groups:
+            made = self._series(sname, vcol, tcol, conv.unit, pts)
+            if made is not None:
+                out_series.append(made[0])
+                summaries.append(made[1])
+        if not out_series:
+            counts = ", ".join(f"{g[0]!r}: {len(g[2])}" for g in groups[:5])
+            first_bad = next((x for x in self.left_out if x.reason), None)
+            why = f"; first left out: row {first_bad.row}, column {first_bad.column!r}: {first_bad.reason}" if first_bad else ""
+            raise ImportFailure(
+                f"{self.name}: too few usable points for any fit (at least {MIN_POINTS} needed; "
+                f"usable {counts}){why}"
+            )
+        report = ImportReport(
+            source=self.name,
+            sha256=sha256,
+            size_bytes=size,
+            format=t.format,
+            encoding=t.encoding,
+            delimiter=t.delimiter,
+            decimal=fmt.decimal,
+            thousands=fmt.thousands,
+            sheet=t.sheet,
+            header_row=header_row,
+            layout=layout.layout,
+            rows_read=len(rows),
+            series=tuple(summaries),
+            left_out=tuple(self.left_out),
+            notes=tuple(self.notes),
+        )
+        return ImportResult(series=tuple(out_series), report=report)
+
+    def _leave_out(self, row: int, col: Column, cell: object, reason: str, index: int) -> None:
+        if cell is None and self.table.formula_at is not None:
+            formula = self.table.formula_at(self.table.row_numbers[index], col.index)
+            if formula is not None:
+                reason = (
+                    f"formula {formula} has no saved result (the workbook was written by a program "
+                    "that does not calculate; open and save it in a spreadsheet program)"
+                )
+        self.left_out.append(LeftOut(row, col.label, "" if cell is None else _label(cell), reason))
+
+    def _value(
+        self, r: Sequence[object], i: int, col: Column, fmt: NumberFormat, rownums: Sequence[int], data_idx: Sequence[int]
+    ) -> float | None:
+        cell = _cell(r, col.index)
+        if cell is None:
+            self._leave_out(rownums[i], col, cell, "blank value", data_idx[i])
+            return None
+        if isinstance(cell, bool):
+            self._leave_out(rownums[i], col, cell, "not a number", data_idx[i])
+            return None
+        if isinstance(cell, (int, float)):
+            x = float(cell)
+        else:
+            text = str(cell)
+            if is_missing(text):
+                self._leave_out(rownums[i], col, cell, "missing-value mark", data_idx[i])
+                return None
+            if text.startswith("#") and text.endswith(("!", "?", "A")):
+                self._leave_out(rownums[i], col, cell, "spreadsheet error value", data_idx[i])
+                return None
+            parsed = parse_number(text, fmt)
+            if parsed is None:
+                self._leave_out(rownums[i], col, cell, "not a number", data_idx[i])
+                return None
+            x = parsed
+        if not np.isfinite(x):
+            self._leave_out(rownums[i], col, cell, "not a finite number", data_idx[i])
+            return None
+        return x
+
+    def _series(
+        self, sname: str, vcol: Column, tcol: Column, unit: str, pts: list[_Point]
+    ) -> tuple[Series, SeriesSummary] | None:
+        order = sorted(range(len(pts)), key=lambda k: (pts[k].t, k))
+        if order != list(range(len(pts))):
+            k = next(j for j in range(1, len(pts)) if pts[j].t < pts[j - 1].t)
+            self.notes.append(
+                f"series {sname!r}: times not in order (row {pts[k].row} has t = {pts[k].t:g} after "
+                f"t = {pts[k - 1].t:g}): sorted by time"
+            )
+            pts = [pts[j] for j in order]
+        merged: list[_Point] = []
+        averaged: list[tuple[int, float, int]] = []
+        j = 0
+        while j < len(pts):
+            k = j
+            while k + 1 < len(pts) and pts[k + 1].t == pts[j].t:
+                k += 1
+            group = pts[j : k + 1]
+            if len(group) > 1 and self.average:
+                mean = float(np.mean([g.p for g in group]))
+                merged.append(_Point(group[0].row, group[0].t, mean))
+                averaged.append((group[0].row, group[0].t, len(group)))
+                self.notes.append(
+                    f"series {sname!r}: {len(group)} values at t = {group[0].t:g} (rows "
+                    f"{', '.join(str(g.row) for g in group)}) averaged into one point"
+                )
+            else:
+                merged.append(group[0])
+                for g in group[1:]:
+                    self.left_out.append(
+                        LeftOut(
+                            g.row, vcol.label, _num(g.p),
+                            f"duplicate time t = {g.t:g} in series {sname!r} (first at row {group[0].row}); "
+                            "ask for averaging to combine repeated values",
+                        )
+                    )
+                if len(group) > 1:
+                    self.notes.append(
+                        f"series {sname!r}: {len(group)} values at t = {group[0].t:g} (rows "
+                        f"{', '.join(str(g.row) for g in group)}): the first kept"
+                    )
+            j = k + 1
+        if len(merged) < MIN_POINTS:
+            for g in merged:
+                self.left_out.append(
+                    LeftOut(g.row, vcol.label, _num(g.p),
+                            f"series {sname!r} has only {len(merged)} usable point(s); at least {MIN_POINTS} are needed")
+                )
+            self.notes.append(f"series {sname!r} not read: only {len(merged)} usable point(s)")
+            return None
+        nonpos = tuple((g.row, g.t, g.p) for g in merged if g.p <= 0)
+        if nonpos:
+            self.notes.append(
+                f"series {sname!r}: {len(nonpos)} value(s) <= 0 kept (rows {_ranges([n[0] for n in nonpos])}); "
+                "terms with ln need p > 0"
+            )
+        s = Series(
+            t=np.array([g.t for g in merged]),
+            p=np.array([g.p for g in merged]),
+            name=sname,
+            time_unit=unit,
+            value_unit=vcol.unit,
+            time_column=tcol.label,
+            value_column=vcol.label,
+            rows=tuple(g.row for g in merged),
+        )
+        summary = SeriesSummary(sname, tcol.label, unit, vcol.label, vcol.unit, len(merged), nonpos, tuple(averaged))
+        return s, summary
+
+
+def _cell(row: Sequence[object], j: int) -> object:
+    return row[j] if j < len(row) else None
+
+
+def _label(value: object) -> str:
+    if isinstance(value, float) and value.is_integer():
+        return str(int(value))
+    return str(value).strip() if not hasattr(value, "isoformat") else value.isoformat()  # type: ignore[union-attr]
+
+
+def _num(x: float) -> str:
+    return f"{x:g}"
+
+
+def _ranges(rows: Sequence[int]) -> str:
+    """``[3, 4, 5, 9]`` -> ``3-5, 9`` (first 10 runs)."""
+    runs: list[str] = []
+    start = prev = None
+    for r in rows:
+        if start is None:
+            start = prev = r
+        elif r == prev + 1:  # type: ignore[operator]
+            prev = r
+        else:
+            runs.append(f"{start}-{prev}" if prev != start else f"{start}")
+            start = prev = r
+    if start is not None:
+        runs.append(f"{start}-{prev}" if prev != start else f"{start}")
+    return ", ".join(runs[:10]) + (" ..." if len(runs) > 10 else "")
+
+
+__all__ = ["load_file", "load_bytes", "MIN_POINTS", "UNIT_SECONDS"]

@@ -1,0 +1,102 @@
+"""Numbers as people type them: decimal point or comma, optional thousands separators."""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from typing import Iterable
+
+#: Cell texts that mean "no value here"; they are reported as blanks, not as bad numbers.
+MISSING_MARKS = frozenset(
+    {"", "na", "n/a", "nan", "null", "none", "-", "--", "\u2014", "#n/a", "missing", "nd", "n.d."}
+)
+
+_EXP = r"(?:[eE][+-]?\d+)?"
+_PLAIN = {
+    ".": re.compile(rf"[+-]?(?:\d+(?:\.\d*)?|\.\d+){_EXP}"),
+    ",": re.compile(rf"[+-]?(?:\d+(?:,\d*)?|,\d+){_EXP}"),
+}
+# Grouped digits must use one separator throughout and groups of exactly three digits.
+_GROUPED = {
+    ".": re.compile(r"[+-]?\d{1,3}(?P<sep>[,'\u00a0\u202f ])\d{3}(?:(?P=sep)\d{3})*(?:\.\d*)?"),
+    ",": re.compile(r"[+-]?\d{1,3}(?P<sep>[.'\u00a0\u202f ])\d{3}(?:(?P=sep)\d{3})*(?:,\d*)?"),
+}
+_STRONG_COMMA = re.compile(r"[+-]?\d*,\d+(?:[eE][+-]?\d+)?|[+-]?\d{1,3}(?:\.\d{3})+,\d*")
+_STRONG_POINT = re.compile(r"[+-]?\d*\.\d+(?:[eE][+-]?\d+)?|[+-]?\d{1,3}(?:,\d{3})+\.\d*")
+_AMBIGUOUS_COMMA = re.compile(r"[+-]?\d{1,3}(?:,\d{3})+")
+_AMBIGUOUS_POINT = re.compile(r"[+-]?\d{1,3}(?:\.\d{3})+")
+
+
+@dataclass(frozen=True)
+class NumberFormat:
+    """The decimal mark of a file and whether grouped thousands were seen (for the report)."""
+
+    decimal: str = "."
+    thousands: str | None = None
+
+
+def is_missing(text: str) -> bool:
+    """True when a cell's text is empty or a common missing-value mark such as ``NA``."""
+    return text.strip().lower() in MISSING_MARKS
+
+
+def parse_number(text: str, fmt: NumberFormat) -> float | None:
+    """The number written in ``text`` under ``fmt``, or None when it is not a plain finite number."""
+    s = text.strip()
+    if not s or len(s) > 64:
+        return None
+    dec = fmt.decimal
+    if _PLAIN[dec].fullmatch(s):
+        return _finite(s.replace(",", ".") if dec == "," else s)
+    m = _GROUPED[dec].fullmatch(s)
+    if m:
+        body = s.replace(m.group("sep"), "")
+        return _finite(body.replace(",", ".") if dec == "," else body)
+    return None
+
+
+def _finite(s: str) -> float | None:
+    try:
+        x = float(s)
+    except ValueError:
+        return None
+    return x if x == x and abs(x) != float("inf") else None
+
+
+def detect_number_format(texts: Iterable[str], delimiter: str | None) -> NumberFormat:
+    """Decide the decimal mark from the cells' own evidence.
+
+    ``1,25`` or ``1.234,5`` count for a comma, ``1.25`` or ``1,234.5`` for a point. Cells such as
+    ``1,250`` are ambiguous; they tip the balance to a comma only in files not delimited by commas
+    and only when nothing else decides (``1.250`` alone keeps the point, the more common reading).
+    """
+    comma = point = ambiguous = 0
+    for raw in texts:
+        s = raw.strip()
+        if not s or len(s) > 64:
+            continue
+        if _AMBIGUOUS_COMMA.fullmatch(s):
+            ambiguous += 1
+        elif _AMBIGUOUS_POINT.fullmatch(s):
+            continue
+        elif _STRONG_COMMA.fullmatch(s):
+            comma += 1
+        elif _STRONG_POINT.fullmatch(s):
+            point += 1
+    if comma > point or (comma == point == 0 and ambiguous and delimiter not in (",", None)):
+        decimal = ","
+    else:
+        decimal = "."
+    return NumberFormat(decimal=decimal, thousands=None)
+
+
+def thousands_separator(texts: Iterable[str], fmt: NumberFormat) -> str | None:
+    """The thousands separator used by the first grouped number, if any cell has one."""
+    for raw in texts:
+        s = raw.strip()
+        if _PLAIN[fmt.decimal].fullmatch(s):
+            continue
+        m = _GROUPED[fmt.decimal].fullmatch(s)
+        if m:
+            return m.group("sep")
+    return None

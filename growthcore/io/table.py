@@ -1,0 +1,28 @@
+"""The grid of cells that every reader produces, with the row numbers the user sees."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Callable
+
+
+@dataclass
+class Table:
+    """Cells row by row, each row with its 1-based row number in the source.
+
+    ``formula_at(row, col)`` gives the formula behind a blank workbook cell, when it has one
+    (a formula whose result was never saved), so that the report can say so.
+    """
+
+    rows: list[list[object]]
+    row_numbers: list[int]
+    format: str
+    encoding: str | None = None
+    delimiter: str | None = None
+    sheet: str | None = None
+    notes: list[str] = field(default_factory=list)
+    formula_at: Callable[[int, int], str | None] | None = None
+
+    @property
+    def width(self) -> int:
+        return max((len(r) for r in self.rows), default=0)
