@@ -14,6 +14,7 @@ from growthcore.errors import GrowthcoreInputError
 COMMAND_MODULES = (
     "growthcore.cli.models_cmd",
     "growthcore.cli.fit_cmd",
+    "growthcore.cli.inspect_cmd",
 )
 
 

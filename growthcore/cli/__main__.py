@@ -1,0 +1,5 @@
+import sys
+
+from growthcore.cli import main
+
+sys.exit(main())

@@ -1,0 +1,112 @@
+"""``growthcore fit``: fit one or more forms to a spreadsheet series and write the fit record."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from typing import Sequence
+
+from growthcore.compare import compare, comparison_notes
+from growthcore.data import Series
+from growthcore.errors import GrowthcoreInputError
+from growthcore.fit import ERROR_MODELS, FitResult, fit
+from growthcore.io import load_file
+from growthcore.record import DataSource, build_record
+
+METHOD_CHOICES = ("increments", "trajectory", "both")
+
+
+def add_data_options(p: argparse.ArgumentParser) -> None:
+    """The file and column options that every command reading a spreadsheet shares."""
+    p.add_argument("file", help="CSV, TSV or XLSX file")
+    p.add_argument("--sheet", help="worksheet name (XLSX; default: the first with data)")
+    p.add_argument("--time", help="time column (default: guessed)")
+    p.add_argument("--value", help="value column (default: guessed)")
+    p.add_argument("--series", help="series id column (long layout) or the series to use")
+    p.add_argument("--time-unit", choices=("min", "h", "d", "yr"), help="unit for clock and calendar times")
+
+
+def register(subparsers: argparse._SubParsersAction) -> None:
+    p = subparsers.add_parser("fit", help="fit model forms to a series and write the fit record")
+    add_data_options(p)
+    p.add_argument("--model", default="logistic", help="form id(s), comma separated (see `growthcore models`)")
+    p.add_argument("--term", action="append", default=[], metavar="EXPR", help="a rate term of the custom form (repeatable)")
+    p.add_argument("--method", choices=METHOD_CHOICES, default="trajectory")
+    p.add_argument("--capacity", type=float, metavar="K", help="fix the carrying capacity K at this estimate")
+    p.add_argument("--error", choices=ERROR_MODELS, default="additive", help="error model of the trajectory method")
+    p.add_argument("--no-profile", action="store_true", help="skip the profile interval for K")
+    p.add_argument("--out", default="-", metavar="PATH", help="where to write the record JSON ('-' for standard output)")
+    p.set_defaults(func=run)
+
+
+def pick_series(found: Sequence[Series], wanted: str | None, source: str) -> Series:
+    if wanted:
+        for s in found:
+            if s.name == wanted:
+                return s
+    if wanted and len(found) > 1 and not any(s.name == wanted for s in found):
+        names = ", ".join(s.name for s in found)
+        raise GrowthcoreInputError(f"{source}: no series named {wanted!r}; found {names}")
+    return found[0]
+
+
+def run_fits(series: Series, models: Sequence[str], methods: Sequence[str], *, error: str,
+             capacity: float | None, terms: Sequence[str], profile: bool) -> list[FitResult]:
+    out = []
+    for model in models:
+        for method in methods:
+            if method == "increments" and len(methods) > 1 and model.endswith("-curve"):
+                continue  # "both" means each method that applies; curves have no increments fit
+            out.append(fit(series, model, method=method, error=error, capacity=capacity, terms=terms, profile=profile))
+    return out
+
+
+def summary_lines(fits: Sequence[FitResult]) -> list[str]:
+    lines = []
+    for row in compare(fits):
+        head = f"{row.model} ({row.method}, {row.error}): {row.status}"
+        if row.status != "converged":
+            lines.append(f"{head}: {row.message}")
+            continue
+        params = ", ".join(
+            f"{n} = {d['value']:.6g}" + (f" ± {d['se']:.2g}" if d["se"] is not None else " (fixed)" if d["fixed"] else "")
+            for n, d in row.parameters.items()
+        )
+        extra = f"; ΔAICc = {row.delta_aicc:.2f}" if row.delta_aicc is not None else ""
+        r2 = f"{row.r2:.4f}" if row.r2 is not None else "n/a"
+        lines.append(f"{head}{' [best by AICc]' if row.best else ''}\n    {params}\n    R² = {r2}, RMSE = {row.rmse:.4g}{extra}")
+        for w in row.warnings:
+            lines.append(f"    note: {w}")
+    return lines
+
+
+def run(args: argparse.Namespace) -> int:
+    imported = load_file(args.file, sheet=args.sheet, time=args.time, value=args.value,
+                         series=args.series, time_unit=args.time_unit)
+    series = pick_series(imported.series, args.series, args.file)
+    models = [m.strip() for m in args.model.split(",") if m.strip()]
+    methods = ("increments", "trajectory") if args.method == "both" else (args.method,)
+    fits = run_fits(series, models, methods, error=args.error, capacity=args.capacity, terms=args.term,
+                    profile=not args.no_profile)
+    report = imported.report.to_dict()
+    record = build_record(
+        series, fits,
+        source=DataSource(report.get("source", args.file), report.get("sha256", ""), report),
+        settings={"models": models, "methods": list(methods), "error": args.error, "capacity": args.capacity,
+                  "terms": list(args.term), "profile": not args.no_profile},
+    )
+    record["comparison"] = {"rows": [r.to_dict() for r in compare(fits)], "notes": comparison_notes(fits)}
+    text = json.dumps(record, indent=2, allow_nan=False)
+    if args.out == "-":
+        sys.stdout.write(text + "\n")
+        for line in summary_lines(fits):
+            print(line, file=sys.stderr)
+    else:
+        with open(args.out, "w", encoding="utf-8") as fh:
+            fh.write(text + "\n")
+        print(f"{series.name}: {int(series.used.sum())} points used of {len(series)}; {series.step().message}")
+        for line in summary_lines(fits):
+            print(line)
+        print(f"record written to {args.out}")
+    return 0 if any(f.success for f in fits) else 1

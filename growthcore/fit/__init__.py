@@ -1,0 +1,97 @@
+"""Fitting: the increments and trajectory methods behind one entry point, :func:`fit`."""
+
+from __future__ import annotations
+
+from dataclasses import replace
+from typing import Mapping, Sequence
+
+from growthcore.data import Series
+from growthcore.errors import GrowthcoreInputError
+from growthcore.fit.increments import fit_increments
+from growthcore.fit.profile import capacity_profile
+from growthcore.fit.result import ERROR_MODELS, METHODS, CapacityProfile, FitResult, ParameterEstimate, failed
+from growthcore.fit.trajectory import fit_trajectory
+from growthcore.models.base import ModelForm
+from growthcore.models.catalogue import get_form
+
+__all__ = ["fit", "FitResult", "ParameterEstimate", "CapacityProfile", "METHODS", "ERROR_MODELS"]
+
+
+def fit(
+    series: Series,
+    model: str | ModelForm,
+    *,
+    method: str = "trajectory",
+    error: str = "additive",
+    capacity: float | None = None,
+    fixed: Mapping[str, float] | None = None,
+    start: Mapping[str, float] | None = None,
+    terms: Sequence[str] = (),
+    profile: bool = True,
+) -> FitResult:
+    """Fit one model form to a series.
+
+    Parameters
+    ----------
+    series : the data; excluded points are left out.
+    model : a form id from the catalogue (``logistic``, ``ricker+c``, ``logistic-curve``, ``custom``...)
+        or a form object.
+    method : ``increments`` (regression of the change per step) or ``trajectory`` (the whole path).
+    error : ``additive`` or ``log`` (multiplicative); the increments method uses additive error.
+    capacity : fix K at this estimate; otherwise K is fitted (and profiled when ``profile``).
+    fixed : other constants held at given values (``p0`` included).
+    start : starting values for the trajectory method; by default they come from the data.
+    terms : the rate terms of the ``custom`` form.
+
+    Returns
+    -------
+    FitResult whose ``status`` is ``converged`` or ``failed`` with a message; input that makes the
+    numbers overflow or degenerate gives a failed result, not an exception. Only arguments outside
+    their choices (an unknown method or model id, a bad term) raise ``GrowthcoreInputError``.
+    """
+    if method not in METHODS:
+        raise GrowthcoreInputError(f"`method` must be one of {', '.join(METHODS)}; got {method!r}")
+    if error not in ERROR_MODELS:
+        raise GrowthcoreInputError(f"`error` must be one of {', '.join(ERROR_MODELS)}; got {error!r}")
+    form = get_form(model, terms=terms) if isinstance(model, str) else model
+    model_id = form.id
+    fixed_all = {k: float(v) for k, v in (fixed or {}).items()}
+    if capacity is not None:
+        if "K" not in form.param_names:
+            raise GrowthcoreInputError(f"{model_id} has no carrying capacity K to fix")
+        fixed_all["K"] = float(capacity)
+    allowed = set(form.param_names) | ({"p0"} if form.kind == "difference" and method == "trajectory" else set())
+    unknown = sorted(set(fixed_all) - allowed)
+    if unknown:
+        raise GrowthcoreInputError(f"{model_id} ({method}) has no constant {', '.join(unknown)} to fix; it has {', '.join(sorted(allowed))}")
+    start = dict(start or {})
+    terms_t = tuple(terms) if model_id == "custom" else ()
+    notes: list[str] = []
+    if form.kind == "curve" and method == "increments":
+        return failed(model_id, method, error,
+                      f"{model_id} is a closed-form curve: fit it with the trajectory method", form=form)
+    if method == "increments" and error == "log":
+        notes.append("the increments method regresses the change itself: additive error is used")
+        error = "additive"
+
+    def run(fixed_now: Mapping[str, float], start_now: Mapping[str, float]) -> FitResult:
+        if method == "increments":
+            assert form.kind == "difference"
+            return fit_increments(series, form, model=model_id, fixed=fixed_now, start=start_now, terms=terms_t)
+        return fit_trajectory(series, form, model=model_id, error=error, fixed=fixed_now, start=start_now, terms=terms_t)
+
+    if len(series.used.nonzero()[0]) < 3:
+        return failed(model_id, method, error, f"only {int(series.used.sum())} usable points: a fit needs at least 3", form=form)
+    try:
+        result = run(fixed_all, start)
+        if profile and result.success and "K" in result.values and "K" not in fixed_all:
+            prof = capacity_profile(result, lambda k, s: run({**fixed_all, "K": k}, s))
+            if prof is not None:
+                result = replace(result, profile=prof)
+    except (FloatingPointError, OverflowError, ZeroDivisionError, ValueError, ArithmeticError) as exc:
+        if isinstance(exc, GrowthcoreInputError):
+            raise
+        return failed(model_id, method, error, f"numerical failure: {exc}", form=form)
+    if notes:
+        result = replace(result, notes=(*notes, *result.notes))
+    return result

@@ -1,0 +1,159 @@
+"""A fitting problem (free and fixed constants, bounds, residuals) and how a solution becomes a result."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+from typing import Callable, Mapping
+
+import numpy as np
+
+from growthcore.fit.nls import jacobian
+from growthcore.fit.result import FitResult, Grid, ParameterEstimate
+from growthcore.models.base import ModelForm, ParamSpec
+from growthcore.stats import correlation, covariance_from_jacobian, fit_metrics, residual_diagnostics, t_quantile
+
+Array = np.ndarray
+P0_DIFFERENCE = ParamSpec("p0", 0.0, math.inf, "state at the first time of the grid", "state")
+
+
+@dataclass(frozen=True)
+class Problem:
+    """Everything a solver needs: which constants vary, their bounds, and the residual function.
+
+    ``predict`` maps a (k, m) array of free-parameter columns to (n, m) predicted states at the
+    fitted points; residuals are observed minus predicted on the error scale (identity or log).
+    """
+
+    model: str
+    method: str
+    error: str
+    form: ModelForm
+    specs: tuple[ParamSpec, ...]
+    free: tuple[str, ...]
+    fixed: Mapping[str, float]
+    predict: Callable[[Array], Array]
+    t: Array
+    observed: Array
+    grid: Grid | None = None
+    terms: tuple[str, ...] = ()
+    settings: Mapping[str, object] | None = None
+
+    @property
+    def lower(self) -> Array:
+        return np.array([self.spec(n).lower for n in self.free])
+
+    @property
+    def upper(self) -> Array:
+        return np.array([self.spec(n).upper for n in self.free])
+
+    def spec(self, name: str) -> ParamSpec:
+        for s in self.specs:
+            if s.name == name:
+                return s
+        raise KeyError(name)
+
+    def values(self, cols: Array) -> dict[str, Array | float]:
+        out: dict[str, Array | float] = dict(self.fixed)
+        for i, name in enumerate(self.free):
+            out[name] = cols[i]
+        return out
+
+    def scaled(self, states: Array) -> Array:
+        if self.error == "log":
+            with np.errstate(all="ignore"):
+                return np.log(states)
+        return states
+
+    def residuals(self, cols: Array) -> Array:
+        return self.scaled(self.observed)[:, None] - self.scaled(self.predict(cols))
+
+    @property
+    def scale(self) -> float:
+        return float(np.max(np.abs(self.scaled(self.observed)))) or 1.0
+
+
+def build_result(
+    problem: Problem,
+    x: Array,
+    *,
+    message: str,
+    jac: Array | None = None,
+    notes: tuple[str, ...] = (),
+    r2_uncentered: float | None = None,
+    t_residual: Array | None = None,
+) -> FitResult:
+    """Standard errors from the Jacobian at ``x``, t-based intervals, metrics and diagnostics."""
+    x = np.asarray(x, dtype=float)
+    k = x.size
+    with np.errstate(all="ignore"):
+        predicted = problem.predict(x[:, None])[:, 0]
+        residuals = problem.scaled(problem.observed) - problem.scaled(predicted)
+        if jac is None:
+            jac = -jacobian(problem.residuals, x, central=True) if k else np.zeros((residuals.size, 0))
+    n = residuals.size
+    sse = float(residuals @ residuals)
+    dof = n - k
+    cov = covariance_from_jacobian(jac, sse, dof) if k else np.zeros((0, 0))
+    tq = t_quantile(0.975, dof) if dof > 0 else math.nan
+    notes_out = list(notes)
+    estimates = []
+    free_index = {name: i for i, name in enumerate(problem.free)}
+    for spec in problem.specs:
+        if spec.name in free_index:
+            i = free_index[spec.name]
+            value = float(x[i])
+            se = math.sqrt(cov[i, i]) if math.isfinite(cov[i, i]) and cov[i, i] >= 0 else math.nan
+            ci = (value - tq * se, value + tq * se) if math.isfinite(se) and math.isfinite(tq) else None
+            at_bound = _at_bound(value, spec)
+            if at_bound:
+                notes_out.append(f"{spec.name} = {value:.6g} is at its bound; its standard error is not reliable")
+            estimates.append(
+                ParameterEstimate(spec.name, value, se if math.isfinite(se) else None, ci, False, at_bound,
+                                  spec.description, spec.unit)
+            )
+        else:
+            estimates.append(
+                ParameterEstimate(spec.name, float(problem.fixed[spec.name]), None, None, True, False,
+                                  spec.description, spec.unit)
+            )
+    if k and not np.all(np.isfinite(cov)):
+        notes_out.append("the Jacobian is singular at the optimum: the constants are not separately identifiable")
+    elif k:
+        sv = np.linalg.svd(jac, compute_uv=False)
+        if sv[-1] > 0 and sv[0] / sv[-1] > 1e10:
+            notes_out.append(f"ill-conditioned fit (condition number {sv[0] / sv[-1]:.2g}): standard errors are fragile")
+    if dof <= 0:
+        notes_out.append("no residual degrees of freedom: no standard errors")
+    metrics = fit_metrics(residuals, problem.observed, predicted, k, r2_uncentered=r2_uncentered)
+    corr = correlation(cov) if k and np.all(np.isfinite(cov)) else None
+    settings = dict(problem.settings or {})
+    return FitResult(
+        model=problem.model,
+        method=problem.method,
+        error=problem.error,
+        status="converged",
+        message=message,
+        form=problem.form,
+        parameters=tuple(estimates),
+        metrics=metrics,
+        diagnostics=residual_diagnostics(residuals),
+        t=problem.t if t_residual is None else t_residual,
+        observed=problem.observed,
+        predicted=predicted,
+        residuals=residuals,
+        correlation=corr,
+        notes=tuple(notes_out),
+        grid=problem.grid,
+        terms=problem.terms,
+        settings=settings,
+    )
+
+
+def _at_bound(value: float, spec: ParamSpec) -> bool:
+    scale = max(abs(value), 1e-12)
+    return any(math.isfinite(b) and abs(value - b) <= 1e-7 * max(scale, abs(b)) for b in (spec.lower, spec.upper))
+
+
+def with_notes(result: FitResult, *notes: str) -> FitResult:
+    return replace(result, notes=(*result.notes, *notes))

@@ -1,0 +1,205 @@
+"""The fitted result: parameters with uncertainty, metrics, diagnostics, residuals and predictions."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from functools import cached_property
+from typing import Any, Literal, Mapping
+
+import numpy as np
+
+from growthcore.errors import GrowthcoreInputError
+from growthcore.fit.simulate import iterate
+from growthcore.models.base import ModelForm
+from growthcore.stats import Diagnostics, Metrics
+
+Array = np.ndarray
+Method = Literal["increments", "trajectory"]
+ErrorModel = Literal["additive", "log"]
+METHODS: tuple[str, ...] = ("increments", "trajectory")
+ERROR_MODELS: tuple[str, ...] = ("additive", "log")
+
+
+def _num(x: float | None) -> float | None:
+    return float(x) if x is not None and math.isfinite(x) else None
+
+
+@dataclass(frozen=True)
+class ParameterEstimate:
+    """One constant: its value, standard error and t-based 95% interval (None when not estimable)."""
+
+    name: str
+    value: float
+    se: float | None = None
+    ci95: tuple[float, float] | None = None
+    fixed: bool = False
+    at_bound: bool = False
+    description: str = ""
+    unit: str = ""
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "value": _num(self.value),
+            "se": _num(self.se),
+            "ci95": [_num(self.ci95[0]), _num(self.ci95[1])] if self.ci95 else None,
+            "fixed": self.fixed,
+            "at_bound": self.at_bound,
+            "description": self.description,
+            "unit": self.unit,
+        }
+
+
+@dataclass(frozen=True)
+class CapacityProfile:
+    """SSE with K fixed at each grid value and the other constants refitted.
+
+    The interval is {K : SSE(K) ≤ threshold}, threshold = SSE_min·(1 + F(0.95; 1, n − q)/(n − q)).
+    """
+
+    k: Array
+    sse: Array
+    threshold: float
+    interval: tuple[float | None, float | None]
+    message: str = ""
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "K": [float(v) for v in self.k],
+            "sse": [_num(float(v)) for v in self.sse],
+            "threshold": _num(self.threshold),
+            "interval": [_num(self.interval[0]), _num(self.interval[1])],
+            "message": self.message,
+        }
+
+
+@dataclass(frozen=True)
+class Grid:
+    """The step grid of a difference form: t_n = t0 + n·h."""
+
+    t0: float
+    h: float
+
+
+@dataclass(frozen=True)
+class FitResult:
+    """What one fit of one form by one method found. ``status`` is ``converged`` or ``failed``."""
+
+    model: str
+    method: str
+    error: str
+    status: str
+    message: str
+    form: ModelForm | None = None
+    parameters: tuple[ParameterEstimate, ...] = ()
+    metrics: Metrics | None = None
+    diagnostics: Diagnostics | None = None
+    t: Array = field(default_factory=lambda: np.zeros(0))
+    observed: Array = field(default_factory=lambda: np.zeros(0))
+    predicted: Array = field(default_factory=lambda: np.zeros(0))
+    residuals: Array = field(default_factory=lambda: np.zeros(0))
+    correlation: Array | None = None
+    profile: CapacityProfile | None = None
+    notes: tuple[str, ...] = ()
+    grid: Grid | None = None
+    terms: tuple[str, ...] = ()
+    settings: Mapping[str, Any] = field(default_factory=dict)
+
+    @cached_property
+    def derived(self) -> dict[str, Any]:
+        """Growth factor, doubling time, inflection, maximum rate, lag and equilibria (computed once)."""
+        from growthcore.derived import derived_quantities  # derived builds on this module
+
+        return derived_quantities(self)
+
+    @property
+    def success(self) -> bool:
+        return self.status == "converged"
+
+    @property
+    def values(self) -> dict[str, float]:
+        return {p.name: p.value for p in self.parameters}
+
+    @property
+    def start_level(self) -> float:
+        """The state the fitted path starts from: p0 when fitted, else the first used observation."""
+        values = self.values
+        return float(values["p0"]) if "p0" in values else float(self.settings.get("p_first", math.nan))
+
+    def parameter(self, name: str) -> ParameterEstimate:
+        for p in self.parameters:
+            if p.name == name:
+                return p
+        raise KeyError(f"{self.model} has no parameter {name!r}; it has {', '.join(self.values)}")
+
+    def predict(self, t: Array | float) -> Array:
+        """The fitted path at times ``t``.
+
+        Curves are evaluated directly; a difference form is iterated from p0 on its grid, so ``t``
+        must fall on grid points t0 + n·h with n ≥ 0.
+        """
+        if not self.success or self.form is None:
+            raise GrowthcoreInputError(f"the {self.model} fit did not converge: nothing to predict")
+        t = np.asarray(t, dtype=float)
+        values = self.values
+        if self.form.kind == "curve":
+            with np.errstate(all="ignore"):
+                return np.asarray(self.form.value(t, values), dtype=float)
+        assert self.grid is not None
+        steps = (t - self.grid.t0) / self.grid.h
+        n = np.rint(steps)
+        if np.any(np.abs(steps - n) > 1e-6) or np.any(n < 0):
+            raise GrowthcoreInputError(
+                f"a difference form is defined on its grid only (t0 = {self.grid.t0:g}, h = {self.grid.h:g})"
+            )
+        n_int = n.astype(int)
+        path = iterate(self.form, self.start_level, values, int(n_int.max()) if n_int.size else 0)
+        return path[n_int]
+
+    def path(self, t_end: float, *, points: int = 200) -> tuple[Array, Array]:
+        """A smooth (curve) or stepwise (difference form) path from the first time to ``t_end``."""
+        if self.form is not None and self.form.kind == "difference" and self.grid is not None:
+            steps = max(int(math.floor((t_end - self.grid.t0) / self.grid.h + 1e-9)), 0)
+            t = self.grid.t0 + self.grid.h * np.arange(steps + 1)
+        else:
+            t0 = float(self.settings.get("t_first", 0.0))
+            t = np.linspace(min(0.0, t0), t_end, points)
+        return t, self.predict(t)
+
+    def to_dict(self) -> dict[str, Any]:
+        """The fit as plain JSON-ready data, for the record."""
+        out: dict[str, Any] = {
+            "model": self.model,
+            "method": self.method,
+            "error": self.error,
+            "status": self.status,
+            "message": self.message,
+            "equation": self.form.equation if self.form is not None else None,
+            "terms": list(self.terms),
+            "settings": dict(self.settings),
+            "parameters": {p.name: p.to_dict() for p in self.parameters},
+            "metrics": self.metrics.to_dict() if self.metrics else None,
+            "diagnostics": self.diagnostics.to_dict() if self.diagnostics else None,
+            "derived": dict(self.derived),
+            "notes": list(self.notes),
+            "residuals": [
+                {"t": float(t), "observed": float(o), "predicted": _num(float(p)), "residual": _num(float(r))}
+                for t, o, p, r in zip(self.t, self.observed, self.predicted, self.residuals)
+            ],
+        }
+        if self.correlation is not None:
+            free = [p.name for p in self.parameters if not p.fixed]
+            out["correlation"] = {
+                "parameters": free,
+                "matrix": [[_num(float(v)) for v in row] for row in self.correlation],
+            }
+        if self.profile is not None:
+            out["capacity_profile"] = self.profile.to_dict()
+        if self.grid is not None:
+            out["grid"] = {"t0": self.grid.t0, "h": self.grid.h}
+        return out
+
+
+def failed(model: str, method: str, error: str, message: str, **extra: Any) -> FitResult:
+    """A failed fit: the message says why, in words a user can act on."""
+    return FitResult(model=model, method=method, error=error, status="failed", message=message, **extra)

@@ -1,0 +1,75 @@
+"""Starting values from the data, so that no user guess is needed."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from growthcore.models.base import ModelForm
+
+Array = np.ndarray
+
+
+def capacity_guess(p: Array) -> float:
+    """K from the change per step: Δp/p ≈ a + b·p crosses zero at K = −a/b (logistic reasoning).
+
+    Falls back to 1.1 × the largest value when that line does not slope down.
+    """
+    fallback = 1.1 * float(np.max(p)) if p.size and np.max(p) > 0 else 1.0
+    if p.size < 3 or np.any(p[:-1] <= 0):
+        return fallback
+    x = p[:-1]
+    y = np.diff(p) / x
+    b, a = np.polyfit(x, y, 1)
+    if b < 0 and a > 0:
+        k = -a / b
+        if 0.5 * np.max(p) < k < 5.0 * np.max(p):
+            return float(k)
+    return fallback
+
+
+def curve_starts(form: ModelForm, t: Array, p: Array) -> list[dict[str, float]]:
+    """Candidate starts for a growth curve from linearisations of its closed form."""
+    pmax = float(np.max(p))
+    pos = p > 0
+    first = float(p[pos][0]) if np.any(pos) else max(pmax, 1.0) * 1e-2
+    out: list[dict[str, float]] = []
+    for k_factor in (1.05, 1.5, 3.0):
+        k0 = max(pmax, 1e-12) * k_factor
+        r0, p0 = _linearised(form.id, t, p, k0, first)
+        for r_factor in (1.0, 0.3, 3.0):
+            start = {"K": k0, "r": r0 * r_factor, "p0": p0, "nu": 1.0}
+            out.append({n: start[n] for n in form.param_names if n in start})
+    return out
+
+
+def _linearised(form_id: str, t: Array, p: Array, k0: float, first: float) -> tuple[float, float]:
+    """(r, p0) from a straight-line fit of the transformed states against t."""
+    with np.errstate(all="ignore"):
+        if form_id == "exponential-curve":
+            y = np.log(p)
+        elif form_id == "gompertz-curve":
+            y = np.log(np.log(k0 / p))
+        elif form_id == "monomolecular-curve":
+            y = np.log(k0 - p)
+        else:
+            y = np.log(k0 / p - 1.0)
+    ok = np.isfinite(y)
+    sign = 1.0 if form_id == "exponential-curve" else -1.0
+    if np.sum(ok) >= 2 and np.ptp(t[ok]) > 0:
+        slope, intercept = np.polyfit(t[ok], y[ok], 1)
+        r0 = sign * slope
+        with np.errstate(all="ignore"):
+            if form_id == "exponential-curve":
+                p0 = math.exp(intercept)
+            elif form_id == "gompertz-curve":
+                p0 = k0 * math.exp(-math.exp(intercept))
+            elif form_id == "monomolecular-curve":
+                p0 = k0 - math.exp(intercept)
+            else:
+                p0 = k0 / (1.0 + math.exp(intercept))
+        if math.isfinite(r0) and r0 > 0 and math.isfinite(p0) and p0 > 0:
+            return float(r0), float(p0)
+    span = float(np.ptp(t)) or 1.0
+    return 4.0 / span, first

@@ -1,0 +1,145 @@
+"""The trajectory method: nonlinear least squares on the whole path.
+
+Notes
+-----
+A difference form is iterated from p0 over the step grid and compared with the observations at
+their grid positions; a curve is evaluated at the observed times. Residuals are p − p̂ (additive
+error) or ln p − ln p̂ (log, i.e. multiplicative error).
+"""
+
+from __future__ import annotations
+
+from typing import Mapping
+
+import numpy as np
+
+from growthcore.data import Series
+from growthcore.fit.increments import fit_increments
+from growthcore.fit.nls import NLSOutcome, solve
+from growthcore.fit.problem import P0_DIFFERENCE, Problem, build_result
+from growthcore.fit.result import FitResult, Grid, failed
+from growthcore.fit.simulate import iterate
+from growthcore.fit.starts import capacity_guess, curve_starts
+from growthcore.models.base import CurveForm, DifferenceForm, ModelForm
+
+Array = np.ndarray
+
+
+def fit_trajectory(
+    series: Series,
+    form: ModelForm,
+    *,
+    model: str,
+    error: str,
+    fixed: Mapping[str, float],
+    start: Mapping[str, float],
+    terms: tuple[str, ...] = (),
+) -> FitResult:
+    """Fit ``form`` to the observed path of ``series``."""
+    used = series.used
+    t, p = series.t[used], series.p[used]
+    if error == "log" and np.any(p <= 0):
+        j = int(np.flatnonzero(used)[np.flatnonzero(p <= 0)[0]])
+        return failed(model, "trajectory", error,
+                      f"log error needs p > 0; row {series.row_of(j)} has p = {series.p[j]:g} (exclude it or use additive error)",
+                      form=form)
+    if form.needs_positive and np.any(p <= 0):
+        j = int(np.flatnonzero(used)[np.flatnonzero(p <= 0)[0]])
+        return failed(model, "trajectory", error,
+                      f"{form.id} takes ln of the state, which needs p > 0; row {series.row_of(j)} has p = {series.p[j]:g}",
+                      form=form)
+    if isinstance(form, DifferenceForm):
+        return _fit_difference(series, form, model=model, error=error, fixed=fixed, start=start, terms=terms)
+    return _fit_curve(t, p, form, model=model, error=error, fixed=fixed, start=start, t_first=float(series.t[0]))
+
+
+def _too_few(model: str, error: str, form: ModelForm, n: int, k: int) -> FitResult | None:
+    if n <= k:
+        return failed(model, "trajectory", error,
+                      f"{n} usable points for {k} free constants: need more points than constants", form=form)
+    return None
+
+
+def _best(problem: Problem, candidates: list[Array]) -> NLSOutcome | None:
+    best = None
+    for x0 in candidates:
+        outcome = solve(problem.residuals, x0, problem.lower, problem.upper, scale=problem.scale)
+        if outcome.finite and (best is None or outcome.sse < best.sse * (1 - 1e-9)):
+            best = outcome
+        if outcome.success and best is outcome and len(candidates) > 1 and _good_enough(problem, outcome):
+            break
+    return best
+
+
+def _good_enough(problem: Problem, outcome: NLSOutcome) -> bool:
+    """A converged start is accepted unless residuals are large beside the spread of the data."""
+    spread = float(np.var(problem.scaled(problem.observed))) * problem.observed.size
+    return outcome.sse < 0.5 * spread
+
+
+def _finish(problem: Problem, best: NLSOutcome | None, form: ModelForm) -> FitResult:
+    if best is None:
+        return failed(problem.model, "trajectory", problem.error,
+                      "no start converged to a finite path: the form cannot follow these data (overflow or non-finite values)",
+                      form=form)
+    notes = () if best.success else (f"optimiser stopped before full convergence: {best.message}",)
+    return build_result(problem, best.x, message=f"nonlinear least squares on the path ({best.message})", notes=notes)
+
+
+def _fit_curve(t: Array, p: Array, form: CurveForm, *, model: str, error: str,
+               fixed: Mapping[str, float], start: Mapping[str, float], t_first: float) -> FitResult:
+    free = tuple(n for n in form.param_names if n not in fixed)
+    too_few = _too_few(model, error, form, p.size, len(free))
+    if too_few:
+        return too_few
+
+    def predict(cols: Array) -> Array:
+        values = {n: (v if np.ndim(v) == 0 else np.asarray(v)[None, :]) for n, v in problem.values(cols).items()}
+        with np.errstate(all="ignore"):
+            return np.broadcast_to(form.value(t[:, None], values), (t.size, cols.shape[1]))
+
+    problem = Problem(model, "trajectory", error, form, form.params, free, dict(fixed), predict, t, p,
+                      settings={"fixed": dict(fixed), "t_first": t_first})
+    candidates = [{**c, **start} for c in curve_starts(form, t, p)] if not start else [dict(start)] + curve_starts(form, t, p)
+    vectors = [np.array([problem.spec(n).clip(c.get(n, 1.0)) for n in free]) for c in candidates]
+    return _finish(problem, _best(problem, vectors), form)
+
+
+def _fit_difference(series: Series, form: DifferenceForm, *, model: str, error: str,
+                    fixed: Mapping[str, float], start: Mapping[str, float], terms: tuple[str, ...]) -> FitResult:
+    step = series.step()
+    if not step.regular or step.index is None or step.h is None:
+        return failed(model, "trajectory", error, step.message, form=form)
+    used = series.used
+    index = step.index[used]
+    t, p = series.t[used], series.p[used]
+    specs = (*form.params, P0_DIFFERENCE)
+    free = tuple(s.name for s in specs if s.name not in fixed)
+    too_few = _too_few(model, error, form, p.size, len(free))
+    if too_few:
+        return too_few
+    steps = int(step.index[-1])
+    offset = index
+
+    def predict(cols: Array) -> Array:
+        values = problem.values(cols)
+        return iterate(form, values["p0"], values, steps)[offset].reshape(offset.size, -1)
+
+    grid = Grid(float(series.t[0]), float(step.h))
+    problem = Problem(model, "trajectory", error, form, specs, free, dict(fixed), predict, t, p, grid=grid,
+                      terms=terms, settings={"fixed": dict(fixed), "t_first": float(series.t[0])})
+    first = float(series.p[0]) if used[0] else float(p[0])
+    seeds: list[dict[str, float]] = []
+    shape_fixed = {n: v for n, v in fixed.items() if n != "p0"}
+    inc = fit_increments(series, form, model=model, fixed=shape_fixed, start=start, terms=terms)
+    if inc.success:
+        seeds.append({**inc.values, "p0": first})
+    k0 = capacity_guess(p)
+    defaults = {"r": 0.5, "K": k0, "lambda": 1.6, "theta": 1.0, "A": 0.5 * float(np.min(p[p > 0])) if np.any(p > 0) else 1.0,
+                "c": 0.0, "p0": max(first, 1e-9)}
+    for factor in (1.0, 1.5):
+        seeds.append({**defaults, "K": k0 * factor})
+    if start:
+        seeds.insert(0, {**defaults, **start})
+    vectors = [np.array([problem.spec(n).clip(s.get(n, defaults.get(n, 1.0))) for n in free]) for s in seeds]
+    return _finish(problem, _best(problem, vectors), form)

@@ -1,0 +1,79 @@
+"""Closed-form growth curves in continuous time; p0 is the state at t = 0.
+
+Notes
+-----
+The Richards curve is parameterised as p(t) = K / (1 + ((K/p0)^ν − 1)·e^(−r·t))^(1/ν), which solves
+dp/dt = (r/ν)·p·(1 − (p/K)^ν); ν = 1 gives the logistic curve and ν → 0 the Gompertz curve.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from growthcore.models.base import INF, CurveForm, ParamSpec
+
+K = ParamSpec("K", 0.0, INF, "carrying capacity (upper asymptote)", "state")
+R = ParamSpec("r", 0.0, INF, "rate constant per unit time", "per time")
+P0 = ParamSpec("p0", 0.0, INF, "state at t = 0", "state")
+NU = ParamSpec("nu", 0.01, 50.0, "shape (1 = logistic, towards 0 = Gompertz)", "-")
+
+EXPONENTIAL_CURVE = CurveForm(
+    id="exponential-curve",
+    title="Exponential curve",
+    equation="p(t) = p0·e^(r·t)",
+    params=(ParamSpec("r", -INF, INF, "specific growth rate per unit time", "per time"), P0),
+    value=lambda t, v: v["p0"] * np.exp(v["r"] * t),
+    rate=lambda p, v: v["r"] * p,
+    rate_dp=lambda p, v: v["r"] + 0.0 * p,
+)
+
+LOGISTIC_CURVE = CurveForm(
+    id="logistic-curve",
+    title="Logistic curve",
+    equation="p(t) = K / (1 + (K/p0 − 1)·e^(−r·t))",
+    params=(K, R, P0),
+    value=lambda t, v: v["K"] / (1.0 + (v["K"] / v["p0"] - 1.0) * np.exp(-v["r"] * t)),
+    rate=lambda p, v: v["r"] * p * (1.0 - p / v["K"]),
+    rate_dp=lambda p, v: v["r"] * (1.0 - 2.0 * p / v["K"]),
+)
+
+GOMPERTZ_CURVE = CurveForm(
+    id="gompertz-curve",
+    title="Gompertz curve",
+    equation="p(t) = K·exp(ln(p0/K)·e^(−r·t))",
+    params=(K, R, P0),
+    value=lambda t, v: v["K"] * np.exp(np.log(v["p0"] / v["K"]) * np.exp(-v["r"] * t)),
+    rate=lambda p, v: v["r"] * p * np.log(v["K"] / p),
+    rate_dp=lambda p, v: v["r"] * (np.log(v["K"] / p) - 1.0),
+    needs_positive=True,
+)
+
+RICHARDS_CURVE = CurveForm(
+    id="richards-curve",
+    title="Richards (generalised logistic) curve",
+    equation="p(t) = K / (1 + ((K/p0)^ν − 1)·e^(−r·t))^(1/ν)",
+    params=(K, R, P0, NU),
+    value=lambda t, v: v["K"]
+    / (1.0 + ((v["K"] / v["p0"]) ** v["nu"] - 1.0) * np.exp(-v["r"] * t)) ** (1.0 / v["nu"]),
+    rate=lambda p, v: v["r"] / v["nu"] * p * (1.0 - (p / v["K"]) ** v["nu"]),
+    rate_dp=lambda p, v: v["r"] / v["nu"] * (1.0 - (v["nu"] + 1.0) * (p / v["K"]) ** v["nu"]),
+    needs_positive=True,
+)
+
+MONOMOLECULAR_CURVE = CurveForm(
+    id="monomolecular-curve",
+    title="Monomolecular (asymptotic rise) curve",
+    equation="p(t) = K − (K − p0)·e^(−r·t)",
+    params=(K, R, P0),
+    value=lambda t, v: v["K"] - (v["K"] - v["p0"]) * np.exp(-v["r"] * t),
+    rate=lambda p, v: v["r"] * (v["K"] - p),
+    rate_dp=lambda p, v: -v["r"] + 0.0 * p,
+)
+
+CURVE_FORMS: tuple[CurveForm, ...] = (
+    EXPONENTIAL_CURVE,
+    LOGISTIC_CURVE,
+    GOMPERTZ_CURVE,
+    RICHARDS_CURVE,
+    MONOMOLECULAR_CURVE,
+)

@@ -1,0 +1,210 @@
+"""Metrics, information criteria, standard errors, intervals and residual diagnostics.
+
+Notes
+-----
+Likelihood: independent Gaussian errors on the fitted scale with the variance estimated by SSE/n,
+log L = −n/2·(ln(2π·SSE/n) + 1). The parameter count in AIC, AICc and BIC is the number of free
+parameters plus one for the error variance:
+AIC = −2 log L + 2q, AICc = AIC + 2q(q + 1)/(n − q − 1), BIC = −2 log L + q·ln n.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import special
+
+Array = np.ndarray
+
+
+def t_quantile(prob: float, dof: int) -> float:
+    """Student t quantile (scipy.special directly: scipy.stats is slow to call in a hot path)."""
+    return float(special.stdtrit(dof, prob))
+
+
+@dataclass(frozen=True)
+class OriginRegression:
+    """Least squares with no intercept: y ≈ X·b."""
+
+    coef: Array
+    se: Array
+    covariance: Array
+    residuals: Array
+    sse: float
+    dof: int
+    residual_sd: float
+    r2_uncentered: float
+    rank: int
+
+
+def regression_through_origin(x: Array, y: Array) -> OriginRegression:
+    """Regress ``y`` on the columns of ``x`` without an intercept.
+
+    The uncentered R² is 1 − SSE/Σy², the usual figure for a regression through the origin.
+    """
+    x = np.asarray(x, dtype=float)
+    if x.ndim == 1:
+        x = x[:, None]
+    y = np.asarray(y, dtype=float)
+    n, k = x.shape
+    coef, _, rank, _ = np.linalg.lstsq(x, y, rcond=None)
+    residuals = y - x @ coef
+    sse = float(residuals @ residuals)
+    dof = n - k
+    sigma2 = sse / dof if dof > 0 else math.nan
+    if rank == k:
+        xtx_inv = np.linalg.inv(x.T @ x)
+        cov = sigma2 * xtx_inv
+    else:
+        cov = np.full((k, k), math.nan)
+    se = np.sqrt(np.clip(np.diag(cov), 0.0, None)) if dof > 0 else np.full(k, math.nan)
+    yy = float(y @ y)
+    r2u = 1.0 - sse / yy if yy > 0 else math.nan
+    return OriginRegression(coef, se, cov, residuals, sse, dof, math.sqrt(sigma2) if dof > 0 else math.nan, r2u, int(rank))
+
+
+@dataclass(frozen=True)
+class Metrics:
+    """Goodness of fit for one fit; SSE, RMSE and the criteria are on the fitted scale."""
+
+    n: int
+    n_params: int
+    sse: float
+    rmse: float
+    residual_sd: float
+    r2: float
+    r2_adjusted: float
+    log_likelihood: float
+    aic: float
+    aicc: float
+    bic: float
+    r2_uncentered: float | None = None
+
+    def to_dict(self) -> dict[str, float | int | None]:
+        return {k: _finite_or_none(v) for k, v in self.__dict__.items()}
+
+
+def _finite_or_none(v: float | int | None) -> float | int | None:
+    if v is None or isinstance(v, int):
+        return v
+    return float(v) if math.isfinite(v) else None
+
+
+def fit_metrics(
+    residuals: Array,
+    observed: Array,
+    predicted: Array,
+    n_params: int,
+    *,
+    r2_uncentered: float | None = None,
+) -> Metrics:
+    """Metrics from fitted-scale residuals and the observed and predicted states.
+
+    R² is centered and computed on the states themselves whatever the error scale.
+    """
+    n = int(residuals.size)
+    sse = float(residuals @ residuals)
+    rmse = math.sqrt(sse / n) if n else math.nan
+    dof = n - n_params
+    residual_sd = math.sqrt(sse / dof) if dof > 0 else math.nan
+    dev = observed - observed.mean() if n else observed
+    sst = float(dev @ dev)
+    state_res = observed - predicted
+    sse_state = float(state_res @ state_res)
+    r2 = 1.0 - sse_state / sst if sst > 0 else math.nan
+    r2_adj = 1.0 - (1.0 - r2) * (n - 1) / dof if dof > 0 and math.isfinite(r2) else math.nan
+    q = n_params + 1
+    if n > 0 and sse > 0:
+        loglik = -0.5 * n * (math.log(2.0 * math.pi * sse / n) + 1.0)
+    else:
+        loglik = math.inf if n > 0 else math.nan
+    aic = -2.0 * loglik + 2.0 * q
+    aicc = aic + 2.0 * q * (q + 1) / (n - q - 1) if n - q - 1 > 0 else math.nan
+    bic = -2.0 * loglik + q * math.log(n) if n > 0 else math.nan
+    return Metrics(n, n_params, sse, rmse, residual_sd, r2, r2_adj, loglik, aic, aicc, bic, r2_uncentered)
+
+
+def covariance_from_jacobian(jac: Array, sse: float, dof: int) -> Array:
+    """s²·(JᵀJ)⁻¹ with s² = SSE/dof, by SVD so that a singular J gives NaN instead of garbage."""
+    k = jac.shape[1]
+    if dof <= 0 or jac.size == 0 or not np.all(np.isfinite(jac)):
+        return np.full((k, k), math.nan)
+    _, s, vt = np.linalg.svd(jac, full_matrices=False)
+    tol = np.finfo(float).eps * max(jac.shape) * (s[0] if s.size else 0.0)
+    if s.size < k or np.any(s <= tol):
+        return np.full((k, k), math.nan)
+    inv = (vt.T / s**2) @ vt
+    return inv * (sse / dof)
+
+
+def correlation(cov: Array) -> Array:
+    sd = np.sqrt(np.diag(cov))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return cov / np.outer(sd, sd)
+
+
+@dataclass(frozen=True)
+class Diagnostics:
+    """Tests for systematic misfit in residuals taken in time order."""
+
+    durbin_watson: float
+    runs: int
+    runs_expected: float
+    runs_z: float
+    runs_p: float
+    systematic: bool
+    message: str
+
+    def to_dict(self) -> dict[str, object]:
+        return {k: (_finite_or_none(v) if isinstance(v, float) else v) for k, v in self.__dict__.items()}
+
+
+#: Common practice (no single source): Durbin–Watson far from 2 signals serial correlation.
+DW_LOW, DW_HIGH = 1.0, 3.0
+
+
+def residual_diagnostics(residuals: Array) -> Diagnostics:
+    """Durbin–Watson statistic and the Wald–Wolfowitz runs test on residual signs.
+
+    Notes
+    -----
+    DW = Σ(e_i − e_{i−1})² / Σe_i². Runs: with n₊ positive and n₋ negative residuals (zeros
+    dropped), E[R] = 2n₊n₋/n + 1 and Var[R] = 2n₊n₋(2n₊n₋ − n)/(n²(n − 1)); two-sided normal p.
+    """
+    e = np.asarray(residuals, dtype=float)
+    ss = float(e @ e)
+    dw = float(np.sum(np.diff(e) ** 2) / ss) if ss > 0 and e.size > 1 else math.nan
+    signs = np.sign(e[e != 0])
+    n_pos = int(np.sum(signs > 0))
+    n_neg = int(np.sum(signs < 0))
+    n = n_pos + n_neg
+    runs = int(1 + np.sum(signs[1:] != signs[:-1])) if n else 0
+    if n_pos and n_neg and n > 1:
+        expected = 2.0 * n_pos * n_neg / n + 1.0
+        var = 2.0 * n_pos * n_neg * (2.0 * n_pos * n_neg - n) / (n * n * (n - 1))
+        z = (runs - expected) / math.sqrt(var) if var > 0 else 0.0
+        p = float(special.erfc(abs(z) / math.sqrt(2.0)))
+    else:
+        expected, z, p = math.nan, math.nan, math.nan
+    reasons = []
+    if math.isfinite(p) and p < 0.05:
+        reasons.append(f"{'too few' if z < 0 else 'too many'} sign runs (runs test p = {p:.3g})")
+    if math.isfinite(dw) and not DW_LOW <= dw <= DW_HIGH:
+        reasons.append(f"Durbin–Watson {dw:.2f} is far from 2")
+    systematic = bool(reasons)
+    message = ("residuals look systematic: " + "; ".join(reasons)) if systematic else "no sign of systematic misfit"
+    return Diagnostics(dw, runs, expected, z, p, systematic, message)
+
+
+def akaike_weights(aicc: list[float]) -> list[float]:
+    """exp(−Δ/2) normalised over the finite values; NaN for the others."""
+    vals = np.array([a if a is not None and math.isfinite(a) else math.nan for a in aicc], dtype=float)
+    if not np.any(np.isfinite(vals)):
+        return [math.nan] * len(aicc)
+    delta = vals - np.nanmin(vals)
+    w = np.exp(-0.5 * delta)
+    w = np.where(np.isfinite(w), w, 0.0)
+    total = float(np.sum(w))
+    return [float(x / total) if math.isfinite(v) else math.nan for x, v in zip(w, vals)]
