@@ -143,8 +143,8 @@ class _Builder:
         guess = find_header(t.rows, fmt)
         if guess is None:
             raise ImportFailure(
-                f"{self.name}: no rows of data found (a data row has numbers, clock times or dates "
-                "in at least two cells)"
+                f"{self.name}: no numeric time and value columns found (no row has numbers, clock "
+                "times or dates in two or more cells)"
             )
         header_row = t.row_numbers[guess.header] if guess.header is not None else None
         first = guess.header if guess.header is not None else guess.data_start
