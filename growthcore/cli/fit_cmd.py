@@ -7,6 +7,7 @@ import json
 import sys
 from typing import Sequence
 
+from growthcore.cli import fit_export, fit_uncertainty
 from growthcore.compare import compare, comparison_notes
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
@@ -15,6 +16,8 @@ from growthcore.io import load_file
 from growthcore.record import DataSource, build_record
 
 METHOD_CHOICES = ("increments", "trajectory", "both")
+#: Modules that add options to ``fit`` and work on the record before it is written.
+EXTENSIONS = (fit_uncertainty, fit_export)
 
 
 def add_data_options(p: argparse.ArgumentParser) -> None:
@@ -37,6 +40,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("--error", choices=ERROR_MODELS, default="additive", help="error model of the trajectory method")
     p.add_argument("--no-profile", action="store_true", help="skip the profile interval for K")
     p.add_argument("--out", default="-", metavar="PATH", help="where to write the record JSON ('-' for standard output)")
+    for extension in EXTENSIONS:
+        extension.add_options(p)
     p.set_defaults(func=run)
 
 
@@ -97,6 +102,8 @@ def run(args: argparse.Namespace) -> int:
                   "terms": list(args.term), "profile": not args.no_profile},
     )
     record["comparison"] = {"rows": [r.to_dict() for r in compare(fits)], "notes": comparison_notes(fits)}
+    for extension in EXTENSIONS:
+        extension.apply(args, series, fits, record)
     text = json.dumps(record, indent=2, allow_nan=False)
     if args.out == "-":
         sys.stdout.write(text + "\n")
