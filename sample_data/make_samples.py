@@ -38,10 +38,10 @@ def algae_photobioreactor(rng: np.random.Generator) -> pd.DataFrame:
 def island_census(rng: np.random.Generator) -> pd.DataFrame:
     """Annual census of an invented ground bird on an island, founded by 14 birds in 1994.
 
-    Ricker map: N[t+1] = N[t] exp(r (1 - N[t]/K)), r = 1.7, K = 460, with 6 % year-to-year
+    Ricker map: N[t+1] = N[t] exp(r (1 - N[t]/K)), r = 1.5, K = 460, with 6 % year-to-year
     environmental noise; r between 1 and 2 gives the overshoot and damped settling.
     """
-    r, k, n = 1.7, 460.0, 14.0
+    r, k, n = 1.5, 460.0, 14.0
     counts = []
     for _ in range(30):
         counts.append(n)
