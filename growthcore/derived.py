@@ -174,7 +174,7 @@ def time_to_reach(result: FitResult, level: float, *, horizon: float | None = No
         t = result.grid.t0 + result.grid.h * np.arange(steps + 1)
         p_s = result.start_level
         return _first_crossing(t, iterate(result.form, p_s, result.values, steps), level)
-    t = np.linspace(0.0, end, 20001)
+    t = np.linspace(result.time_origin, end, 20001)
     path = result.predict(t)
     crossing = _first_crossing(t, path, level)
     if not math.isfinite(crossing):

@@ -28,6 +28,7 @@ def fit(
     start: Mapping[str, float] | None = None,
     terms: Sequence[str] = (),
     profile: bool = True,
+    time_origin: float | None = None,
 ) -> FitResult:
     """Fit one model form to a series.
 
@@ -42,6 +43,8 @@ def fit(
     fixed : other constants held at given values (``p0`` included).
     start : starting values for the trajectory method; by default they come from the data.
     terms : the rate terms of the ``custom`` form.
+    time_origin : the time at which a curve's p0 applies; by default the first time in the series,
+        so that calendar times (years, dates) need no shifting. Pass 0.0 for the origin t = 0.
 
     Returns
     -------
@@ -78,7 +81,8 @@ def fit(
         if method == "increments":
             assert form.kind == "difference"
             return fit_increments(series, form, model=model_id, fixed=fixed_now, start=start_now, terms=terms_t)
-        return fit_trajectory(series, form, model=model_id, error=error, fixed=fixed_now, start=start_now, terms=terms_t)
+        return fit_trajectory(series, form, model=model_id, error=error, fixed=fixed_now, start=start_now,
+                              terms=terms_t, time_origin=time_origin)
 
     if len(series.used.nonzero()[0]) < 3:
         return failed(model_id, method, error, f"only {int(series.used.sum())} usable points: a fit needs at least 3", form=form)
@@ -92,6 +96,9 @@ def fit(
         if isinstance(exc, GrowthcoreInputError):
             raise
         return failed(model_id, method, error, f"numerical failure: {exc}", form=form)
+    if method == "increments" and result.diagnostics is not None and result.diagnostics.durbin_watson > 2.5:
+        notes.append("negative serial correlation of the increments' residuals is expected when measurement noise "
+                     "in p enters both p_n and Δp_n; the trajectory method handles noisy data better")
     if notes:
         result = replace(result, notes=(*notes, *result.notes))
     return result

@@ -121,6 +121,11 @@ class FitResult:
         return {p.name: p.value for p in self.parameters}
 
     @property
+    def time_origin(self) -> float:
+        """The time at which a curve's p0 applies (0 for difference forms, which start at their grid)."""
+        return float(self.settings.get("time_origin", 0.0))
+
+    @property
     def start_level(self) -> float:
         """The state the fitted path starts from: p0 when fitted, else the first used observation."""
         values = self.values
@@ -144,7 +149,7 @@ class FitResult:
         values = self.values
         if self.form.kind == "curve":
             with np.errstate(all="ignore"):
-                return np.asarray(self.form.value(t, values), dtype=float)
+                return np.asarray(self.form.value(t - self.time_origin, values), dtype=float)
         assert self.grid is not None
         steps = (t - self.grid.t0) / self.grid.h
         n = np.rint(steps)
@@ -162,8 +167,8 @@ class FitResult:
             steps = max(int(math.floor((t_end - self.grid.t0) / self.grid.h + 1e-9)), 0)
             t = self.grid.t0 + self.grid.h * np.arange(steps + 1)
         else:
-            t0 = float(self.settings.get("t_first", 0.0))
-            t = np.linspace(min(0.0, t0), t_end, points)
+            t0 = float(self.settings.get("t_first", self.time_origin))
+            t = np.linspace(min(self.time_origin, t0), t_end, points)
         return t, self.predict(t)
 
     def to_dict(self) -> dict[str, Any]:

@@ -34,8 +34,12 @@ def fit_trajectory(
     fixed: Mapping[str, float],
     start: Mapping[str, float],
     terms: tuple[str, ...] = (),
+    time_origin: float | None = None,
 ) -> FitResult:
-    """Fit ``form`` to the observed path of ``series``."""
+    """Fit ``form`` to the observed path of ``series``.
+
+    A curve's p0 is its state at ``time_origin`` (default: the first time in the series).
+    """
     used = series.used
     t, p = series.t[used], series.p[used]
     if error == "log" and np.any(p <= 0):
@@ -50,7 +54,9 @@ def fit_trajectory(
                       form=form)
     if isinstance(form, DifferenceForm):
         return _fit_difference(series, form, model=model, error=error, fixed=fixed, start=start, terms=terms)
-    return _fit_curve(t, p, form, model=model, error=error, fixed=fixed, start=start, t_first=float(series.t[0]))
+    origin = float(series.t[0]) if time_origin is None else float(time_origin)
+    return _fit_curve(t, p, form, model=model, error=error, fixed=fixed, start=start,
+                      t_first=float(series.t[0]), origin=origin)
 
 
 def _too_few(model: str, error: str, form: ModelForm, n: int, k: int) -> FitResult | None:
@@ -87,7 +93,7 @@ def _finish(problem: Problem, best: NLSOutcome | None, form: ModelForm) -> FitRe
 
 
 def _fit_curve(t: Array, p: Array, form: CurveForm, *, model: str, error: str,
-               fixed: Mapping[str, float], start: Mapping[str, float], t_first: float) -> FitResult:
+               fixed: Mapping[str, float], start: Mapping[str, float], t_first: float, origin: float) -> FitResult:
     free = tuple(n for n in form.param_names if n not in fixed)
     too_few = _too_few(model, error, form, p.size, len(free))
     if too_few:
@@ -96,11 +102,13 @@ def _fit_curve(t: Array, p: Array, form: CurveForm, *, model: str, error: str,
     def predict(cols: Array) -> Array:
         values = {n: (v if np.ndim(v) == 0 else np.asarray(v)[None, :]) for n, v in problem.values(cols).items()}
         with np.errstate(all="ignore"):
-            return np.broadcast_to(form.value(t[:, None], values), (t.size, cols.shape[1]))
+            return np.broadcast_to(form.value(elapsed[:, None], values), (t.size, cols.shape[1]))
 
+    elapsed = t - origin
     problem = Problem(model, "trajectory", error, form, form.params, free, dict(fixed), predict, t, p,
-                      settings={"fixed": dict(fixed), "t_first": t_first})
-    candidates = [{**c, **start} for c in curve_starts(form, t, p)] if not start else [dict(start)] + curve_starts(form, t, p)
+                      settings={"fixed": dict(fixed), "t_first": t_first, "time_origin": origin})
+    guesses = curve_starts(form, elapsed, p)
+    candidates = [{**c, **start} for c in guesses] if not start else [dict(start)] + guesses
     vectors = [np.array([problem.spec(n).clip(c.get(n, 1.0)) for n in free]) for c in candidates]
     return _finish(problem, _best(problem, vectors), form)
 
