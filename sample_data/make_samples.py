@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import datetime as dt
 import os
+import sys
 import zipfile
 
 import numpy as np
@@ -148,18 +149,19 @@ def _fix_zip_times(path: str) -> None:
             dst.writestr(info, data)
 
 
-def main() -> None:
+def main(folder: str = HERE) -> None:
+    """Write every demo file into ``folder`` (by default, this one)."""
     rng = np.random.default_rng(SEED)
     algae = algae_photobioreactor(rng)
     census = island_census(rng)
     plate = plate_reader(rng)
     replicates = reactor_replicates(rng)
-    algae.to_csv(os.path.join(HERE, "algae_photobioreactor.csv"), index=False, lineterminator="\n")
-    census.to_csv(os.path.join(HERE, "island_census.csv"), index=False, lineterminator="\n")
-    plate.to_csv(os.path.join(HERE, "plate_reader_wide.csv"), index=False, lineterminator="\n")
-    replicates.to_csv(os.path.join(HERE, "reactor_replicates_long.csv"), index=False, lineterminator="\n")
-    write_plate_xlsx(plate, os.path.join(HERE, "plate_reader_wide.xlsx"))
+    algae.to_csv(os.path.join(folder, "algae_photobioreactor.csv"), index=False, lineterminator="\n")
+    census.to_csv(os.path.join(folder, "island_census.csv"), index=False, lineterminator="\n")
+    plate.to_csv(os.path.join(folder, "plate_reader_wide.csv"), index=False, lineterminator="\n")
+    replicates.to_csv(os.path.join(folder, "reactor_replicates_long.csv"), index=False, lineterminator="\n")
+    write_plate_xlsx(plate, os.path.join(folder, "plate_reader_wide.xlsx"))
 
 
 if __name__ == "__main__":
-    main()
+    main(sys.argv[1] if len(sys.argv) > 1 else HERE)

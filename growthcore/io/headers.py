@@ -64,7 +64,7 @@ def cell_kind(value: object, fmt: NumberFormat) -> str:
         return "blank"
     if parse_number(text, fmt) is not None:
         return "number"
-    if parse_duration(text) is not None or parse_calendar(text) is not None:
+    if parse_duration(text) is not None or parse_calendar(text) or parse_calendar(text, day_first=False):
         return "time"
     return "text"
 

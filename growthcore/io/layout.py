@@ -9,7 +9,6 @@ from typing import Sequence
 from growthcore.errors import ImportFailure
 from growthcore.io.headers import Column, cell_kind
 from growthcore.io.numbers import NumberFormat
-from growthcore.io.timeparse import canonical_unit
 
 _TIME_WORDS = re.compile(
     r"^(t|time|times|elapsed|elapsed time|date|datetime|date time|date/time|timestamp|"
@@ -34,6 +33,7 @@ class ColumnProfile:
     text: int
     blank: int
     distinct_text: int
+    distinct: int
 
     @property
     def filled(self) -> int:
@@ -55,13 +55,18 @@ def profile_columns(
     for c in columns:
         counts = {"number": 0, "time": 0, "text": 0, "blank": 0}
         texts: set[str] = set()
+        every: set[str] = set()
         for row in data:
             v = row[c.index] if c.index < len(row) else None
             k = cell_kind(v, fmt)
             counts[k] += 1
             if k == "text":
                 texts.add(str(v).strip())
-        out.append(ColumnProfile(c, counts["number"], counts["time"], counts["text"], counts["blank"], len(texts)))
+            if k != "blank":
+                every.add(str(v).strip())
+        out.append(
+            ColumnProfile(c, counts["number"], counts["time"], counts["text"], counts["blank"], len(texts), len(every))
+        )
     return out
 
 
@@ -128,12 +133,13 @@ def choose_layout(
         for p in used:
             if p.column.index == time_col.index:
                 continue
-            by_name = bool(_SERIES_WORDS.match(p.column.name)) and p.text >= 0.5 * p.filled
+            # A named id column may hold numbers (replicate 1, 2, 3) but its values must repeat.
+            by_name = bool(_SERIES_WORDS.match(p.column.name)) and p.distinct <= max(1, p.filled // 2)
             by_content = p.text >= 0.9 * p.filled and 1 <= p.distinct_text <= max(1, p.filled // 2)
             if by_name or by_content:
                 series_col = p.column
                 notes.append(
-                    f"column {p.column.label!r} names the series ({p.distinct_text} distinct); "
+                    f"column {p.column.label!r} names the series ({p.distinct} distinct); "
                     "choose another with --series"
                 )
                 break
@@ -168,9 +174,6 @@ def choose_layout(
             f"wide layout: {len(values)} value columns read as separate series "
             "(choose one with --value)"
         )
-    tp = by_index[time_col.index]
-    if not tp.filled:
+    if not by_index[time_col.index].filled:
         raise ImportFailure(f"{filename}: the time column {time_col.label!r} is empty")
-    if canonical_unit(time_col.unit or "") is None and time_col.unit:
-        pass
     return Layout(time_col, tuple(values), series_col, layout, tuple(notes))

@@ -44,7 +44,10 @@ def _short(exc: BaseException) -> str:
 
 
 def _load(data: bytes, filename: str, data_only: bool) -> Any:
-    import openpyxl
+    try:
+        import openpyxl
+    except ImportError:
+        raise ImportFailure(f"{filename}: reading .xlsx needs the openpyxl package (pip install openpyxl)") from None
 
     try:
         with warnings.catch_warnings():

@@ -1,0 +1,114 @@
+"""The pieces of the import on their own: numbers, clock times, dates, headers, layout guesses."""
+
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+
+from growthcore.io import load_bytes
+from growthcore.io.headers import split_unit
+from growthcore.io.numbers import NumberFormat, detect_number_format, parse_number
+from growthcore.io.timeparse import parse_calendar, parse_duration
+
+POINT = NumberFormat(".")
+COMMA = NumberFormat(",")
+
+
+@pytest.mark.parametrize(
+    "text, fmt, expected",
+    [
+        ("1.25", POINT, 1.25), ("-3", POINT, -3.0), ("2e-3", POINT, 0.002), (".5", POINT, 0.5),
+        ("1,234,567.5", POINT, 1234567.5), ("1 234.5", POINT, 1234.5), ("1'234.5", POINT, 1234.5),
+        ("1,25", COMMA, 1.25), ("1.234,5", COMMA, 1234.5), ("1\u00a0234,5", COMMA, 1234.5),
+        ("2,5E-3", COMMA, 0.0025),
+        ("1,25", POINT, None), ("1.2.3", POINT, None), ("12,34", POINT, None), ("1,234 567", POINT, None),
+        ("abc", POINT, None), ("inf", POINT, None), ("nan", POINT, None), ("1e999", POINT, None),
+    ],
+)
+def test_parse_number(text: str, fmt: NumberFormat, expected: float | None) -> None:
+    assert parse_number(text, fmt) == expected
+
+
+def test_decimal_detection() -> None:
+    assert detect_number_format(["1,25", "2,5", "3"], ";").decimal == ","
+    assert detect_number_format(["1.25", "2.5"], ";").decimal == "."
+    # "1,250" alone is ambiguous: a comma in a semicolon file, thousands in a comma file
+    assert detect_number_format(["1,250"], ";").decimal == ","
+    assert detect_number_format(["1,250"], ",").decimal == "."
+    # "1.250" alone keeps the point
+    assert detect_number_format(["1.250"], ";").decimal == "."
+
+
+@pytest.mark.parametrize(
+    "text, seconds",
+    [
+        ("0:15:00", 900), ("36:00:00", 129600), ("1:02:30:00", 95400), ("0:00:05.5", 5.5),
+        ("12:30", 45000), ("1.02:30:00", 95400), ("1 day, 2:30:00", 95400), ("2 days 00:00:00", 172800),
+        ("-0:15:00", -900),
+    ],
+)
+def test_parse_duration(text: str, seconds: float) -> None:
+    # d:h:m:s arithmetic: 1:02:30:00 = 86400 + 2*3600 + 30*60 = 95400 s
+    assert parse_duration(text) == seconds
+
+
+@pytest.mark.parametrize("text", ["0:60:00", "1:24:00:00", "1:2:3", "a:00", "1:00:00:00:00", "12"])
+def test_parse_duration_rejects(text: str) -> None:
+    assert parse_duration(text) is None
+
+
+def test_parse_calendar() -> None:
+    aware = parse_calendar("2024-03-31T03:00+02:00")
+    assert aware is not None and aware.kind == "aware"
+    assert aware.moment == dt.datetime(2024, 3, 31, 1, 0, tzinfo=dt.timezone.utc)
+    z = parse_calendar("2024-03-31T01:00:00Z")
+    assert z is not None and z.moment == aware.moment
+    d = parse_calendar("05/06/2024", day_first=False)
+    assert d is not None and d.kind == "date" and d.moment == dt.datetime(2024, 5, 6)
+    assert parse_calendar("31.02.2024") is None
+
+
+@pytest.mark.parametrize(
+    "header, name, unit",
+    [
+        ("Dry weight (g/L)", "Dry weight", "g/L"), ("OD600 [-]", "OD600", "-"), ("t / h", "t", "h"),
+        ("Time in min", "Time", "min"), ("Counts", "Counts", ""), ("  Cell  density (cells/mL) ", "Cell density", "cells/mL"),
+        ("Biomass in reactor", "Biomass in reactor", ""),
+    ],
+)
+def test_split_unit(header: str, name: str, unit: str) -> None:
+    assert split_unit(header) == (name, unit)
+
+
+def test_numeric_replicate_column_names_series() -> None:
+    text = "Replicate,Hours,OD\n1,0,0.1\n1,1,0.2\n1,2,0.4\n2,0,0.1\n2,1,0.3\n2,2,0.5\n"
+    r = load_bytes(text.encode(), "reps.csv")
+    assert [s.name for s in r.series] == ["1", "2"] and r.series[0].time_unit == "h"
+
+
+def test_unique_sample_ids_are_not_series() -> None:
+    text = "Sample,t,N\nS1,0,1\nS2,1,2\nS3,2,4\n"
+    r = load_bytes(text.encode(), "ids.csv")
+    assert len(r.series) == 1 and "column 'Sample' (text) is not used" in "\n".join(r.report.notes)
+
+
+def test_mixed_offsets_leave_out_the_odd_one() -> None:
+    text = "When,N\n2024-01-01T00:00+00:00,1\n2024-01-01T01:00+00:00,2\n2024-01-01 02:00,3\n2024-01-01T03:00+00:00,4\n"
+    r = load_bytes(text.encode(), "mixed.csv")
+    assert list(r.series[0].t) == [0.0, 1.0, 3.0]
+    (x,) = r.report.left_out
+    assert x.row == 4 and "without a UTC offset" in x.reason
+
+
+def test_month_first_dates_detected() -> None:
+    text = "Date,N\n03/30/2024,1\n03/31/2024,2\n04/01/2024,3\n"
+    r = load_bytes(text.encode(), "us.csv")
+    assert list(r.series[0].t) == [0.0, 1.0, 2.0]
+
+
+def test_ambiguous_slash_dates_noted() -> None:
+    text = "Date,N\n01/02/2024,1\n02/02/2024,2\n03/02/2024,3\n"
+    r = load_bytes(text.encode(), "amb.csv")
+    assert list(r.series[0].t) == [0.0, 1.0, 2.0]  # day first: 1, 2, 3 February
+    assert "read as day/month/year" in "\n".join(r.report.notes)
