@@ -48,9 +48,15 @@ class ColumnProfile:
         return self.filled > 0 and self.number + self.time >= 0.5 * self.filled
 
 
+#: Data rows examined when guessing the columns' roles (every row is still read and checked).
+PROFILE_ROWS = 2000
+
+
 def profile_columns(
     columns: Sequence[Column], data: Sequence[Sequence[object]], fmt: NumberFormat
 ) -> list[ColumnProfile]:
+    """Cell-kind counts per column, from the first ``PROFILE_ROWS`` data rows."""
+    data = data[:PROFILE_ROWS]
     out = []
     for c in columns:
         counts = {"number": 0, "time": 0, "text": 0, "blank": 0}

@@ -27,6 +27,9 @@ _AMBIGUOUS_COMMA = re.compile(r"[+-]?\d{1,3}(?:,\d{3})+")
 _AMBIGUOUS_POINT = re.compile(r"[+-]?\d{1,3}(?:\.\d{3})+")
 
 
+_DIGIT_START = frozenset("0123456789.")
+
+
 @dataclass(frozen=True)
 class NumberFormat:
     """The decimal mark of a file and whether grouped thousands were seen (for the report)."""
@@ -46,6 +49,14 @@ def parse_number(text: str, fmt: NumberFormat) -> float | None:
     if not s or len(s) > 64:
         return None
     dec = fmt.decimal
+    if dec == "." and s.isascii() and "_" not in s and (s[-1:].isdigit() or s[-1:] == "."):
+        # Fast path for the common case; float() alone would also take "1_0", "inf" or non-ASCII digits.
+        try:
+            x = float(s)
+        except ValueError:
+            x = None
+        if x is not None and s.lstrip("+-")[:1] in _DIGIT_START:
+            return x if abs(x) != float("inf") else None
     if _PLAIN[dec].fullmatch(s):
         return _finite(s.replace(",", ".") if dec == "," else s)
     m = _GROUPED[dec].fullmatch(s)
