@@ -151,6 +151,7 @@ def _fix_zip_times(path: str) -> None:
 
 def main(folder: str = HERE) -> None:
     """Write every demo file into ``folder`` (by default, this one)."""
+    os.makedirs(folder, exist_ok=True)
     rng = np.random.default_rng(SEED)
     algae = algae_photobioreactor(rng)
     census = island_census(rng)

@@ -255,6 +255,12 @@ CASES = [
     Case("footer", "footer.csv", "t,N\n0,1\n1,2\n2,4\n\nMean,2.3\n", _check_footer),
     Case("crlf-quoted", "crlf.csv", SIMPLE.replace("\n", "\r\n").replace("Time (h)", '"Time (h)"'), _check_crlf_quoted),
     Case("too-few-one-series", "few.csv", "g,t,N\na,0,1\na,1,2\na,2,3\nb,0,1\nb,1,2\n", _check_too_few_one_series),
+    Case("title-with-commas-semicolon", "titled-de.csv", "Pilotreaktor B, Lauf 3\nZeit (h);Wert\n0;1,25\n0,5;2,5\n1,5;1,5\n",
+         lambda r: (r.report.delimiter == ";" and values(r) == ([0.0, 0.5, 1.5], [1.25, 2.5, 1.5])) or pytest.fail(str(values(r)))),
+    Case("space-thousands-decimal-comma", "fr.csv", "Temps (j);Cellules\n0;1 250,5\n1;2 500,25\n2;10 000\n",
+         lambda r: (values(r)[1] == [1250.5, 2500.25, 10000.0] and r.report.thousands == " ") or pytest.fail(str(values(r)))),
+    Case("quoted-newline-header", "quoted.csv", '"Time\n(h)",N\n0,1\n1,2\n2,3\n',
+         lambda r: (r.series[0].time_unit == "h" and r.series[0].rows == (2, 3, 4)) or pytest.fail(str(r.series[0]))),
     # Refusals: (fragment, ...) must all appear in the one-line message.
     Case("empty", "empty.csv", b"", refuse=("empty.csv", "empty")),
     Case("whitespace-only", "blank.csv", "  \n\n \n", refuse=("blank.csv", "no text")),

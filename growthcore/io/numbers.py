@@ -21,8 +21,8 @@ _GROUPED = {
     ".": re.compile(r"[+-]?\d{1,3}(?P<sep>[,'\u00a0\u202f ])\d{3}(?:(?P=sep)\d{3})*(?:\.\d*)?"),
     ",": re.compile(r"[+-]?\d{1,3}(?P<sep>[.'\u00a0\u202f ])\d{3}(?:(?P=sep)\d{3})*(?:,\d*)?"),
 }
-_STRONG_COMMA = re.compile(r"[+-]?\d*,\d+(?:[eE][+-]?\d+)?|[+-]?\d{1,3}(?:\.\d{3})+,\d*")
-_STRONG_POINT = re.compile(r"[+-]?\d*\.\d+(?:[eE][+-]?\d+)?|[+-]?\d{1,3}(?:,\d{3})+\.\d*")
+_STRONG_COMMA = re.compile(r"[+-]?\d*,\d+(?:[eE][+-]?\d+)?|[+-]?\d{1,3}(?:[.'\u00a0\u202f ]\d{3})+,\d*")
+_STRONG_POINT = re.compile(r"[+-]?\d*\.\d+(?:[eE][+-]?\d+)?|[+-]?\d{1,3}(?:[,'\u00a0\u202f ]\d{3})+\.\d*")
 _AMBIGUOUS_COMMA = re.compile(r"[+-]?\d{1,3}(?:,\d{3})+")
 _AMBIGUOUS_POINT = re.compile(r"[+-]?\d{1,3}(?:\.\d{3})+")
 

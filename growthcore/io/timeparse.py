@@ -12,7 +12,7 @@ from __future__ import annotations
 import datetime as dt
 import re
 from dataclasses import dataclass, field
-from typing import Sequence
+from typing import Callable, Sequence
 
 from growthcore.io.numbers import NumberFormat, is_missing, parse_number
 
@@ -317,7 +317,14 @@ def _instant(moment: dt.datetime) -> float:
     return (moment - dt.datetime(1970, 1, 1)).total_seconds()
 
 
-def _take(p, kind, convert, values, reasons, column_kind) -> None:  # type: ignore[no-untyped-def]
+def _take(
+    p: TimeCell | str | None,
+    kind: str,
+    convert: Callable[[TimeCell], float],
+    values: list[float | None],
+    reasons: list[str],
+    column_kind: str,
+) -> None:
     if p is None:
         values.append(None)
         reasons.append("blank time")
