@@ -112,3 +112,11 @@ def test_ambiguous_slash_dates_noted() -> None:
     r = load_bytes(text.encode(), "amb.csv")
     assert list(r.series[0].t) == [0.0, 1.0, 2.0]  # day first: 1, 2, 3 February
     assert "read as day/month/year" in "\n".join(r.report.notes)
+
+
+def test_left_out_keeps_the_cell_as_written_and_in_row_order() -> None:
+    text = "Zeit (h);Wert\n0;0,1\n1;x\n1;0,2\n1;0,25\n2;0,3\n3;0,4\n"
+    r = load_bytes(text.encode(), "de.csv")
+    assert r.series[0].time_column == "Zeit (h)"
+    assert [(x.row, x.value) for x in r.report.left_out] == [(3, "x"), (5, "0,25")]
+    assert "time column 'Zeit (h)' chosen by its header" in r.report.notes

@@ -13,7 +13,8 @@ from growthcore.io.numbers import NumberFormat
 _TIME_WORDS = re.compile(
     r"^(t|time|times|elapsed|elapsed time|date|datetime|date time|date/time|timestamp|"
     r"hour|hours|day|days|minute|minutes|min|year|years|yr|week|weeks|age|clock|"
-    r"sampling time|sample time|time point|timepoint|run time|runtime)$",
+    r"sampling time|sample time|time point|timepoint|run time|runtime|"
+    r"zeit|datum|tag|tage|temps|date et heure|jour|jours|tiempo|fecha|tempo|tijd)$",
     re.IGNORECASE,
 )
 _SERIES_WORDS = re.compile(

@@ -109,6 +109,7 @@ class _Point:
     row: int
     t: float
     p: float
+    raw: str = ""
 
 
 class _Builder:
@@ -195,7 +196,8 @@ class _Builder:
                 key = _label(sid)
                 pv = self._value(r, i, vcol, fmt, rownums, data_idx)
                 if pv is not None:
-                    by_id.setdefault(key, []).append(_Point(rownums[i], conv.values[i], pv))  # type: ignore[arg-type]
+                    raw = _label(_cell(r, vcol.index))
+                    by_id.setdefault(key, []).append(_Point(rownums[i], conv.values[i], pv, raw))  # type: ignore[arg-type]
                 else:
                     by_id.setdefault(key, [])
             groups = [(k, vcol, pts) for k, pts in by_id.items()]
@@ -207,7 +209,8 @@ class _Builder:
                         continue
                     pv = self._value(r, i, vcol, fmt, rownums, data_idx)
                     if pv is not None:
-                        pts.append(_Point(rownums[i], conv.values[i], pv))  # type: ignore[arg-type]
+                        raw = _label(_cell(r, vcol.index))
+                        pts.append(_Point(rownums[i], conv.values[i], pv, raw))  # type: ignore[arg-type]
                 groups.append((vcol.name, vcol, pts))
 
         out_series: list[Series] = []
@@ -239,7 +242,7 @@ class _Builder:
             layout=layout.layout,
             rows_read=len(rows),
             series=tuple(summaries),
-            left_out=tuple(self.left_out),
+            left_out=tuple(sorted(self.left_out, key=lambda x: x.row if x.row is not None else 0)),
             notes=tuple(self.notes),
         )
         return ImportResult(series=tuple(out_series), report=report)
@@ -316,7 +319,7 @@ class _Builder:
                 for g in group[1:]:
                     self.left_out.append(
                         LeftOut(
-                            g.row, vcol.label, _num(g.p),
+                            g.row, vcol.label, g.raw or _num(g.p),
                             f"duplicate time t = {g.t:g} in series {sname!r} (first at row {group[0].row}); "
                             "ask for averaging to combine repeated values",
                         )
@@ -330,7 +333,7 @@ class _Builder:
         if len(merged) < MIN_POINTS:
             for g in merged:
                 self.left_out.append(
-                    LeftOut(g.row, vcol.label, _num(g.p),
+                    LeftOut(g.row, vcol.label, g.raw or _num(g.p),
                             f"series {sname!r} has only {len(merged)} usable point(s); at least {MIN_POINTS} are needed")
                 )
             self.notes.append(f"series {sname!r} not read: only {len(merged)} usable point(s)")
