@@ -1,0 +1,48 @@
+"""Cobweb diagram data for a fitted map p_{n+1} = f(p_n): the map, the diagonal and the staircase."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any, Mapping
+
+import numpy as np
+
+from growthcore.fit.simulate import iterate
+from growthcore.models.base import DifferenceForm
+
+Array = np.ndarray
+
+
+@dataclass(frozen=True)
+class Cobweb:
+    """``p`` and ``f`` trace the map; ``stairs_x``, ``stairs_y`` the path (p_0, 0) → (p_0, p_1) → (p_1, p_1) → ..."""
+
+    p: Array
+    f: Array
+    stairs_x: Array
+    stairs_y: Array
+    orbit: Array
+    equilibria: tuple[Mapping[str, Any], ...]
+
+    def to_dict(self) -> dict[str, Any]:
+        clean = lambda a: [float(v) if np.isfinite(v) else None for v in a]  # noqa: E731
+        return {"p": clean(self.p), "f": clean(self.f), "stairs_x": clean(self.stairs_x),
+                "stairs_y": clean(self.stairs_y), "orbit": clean(self.orbit),
+                "equilibria": [dict(e) for e in self.equilibria]}
+
+
+def cobweb(form: DifferenceForm, values: Mapping[str, float], start: float, *, upper: float, steps: int = 60,
+           points: int = 400, equilibria: tuple[Mapping[str, Any], ...] = ()) -> Cobweb:
+    """The map on [0, ``upper``] and ``steps`` steps of the staircase from ``start``."""
+    lo = 1e-9 * upper if form.needs_positive else 0.0
+    p = np.linspace(lo, upper, points)
+    with np.errstate(all="ignore"):
+        f = form.next_state(p, values)
+    orbit = iterate(form, start, values, steps)
+    orbit = orbit[: int(np.argmax(~np.isfinite(orbit))) or orbit.size] if not np.all(np.isfinite(orbit)) else orbit
+    xs = [float(orbit[0])]
+    ys = [0.0]
+    for a, b in zip(orbit[:-1], orbit[1:]):
+        xs += [float(a), float(b)]
+        ys += [float(b), float(b)]
+    return Cobweb(p, f, np.array(xs), np.array(ys), orbit, tuple(equilibria))

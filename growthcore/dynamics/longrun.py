@@ -1,0 +1,140 @@
+"""Long-run behaviour of a map p_{n+1} = f(p_n), classified for many parameter sets at once.
+
+Notes
+-----
+The map is iterated from a start for ``transient`` steps, then ``keep`` further states are read:
+
+- extinction: the state falls to (numerically) zero or below;
+- unbounded: the state overflows, or keeps rising without slowing down;
+- a fixed point when the tail no longer moves: monotone approach when f'(p*) ≥ 0,
+  damped oscillation when f'(p*) < 0 (the deviation changes sign every step);
+- a cycle of period q when p_{n+q} = p_n across the tail, for the smallest such q ≤ ``max_period``;
+- chaos when no period is found and the Lyapunov exponent λ = mean ln|f'(p_n)| over the tail is
+  positive (λ > ``CHAOS_THRESHOLD``).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any, Mapping
+
+import numpy as np
+
+from growthcore.fit.simulate import iterate
+from growthcore.models.base import DifferenceForm
+
+Array = np.ndarray
+KINDS: tuple[str, ...] = ("monotone", "damped-oscillation", "cycle", "chaos", "unbounded", "extinction")
+#: Lyapunov exponents below this count as zero: finite tails give small positive values at neutral cycles.
+CHAOS_THRESHOLD = 1e-3
+TRANSIENT = 4000
+KEEP = 2048
+MAX_PERIOD = 64
+#: Relative tolerance (to the state scale) for "the tail no longer moves" and "p_{n+q} = p_n".
+TOL = 1e-7
+
+
+@dataclass(frozen=True)
+class LongRun:
+    """The long-run behaviour of one parameter set; ``states`` are the cycle's states (one for a fixed point)."""
+
+    kind: str
+    period: int | None
+    lyapunov: float | None
+    states: tuple[float, ...]
+    start: float
+
+    def to_dict(self) -> dict[str, Any]:
+        lyap = self.lyapunov if self.lyapunov is not None and math.isfinite(self.lyapunov) else None
+        return {"kind": self.kind, "period": self.period, "lyapunov": lyap,
+                "states": [float(s) for s in self.states], "start": float(self.start)}
+
+
+@dataclass(frozen=True)
+class LongRunBatch:
+    """Long-run behaviour for m parameter sets: ``kind`` holds indices into ``KINDS``; period 0 = none."""
+
+    kind: Array
+    period: Array
+    lyapunov: Array
+    tail: Array  # (keep, m)
+    start: float
+
+    def kinds(self) -> list[str]:
+        return [KINDS[int(k)] for k in self.kind]
+
+    def item(self, j: int) -> LongRun:
+        kind = KINDS[int(self.kind[j])]
+        period = int(self.period[j]) or None
+        tail = self.tail[:, j]
+        if kind in ("monotone", "damped-oscillation"):
+            states: tuple[float, ...] = (float(tail[-1]),)
+        elif kind == "cycle" and period:
+            states = tuple(sorted(float(s) for s in tail[-period:]))
+        else:
+            states = ()
+        lyap = float(self.lyapunov[j])
+        return LongRun(kind, period, lyap if math.isfinite(lyap) else None, states, self.start)
+
+
+def classify(
+    form: DifferenceForm,
+    values: Mapping[str, Array | float],
+    start: float | Array,
+    *,
+    scale: float,
+    transient: int = TRANSIENT,
+    keep: int = KEEP,
+    max_period: int = MAX_PERIOD,
+) -> LongRunBatch:
+    """Classify the long run of ``form`` from ``start`` for every parameter set that ``values`` holds.
+
+    ``scale`` is a typical state (the largest observation or K): tolerances are relative to it.
+    ``start`` may be an array (one start per parameter set, e.g. a fitted p0); it broadcasts like a constant.
+    """
+    scale = abs(float(scale)) or 1.0
+    path = iterate(form, start, values, transient + keep)
+    if path.ndim == 1:
+        path = path[:, None]
+    m = path.shape[1]
+    tail = path[-keep:]
+    with np.errstate(all="ignore"):
+        finite_all = np.all(np.isfinite(path), axis=0)
+        # the first non-positive state ends a population: after it the form is outside its meaning
+        low = np.where(np.isfinite(path), path <= 1e-12 * scale, False)
+        first_low = np.where(low.any(axis=0), low.argmax(axis=0), path.shape[0])
+        bad = ~np.isfinite(path)
+        first_bad = np.where(bad.any(axis=0), bad.argmax(axis=0), path.shape[0])
+        extinct = first_low < first_bad
+        huge = ~extinct & (~finite_all | np.any(np.abs(tail) > 1e12 * scale, axis=0))
+        d = np.diff(tail[-max(3, keep // 4):], axis=0)
+        rising = np.all(d > 0, axis=0) & (d[-1] >= d[0] * (1.0 - 1e-9))
+        unbounded = huge | (~extinct & rising & (np.abs(d[-1]) > TOL * scale))
+        window = tail[-2 * max_period:]
+        period = np.zeros(m, dtype=int)
+        for q in range(max_period, 0, -1):
+            # descending, so the smallest matching q is kept; a fixed point also matches every q
+            gap = np.abs(window[q:] - window[:-q])
+            moved = np.max(np.where(np.isnan(gap), np.inf, gap), axis=0)
+            period = np.where(moved <= TOL * max(scale, 1e-300) * 10.0, q, period)
+        deriv = np.abs(form.next_state_dp(tail, values))
+        lyap = np.mean(np.log(np.where(deriv > 0, deriv, 1e-300)), axis=0)
+        slope = form.next_state_dp(tail[-1:], values)[0]
+    kind = np.full(m, KINDS.index("chaos"))
+    fixed_point = period == 1
+    kind = np.where(fixed_point & (slope >= 0), KINDS.index("monotone"), kind)
+    kind = np.where(fixed_point & (slope < 0), KINDS.index("damped-oscillation"), kind)
+    kind = np.where(period > 1, KINDS.index("cycle"), kind)
+    not_chaotic = (period == 0) & ~(lyap > CHAOS_THRESHOLD)
+    kind = np.where(not_chaotic, KINDS.index("cycle"), kind)  # a long or not yet settled cycle
+    kind = np.where(unbounded, KINDS.index("unbounded"), kind)
+    kind = np.where(extinct, KINDS.index("extinction"), kind)
+    period = np.where(kind == KINDS.index("cycle"), period, 0)
+    lyap = np.where(extinct | unbounded, np.nan, lyap)
+    return LongRunBatch(kind.astype(int), period, lyap, tail, float(np.median(start)))
+
+
+def long_run(form: DifferenceForm, values: Mapping[str, float], start: float, *, scale: float, **options: int) -> LongRun:
+    """The long-run behaviour for one parameter set (see :func:`classify`)."""
+    return classify(form, values, start, scale=scale, **options).item(0)

@@ -1,0 +1,79 @@
+"""Sweep data (a bifurcation diagram): long-run states against the rate constant, the others held at
+their estimates, with the fitted value and its interval to be marked."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from growthcore.dynamics.longrun import KINDS, classify
+from growthcore.dynamics.regimes import rate_parameter, state_scale
+from growthcore.fit.result import FitResult
+from growthcore.models.base import DifferenceForm
+
+Array = np.ndarray
+
+
+@dataclass(frozen=True)
+class Sweep:
+    """``rate`` × ``states`` are the points to plot (up to ``shown`` late states per rate value);
+    ``grid`` and ``kinds`` give the regime at each rate value."""
+
+    parameter: str
+    grid: Array
+    kinds: tuple[str, ...]
+    periods: tuple[int | None, ...]
+    lyapunov: Array
+    rate: Array
+    states: Array
+    estimate: float
+    interval: tuple[float, float] | None
+
+    def to_dict(self) -> dict[str, Any]:
+        clean = lambda a: [float(v) if np.isfinite(v) else None for v in a]  # noqa: E731
+        return {"parameter": self.parameter, "grid": clean(self.grid), "kinds": list(self.kinds),
+                "periods": list(self.periods), "lyapunov": clean(self.lyapunov), "rate": clean(self.rate),
+                "states": clean(self.states), "estimate": self.estimate,
+                "interval": list(self.interval) if self.interval else None}
+
+
+def sweep_range(result: FitResult, parameter: str, interval: tuple[float, float] | None) -> tuple[float, float]:
+    """From the lower bound (or 0) to well past the estimate and its interval: for r at least 0..3."""
+    assert result.form is not None
+    spec = result.form.spec(parameter)
+    value = result.values[parameter]
+    lo = max(spec.lower, 0.0) if math.isfinite(spec.lower) else min(0.0, 2.0 * value)
+    top = max(2.0 * abs(value), 1.25 * interval[1] if interval else 0.0, 3.0 if parameter == "r" else 0.0)
+    if parameter == "lambda":
+        lo = max(lo, 1e-3)
+    return lo, min(top, spec.upper) if math.isfinite(spec.upper) else top
+
+
+def sweep(result: FitResult, *, parameter: str | None = None, interval: tuple[float, float] | None = None,
+          points: int = 300, shown: int = 64, span: tuple[float, float] | None = None) -> Sweep | None:
+    """Long-run states over ``points`` values of the rate; None for curves or forms without a rate.
+
+    ``interval`` defaults to the t-based 95% interval of the rate; pass the bootstrap interval when there is one.
+    """
+    form = result.form
+    name = parameter or rate_parameter(result)
+    if not result.success or not isinstance(form, DifferenceForm) or name is None:
+        return None
+    if interval is None:
+        interval = result.parameter(name).ci95
+    lo, hi = span or sweep_range(result, name, interval)
+    grid = np.linspace(lo, hi, points)
+    values: dict[str, Any] = dict(result.values)
+    values[name] = grid
+    batch = classify(form, values, result.start_level, scale=state_scale(result), transient=1500, keep=max(shown, 256))
+    late = batch.tail[-shown:]
+    rate = np.broadcast_to(grid, late.shape).reshape(-1)
+    states = late.reshape(-1)
+    keep = np.isfinite(states) & (np.abs(states) < 1e6 * state_scale(result))
+    kinds = tuple(KINDS[int(k)] for k in batch.kind)
+    periods = tuple(int(p) or None for p in batch.period)
+    return Sweep(name, grid, kinds, periods, batch.lyapunov, rate[keep], states[keep],
+                 float(result.values[name]), tuple(interval) if interval else None)

@@ -1,0 +1,91 @@
+"""Percentile intervals for what the fitted constants imply: doubling time, lag time, inflection,
+maximum rate, and the time to reach a level or a fraction of K.
+
+Each converged bootstrap refit is put back into the result and passed through the same functions
+that give the point values (growthcore.derived), so estimate and interval cannot disagree in method.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+from typing import Any, Mapping, Sequence
+
+import numpy as np
+
+from growthcore.derived import derived_quantities, time_to_reach
+from growthcore.fit.result import FitResult
+from growthcore.uncertainty.bootstrap import BootstrapResult
+
+Array = np.ndarray
+#: Refits used for derived quantities: each costs a few milliseconds, so a large bootstrap is thinned.
+DEFAULT_DRAWS = 200
+#: How far past the first time to look for a level, in spans of the data (derived.time_to_reach looks 100).
+HORIZON_SPANS = 20.0
+SCALARS: tuple[str, ...] = ("k", "growth_factor_per_step", "doubling_time", "specific_rate_at_start",
+                            "inflection_state", "inflection_time", "max_rate", "lag_time")
+
+
+def with_values(result: FitResult, values: Mapping[str, float]) -> FitResult:
+    """A copy of ``result`` with some constants replaced (for re-deriving quantities)."""
+    params = tuple(replace(p, value=float(values[p.name])) if p.name in values else p for p in result.parameters)
+    return replace(result, parameters=params)
+
+
+def _targets(result: FitResult, levels: Sequence[float], fractions: Sequence[float]) -> list[tuple[str, Any]]:
+    out: list[tuple[str, Any]] = [(f"time_to_level_{lvl:g}", ("level", float(lvl))) for lvl in levels]
+    if "K" in result.values:
+        out += [(f"time_to_{100 * f:g}pct_K", ("fraction", float(f))) for f in fractions]
+    return out
+
+
+def _quantities(fit: FitResult, targets: list[tuple[str, Any]], horizon: float | None) -> dict[str, float]:
+    d = derived_quantities(fit)
+    out = {name: float(d[name]) for name in SCALARS if isinstance(d.get(name), (int, float))}
+    for name, (kind, x) in targets:
+        level = x if kind == "level" else x * fit.values["K"]
+        out[name] = time_to_reach(fit, level, horizon=horizon)
+    return out
+
+
+def derived_intervals(
+    result: FitResult,
+    boot: BootstrapResult | None = None,
+    *,
+    levels: Sequence[float] = (),
+    fractions: Sequence[float] = (0.5, 0.9),
+    max_draws: int = DEFAULT_DRAWS,
+    horizon: float | None = None,
+    level: float = 0.95,
+) -> dict[str, dict[str, Any]]:
+    """name → {"value", "ci95" ([lo, hi] or None), "defined" (refits where it exists), "draws"}.
+
+    ``levels`` are states to reach; ``fractions`` are fractions of K to reach (forms with K only),
+    looked for up to ``horizon`` (default: 20 spans of the data past the first time).
+    Without ``boot`` only the values are given. An interval needs at least 20 refits where the
+    quantity exists; where only some refits give it, ``defined`` says how many.
+    """
+    if not result.success:
+        return {}
+    targets = _targets(result, levels, fractions)
+    if horizon is None and result.t.size > 1:
+        t_first = float(result.settings.get("t_first", result.t[0]))
+        horizon = t_first + HORIZON_SPANS * float(np.ptp(result.t))
+    point = _quantities(result, targets, horizon)
+    rows: list[dict[str, float]] = []
+    if boot is not None and boot.done:
+        good = boot.good()
+        count = len(next(iter(good.values()), []))
+        pick = np.unique(np.linspace(0, count - 1, min(count, max_draws)).astype(int)) if count else np.zeros(0, int)
+        for j in pick:
+            rows.append(_quantities(with_values(result, {n: float(v[j]) for n, v in good.items()}), targets, horizon))
+    tail = 50.0 * (1.0 - level)
+    out: dict[str, dict[str, Any]] = {}
+    for name in dict.fromkeys([*point, *(k for r in rows for k in r)]):
+        value = point.get(name, math.nan)
+        draws = np.array([r.get(name, math.nan) for r in rows], dtype=float)
+        finite = draws[np.isfinite(draws)]
+        ci = [float(v) for v in np.percentile(finite, [tail, 100.0 - tail])] if finite.size >= 20 else None
+        out[name] = {"value": float(value) if math.isfinite(value) else None, "ci95": ci,
+                     "defined": int(finite.size), "draws": int(draws.size)}
+    return out
