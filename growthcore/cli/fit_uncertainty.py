@@ -1,17 +1,104 @@
-"""Options of ``growthcore fit`` for bootstrap intervals, dynamics and forecasts."""
+"""Options of ``growthcore fit`` for bootstrap intervals, dynamics and forecasts.
+
+Every converged fit gains ``dynamics`` (equilibria, long run, sentences); with ``--bootstrap`` each
+free constant gains ``ci95_bootstrap`` and the fit a ``bootstrap`` summary and ``derived_intervals``;
+with ``--forecast`` or ``--forecast-span`` the fit gains ``forecast`` points and ``forecast_notes``.
+"""
 
 from __future__ import annotations
 
 import argparse
+import sys
 from typing import Any, Sequence
 
 from growthcore.data import Series
+from growthcore.dynamics import analyse
+from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import FitResult
+from growthcore.uncertainty import (DEFAULT_RESAMPLES, DEFAULT_SEED, FORECAST_CAUTION, BootstrapResult, bootstrap,
+                                    derived_intervals, forecast)
 
 
 def add_options(p: argparse.ArgumentParser) -> None:
     """Add this module's options to the ``fit`` parser."""
+    g = p.add_argument_group("uncertainty, dynamics and forecast")
+    g.add_argument("--bootstrap", nargs="?", type=int, const=DEFAULT_RESAMPLES, default=None, metavar="N",
+                   help=f"bootstrap intervals from N residual resamples (default N: {DEFAULT_RESAMPLES})")
+    g.add_argument("--seed", type=int, default=DEFAULT_SEED, metavar="S", help="seed of the resampling (default %(default)s)")
+    g.add_argument("--forecast", type=int, metavar="STEPS", help="forecast STEPS steps past the last observation")
+    g.add_argument("--forecast-span", type=float, metavar="T", help="forecast a time span T past the last observation")
+    g.add_argument("--bound", type=float, metavar="B", help="plausibility bound on the state: report when the forecast passes it")
+    g.add_argument("--level", type=float, action="append", default=[], metavar="P",
+                   help="report the time to reach state P, with its interval (repeatable)")
+
+
+def _check(args: argparse.Namespace) -> None:
+    if args.bootstrap is not None and args.bootstrap < 1:
+        raise GrowthcoreInputError(f"--bootstrap needs a positive number of resamples; got {args.bootstrap}")
+    if args.forecast is not None and args.forecast_span is not None:
+        raise GrowthcoreInputError("give --forecast STEPS or --forecast-span T, not both")
+    if args.forecast is not None and args.forecast < 1:
+        raise GrowthcoreInputError(f"--forecast needs at least 1 step; got {args.forecast}")
+    if args.forecast_span is not None and not args.forecast_span > 0:
+        raise GrowthcoreInputError(f"--forecast-span needs a positive time span; got {args.forecast_span}")
+
+
+def _one(args: argparse.Namespace, series: Series, result: FitResult, out: dict[str, Any]) -> list[str]:
+    """Fill the fit dict ``out``; return lines for the user."""
+    lines: list[str] = []
+    if not result.success:
+        out["dynamics"] = None
+        return lines
+    boot: BootstrapResult | None = None
+    if args.bootstrap:
+        boot = bootstrap(result, series=series, resamples=args.bootstrap, seed=args.seed)
+        out["bootstrap"] = boot.summary()
+        for name, ci in boot.intervals().items():
+            if name in out["parameters"]:
+                out["parameters"][name]["ci95_bootstrap"] = list(ci) if ci else None
+        if boot.message:
+            lines.append(f"{result.model} ({result.method}): bootstrap: {boot.message}")
+    out["derived_intervals"] = derived_intervals(result, boot, levels=args.level)
+    dyn = analyse(result, samples=boot.good() if boot is not None and boot.ok.sum() else None)
+    out["dynamics"] = dyn.to_dict() if dyn is not None else None
+    if dyn is not None:
+        lines += [f"{result.model} ({result.method}): {s}" for s in dyn.sentences]
+    if args.forecast is not None or args.forecast_span is not None:
+        fc = forecast(result, steps=args.forecast, span=args.forecast_span, boot=boot, series=series,
+                      bound=args.bound, seed=args.seed)
+        out["forecast"] = fc.points()
+        out["forecast_notes"] = {k: v for k, v in fc.to_dict().items() if k != "points"}
+        lines += [f"{result.model} ({result.method}): forecast: {w}" for w in fc.warnings]
+    return lines
 
 
 def apply(args: argparse.Namespace, series: Series, fits: Sequence[FitResult], record: dict[str, Any]) -> None:
-    """Add to ``record`` (and write files) after the fits are made."""
+    """Add dynamics, bootstrap intervals and forecasts to the fit dicts (record["fits"][i] is fits[i])."""
+    _check(args)
+    lines: list[str] = []
+    for result, out in zip(fits, record["fits"]):
+        lines += _one(args, series, result, out)
+    if args.bootstrap:
+        _mark_comparison(record)
+    forecasting = args.forecast is not None or args.forecast_span is not None
+    record.setdefault("settings", {}).update({
+        "bootstrap": args.bootstrap, "seed": args.seed, "forecast_steps": args.forecast,
+        "forecast_span": args.forecast_span, "bound": args.bound, "levels": list(args.level)})
+    record["caution"] = FORECAST_CAUTION
+    for line in lines:
+        print(line, file=sys.stderr)
+    if forecasting:
+        print(f"caution: {FORECAST_CAUTION}", file=sys.stderr)
+
+
+def _mark_comparison(record: dict[str, Any]) -> None:
+    """Copy the bootstrap intervals into the comparison rows (matched by model, method and error)."""
+    by_key = {(f["model"], f["method"], f["error"]): f for f in record.get("fits", [])}
+    for row in record.get("comparison", {}).get("rows", []):
+        fit_dict = by_key.get((row.get("model"), row.get("method"), row.get("error")))
+        if fit_dict is None:
+            continue
+        for name, p in row.get("parameters", {}).items():
+            ci = fit_dict["parameters"].get(name, {}).get("ci95_bootstrap")
+            if ci is not None:
+                p["ci95_bootstrap"] = ci

@@ -76,6 +76,10 @@ def _multiplier_at(equilibria: Sequence[Mapping[str, Any]], level: float) -> flo
     return best.get("multiplier") if best is not None else None
 
 
+def _percent(share: float) -> str:
+    return "under 1%" if 0 < share < 0.005 else f"{100 * share:.0f}%"
+
+
 def _interval_sentence(regimes: RegimeShares, lr: LongRun) -> str:
     from growthcore.dynamics.regimes import regime_label
 
@@ -86,6 +90,6 @@ def _interval_sentence(regimes: RegimeShares, lr: LongRun) -> str:
     unit = "of bootstrap refits" if regimes.source == "bootstrap" else "of the interval"
     if not others:
         return f"Within the 95% interval{span} the long-run behaviour is the same throughout."
-    parts = [f"{phrase(label)} ({100 * share:.0f}% {unit})" for label, share in others]
+    parts = [f"{phrase(label)} ({_percent(share)} {unit})" for label, share in others]
     listed = parts[0] if len(parts) == 1 else ", ".join(parts[:-1]) + " or " + parts[-1]
     return f"Within the 95% interval{span} the model could also {listed}."

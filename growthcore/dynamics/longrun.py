@@ -6,7 +6,8 @@ The map is iterated from a start for ``transient`` steps, then ``keep`` further 
 
 - extinction: the state falls to (numerically) zero or below;
 - unbounded: the state overflows, or keeps rising without slowing down;
-- a fixed point when the tail no longer moves: monotone approach when f'(p*) ≥ 0,
+- a fixed point when the tail no longer moves (or still moves one way only, slowly): monotone
+  approach when f'(p*) ≥ 0,
   damped oscillation when f'(p*) < 0 (the deviation changes sign every step);
 - a cycle of period q when p_{n+q} = p_n across the tail, for the smallest such q ≤ ``max_period``;
 - chaos when no period is found and the Lyapunov exponent λ = mean ln|f'(p_n)| over the tail is
@@ -128,6 +129,9 @@ def classify(
     kind = np.where(period > 1, KINDS.index("cycle"), kind)
     not_chaotic = (period == 0) & ~(lyap > CHAOS_THRESHOLD)
     kind = np.where(not_chaotic, KINDS.index("cycle"), kind)  # a long or not yet settled cycle
+    # a tail that still moves one way (a multiplier near 1) is a slow monotone approach, not a cycle
+    one_way = (period == 0) & (np.all(d > 0, axis=0) | np.all(d < 0, axis=0))
+    kind = np.where(one_way, KINDS.index("monotone"), kind)
     kind = np.where(unbounded, KINDS.index("unbounded"), kind)
     kind = np.where(extinct, KINDS.index("extinction"), kind)
     period = np.where(kind == KINDS.index("cycle"), period, 0)

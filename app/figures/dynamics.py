@@ -1,0 +1,139 @@
+"""Dynamics panels: the cobweb of a fitted map, the sweep (long-run states against the rate) and the
+forecast band drawn on the trajectory panel.
+
+Pure functions of the plain dicts the engine writes (``Cobweb.to_dict``, ``Sweep.to_dict``,
+``Forecast.points``), so they are tested without a browser. Colours are from the Okabe–Ito palette
+in app.theme; stable and unstable equilibria differ by marker fill as well as colour.
+"""
+
+from __future__ import annotations
+
+import copy
+from typing import Any, Mapping, Sequence
+
+from app import theme
+from app.figures.common import Figure, axis_title, base_layout, message_figure
+
+MAP = "#0072B2"        # blue: the fitted map and the sweep points
+PATH = "#E69F00"       # orange: the cobweb staircase
+BAND = "rgba(0, 114, 178, 0.18)"
+
+
+def _band_fill(colour: str, alpha: float = 0.18) -> str:
+    c = colour.lstrip("#")
+    if len(c) != 6:
+        return BAND
+    r, g, b = (int(c[i:i + 2], 16) for i in (0, 2, 4))
+    return f"rgba({r}, {g}, {b}, {alpha})"
+
+
+def cobweb_figure(web: Mapping[str, Any] | None, labels: Mapping[str, Any]) -> Figure:
+    """The map p ↦ f(p), the diagonal p_{n+1} = p_n, the staircase from the starting level and the
+    equilibria (filled: stable, open: unstable)."""
+    if not web or not web.get("p"):
+        return message_figure("The cobweb applies to difference equations: fit a difference form to see it.")
+    unit = labels.get("value_unit", "")
+    qty = labels.get("quantity", "state")
+    layout = base_layout(axis_title(f"{qty} at step n", unit), axis_title(f"{qty} at step n + 1", unit),
+                         uirevision=labels.get("uirevision"), title=labels.get("title", ""))
+    p = list(web["p"])
+    top = max((v for v in p if v is not None), default=1.0)
+    traces: list[dict[str, Any]] = [
+        {"type": "scatter", "mode": "lines", "x": [0.0, top], "y": [0.0, top], "name": "no change (p_{n+1} = p_n)",
+         "line": {"color": theme.REFERENCE, "dash": "dot", "width": 1.5}, "hoverinfo": "skip"},
+        {"type": "scatter", "mode": "lines", "x": p, "y": list(web["f"]), "name": "fitted map f(p)",
+         "line": {"color": MAP, "width": 2.5},
+         "hovertemplate": "p_n = %{x:.4g}<br>p_{n+1} = %{y:.4g}<extra>fitted map</extra>"},
+        {"type": "scatter", "mode": "lines", "x": list(web["stairs_x"]), "y": list(web["stairs_y"]),
+         "name": "path from the starting level", "line": {"color": PATH, "width": 1.5, "dash": "dash"},
+         "hoverinfo": "skip"},
+    ]
+    eq = [e for e in web.get("equilibria", ()) if e.get("value") is not None]
+    for stable in (True, False):
+        chosen = [e for e in eq if bool(e.get("stable")) == stable]
+        if not chosen:
+            continue
+        traces.append({
+            "type": "scatter", "mode": "markers", "x": [e["value"] for e in chosen], "y": [e["value"] for e in chosen],
+            "name": "stable equilibrium" if stable else "unstable equilibrium",
+            "marker": {"size": 11, "color": theme.CAPACITY if stable else theme.PAPER,
+                       "symbol": "circle" if stable else "circle-open",
+                       "line": {"width": 2, "color": theme.CAPACITY}},
+            "customdata": [[e.get("multiplier")] for e in chosen],
+            "hovertemplate": "p* = %{x:.4g}<br>f'(p*) = %{customdata[0]:.3g}<extra></extra>",
+        })
+    finite_f = [v for v in web["f"] if v is not None]
+    y_top = max([top, *finite_f]) if finite_f else top
+    layout["yaxis"]["range"] = [min(0.0, min(finite_f, default=0.0)), 1.05 * y_top]
+    layout["xaxis"]["range"] = [0.0, top]
+    return {"data": traces, "layout": layout}
+
+
+def sweep_figure(sweep: Mapping[str, Any] | None, labels: Mapping[str, Any]) -> Figure:
+    """Long-run states against the rate, with the fitted value (line) and its 95% interval (shaded)."""
+    if not sweep or not sweep.get("rate"):
+        return message_figure("The sweep applies to difference equations with a rate constant.")
+    name = sweep["parameter"]
+    unit = labels.get("rate_unit", "per step")
+    layout = base_layout(axis_title(f"rate {name}", unit), axis_title(f"long-run {labels.get('quantity', 'state')}",
+                                                                         labels.get("value_unit", "")),
+                         uirevision=labels.get("uirevision"), title=labels.get("title", ""))
+    traces: list[dict[str, Any]] = [{
+        "type": "scattergl", "mode": "markers", "x": list(sweep["rate"]), "y": list(sweep["states"]),
+        "name": "long-run states", "marker": {"size": 2, "color": MAP, "opacity": 0.6},
+        "hovertemplate": f"{name} = %{{x:.4g}}<br>state = %{{y:.4g}}<extra></extra>",
+    }]
+    shapes: list[dict[str, Any]] = []
+    interval = sweep.get("interval")
+    if interval and all(v is not None for v in interval):
+        shapes.append({"type": "rect", "xref": "x", "yref": "paper", "x0": interval[0], "x1": interval[1],
+                       "y0": 0, "y1": 1, "fillcolor": _band_fill(theme.CAPACITY, 0.15), "line": {"width": 0},
+                       "layer": "below"})
+    estimate = sweep.get("estimate")
+    if estimate is not None:
+        shapes.append({"type": "line", "xref": "x", "yref": "paper", "x0": estimate, "x1": estimate, "y0": 0, "y1": 1,
+                       "line": {"color": theme.CAPACITY, "width": 2}})
+        text = f"fitted {name} = {estimate:.4g}" + (
+            f"<br>95% interval {interval[0]:.4g} to {interval[1]:.4g}" if interval and None not in interval else "")
+        layout["annotations"] = [{"x": estimate, "xref": "x", "y": 1.0, "yref": "paper", "text": text,
+                                  "showarrow": False, "xanchor": "left", "yanchor": "top", "align": "left",
+                                  "font": {"size": 11, "color": theme.INK}, "bgcolor": "rgba(255,255,255,0.8)"}]
+    layout["shapes"] = shapes
+    return {"data": traces, "layout": layout}
+
+
+def forecast_band_traces(points: Sequence[Mapping[str, Any]], *, colour: str = MAP, name: str = "forecast",
+                         level: float = 0.95) -> list[dict[str, Any]]:
+    """Three traces: the band's lower edge, its upper edge filled down to it, and the point forecast."""
+    t = [pt["t"] for pt in points]
+    pct = f"{100 * level:.0f}%"
+    return [
+        {"type": "scatter", "mode": "lines", "x": t, "y": [pt["lo"] for pt in points], "name": f"{name}: {pct} band",
+         "line": {"width": 0, "color": colour}, "showlegend": False, "hoverinfo": "skip", "legendgroup": name},
+        {"type": "scatter", "mode": "lines", "x": t, "y": [pt["hi"] for pt in points],
+         "name": f"{name}: {pct} prediction band", "fill": "tonexty", "fillcolor": _band_fill(colour),
+         "line": {"width": 0, "color": colour}, "hoverinfo": "skip", "legendgroup": name},
+        {"type": "scatter", "mode": "lines+markers", "x": t, "y": [pt["p"] for pt in points], "name": name,
+         "line": {"color": colour, "dash": "dash", "width": 2}, "marker": {"size": 3, "color": colour},
+         "customdata": [[pt["lo"], pt["hi"]] for pt in points], "legendgroup": name,
+         "hovertemplate": "t = %{x:.4g}<br>forecast %{y:.4g}<br>band %{customdata[0]:.4g} to %{customdata[1]:.4g}"
+                          "<extra></extra>"},
+    ]
+
+
+def with_forecast_band(figure: Mapping[str, Any], points: Sequence[Mapping[str, Any]], *, colour: str = MAP,
+                       name: str = "forecast", level: float = 0.95, last_observed: float | None = None) -> Figure:
+    """A copy of ``figure`` (e.g. the trajectory panel) with the band added and, when given, a line
+    at the last observation so the extrapolated part is plain to see."""
+    out = copy.deepcopy(dict(figure))
+    out["data"] = [*out.get("data", []), *forecast_band_traces(points, colour=colour, name=name, level=level)]
+    if last_observed is not None:
+        layout = dict(out.get("layout", {}))
+        layout["shapes"] = [*layout.get("shapes", []), {
+            "type": "line", "xref": "x", "yref": "paper", "x0": last_observed, "x1": last_observed, "y0": 0, "y1": 1,
+            "line": {"color": theme.MUTED, "dash": "dot", "width": 1}}]
+        layout["annotations"] = [*layout.get("annotations", []), {
+            "x": last_observed, "xref": "x", "y": 0.02, "yref": "paper", "text": "forecast →", "showarrow": False,
+            "xanchor": "left", "font": {"size": 11, "color": theme.MUTED}}]
+        out["layout"] = layout
+    return out
