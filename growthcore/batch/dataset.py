@@ -1,0 +1,110 @@
+"""A multi-series data set: the series of one file (long or wide layout) and their groups."""
+
+from __future__ import annotations
+
+import os
+import re
+from dataclasses import dataclass, field
+from typing import Mapping, Sequence
+
+from growthcore.data import Series
+from growthcore.errors import GrowthcoreInputError, ImportFailure
+from growthcore.io import ImportReport, load_bytes
+from growthcore.batch.groups import groups_from_column, groups_from_pattern, members
+
+_NOT_READ = re.compile(r"^series (?P<name>'.*'|\".*\") not read: (?P<why>.*)$")
+
+
+@dataclass(frozen=True)
+class BatchData:
+    """Series to fit together, each with an optional group label.
+
+    ``not_read`` lists series the import left out (name, reason), so that a batch reports them
+    instead of losing them.
+    """
+
+    series: tuple[Series, ...]
+    groups: Mapping[str, str] = field(default_factory=dict)
+    source: str = ""
+    report: ImportReport | None = None
+    not_read: tuple[tuple[str, str], ...] = ()
+    notes: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        seen: set[str] = set()
+        for s in self.series:
+            if s.name in seen:
+                raise GrowthcoreInputError(f"two series are named {s.name!r}: series ids in a batch must be unique")
+            seen.add(s.name)
+
+    @property
+    def names(self) -> tuple[str, ...]:
+        return tuple(s.name for s in self.series)
+
+    def group_of(self, name: str) -> str | None:
+        return self.groups.get(name)
+
+    def members(self) -> dict[str, list[str]]:
+        """Series ids per group, in file order."""
+        return members(self.groups, self.names)
+
+    def get(self, name: str) -> Series:
+        for s in self.series:
+            if s.name == name:
+                return s
+        raise GrowthcoreInputError(f"no series named {name!r}; the batch has {', '.join(self.names[:20])}")
+
+
+def from_series(series: Sequence[Series], *, groups: Mapping[str, str] | None = None,
+                pattern: str | None = None, source: str = "") -> BatchData:
+    """A batch from series already in memory, grouped by a mapping or a pattern on the ids."""
+    names = [s.name for s in series]
+    notes: tuple[str, ...] = ()
+    if pattern is not None:
+        mapping, notes = groups_from_pattern(names, pattern)
+    else:
+        mapping = dict(groups or {})
+    return BatchData(tuple(series), mapping, source, None, (), notes)
+
+
+def load_batch(
+    path: str | os.PathLike[str],
+    *,
+    sheet: str | None = None,
+    time: str | None = None,
+    value: str | Sequence[str] | None = None,
+    series: str | None = None,
+    time_unit: str | None = None,
+    groups: str | None = None,
+    pattern: str | None = None,
+) -> BatchData:
+    """Every series of a file, grouped by a condition column (``groups``) or an id ``pattern``."""
+    if groups is not None and pattern is not None:
+        raise GrowthcoreInputError("give either a condition column (--groups) or a pattern (--pattern), not both")
+    name = os.path.basename(os.fspath(path))
+    try:
+        with open(path, "rb") as fh:
+            data = fh.read()
+    except OSError as exc:
+        raise ImportFailure(f"{name}: cannot be read ({exc.strerror or exc})") from None
+    imported = load_bytes(data, name, sheet=sheet, time=time, value=value, series=series, time_unit=time_unit)
+    names = [s.name for s in imported.series]
+    notes: list[str] = []
+    mapping: dict[str, str] = {}
+    if pattern is not None:
+        mapping, extra = groups_from_pattern(names, pattern)
+        notes.extend(extra)
+    elif groups is not None:
+        single = value if isinstance(value, str) or value is None else None
+        mapping, extra = groups_from_column(data, name, groups, sheet=sheet, time=time, value=single, series=series)
+        notes.extend(extra)
+        loose = [n for n in names if n not in mapping]
+        if loose:
+            notes.append(f"{len(loose)} series have no value in column {groups!r} and are in no group: "
+                         + ", ".join(loose[:10]) + (" ..." if len(loose) > 10 else ""))
+    not_read = []
+    for note in imported.report.notes:
+        m = _NOT_READ.match(note)
+        if m:
+            not_read.append((m.group("name")[1:-1], m.group("why")))
+    return BatchData(imported.series, mapping, name, imported.report, tuple(not_read), tuple(notes))

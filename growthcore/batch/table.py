@@ -1,0 +1,69 @@
+"""The batch as a table: one row per series and form, for CSV and JSON output."""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from growthcore.batch.runner import BatchResult, SeriesFit
+
+#: Metric columns, in order; all come from :class:`growthcore.stats.Metrics`.
+METRICS: tuple[str, ...] = ("n", "sse", "rmse", "r2", "r2_adjusted", "aic", "aicc", "bic")
+LEAD: tuple[str, ...] = ("series", "group", "model", "method", "error", "status", "message", "points_used")
+
+
+def _num(x: float | int | None) -> float | int | None:
+    if x is None:
+        return None
+    if isinstance(x, int):
+        return x
+    return float(x) if math.isfinite(x) else None
+
+
+def parameter_names(batch: BatchResult) -> list[str]:
+    """Every constant that any form of the batch has, in the order first met."""
+    names: list[str] = []
+    for f in batch.fits:
+        form = f.result.form
+        own = [p.name for p in f.result.parameters] or (list(form.param_names) if form is not None else [])
+        for n in own:
+            if n not in names:
+                names.append(n)
+    return names
+
+
+def row(fit: SeriesFit, params: list[str], used: int | None = None) -> dict[str, Any]:
+    """One flat row: ids, status and message, each constant and its SE, the metrics, notes."""
+    r = fit.result
+    out: dict[str, Any] = {
+        "series": fit.series, "group": fit.group, "model": r.model, "method": r.method, "error": r.error,
+        "status": r.status, "message": r.message, "points_used": used,
+    }
+    values = {p.name: p for p in r.parameters}
+    for n in params:
+        p = values.get(n)
+        out[n] = _num(p.value) if p is not None else None
+        out[f"{n}_se"] = _num(p.se) if p is not None else None
+    for m in METRICS:
+        out[m] = _num(getattr(r.metrics, m)) if r.metrics is not None else None
+    d = r.diagnostics
+    out["durbin_watson"] = _num(d.durbin_watson) if d is not None else None
+    out["runs_p"] = _num(d.runs_p) if d is not None else None
+    out["notes"] = "; ".join(r.notes)
+    out["solver"] = fit.path
+    return out
+
+
+def rows(batch: BatchResult) -> tuple[list[str], list[dict[str, Any]]]:
+    """Header and rows; series the import left out get one failed row per form."""
+    params = parameter_names(batch)
+    used = {s.name: int(s.used.sum()) for s in batch.data.series}
+    body = [row(f, params, used.get(f.series)) for f in batch.fits]
+    for name, why in batch.data.not_read:
+        for model in batch.models:
+            empty = {k: None for k in body[0]} if body else {}
+            body.append({**empty, "series": name, "group": batch.data.group_of(name), "model": model,
+                         "method": batch.method, "error": batch.error, "status": "failed",
+                         "message": f"not read from the file: {why}", "notes": "", "solver": "none"})
+    header = [*LEAD, *[c for n in params for c in (n, f"{n}_se")], *METRICS, "durbin_watson", "runs_p", "notes", "solver"]
+    return header, body
