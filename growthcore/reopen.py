@@ -11,7 +11,7 @@ import json
 import math
 import os
 from dataclasses import dataclass, field
-from typing import Any, Mapping, Sequence
+from typing import Any, Callable, Mapping, Sequence
 
 import numpy as np
 
@@ -20,9 +20,12 @@ from growthcore.compare import compare, comparison_notes
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import FitResult, fit
+from growthcore.fit.result import CapacityProfile, Grid, ParameterEstimate
 from growthcore.io.report import ImportReport
+from growthcore.models.catalogue import get_form
 from growthcore.record import FORMAT, DataSource, build_record, integrity_problem, seal
 from growthcore.schemas import available_versions, record_errors
+from growthcore.stats import Diagnostics, Metrics
 
 #: Records larger than this are refused before parsing (a record of 10⁵ points is about 20 MB).
 MAX_RECORD_BYTES = 64 * 1024 * 1024
@@ -31,8 +34,9 @@ MAX_RECORD_BYTES = 64 * 1024 * 1024
 RTOL = 1e-6
 #: Fit members that describe the fit rather than hold numbers to repeat.
 _TEXT_KEYS = frozenset({"message", "notes", "equation", "description", "unit", "warnings"})
-#: Fit members written by later steps; a plain refit does not remake them.
-_LATER_KEYS = ("dynamics", "forecast", "ci95_bootstrap")
+#: Members written by steps after the fit (growthcore.cli.fit_uncertainty); a plain refit does not
+#: remake them.
+LATER_KEYS = frozenset({"dynamics", "forecast", "forecast_notes", "bootstrap", "derived_intervals", "ci95_bootstrap"})
 
 
 class RecordError(GrowthcoreInputError):
@@ -41,8 +45,9 @@ class RecordError(GrowthcoreInputError):
     def __init__(self, name: str, problems: Sequence[str]) -> None:
         self.name = name
         self.problems = tuple(problems)
-        head = f"{name}: " + (self.problems[0] if len(self.problems) == 1 else f"{len(self.problems)} problems")
-        rest = "" if len(self.problems) == 1 else "\n" + "\n".join(f"  - {p}" for p in self.problems)
+        more = len(self.problems) - 1
+        head = f"{name}: {self.problems[0]}" + (f" (and {more} more problem{'s' if more > 1 else ''})" if more else "")
+        rest = "" if not more else "\n" + "\n".join(f"  - {p}" for p in self.problems[1:])
         super().__init__(head + rest)
 
 
@@ -214,7 +219,7 @@ def _close(a: float, b: float, atol: float, rtol: float) -> bool:
 
 
 def differences(stored: Any, new: Any, where: str = "", *, atol: float = 0.0, rtol: float = RTOL,
-                limit: int = 50) -> list[Difference]:
+                limit: int = 50, skip: frozenset[str] = frozenset()) -> list[Difference]:
     """Numbers, flags and shapes that differ between two record parts (text is not compared)."""
     out: list[Difference] = []
 
@@ -223,14 +228,14 @@ def differences(stored: Any, new: Any, where: str = "", *, atol: float = 0.0, rt
             return
         if isinstance(a, Mapping) and isinstance(b, Mapping):
             for key in a:
-                if key in _TEXT_KEYS:
+                if key in _TEXT_KEYS or key in skip:
                     continue
                 if key not in b:
                     out.append(Difference(f"{at}.{key}", a[key], "(absent)"))
                 else:
                     walk(a[key], b[key], f"{at}.{key}")
             for key in b:
-                if key not in a and key not in _TEXT_KEYS:
+                if key not in a and key not in _TEXT_KEYS and key not in skip:
                     out.append(Difference(f"{at}.{key}", "(absent)", b[key]))
         elif isinstance(a, list) and isinstance(b, list):
             if len(a) != len(b):
@@ -251,25 +256,93 @@ def differences(stored: Any, new: Any, where: str = "", *, atol: float = 0.0, rt
     return out
 
 
-def recompute(record: Mapping[str, Any], *, name: str = "record", rtol: float = RTOL) -> Recomputation:
+def recompute(record: Mapping[str, Any], *, name: str = "record", rtol: float = RTOL,
+              extend: Callable[[Series, Sequence[FitResult], dict[str, Any]], None] | None = None) -> Recomputation:
     """Repeat every fit of a checked record and list what differs beyond ``rtol``.
 
-    Absolute differences below ``1e-9`` × the largest observed value also count as equal, so that
-    residuals near zero are not judged by their relative change.
+    ``extend(series, fits, record)`` remakes the members added after fitting (dynamics, bootstrap,
+    forecasts) in the new record; without it those members are listed as not recomputed. Absolute
+    differences below ``1e-9`` × the largest observed value also count as equal, so that residuals
+    near zero are not judged by their relative change.
     """
     reopened = reopen(record, name=name)
     fits = tuple(refit(reopened.series, r) for r in reopened.requests)
     new = rebuild(reopened, fits)
+    if extend is not None:
+        extend(reopened.series, fits, new)
+        seal(new)
+    skip = frozenset() if extend is not None else LATER_KEYS
     finite = reopened.series.p[np.isfinite(reopened.series.p)]
     atol = 1e-9 * (float(np.max(np.abs(finite))) if finite.size else 1.0)
     found: list[Difference] = []
     later: list[str] = []
     for i, (old_fit, new_fit) in enumerate(zip(record["fits"], new["fits"])):
         label = f"fits[{i}] {old_fit['model']} ({old_fit['method']}, {old_fit['error']})"
-        old_core = {k: v for k, v in old_fit.items() if k not in _LATER_KEYS and k != "request"}
+        old_core = {k: v for k, v in old_fit.items() if k != "request"}
         new_core = {k: v for k, v in new_fit.items() if k != "request"}
-        found.extend(differences(old_core, new_core, label, atol=atol, rtol=rtol))
-        later.extend(f"{label}.{k}" for k in _LATER_KEYS if k in old_fit)
+        found.extend(differences(old_core, new_core, label, atol=atol, rtol=rtol, skip=skip))
+        later.extend(f"{label}.{k}" for k in sorted(skip & set(old_fit)))
     if "comparison" in record:
-        found.extend(differences(record["comparison"], new["comparison"], "comparison", atol=atol, rtol=rtol))
+        found.extend(differences(record["comparison"], new["comparison"], "comparison", atol=atol, rtol=rtol, skip=skip))
     return Recomputation(fits, new, tuple(found), tuple(later))
+
+def _nan(x: Any) -> float:
+    return math.nan if x is None else float(x)
+
+
+def _pair(x: Any) -> tuple[float, float] | None:
+    return None if x is None else (_nan(x[0]), _nan(x[1]))
+
+
+def fit_from_dict(d: Mapping[str, Any]) -> FitResult:
+    """The fit result a record's fit entry describes, without fitting again.
+
+    Numbers are taken as stored (``None`` becomes NaN); the form comes from the catalogue by its
+    id and terms, so paths, predictions and derived quantities can be drawn from the record alone.
+    """
+    terms = tuple(d.get("terms") or ())
+    try:
+        form = get_form(str(d["model"]), terms=terms) if d["status"] == "converged" else None
+    except GrowthcoreInputError:
+        form = None
+    params = tuple(
+        ParameterEstimate(name, _nan(p["value"]), None if p["se"] is None else float(p["se"]), _pair(p["ci95"]),
+                          bool(p["fixed"]), bool(p.get("at_bound", False)), str(p.get("description", "")),
+                          str(p.get("unit", "")))
+        for name, p in d.get("parameters", {}).items()
+    )
+    m = d.get("metrics")
+    metrics = None
+    if m is not None:
+        metrics = Metrics(int(m["n"]), int(m["n_params"]), *(_nan(m.get(k)) for k in (
+            "sse", "rmse", "residual_sd", "r2", "r2_adjusted", "log_likelihood", "aic", "aicc", "bic")),
+            r2_uncentered=None if m.get("r2_uncentered") is None else float(m["r2_uncentered"]))
+    g = d.get("diagnostics")
+    diagnostics = None
+    if g is not None:
+        diagnostics = Diagnostics(_nan(g["durbin_watson"]), int(g["runs"]), _nan(g.get("runs_expected")),
+                                  _nan(g.get("runs_z")), _nan(g.get("runs_p")), bool(g["systematic"]), str(g["message"]))
+    res = d.get("residuals") or []
+    corr = d.get("correlation")
+    prof = d.get("capacity_profile")
+    grid = d.get("grid")
+    return FitResult(
+        model=str(d["model"]), method=str(d["method"]), error=str(d["error"]), status=str(d["status"]),
+        message=str(d["message"]), form=form, parameters=params, metrics=metrics, diagnostics=diagnostics,
+        t=np.array([float(r["t"]) for r in res]), observed=np.array([float(r["observed"]) for r in res]),
+        predicted=np.array([_nan(r["predicted"]) for r in res]), residuals=np.array([_nan(r["residual"]) for r in res]),
+        correlation=None if corr is None else np.array([[_nan(v) for v in row] for row in corr["matrix"]]),
+        profile=None if prof is None else CapacityProfile(
+            np.array([float(v) for v in prof["K"]]), np.array([_nan(v) for v in prof["sse"]]),
+            _nan(prof["threshold"]), (prof["interval"][0], prof["interval"][1]) if prof["interval"] else (None, None),
+            str(prof.get("message", ""))),
+        notes=tuple(str(n) for n in d.get("notes", ())),
+        grid=None if grid is None else Grid(float(grid["t0"]), float(grid["h"])),
+        terms=terms if d["model"] == "custom" else (),
+        settings=dict(d.get("settings") or {}),
+    )
+
+
+def fits_from_record(record: Mapping[str, Any]) -> list[FitResult]:
+    """Every fit of a checked record as a result object (no fitting)."""
+    return [fit_from_dict(d) for d in record["fits"]]

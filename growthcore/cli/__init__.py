@@ -16,6 +16,7 @@ COMMAND_MODULES = (
     "growthcore.cli.fit_cmd",
     "growthcore.cli.inspect_cmd",
     "growthcore.cli.batch_cmd",
+    "growthcore.cli.report_cmd",
 )
 
 

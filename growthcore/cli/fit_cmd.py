@@ -22,7 +22,7 @@ EXTENSIONS = (fit_uncertainty, fit_export)
 
 def add_data_options(p: argparse.ArgumentParser) -> None:
     """The file and column options that every command reading a spreadsheet shares."""
-    p.add_argument("file", help="CSV, TSV or XLSX file")
+    p.add_argument("file", nargs="?", help="CSV, TSV or XLSX file (omit with --from-record)")
     p.add_argument("--sheet", help="worksheet name (XLSX; default: the first with data)")
     p.add_argument("--time", help="time column (default: guessed)")
     p.add_argument("--value", help="value column (default: guessed)")
@@ -87,6 +87,10 @@ def summary_lines(fits: Sequence[FitResult]) -> list[str]:
 
 
 def run(args: argparse.Namespace) -> int:
+    if getattr(args, "from_record", None):
+        return fit_export.run_from_record(args)
+    if not args.file:
+        raise GrowthcoreInputError("give a data FILE, or --from-record RECORD.json to repeat the fits of a record")
     imported = load_file(args.file, sheet=args.sheet, time=args.time, value=args.value,
                          series=args.series, time_unit=args.time_unit)
     series = pick_series(imported.series, args.series, args.file)

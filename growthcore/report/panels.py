@@ -1,0 +1,275 @@
+"""Panels of a fit record as plotly figure dicts: data and fitted paths, residuals, tables, profile.
+
+Figures are plain dicts (plotly validates them when they are drawn); every number comes from the
+record, and fitted paths are evaluated from the recorded constants without fitting again.
+"""
+
+from __future__ import annotations
+
+import html
+import math
+from typing import Any, Mapping, Sequence
+
+import numpy as np
+
+from growthcore.fit.result import FitResult
+from growthcore.reopen import fits_from_record
+
+Figure = dict[str, Any]
+#: Okabe–Ito colours (Okabe & Ito 2008), distinguishable under common colour-vision deficiencies.
+COLOURS = ("#0072B2", "#E69F00", "#009E73", "#CC79A7", "#56B4E9", "#D55E00")
+DASHES = ("solid", "dash", "dot", "dashdot", "longdash", "longdashdot")
+INK, MUTED, GRID = "#1f2a30", "#6b7780", "#e3e7ea"
+FONT = "Helvetica Neue, Arial, sans-serif"
+#: Panel names in the order they are exported; ``profile`` exists only when a fit profiled K.
+PANEL_NAMES = ("data", "residuals", "comparison", "parameters", "profile")
+
+
+def esc(text: Any) -> str:
+    """User text (column names, file names) is shown, never read as markup."""
+    return html.escape(str(text), quote=True)
+
+
+def label(f: Mapping[str, Any]) -> str:
+    return f"{f['model']} ({f['method']}, {f['error']})"
+
+
+def _axis(title: str) -> dict[str, Any]:
+    return {"title": {"text": title}, "showline": True, "linecolor": MUTED, "ticks": "outside",
+            "gridcolor": GRID, "zeroline": False, "automargin": True}
+
+
+def _layout(title: str, x: str, y: str) -> dict[str, Any]:
+    return {
+        "title": {"text": title, "x": 0.0, "xanchor": "left"},
+        "xaxis": _axis(x), "yaxis": _axis(y),
+        "font": {"family": FONT, "color": INK, "size": 12},
+        "paper_bgcolor": "#ffffff", "plot_bgcolor": "#ffffff",
+        "margin": {"l": 60, "r": 20, "t": 60, "b": 50},
+        "legend": {"orientation": "h", "yanchor": "bottom", "y": 1.0, "x": 0.0, "font": {"size": 11}},
+        "hovermode": "closest",
+    }
+
+
+def _with_unit(name: str, unit: str) -> str:
+    return f"{esc(name)} [{esc(unit)}]" if unit else esc(name)
+
+
+def _clean(values: Sequence[float]) -> list[float | None]:
+    return [float(v) if v is not None and math.isfinite(v) else None for v in values]
+
+
+def data_figure(record: Mapping[str, Any], fits: Sequence[FitResult] | None = None) -> Figure:
+    """Observations (used and left out, with the reason on hover) and each converged fitted path."""
+    data = record["data"]
+    fits = list(fits) if fits is not None else fits_from_record(record)
+    pts = data["points"]
+    used = [p for p in pts if p["used"]]
+    left = [p for p in pts if not p["used"] and p["p"] is not None]
+    traces: list[dict[str, Any]] = [{
+        "type": "scatter", "mode": "markers", "name": "observed", "x": [p["t"] for p in used],
+        "y": [p["p"] for p in used], "marker": {"color": INK, "size": 7},
+    }]
+    if left:
+        traces.append({
+            "type": "scatter", "mode": "markers", "name": "left out", "x": [p["t"] for p in left],
+            "y": [p["p"] for p in left], "text": [esc(p["reason"]) for p in left],
+            "hovertemplate": "t = %{x}<br>p = %{y}<br>%{text}<extra>left out</extra>",
+            "marker": {"color": MUTED, "size": 8, "symbol": "x-thin", "line": {"width": 2, "color": MUTED}},
+        })
+    t_end = max(p["t"] for p in pts)
+    for i, (f, d) in enumerate(zip(fits, record["fits"])):
+        if not f.success or f.form is None:
+            continue
+        try:
+            t, y = f.path(t_end)
+        except (ValueError, ArithmeticError):
+            continue
+        shape = "hv" if f.form.kind == "difference" else "linear"
+        if f.method == "increments":  # one-step-ahead predictions, not a path: show them as such
+            t, y, mode = f.t, f.predicted, "markers"
+        else:
+            mode = "lines"
+        traces.append({
+            "type": "scatter", "mode": mode, "name": esc(label(d)), "x": _clean(np.asarray(t)),
+            "y": _clean(np.asarray(y)), "line": {"color": COLOURS[i % 6], "dash": DASHES[i % 6], "shape": shape},
+            "marker": {"color": COLOURS[i % 6], "symbol": "circle-open", "size": 8},
+        })
+    title = f"{esc(data.get('name', 'series'))}: observations and fitted forms"
+    layout = _layout(title, _with_unit(data["time"]["column"], data["time"]["unit"]),
+                     _with_unit(data["value"]["column"], data["value"]["unit"]))
+    return {"data": traces, "layout": layout}
+
+
+def residual_figure(record: Mapping[str, Any]) -> Figure:
+    """Residuals on each fit's error scale against time, with the zero line."""
+    data = record["data"]
+    traces = []
+    for i, f in enumerate(record["fits"]):
+        if f["status"] != "converged" or not f.get("residuals"):
+            continue
+        res = f["residuals"]
+        traces.append({
+            "type": "scatter", "mode": "lines+markers", "name": esc(label(f)), "x": [r["t"] for r in res],
+            "y": [r["residual"] for r in res], "line": {"color": COLOURS[i % 6], "dash": DASHES[i % 6], "width": 1},
+            "marker": {"color": COLOURS[i % 6], "size": 6},
+        })
+    layout = _layout("Residuals (observed − predicted, on each fit's error scale)",
+                     _with_unit(data["time"]["column"], data["time"]["unit"]), "residual")
+    layout["shapes"] = [{"type": "line", "xref": "paper", "x0": 0, "x1": 1, "y0": 0, "y1": 0,
+                         "line": {"color": MUTED, "width": 1}}]
+    return {"data": traces, "layout": layout}
+
+
+def _fmt(v: Any, spec: str = ".4g") -> str:
+    if v is None:
+        return "–"
+    if isinstance(v, bool):
+        return "yes" if v else "no"
+    if isinstance(v, (int, float)):
+        return format(v, spec) if math.isfinite(v) else "–"
+    return esc(v)
+
+
+def comparison_columns(record: Mapping[str, Any]) -> tuple[list[str], list[list[str]]]:
+    """Header and columns of the comparison table (rows as the record orders them)."""
+    rows = record.get("comparison", {}).get("rows") or [
+        {"model": f["model"], "method": f["method"], "error": f["error"], "status": f["status"],
+         **{k: (f.get("metrics") or {}).get(k) for k in ("n", "n_params", "r2", "rmse", "aicc", "bic")}}
+        for f in record["fits"]]
+    header = ["form", "method", "error", "status", "n", "k", "R²", "RMSE", "AICc", "ΔAICc", "weight", "systematic misfit"]
+    cols = [
+        [esc(r["model"]) + (" ★" if r.get("best") else "") for r in rows],
+        [esc(r["method"]) for r in rows], [esc(r["error"]) for r in rows], [esc(r["status"]) for r in rows],
+        [_fmt(r.get("n")) for r in rows], [_fmt(r.get("n_params")) for r in rows],
+        [_fmt(r.get("r2"), ".4f") for r in rows], [_fmt(r.get("rmse")) for r in rows],
+        [_fmt(r.get("aicc"), ".2f") for r in rows], [_fmt(r.get("delta_aicc"), ".2f") for r in rows],
+        [_fmt(r.get("weight"), ".3f") for r in rows], [_fmt(r.get("systematic_misfit")) for r in rows],
+    ]
+    return header, cols
+
+
+def parameter_columns(record: Mapping[str, Any]) -> tuple[list[str], list[list[str]]]:
+    header = ["form", "constant", "value", "SE", "95% interval", "note"]
+    out: list[list[str]] = [[] for _ in header]
+    for f in record["fits"]:
+        for name, p in f.get("parameters", {}).items():
+            ci = p.get("ci95")
+            interval = f"{_fmt(ci[0])} to {_fmt(ci[1])}" if ci else "–"
+            note = "fixed" if p.get("fixed") else "at its bound" if p.get("at_bound") else ""
+            for col, v in zip(out, (esc(label(f)), esc(name), _fmt(p.get("value"), ".6g"), _fmt(p.get("se"), ".3g"),
+                                    interval, note)):
+                col.append(v)
+    return header, out
+
+
+def _table(header: list[str], cols: list[list[str]], title: str) -> Figure:
+    return {
+        "data": [{
+            "type": "table",
+            "header": {"values": [f"<b>{h}</b>" for h in header], "fill": {"color": GRID}, "align": "left",
+                       "font": {"family": FONT, "size": 12, "color": INK}},
+            "cells": {"values": cols, "align": "left", "font": {"family": FONT, "size": 11, "color": INK},
+                      "height": 22},
+        }],
+        "layout": {"title": {"text": title, "x": 0.0, "xanchor": "left"}, "font": {"family": FONT, "color": INK},
+                   "margin": {"l": 20, "r": 20, "t": 50, "b": 20}, "paper_bgcolor": "#ffffff"},
+    }
+
+
+def comparison_figure(record: Mapping[str, Any]) -> Figure:
+    """The side-by-side table; ★ marks the best form by AICc among comparable fits."""
+    return _table(*comparison_columns(record), "Comparison of fitted forms (★ best by AICc within comparable fits)")
+
+
+def parameter_figure(record: Mapping[str, Any]) -> Figure:
+    """Each constant with its standard error and t-based 95% interval."""
+    return _table(*parameter_columns(record), "Constants with standard errors and 95% intervals")
+
+
+def profile_figure(record: Mapping[str, Any]) -> Figure | None:
+    """SSE against a fixed K for each fit that profiled K, with its threshold; None when none did."""
+    traces = []
+    for i, f in enumerate(record["fits"]):
+        prof = f.get("capacity_profile")
+        if not prof:
+            continue
+        colour = COLOURS[i % 6]
+        traces.append({"type": "scatter", "mode": "lines", "name": esc(label(f)), "x": prof["K"], "y": prof["sse"],
+                       "line": {"color": colour, "dash": DASHES[i % 6]}})
+        if prof.get("threshold") is not None:
+            traces.append({"type": "scatter", "mode": "lines", "showlegend": False, "hoverinfo": "skip",
+                           "x": [min(prof["K"]), max(prof["K"])], "y": [prof["threshold"]] * 2,
+                           "line": {"color": colour, "width": 1, "dash": "dot"}})
+    if not traces:
+        return None
+    return {"data": traces, "layout": _layout("Profile of K: SSE with K fixed (dotted: 95% threshold)",
+                                              "carrying capacity K", "SSE")}
+
+
+def panel_figures(record: Mapping[str, Any]) -> dict[str, Figure]:
+    """Every panel of the record by name (see ``PANEL_NAMES``)."""
+    fits = fits_from_record(record)
+    out = {
+        "data": data_figure(record, fits),
+        "residuals": residual_figure(record),
+        "comparison": comparison_figure(record),
+        "parameters": parameter_figure(record),
+    }
+    prof = profile_figure(record)
+    if prof is not None:
+        out["profile"] = prof
+    return out
+
+
+def _moved(traces: list[dict[str, Any]], axis: str, *, legend: bool = True) -> list[dict[str, Any]]:
+    n = axis[1:] if len(axis) > 1 else ""
+    return [dict(t, xaxis=f"x{n}", yaxis=f"y{n}", showlegend=legend and t.get("showlegend", True)) for t in traces]
+
+
+def sheet_heading(record: Mapping[str, Any]) -> str:
+    data = record["data"]
+    sha = data.get("sha256") or ""
+    src = f"{esc(data.get('source') or 'data entered directly')}" + (f" (SHA-256 {sha[:12]}…)" if sha else "")
+    sw = record.get("software", {})
+    return (f"<b>{esc(data.get('name', 'series'))}</b>: fit summary<br>"
+            f"<span style='font-size:11px'>source {src}; {sum(p['used'] for p in data['points'])} of "
+            f"{len(data['points'])} points used; written {esc(record.get('created', ''))} by "
+            f"{esc(sw.get('name', 'growthcore'))} {esc(sw.get('version', ''))}</span>")
+
+
+def summary_sheet(record: Mapping[str, Any], *, landscape: bool = False) -> Figure:
+    """One page: data with fitted forms, residuals, the comparison table and the constants.
+
+    Portrait stacks the four parts; landscape puts the plots on the left and the tables on the right.
+    """
+    fits = fits_from_record(record)
+    data_fig = data_figure(record, fits)
+    res_fig = residual_figure(record)
+    comp = comparison_figure(record)["data"][0]
+    pars = parameter_figure(record)["data"][0]
+    if landscape:
+        d_dom, r_dom = ([0.0, 0.55], [0.42, 0.9]), ([0.0, 0.55], [0.0, 0.3])
+        c_dom, p_dom = ([0.6, 1.0], [0.5, 0.9]), ([0.6, 1.0], [0.0, 0.45])
+    else:
+        d_dom, r_dom = ([0.0, 1.0], [0.64, 0.9]), ([0.0, 1.0], [0.42, 0.56])
+        c_dom, p_dom = ([0.0, 1.0], [0.2, 0.36]), ([0.0, 1.0], [0.0, 0.18])
+    layout = _layout(sheet_heading(record), "", "")
+    layout["title"]["y"] = 0.985
+    layout["title"]["yanchor"] = "top"
+    layout["margin"] = {"l": 60, "r": 30, "t": 90, "b": 30}
+    layout["xaxis"] = dict(data_fig["layout"]["xaxis"], domain=d_dom[0], anchor="y")
+    layout["yaxis"] = dict(data_fig["layout"]["yaxis"], domain=d_dom[1], anchor="x")
+    layout["xaxis2"] = dict(res_fig["layout"]["xaxis"], domain=r_dom[0], anchor="y2")
+    layout["yaxis2"] = dict(res_fig["layout"]["yaxis"], domain=r_dom[1], anchor="x2")
+    layout["legend"] = {"orientation": "h", "x": 0.0, "y": d_dom[1][1] + 0.005, "yanchor": "bottom", "font": {"size": 10}}
+    layout["shapes"] = [dict(s, xref="x2 domain", yref="y2", x0=0, x1=1) for s in res_fig["layout"].get("shapes", [])]
+    layout["annotations"] = [
+        {"text": f"<b>{t}</b>", "xref": "paper", "yref": "paper", "x": dom[0][0], "y": dom[1][1] + 0.003,
+         "xanchor": "left", "yanchor": "bottom", "showarrow": False, "font": {"size": 12}}
+        for t, dom in (("Residuals", r_dom), ("Comparison of fitted forms (★ best by AICc)", c_dom),
+                       ("Constants with standard errors and 95% intervals", p_dom))
+    ]
+    tables = [dict(comp, domain={"x": c_dom[0], "y": c_dom[1]}), dict(pars, domain={"x": p_dom[0], "y": p_dom[1]})]
+    traces = _moved(data_fig["data"], "x") + _moved(res_fig["data"], "x2", legend=False) + tables
+    return {"data": traces, "layout": layout}
