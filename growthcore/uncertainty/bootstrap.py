@@ -5,7 +5,8 @@ Notes
 -----
 Resample b draws n residuals with replacement from the modified residuals ẽ of the fit and refits
 the form to ẑ + ẽ*_b (on the fitted scale), warm-started from the estimate; all resamples of a
-chunk are solved together by :func:`growthcore.fit.batched.solve_batched`. Draw b uses the random
+chunk are solved together by :func:`growthcore.fit.batched.solve_batched`; the few it leaves
+unconverged are retried one by one with scipy.optimize.least_squares. Draw b uses the random
 generator seeded with (seed, b), so the same seed gives the same refits however the work is cut
 into chunks. Percentile intervals: the 2.5% and 97.5% points of the refitted values (Efron &
 Tibshirani 1993, An Introduction to the Bootstrap, ch. 13).
@@ -28,6 +29,8 @@ Array = np.ndarray
 DEFAULT_RESAMPLES = 1000
 DEFAULT_SEED = 20240601
 DEFAULT_CHUNK = 250
+#: Refits per call that the batch leaves unconverged and scipy retries (each costs milliseconds).
+MAX_RETRIES = 100
 
 
 @dataclass(frozen=True)
@@ -193,13 +196,19 @@ def bootstrap(
         return _empty(result, problem.names, seed, resamples, start, "")
     outcome = problem.solve(targets)
     x = outcome.x.T.copy()
-    x[~outcome.converged] = math.nan
+    converged = outcome.converged.copy()
+    # the batch solver can stall at an active bound; the few it leaves get one scipy refit each
+    for j in np.flatnonzero(~converged)[:MAX_RETRIES]:
+        x_j, ok = problem.solve_one(targets[:, j], outcome.x[:, j])
+        if ok:
+            x[j], converged[j] = x_j, True
+    x[~converged] = math.nan
     lo, hi = problem.lower, problem.upper
     with np.errstate(invalid="ignore"):
         near = ((np.isfinite(lo) & (np.abs(x - lo) <= 1e-7 * np.maximum(np.abs(lo), 1.0)))
                 | (np.isfinite(hi) & (np.abs(x - hi) <= 1e-7 * np.maximum(np.abs(hi), 1.0))))
     at_bound = int(np.sum(np.any(near & np.isfinite(x), axis=1)))
-    failed = int((~outcome.converged).sum())
+    failed = int((~converged).sum())
     message = f"{failed} of {targets.shape[1]} refits did not converge and are left out" if failed else ""
     notes = (f"{at_bound} refits ended at a bound of a constant",) if at_bound else ()
     return BootstrapResult(result.model, result.method, problem.names, tuple(float(v) for v in problem.estimate),

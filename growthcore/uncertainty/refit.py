@@ -69,6 +69,23 @@ class RefitProblem:
         return solve_batched(fn, x0, self.lower, self.upper, scale=scale or 1.0, max_iter=max_iter)
 
 
+    def solve_one(self, target: Array, x0: Array) -> tuple[Array, bool]:
+        """One refit by scipy's trust-region solver (for the few the batch leaves unconverged)."""
+        from growthcore.fit.nls import solve
+
+        def fn(cols: Array) -> Array:
+            values: dict[str, Array | float] = dict(self.fixed)
+            for i, name in enumerate(self.names):
+                values[name] = cols[i][None, :]
+            with np.errstate(all="ignore"):
+                return target[:, None] - self.scaled(self.predict(values)[:, 0, :])
+
+        scale = float(np.max(np.abs(target[np.isfinite(target)]))) if target.size else 1.0
+        start = np.clip(np.where(np.isfinite(x0), x0, self.estimate), self.lower, self.upper)
+        outcome = solve(fn, start, self.lower, self.upper, scale=scale or 1.0, max_nfev=400)
+        return outcome.x, bool(outcome.success)
+
+
 def _spec(result: FitResult, name: str) -> ParamSpec:
     assert result.form is not None
     if name == "p0" and result.form.kind == "difference":
