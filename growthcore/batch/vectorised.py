@@ -26,8 +26,8 @@ from growthcore.models.base import ModelForm
 
 Array = np.ndarray
 #: Tighter than the solver's defaults so that the optimum matches the single-series fit closely.
-FTOL = 1e-14
-XTOL = 1e-12
+FTOL = 1e-12
+XTOL = 1e-10
 MAX_ITER = 400
 
 
