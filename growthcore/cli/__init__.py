@@ -15,6 +15,7 @@ COMMAND_MODULES = (
     "growthcore.cli.models_cmd",
     "growthcore.cli.fit_cmd",
     "growthcore.cli.inspect_cmd",
+    "growthcore.cli.serve_cmd",
     "growthcore.cli.batch_cmd",
     "growthcore.cli.report_cmd",
 )

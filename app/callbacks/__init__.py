@@ -1,0 +1,18 @@
+"""Callbacks, one module per concern; :func:`register_all` wires them onto an app.
+
+Each module keeps its work in plain functions (called directly by the tests and the benchmark)
+and a ``register(app)`` that connects them to component ids.
+"""
+
+from __future__ import annotations
+
+from dash import Dash
+
+from app.callbacks import capacity, comparison, data, exclusions, explore, fits, highlight, panels, settings
+
+MODULES = (data, settings, capacity, exclusions, explore, fits, panels, comparison, highlight)
+
+
+def register_all(app: Dash) -> None:
+    for module in MODULES:
+        module.register(app)

@@ -1,0 +1,83 @@
+"""The capacity estimate K: one value kept in step across the number box, the slider and the K line."""
+
+from __future__ import annotations
+
+import math
+from typing import Any, Mapping
+
+from dash import Dash, Input, Output, State, ctx, no_update
+
+from app import ids
+from app.figures.trajectory import capacity_from_relayout
+from app.state import series_from_store
+from growthcore.explore import capacity_from_fit, capacity_range
+
+
+def _marks(low: float, high: float) -> dict[str, str]:
+    return {f"{v:g}": f"{v:.3g}" for v in (low, (low + high) / 2, high)}
+
+
+def rounded(k: float) -> float:
+    """K rounded to 4 significant digits for the controls (the fits use the same value)."""
+    if k == 0 or not math.isfinite(k):
+        return k
+    return float(f"{k:.4g}")
+
+
+def update_capacity(trigger: str | None, k_input: float | None, k_slider: float | None,
+                    relayout: Mapping[str, Any] | None, data: Mapping[str, Any] | None,
+                    settings: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
+                    current: float | None) -> tuple[Any, ...]:
+    """Outputs: the committed K, the number box, the slider value, min, max, step, marks and the note."""
+    none6 = (no_update,) * 6
+    if data is None:
+        return (no_update, no_update, *none6)
+    unit = data.get("value_unit") or ""
+    if trigger in (None, ids.DATA):
+        series = series_from_store(data)
+        rng = capacity_range(series)
+        k = rounded(rng.estimate)
+        step = rounded((rng.high - rng.low) / 400)
+        return (k, k, k, rng.low, rounded(rng.high), step, _marks(rng.low, rounded(rng.high)),
+                f"{unit} (first guess from the change per step)")
+    if trigger == ids.K_FROM_FIT:
+        series = series_from_store(data, exclusions)
+        value, note = capacity_from_fit(series, (settings or {}).get("models", []), (settings or {}).get("terms", []))
+        if value is None:
+            return (no_update, no_update, no_update, no_update, no_update, no_update, no_update, f"{unit}: {note}")
+        k = rounded(value)
+        return (k, k, k, no_update, no_update, no_update, no_update, f"{unit} ({note})")
+    if trigger == ids.K_INPUT:
+        k = k_input
+    elif trigger == ids.K_SLIDER:
+        k = k_slider
+    elif trigger == ids.G_TRAJECTORY:
+        k = capacity_from_relayout(relayout)
+        if k is None:
+            return (no_update, no_update, *none6)
+    else:
+        return (no_update, no_update, *none6)
+    if k is None or not math.isfinite(float(k)) or float(k) <= 0:
+        return (no_update, no_update, no_update, no_update, no_update, no_update, no_update,
+                f"{unit}: K must be a positive number")
+    k = rounded(float(k))
+    if current is not None and k == current:
+        return (no_update, no_update, *none6)
+    return (k, k if trigger != ids.K_INPUT else no_update, k, no_update, no_update, no_update, no_update, unit)
+
+
+def register(app: Dash) -> None:
+    @app.callback(
+        Output(ids.CAPACITY, "data"), Output(ids.K_INPUT, "value"), Output(ids.K_SLIDER, "value"),
+        Output(ids.K_SLIDER, "min"), Output(ids.K_SLIDER, "max"), Output(ids.K_SLIDER, "step"),
+        Output(ids.K_SLIDER, "marks"), Output(ids.K_NOTE, "children"),
+        Input(ids.K_INPUT, "value"), Input(ids.K_SLIDER, "value"), Input(ids.G_TRAJECTORY, "relayoutData"),
+        Input(ids.DATA, "data"), Input(ids.K_FROM_FIT, "n_clicks"),
+        State(ids.SETTINGS, "data"), State(ids.EXCLUSIONS, "data"), State(ids.CAPACITY, "data"),
+        prevent_initial_call=False,
+    )
+    def _capacity(k_input, k_slider, relayout, data, _clicks, settings, exclusions, current):
+        trigger = ctx.triggered_id
+        if trigger == ids.K_FROM_FIT and not _clicks:
+            trigger = "none"
+        return update_capacity(trigger, k_input, k_slider, relayout, data, settings, exclusions, current)

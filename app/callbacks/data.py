@@ -1,0 +1,116 @@
+"""Reading the uploaded (or demo) file into the chosen series, with the import report."""
+
+from __future__ import annotations
+
+import base64
+import binascii
+from typing import Any, Mapping
+
+from dash import Dash, Input, Output, State, ctx, html, no_update
+
+from app import ids
+from app.state import data_to_store
+from growthcore.errors import GrowthcoreInputError
+from growthcore.io import load_bytes
+
+DEFAULT_MAX_BYTES = 10_000_000
+
+
+def source_from_upload(contents: str, filename: str, max_bytes: int = DEFAULT_MAX_BYTES) -> dict[str, Any]:
+    """The store form of an upload: dcc.Upload gives 'data:<type>;base64,<bytes>'."""
+    _, _, b64 = contents.partition(",")
+    return {"filename": filename or "upload", "b64": b64, "max_bytes": max_bytes}
+
+
+def decode_source(source: Mapping[str, Any]) -> bytes:
+    try:
+        return base64.b64decode(source["b64"], validate=True)
+    except (binascii.Error, ValueError):
+        raise GrowthcoreInputError(f"{source.get('filename', 'upload')}: the upload arrived damaged "
+                                   "(not valid base64); try again") from None
+
+
+def import_source(source: Mapping[str, Any], *, pick: str | None = None, time: str | None = None,
+                  value: str | None = None, series_column: str | None = None, time_unit: str | None = None,
+                  sheet: str | None = None) -> dict[str, Any]:
+    """Read ``source`` and return the store form of the chosen series (the first when ``pick`` is absent).
+
+    Raises ``GrowthcoreInputError`` (``ImportFailure``) with a one-line message naming the file.
+    """
+    raw = decode_source(source)
+    name = source.get("filename") or "upload"
+    values = [v.strip() for v in value.split(",")] if value and "," in value else (value or None)
+    imported = load_bytes(raw, name, sheet=sheet or None, time=time or None, value=values,
+                          series=series_column or None, time_unit=time_unit or None,
+                          max_bytes=int(source.get("max_bytes", DEFAULT_MAX_BYTES)))
+    chosen = next((s for s in imported.series if s.name == pick), imported.series[0])
+    return data_to_store(imported, chosen, source=name)
+
+
+def summary(data: Mapping[str, Any]) -> list[Any]:
+    n = len(data["t"])
+    rep = data["report"]
+    left = len(rep.get("left_out", []))
+    return [
+        html.Div([html.Strong(data["source"]), f" — series “{data['name']}”"]),
+        html.Div(f"{n} points; time “{data['time_column']}” [{data['time_unit'] or 'no unit'}], "
+                 f"value “{data['value_column']}” [{data['value_unit'] or 'no unit'}]"),
+        html.Div(f"{data['step']}; {left} cell(s) left out at import (see the report)", className="muted"),
+    ]
+
+
+def failure_message(text: str, previous: Mapping[str, Any] | None) -> html.Div:
+    keep = f" The panels still show {previous['source']}." if previous else ""
+    return html.Div([html.Strong("Not read. "), text, keep], className="message message-error")
+
+
+def on_import(contents: str | None, _apply: int, pick: str | None, filename: str | None,
+              source: Mapping[str, Any] | None, previous: Mapping[str, Any] | None, time: str | None,
+              value: str | None, series_column: str | None, time_unit: str | None, sheet: str | None,
+              *, trigger: str | None, max_bytes: int = DEFAULT_MAX_BYTES) -> tuple[Any, ...]:
+    """Outputs: source, data, message, summary, report, series options, series value, column list,
+    and the five mapping fields (cleared for a new upload)."""
+    new_upload = trigger == ids.UPLOAD and contents is not None
+    mapping = dict(time=time, value=value, series_column=series_column, time_unit=time_unit, sheet=sheet)
+    clear = (None, None, None, None, None) if new_upload else (no_update,) * 5
+    if new_upload:
+        source = source_from_upload(contents, filename or "upload", max_bytes)
+        mapping = {k: None for k in mapping}
+    if not source:
+        return (no_update, no_update, html.Div("Drop a file to start.", className="message"), no_update,
+                no_update, no_update, no_update, no_update, *clear)
+    keep_pick = pick if trigger == ids.SERIES_PICK or (trigger == ids.MAP_APPLY and pick) else None
+    try:
+        data = import_source(source, pick=keep_pick, **mapping)
+    except GrowthcoreInputError as exc:
+        message = str(exc).splitlines()[0]
+        return (no_update, no_update, failure_message(message, previous), no_update, no_update,
+                no_update, no_update, no_update, *clear)
+    names = data["series_names"]
+    columns = sorted({data["time_column"], data["value_column"]})
+    ok = html.Div(f"Read {data['source']}: {len(names)} series.", className="message message-ok")
+    return (source if new_upload else no_update, data, ok, summary(data), data["report_text"],
+            [{"label": n, "value": n} for n in names], data["name"],
+            [html.Option(value=c) for c in columns], *clear)
+
+
+def register(app: Dash) -> None:
+    max_bytes = int(app.server.config.get("GROWTHCORE_MAX_UPLOAD", DEFAULT_MAX_BYTES))
+
+    @app.callback(
+        Output(ids.SOURCE, "data"), Output(ids.DATA, "data"), Output(ids.DATA_MESSAGE, "children"),
+        Output(ids.DATA_SUMMARY, "children"), Output(ids.REPORT, "children"),
+        Output(ids.SERIES_PICK, "options"), Output(ids.SERIES_PICK, "value"), Output(ids.MAP_COLUMNS, "children"),
+        Output(ids.MAP_TIME, "value"), Output(ids.MAP_VALUE, "value"), Output(ids.MAP_SERIES, "value"),
+        Output(ids.MAP_TIME_UNIT, "value"), Output(ids.MAP_SHEET, "value"),
+        Input(ids.UPLOAD, "contents"), Input(ids.MAP_APPLY, "n_clicks"), Input(ids.SERIES_PICK, "value"),
+        State(ids.UPLOAD, "filename"), State(ids.SOURCE, "data"), State(ids.DATA, "data"),
+        State(ids.MAP_TIME, "value"), State(ids.MAP_VALUE, "value"), State(ids.MAP_SERIES, "value"),
+        State(ids.MAP_TIME_UNIT, "value"), State(ids.MAP_SHEET, "value"),
+    )
+    def _import(contents, apply, pick, filename, source, previous, time, value, series_column, time_unit, sheet):
+        previous_pick = previous.get("name") if previous else None
+        if ctx.triggered_id == ids.SERIES_PICK and pick == previous_pick:
+            return (no_update,) * 13
+        return on_import(contents, apply, pick, filename, source, previous, time, value, series_column,
+                         time_unit, sheet, trigger=ctx.triggered_id, max_bytes=max_bytes)

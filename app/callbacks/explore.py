@@ -1,0 +1,88 @@
+"""Panels 1 and 2: the change per step and the candidate terms, live with every move of K."""
+
+from __future__ import annotations
+
+from typing import Any, Mapping
+
+from dash import Dash, Input, Output, State, ctx, html
+
+from app import ids
+from app.components.comparison import fmt
+from app.figures.common import message_figure
+from app.figures.explore import candidate_figure, change_figure
+from app.state import series_from_store
+from growthcore.errors import GrowthcoreInputError
+from growthcore.explore import Candidate, CandidateFit, candidate_fit, candidates_for, change_table
+
+
+def labels_of(data: Mapping[str, Any], *, h: float | None = None) -> dict[str, Any]:
+    """What the figure builders need to title axes and hovers."""
+    return {"quantity": data.get("quantity") or data.get("value_column", "p"), "value_unit": data.get("value_unit", ""),
+            "time_unit": data.get("time_unit", ""), "rows": data.get("rows"), "uirevision": data.get("key"), "h": h}
+
+
+def change_to_store(table: Any) -> dict[str, Any]:
+    return {"index": [int(i) for i in table.index], "t": table.t.tolist(), "p": table.p.tolist(),
+            "rate": table.rate.tolist(), "dp": table.dp.tolist(), "used": [bool(u) for u in table.used],
+            "regular": table.regular, "h": table.h, "message": table.message}
+
+
+def candidate_to_store(c: CandidateFit) -> dict[str, Any]:
+    return {"label": c.candidate.label, "model": c.candidate.model, "status": c.status, "message": c.message,
+            "index": [int(i) for i in c.index], "g": c.g.tolist(), "dp": c.dp.tolist(),
+            "fitted": c.fitted.tolist(), "slope": c.slope, "slope_name": c.slope_name, "slope_se": c.slope_se,
+            "slope_ci95": list(c.slope_ci95) if c.slope_ci95 else None, "r2_uncentered": c.r2_uncentered,
+            "shape": c.shape, "capacity": c.capacity}
+
+
+def candidate_readout(cands: list[dict[str, Any]], notes: list[str], capacity: float | None, unit: str) -> list[Any]:
+    items = []
+    for c in cands:
+        if c["status"] != "converged":
+            items.append(html.Li([html.Strong(f"g = {c['label']}: "), f"not fitted — {c['message']}"]))
+            continue
+        ci = c["slope_ci95"]
+        interval = f" [{fmt(ci[0])}, {fmt(ci[1])}]" if ci else ""
+        shape = "".join(f", {n} = {fmt(v)}" for n, v in c["shape"].items())
+        items.append(html.Li([
+            html.Strong(f"g = {c['label']}"), ": slope ",
+            html.Span(f"{c['slope_name']} = {fmt(c['slope'])}", className="slope"), f"{interval} per step{shape}; ",
+            html.Span(f"uncentered R² = {fmt(c['r2_uncentered'])}", className="r2u"),
+        ], className="candidate-line"))
+    head = (f"Regressions through the origin at K = {fmt(capacity)} {unit}. Uncentered R² (1 − SSE/ΣΔp²) is "
+            "not comparable with an ordinary R².") if capacity else "Regressions through the origin."
+    return [html.P(head, className="muted"), html.Ul(items, className="candidates"),
+            *[html.P(n, className="muted") for n in notes]]
+
+
+def explore_panels(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
+                   settings: Mapping[str, Any] | None, capacity: float | None, axis: str = "state") -> tuple[Any, ...]:
+    """Outputs: the change figure, the candidate figure and the slope/R² readout."""
+    if data is None or settings is None:
+        blank = message_figure("loading the data…")
+        return blank, blank, []
+    series = series_from_store(data, exclusions)
+    table = change_table(series)
+    labels = labels_of(data, h=table.h)
+    fig1 = change_figure(change_to_store(table), labels, against=axis)
+    try:
+        cands, notes = candidates_for(settings.get("models", []), settings.get("terms", []))
+    except GrowthcoreInputError as exc:
+        cands, notes = [], [str(exc).splitlines()[0]]
+    fitted = [candidate_to_store(candidate_fit(series, c, capacity)) for c in cands]
+    fig2 = candidate_figure(fitted, labels)
+    return fig1, fig2, candidate_readout(fitted, notes, capacity, data.get("value_unit", ""))
+
+
+def register(app: Dash) -> None:
+    @app.callback(
+        Output(ids.G_CHANGE, "figure"), Output(ids.G_CANDIDATE, "figure"), Output(ids.CANDIDATE_SUMMARY, "children"),
+        Input(ids.DATA, "data"), Input(ids.EXCLUSIONS, "data"), Input(ids.SETTINGS, "data"),
+        Input(ids.CAPACITY, "data"), Input(ids.K_SLIDER, "drag_value"), Input(ids.CHANGE_AXIS, "value"),
+    )
+    def _explore(data, exclusions, settings, capacity, drag, axis):
+        k = drag if ctx.triggered_id == ids.K_SLIDER and drag else capacity
+        return explore_panels(data, exclusions, settings, k, axis)
+
+
+__all__ = ["Candidate", "explore_panels", "labels_of"]

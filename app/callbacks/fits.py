@@ -1,0 +1,72 @@
+"""Every chosen form fitted to the series; the plain results go to the fits store for the panels."""
+
+from __future__ import annotations
+
+from typing import Any, Mapping
+
+from dash import Dash, Input, Output, State, ctx
+from dash.exceptions import PreventUpdate
+
+from app import ids
+from app.callbacks.capacity import rounded
+from app.state import fit_to_store, rows_to_store, series_from_store
+from growthcore.compare import compare, comparison_notes
+from growthcore.errors import GrowthcoreInputError
+from growthcore.explore import fit_forms
+
+
+def needs_refit_on_drag(settings: Mapping[str, Any]) -> bool:
+    """Only fits that depend on K and are cheap follow the slider while it moves."""
+    return settings.get("k_mode") == "held" and settings.get("method") == "increments"
+
+
+def compute_fits(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
+                 settings: Mapping[str, Any] | None, capacity: float | None) -> dict[str, Any] | None:
+    """The fits store: plain fits, comparison rows and notes, for the given data and choices."""
+    if data is None or settings is None:
+        return None
+    series = series_from_store(data, exclusions)
+    held = settings.get("k_mode", "held") == "held"
+    k = capacity if held and capacity is not None and capacity > 0 else None
+    notes: list[str] = []
+    fits = []
+    for model in settings.get("models", []):
+        try:
+            fits.extend(fit_forms(series, [model], method=settings.get("method", "increments"),
+                                  error=settings.get("error", "additive"), capacity=k,
+                                  terms=settings.get("terms", []), profile=not held))
+        except GrowthcoreInputError as exc:
+            notes.append(f"{model}: {str(exc).splitlines()[0]}")
+    rows = compare(fits)
+    notes.extend(comparison_notes(fits))
+    return {
+        "key": data["key"],
+        "capacity": k,
+        "settings": dict(settings),
+        "used": [bool(u) for u in series.used],
+        "fits": [fit_to_store(f, series) for f in fits],
+        "comparison": rows_to_store(rows),
+        "notes": notes,
+    }
+
+
+def register(app: Dash) -> None:
+    @app.callback(
+        Output(ids.FITS, "data"),
+        Input(ids.DATA, "data"), Input(ids.EXCLUSIONS, "data"), Input(ids.SETTINGS, "data"),
+        Input(ids.CAPACITY, "data"), Input(ids.K_SLIDER, "drag_value"),
+        State(ids.FITS, "data"),
+    )
+    def _fits(data, exclusions, settings, capacity, drag, previous):
+        trigger = ctx.triggered_id
+        k = capacity
+        if trigger == ids.K_SLIDER:
+            if not drag or settings is None or not needs_refit_on_drag(settings):
+                raise PreventUpdate
+            k = rounded(float(drag))
+        elif trigger == ids.CAPACITY and settings is not None and settings.get("k_mode") == "fitted" and previous:
+            raise PreventUpdate
+        if previous and k == previous.get("capacity") and trigger in (ids.K_SLIDER, ids.CAPACITY) \
+                and previous.get("key") == (data or {}).get("key"):
+            raise PreventUpdate
+        return compute_fits(data, exclusions, settings, k)

@@ -1,0 +1,16 @@
+"""Hovering an observation marks it in every panel; done in the browser (assets/linked.js)."""
+
+from __future__ import annotations
+
+from dash import ClientsideFunction, Dash, Input, Output
+
+from app import ids
+
+
+def register(app: Dash) -> None:
+    app.clientside_callback(
+        ClientsideFunction(namespace="growthcore", function_name="highlight"),
+        Output(ids.HIGHLIGHT, "data"),
+        *[Input(g, "hoverData") for g in ids.GRAPHS],
+        prevent_initial_call=True,
+    )

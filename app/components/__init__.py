@@ -1,0 +1,1 @@
+"""Layout pieces, one module per section of the screen."""

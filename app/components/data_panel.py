@@ -1,0 +1,58 @@
+"""The data section: upload, series picker, column mapping, and the import report."""
+
+from __future__ import annotations
+
+from dash import dcc, html
+
+from app import ids
+from growthcore.io.loader import TIME_UNITS
+
+
+def data_section(max_upload_bytes: int) -> html.Section:
+    limit_mb = max_upload_bytes / 1_000_000
+    return html.Section([
+        html.H2("Data", className="section-title"),
+        dcc.Upload(
+            id=ids.UPLOAD,
+            children=html.Div([
+                html.Span("Drop a CSV, TSV or XLSX file here, or "),
+                html.Button("choose a file", className="link-button", type="button", tabIndex="-1"),
+                html.Div(f"up to {limit_mb:g} MB; the file stays in this browser tab", className="hint"),
+            ]),
+            className="upload", className_active="upload upload-active", className_reject="upload upload-reject",
+            max_size=max_upload_bytes, multiple=False,
+            accept=".csv,.tsv,.txt,.xlsx,text/csv,text/tab-separated-values,"
+                   "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
+        ),
+        html.Div(id=ids.DATA_MESSAGE, role="status", **{"aria-live": "polite"}),
+        html.Div(id=ids.DATA_SUMMARY, className="data-summary"),
+        html.Label("Series", htmlFor=ids.SERIES_PICK, className="field-label"),
+        dcc.Dropdown(id=ids.SERIES_PICK, options=[], value=None, clearable=False, searchable=True,
+                     className="dropdown"),
+        html.Div(id=ids.SERIES_SLOT),
+        html.Details([
+            html.Summary("Columns and units (override what the import guessed)"),
+            html.Datalist(id=ids.MAP_COLUMNS),
+            _field("Time column", dcc.Input(id=ids.MAP_TIME, type="text", list=ids.MAP_COLUMNS, debounce=True,
+                                            placeholder="as guessed")),
+            _field("Value column(s)", dcc.Input(id=ids.MAP_VALUE, type="text", list=ids.MAP_COLUMNS, debounce=True,
+                                                placeholder="as guessed")),
+            _field("Series id column", dcc.Input(id=ids.MAP_SERIES, type="text", list=ids.MAP_COLUMNS,
+                                                 debounce=True, placeholder="none or as guessed")),
+            _field("Unit of clock and date times", dcc.Dropdown(
+                id=ids.MAP_TIME_UNIT, options=[{"label": u, "value": u} for u in TIME_UNITS], value=None,
+                placeholder="as guessed", className="dropdown")),
+            _field("Worksheet (XLSX)", dcc.Input(id=ids.MAP_SHEET, type="text", debounce=True,
+                                                 placeholder="first with data")),
+            html.Button("Read the file again with these choices", id=ids.MAP_APPLY, n_clicks=0,
+                        className="button", type="button"),
+        ], className="mapping"),
+        html.Details([
+            html.Summary("Import report: what was read and what was left out"),
+            html.Pre(id=ids.REPORT, className="report"),
+        ], className="report-box", open=False),
+    ], className="section", **{"aria-label": "Data"})
+
+
+def _field(label: str, control: object) -> html.Div:
+    return html.Div([html.Label(label, className="field-label"), control], className="field")

@@ -1,0 +1,63 @@
+"""The page: header with the caution, the control column, the panels and the comparison table."""
+
+from __future__ import annotations
+
+from typing import Any, Mapping
+
+from dash import dcc, html
+
+from app import ids
+from app.components.data_panel import data_section
+from app.components.exclusions import exclusions_section
+from app.components.model_panel import model_section
+from app.components.panels import panels_section
+
+CAUTION = (
+    "Forecasts and derived times from a fitted growth law are unreliable outside the observed range of "
+    "time and state. Where they could steer a decision on food safety, pathogen growth, harvest quotas or "
+    "public health, use validated methods and defer to local regulations and qualified professionals."
+)
+
+
+def build_layout(source: Mapping[str, Any] | None, *, max_upload_bytes: int) -> html.Div:
+    """The whole page; ``source`` is the file shown first (name and base64 bytes), or None."""
+    return html.Div([
+        dcc.Store(id=ids.SOURCE, storage_type="memory", data=dict(source) if source else None),
+        dcc.Store(id=ids.DATA, storage_type="memory"),
+        dcc.Store(id=ids.EXCLUSIONS, storage_type="memory", data={"key": None, "excluded": {}, "history": []}),
+        dcc.Store(id=ids.CAPACITY, storage_type="memory"),
+        dcc.Store(id=ids.SETTINGS, storage_type="memory"),
+        dcc.Store(id=ids.FITS, storage_type="memory"),
+        dcc.Store(id=ids.SORT, storage_type="memory", data={"column": None, "descending": False}),
+        dcc.Store(id=ids.HIGHLIGHT, storage_type="memory"),
+        html.A("Skip to the panels", href="#main", className="skip-link"),
+        html.Header([
+            html.Div([
+                html.H1("growthcore", className="brand"),
+                html.Span("rate-law exploration", className="brand-sub"),
+            ], className="brand-box"),
+            html.P([html.Strong("Caution. "), CAUTION], className="caution", role="note"),
+        ], className="topbar"),
+        html.Div([
+            html.Span(id=ids.ERROR_TEXT),
+            html.Button("Dismiss", id=ids.ERROR_DISMISS, n_clicks=0, className="button button-small", type="button"),
+        ], id=ids.ERROR_BANNER, role="alert", className="error-banner", hidden=True),
+        html.Div([
+            html.Aside([data_section(max_upload_bytes), model_section(), exclusions_section()],
+                       className="sidebar", **{"aria-label": "Data and model controls"}),
+            html.Main([
+                panels_section(),
+                html.Section([
+                    html.Header([html.Span("6", className="panel-number"),
+                                 html.H3("Comparison of the chosen forms", className="panel-title")],
+                                className="panel-head"),
+                    html.P("Sort by any numeric column. ΔAICc and Akaike weights compare only fits of the same "
+                           "points by the same method and error model.", className="panel-guide"),
+                    html.Div(id=ids.COMPARISON_NOTES, className="hint"),
+                    dcc.Loading(html.Div(id=ids.COMPARISON, className="table-box"), type="dot", delay_show=400),
+                ], className="panel panel-table", **{"aria-label": "Comparison"}),
+                html.Div(id=ids.DYNAMICS_SLOT),
+                html.Div(id=ids.EXPORT_SLOT),
+            ], id="main", className="main"),
+        ], className="workspace"),
+    ], className="page")

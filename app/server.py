@@ -1,0 +1,138 @@
+"""The app factory and the production server (waitress; never the Flask development server)."""
+
+from __future__ import annotations
+
+import base64
+import ipaddress
+import logging
+import os
+import sys
+import threading
+import traceback
+import webbrowser
+from typing import Any
+
+from dash import Dash, Input, Output, set_props
+from flask import Response
+
+from app import ids
+from app.callbacks import register_all
+from app.layout import build_layout
+
+HERE = os.path.dirname(os.path.abspath(__file__))
+ROOT = os.path.dirname(HERE)
+ASSETS = os.path.join(ROOT, "assets")
+DEMO_FILE = os.path.join(ROOT, "sample_data", "algae_photobioreactor.csv")
+DEFAULT_MAX_UPLOAD = 10_000_000
+LOG = logging.getLogger("growthcore.app")
+
+INDEX = """<!DOCTYPE html>
+<html lang="en">
+<head>{%metas%}<title>{%title%}</title>{%favicon%}{%css%}</head>
+<body>
+<noscript>This page needs JavaScript to draw its panels.</noscript>
+{%app_entry%}
+<footer>{%config%}{%scripts%}{%renderer%}</footer>
+</body>
+</html>"""
+
+
+def read_source(path: str, max_bytes: int = DEFAULT_MAX_UPLOAD) -> dict[str, Any]:
+    """A file on disk in the same form as an upload, for the first screen."""
+    with open(path, "rb") as fh:
+        raw = fh.read(max_bytes + 1)
+    return {"filename": os.path.basename(path), "b64": base64.b64encode(raw).decode("ascii"), "max_bytes": max_bytes}
+
+
+def _report_failure(err: Exception) -> None:
+    """Any unexpected failure in a callback: our message on screen, the traceback in the server log."""
+    LOG.error("callback failed:\n%s", "".join(traceback.format_exception(err)))
+    first = (str(err).splitlines() or [""])[0][:300]
+    set_props(ids.ERROR_BANNER, {"hidden": False})
+    set_props(ids.ERROR_TEXT, {"children": (
+        f"Something went wrong while updating the screen ({type(err).__name__}: {first}). The last good "
+        "results stay on screen; change a setting to try again. The server log has the details.")})
+
+
+def create_app(data_path: str | None = None, *, max_upload_bytes: int = DEFAULT_MAX_UPLOAD,
+               demo: bool = True) -> Dash:
+    """A new app; ``data_path`` is the file shown first (the invented demo data when None).
+
+    Every app keeps its state in the browser (dcc.Store), so one server serves many tabs, each
+    with its own data.
+    """
+    path = data_path or (DEMO_FILE if demo and os.path.exists(DEMO_FILE) else None)
+    source = read_source(path, max_upload_bytes) if path else None
+    app = Dash(
+        __name__,
+        assets_folder=ASSETS,
+        title="growthcore — rate-law exploration",
+        update_title=None,
+        serve_locally=True,
+        on_error=_report_failure,
+    )
+    app.index_string = INDEX
+    # never debug: our own messages instead of the framework's overlay, and no calls to outside hosts
+    app.enable_dev_tools(debug=False, dev_tools_ui=False, dev_tools_props_check=False, dev_tools_hot_reload=False,
+                         dev_tools_serve_dev_bundles=False, dev_tools_disable_version_check=True,
+                         dev_tools_prune_errors=True, dev_tools_validate_callbacks=False,
+                         dev_tools_silence_routes_logging=True)
+    # base64 inflates by 4/3, and the import request also carries the previous file and series
+    app.server.config["MAX_CONTENT_LENGTH"] = 3 * max_upload_bytes + 2_000_000
+    app.server.config["GROWTHCORE_MAX_UPLOAD"] = max_upload_bytes
+    app.layout = build_layout(source, max_upload_bytes=max_upload_bytes)
+    register_all(app)
+    app.callback(Output(ids.ERROR_BANNER, "hidden", allow_duplicate=True), Input(ids.ERROR_DISMISS, "n_clicks"),
+                 prevent_initial_call=True)(lambda _n: True)
+    _error_pages(app)
+    return app
+
+
+def _error_pages(app: Dash) -> None:
+    server = app.server
+
+    @server.errorhandler(413)
+    def _too_large(_err: Exception) -> Response:
+        limit = server.config["GROWTHCORE_MAX_UPLOAD"] / 1_000_000
+        return Response(f"growthcore: the request is too large; files up to {limit:g} MB can be loaded.",
+                        status=413, mimetype="text/plain")
+
+    @server.errorhandler(404)
+    def _not_found(_err: Exception) -> Response:
+        return Response("growthcore: no such page. The app is at /.", status=404, mimetype="text/plain")
+
+    @server.errorhandler(Exception)
+    def _failure(err: Exception) -> Response:
+        code = getattr(err, "code", 500)
+        if not isinstance(code, int) or code < 400:
+            code = 500
+        if code >= 500:
+            LOG.error("request failed:\n%s", "".join(traceback.format_exception(err)))
+        return Response(f"growthcore: the server could not answer this request ({type(err).__name__}). "
+                        "Reload the page; the server log has the details.", status=code, mimetype="text/plain")
+
+
+def is_loopback(host: str) -> bool:
+    if host == "localhost":
+        return True
+    try:
+        return ipaddress.ip_address(host).is_loopback
+    except ValueError:
+        return False
+
+
+def serve(app: Dash, *, host: str = "127.0.0.1", port: int = 8050, open_browser: bool = True,
+          threads: int = 4) -> None:
+    """Serve with waitress until interrupted; warn when the address is reachable from the network."""
+    from waitress import serve as waitress_serve
+
+    url = f"http://{'127.0.0.1' if host in ('0.0.0.0', '::') else host}:{port}/"
+    if not is_loopback(host):
+        print(f"warning: serving on {host}: anyone who can reach this machine on that network can open the app "
+              "and see the data loaded into it", file=sys.stderr)
+    print(f"growthcore: serving on {url} (Ctrl+C to stop)")
+    if open_browser:
+        threading.Timer(1.0, lambda: webbrowser.open(url)).start()
+    limit = int(app.server.config["MAX_CONTENT_LENGTH"])
+    waitress_serve(app.server, host=host, port=port, threads=threads, max_request_body_size=limit,
+                   ident="growthcore")

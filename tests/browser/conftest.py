@@ -1,0 +1,106 @@
+"""A real server (create_app + waitress on a free loopback port) and headless Chromium drivers.
+
+Without Chromium the browser tests skip, except under CI (CI=true), where they fail.
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import socket
+import tempfile
+import threading
+from typing import Callable, Iterator
+
+import pytest
+
+CHROMIUM = shutil.which("chromium") or "/usr/bin/chromium"
+CHROMEDRIVER = shutil.which("chromedriver") or "/usr/bin/chromedriver"
+ARTIFACTS = os.path.join(os.path.dirname(os.path.dirname(os.path.abspath(__file__))), "artifacts")
+
+
+def _browser_missing() -> str | None:
+    for path in (CHROMIUM, CHROMEDRIVER):
+        if not os.path.exists(path):
+            return f"{path} not found"
+    try:
+        import selenium  # noqa: F401
+    except ImportError:
+        return "selenium is not installed"
+    return None
+
+
+def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:
+    missing = _browser_missing()
+    if missing is None:
+        return
+    for item in items:
+        if "browser" in item.keywords:
+            if os.environ.get("CI", "").lower() == "true":
+                item.add_marker(pytest.mark.usefixtures("_fail_without_browser"))
+            else:
+                item.add_marker(pytest.mark.skip(reason=f"headless Chromium unavailable: {missing}"))
+
+
+@pytest.fixture
+def _fail_without_browser() -> None:
+    pytest.fail(f"browser tests must run under CI but headless Chromium is unavailable: {_browser_missing()}")
+
+
+def free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return int(s.getsockname()[1])
+
+
+@pytest.fixture(scope="session")
+def server_url() -> Iterator[str]:
+    from waitress import create_server
+
+    from app.server import create_app
+
+    app = create_app()
+    port = free_port()
+    server = create_server(app.server, host="127.0.0.1", port=port, threads=6)
+    thread = threading.Thread(target=server.run, daemon=True)
+    thread.start()
+    yield f"http://127.0.0.1:{port}/"
+    server.close()
+
+
+@pytest.fixture(scope="session")
+def make_driver() -> Iterator[Callable[..., object]]:
+    from selenium import webdriver
+    from selenium.webdriver.chrome.service import Service
+
+    drivers = []
+    profiles = []
+
+    def make(width: int = 1280, height: int = 800) -> object:
+        profile = tempfile.mkdtemp(prefix="gc-chromium-")
+        profiles.append(profile)
+        options = webdriver.ChromeOptions()
+        options.binary_location = CHROMIUM
+        for arg in ("--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+                    "--disable-background-networking", "--disable-component-update", "--disable-sync",
+                    "--disable-dev-shm-usage", f"--user-data-dir={profile}", f"--window-size={width},{height}"):
+            options.add_argument(arg)
+        driver = webdriver.Chrome(service=Service(CHROMEDRIVER), options=options)
+        driver.set_window_size(width, height)
+        drivers.append(driver)
+        return driver
+
+    yield make
+    for d in drivers:
+        try:
+            d.quit()
+        except Exception:  # noqa: BLE001 - a driver that died already needs no quitting
+            pass
+    for p in profiles:
+        shutil.rmtree(p, ignore_errors=True)
+
+
+@pytest.fixture(scope="session")
+def artifacts() -> str:
+    os.makedirs(ARTIFACTS, exist_ok=True)
+    return ARTIFACTS
