@@ -46,7 +46,7 @@ def _curve_long_run(result: FitResult, form: CurveForm) -> LongRun:
     t_far = float(result.t[-1]) + 1e3 * max(span, 1e-9) if result.t.size else 1e3
     values = result.values
     with np.errstate(all="ignore"):
-        late = np.asarray(form.value(np.array([t_far, 2.0 * t_far]), values), dtype=float)
+        late = np.asarray(form.value(np.array([t_far, 2.0 * t_far]) - result.time_origin, values), dtype=float)
     scale = state_scale(result)
     start = float(values.get("p0", math.nan))
     if not np.all(np.isfinite(late)) or late[-1] > 1e12 * scale or late[1] > late[0] * (1 + 1e-6):

@@ -194,9 +194,9 @@ def _simulate(result: FitResult, t_future: Array, values: Mapping[str, Any], noi
             paths = iterate(form, values["p0"], values, int(offsets[-1]))[offsets]
         else:
             assert form is not None
-            point = np.asarray(form.value(t_future, estimate), dtype=float)
+            point = np.asarray(form.value(t_future - result.time_origin, estimate), dtype=float)
             lifted = {n: (v if np.ndim(v) == 0 else np.asarray(v)[None, :]) for n, v in values.items()}
-            paths = np.broadcast_to(form.value(t_future[:, None], lifted), noise.shape)
+            paths = np.broadcast_to(form.value((t_future - result.time_origin)[:, None], lifted), noise.shape)
         sims = paths * np.exp(noise) if log else paths + noise
     return point, sims
 
@@ -267,4 +267,4 @@ def _far_crossing(result: FitResult, t: Array, bound: float) -> float:
         assert form is not None
         span = max(t_end - float(result.t[0]), 1e-9)
         grid = np.linspace(t_end, t_end + 100.0 * span, 20001)
-        return _first_crossing(grid, np.asarray(form.value(grid, result.values), dtype=float), bound)
+        return _first_crossing(grid, np.asarray(form.value(grid - result.time_origin, result.values), dtype=float), bound)

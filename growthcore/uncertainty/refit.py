@@ -135,7 +135,7 @@ def refit_problem(result: FitResult, series: Series | None = None) -> RefitProbl
         def predict(values: dict[str, Array | float]) -> Array:
             return iterate(form, values["p0"], values, steps)[offsets]
     else:
-        times = result.t[:, None, None]
+        times = (result.t - result.time_origin)[:, None, None]
 
         def predict(values: dict[str, Array | float]) -> Array:
             return form.value(times, {n: _lift(v) for n, v in values.items()})
