@@ -1,0 +1,66 @@
+"""Batch figure builders: valid plotly figures, failed fits marked, plate maps placed by well id."""
+
+from __future__ import annotations
+
+import numpy as np
+import plotly.graph_objects as go
+import pytest
+
+from app.figures.batch import overview_grid, plate_map
+from growthcore.batch import fit_batch, from_series, well_name
+from growthcore.batch.views import overview_panels, plate_values
+from growthcore.data import Series
+from growthcore.errors import GrowthcoreInputError
+
+
+@pytest.fixture(scope="module")
+def batch():
+    rng = np.random.default_rng(8)
+    t = np.arange(15.0)
+    series = []
+    for i in range(10):
+        k = 1.0 + 0.05 * i
+        p = k / (1 + (k / 0.03 - 1) * np.exp(-0.6 * t)) * (1 + 0.02 * rng.standard_normal(t.size))
+        series.append(Series(t, p, name=well_name(i // 12, i % 12)))
+    series.append(Series(t[:3], np.array([0.1, 0.2, 0.3]), name="B1"))  # too few points: fails
+    return fit_batch(from_series(series), ["logistic-curve"], workers=1)
+
+
+def test_overview_grid_is_valid_and_marks_failed_fits(batch) -> None:  # type: ignore[no-untyped-def]
+    fig = overview_grid(overview_panels(batch, "logistic-curve"), columns=4)
+    go.Figure(fig)  # plotly validates every property
+    points = [d for d in fig["data"] if d["meta"] == "points"]
+    fits = [d for d in fig["data"] if d["meta"] == "fit"]
+    assert len(points) == 11 and len(fits) == 10
+    failed = [a for a in fig["layout"]["annotations"] if "fit failed" in a["text"]]
+    assert len(failed) == 1 and failed[0]["text"].startswith("B1") and len(fig["layout"]["shapes"]) == 1
+    assert points[0]["customdata"][0] == "A1"
+
+
+def test_overview_grid_limits_panels(batch) -> None:  # type: ignore[no-untyped-def]
+    fig = overview_grid(overview_panels(batch, "logistic-curve"), max_panels=4)
+    assert sum(d["meta"] == "points" for d in fig["data"]) == 4
+    assert "first 4 of 11" in fig["layout"]["title"]["text"]
+
+
+def test_plate_map_places_wells_and_marks_failures(batch) -> None:  # type: ignore[no-untyped-def]
+    values = plate_values(batch, "logistic-curve", "K")
+    fig = plate_map(values, quantity="K")
+    go.Figure(fig)
+    heat = fig["data"][0]
+    assert len(heat["z"]) == 8 and len(heat["z"][0]) == 12
+    assert heat["z"][0][0] == pytest.approx(batch.get("A1", "logistic-curve").result.values["K"])
+    assert heat["z"][0][10] is None  # A11 holds no series
+    assert heat["customdata"][1][0] == "B1" and fig["data"][1]["customdata"] == ["B1"]
+    metric = plate_values(batch, "logistic-curve", "aicc")
+    assert metric["A2"]["value"] == pytest.approx(batch.get("A2", "logistic-curve").result.metrics.aicc)
+    with pytest.raises(GrowthcoreInputError, match="no constant or metric"):
+        plate_values(batch, "logistic-curve", "nonsense")
+
+
+def test_plate_map_384_and_non_wells() -> None:
+    values = {"A1": {"value": 1.0, "status": "converged"}, "P24": {"value": 2.0, "status": "converged"}}
+    fig = plate_map(values, quantity="r")
+    assert len(fig["data"][0]["z"]) == 16 and len(fig["data"][0]["z"][0]) == 24
+    with pytest.raises(ValueError, match="not plate wells"):
+        plate_map({"ctrl": {"value": 1.0, "status": "converged"}}, quantity="r")
