@@ -55,6 +55,26 @@ def _no_constants(token: str) -> float:
     raise ValueError(f"{token} is not a JSON number")
 
 
+def _unclosed(text: str) -> bool:
+    """True when the text ends inside a string or with brackets still open: a cut-off file."""
+    depth, in_string, escaped = 0, False, False
+    for ch in text:
+        if in_string:
+            if escaped:
+                escaped = False
+            elif ch == "\\":
+                escaped = True
+            elif ch == '"':
+                in_string = False
+        elif ch == '"':
+            in_string = True
+        elif ch in "{[":
+            depth += 1
+        elif ch in "}]":
+            depth -= 1
+    return in_string or depth > 0
+
+
 def parse_record(text: str | bytes, *, name: str = "record") -> dict[str, Any]:
     """Parse and check a record; raise :class:`RecordError` naming what is wrong.
 
@@ -71,7 +91,7 @@ def parse_record(text: str | bytes, *, name: str = "record") -> dict[str, Any]:
     try:
         record = json.loads(text, parse_constant=_no_constants)
     except json.JSONDecodeError as exc:
-        cut = exc.pos >= len(text.rstrip())
+        cut = exc.pos >= len(text.rstrip()) or _unclosed(text)
         what = "is cut short (the JSON ends early; was the file truncated?)" if cut else "is not valid JSON"
         raise RecordError(name, [f"{what}: {exc.msg} at line {exc.lineno}, column {exc.colno}"]) from None
     except (ValueError, RecursionError) as exc:
@@ -302,7 +322,7 @@ def fit_from_dict(d: Mapping[str, Any]) -> FitResult:
     """
     terms = tuple(d.get("terms") or ())
     try:
-        form = get_form(str(d["model"]), terms=terms) if d["status"] == "converged" else None
+        form = get_form(str(d["model"]), terms=terms)
     except GrowthcoreInputError:
         form = None
     params = tuple(

@@ -137,16 +137,37 @@ def comparison_columns(record: Mapping[str, Any]) -> tuple[list[str], list[list[
         {"model": f["model"], "method": f["method"], "error": f["error"], "status": f["status"],
          **{k: (f.get("metrics") or {}).get(k) for k in ("n", "n_params", "r2", "rmse", "aicc", "bic")}}
         for f in record["fits"]]
-    header = ["form", "method", "error", "status", "n", "k", "R²", "RMSE", "AICc", "ΔAICc", "weight", "systematic misfit"]
+    header = ["form (method, error)", "n", "k", "R²", "RMSE", "AICc", "ΔAICc", "weight", "misfit"]
     cols = [
-        [esc(r["model"]) + (" ★" if r.get("best") else "") for r in rows],
-        [esc(r["method"]) for r in rows], [esc(r["error"]) for r in rows], [esc(r["status"]) for r in rows],
+        [esc(label(r)) + (" ★" if r.get("best") else "") + ("" if r["status"] == "converged" else " – failed")
+         for r in rows],
         [_fmt(r.get("n")) for r in rows], [_fmt(r.get("n_params")) for r in rows],
         [_fmt(r.get("r2"), ".4f") for r in rows], [_fmt(r.get("rmse")) for r in rows],
         [_fmt(r.get("aicc"), ".2f") for r in rows], [_fmt(r.get("delta_aicc"), ".2f") for r in rows],
-        [_fmt(r.get("weight"), ".3f") for r in rows], [_fmt(r.get("systematic_misfit")) for r in rows],
+        [_fmt(r.get("weight"), ".3f") for r in rows],
+        ["systematic" if r.get("systematic_misfit") else "–" if r.get("systematic_misfit") is None else "none"
+         for r in rows],
     ]
     return header, cols
+
+
+COMPARISON_WIDTHS = [3.2, 0.6, 0.5, 0.9, 0.9, 1.0, 0.9, 0.9, 1.1]
+
+
+def key_constant_columns(record: Mapping[str, Any]) -> tuple[list[str], list[list[str]]]:
+    """One row per converged fit: each constant with its 95% interval (compact, for the sheet)."""
+    forms, consts = [], []
+    for f in record["fits"]:
+        if f["status"] != "converged":
+            continue
+        parts = []
+        for name, p in f.get("parameters", {}).items():
+            ci = p.get("ci95")
+            extra = " fixed" if p.get("fixed") else f" ({_fmt(ci[0])} to {_fmt(ci[1])})" if ci else " (no interval)"
+            parts.append(f"{esc(name)} = {_fmt(p.get('value'), '.5g')}{extra}")
+        forms.append(esc(label(f)))
+        consts.append("; ".join(parts))
+    return ["form (method, error)", "constants (95% interval)"], [forms, consts]
 
 
 def parameter_columns(record: Mapping[str, Any]) -> tuple[list[str], list[list[str]]]:
@@ -163,10 +184,10 @@ def parameter_columns(record: Mapping[str, Any]) -> tuple[list[str], list[list[s
     return header, out
 
 
-def _table(header: list[str], cols: list[list[str]], title: str) -> Figure:
+def _table(header: list[str], cols: list[list[str]], title: str, widths: Sequence[float] | None = None) -> Figure:
     return {
         "data": [{
-            "type": "table",
+            "type": "table", "columnwidth": list(widths) if widths else None,
             "header": {"values": [f"<b>{h}</b>" for h in header], "fill": {"color": GRID}, "align": "left",
                        "font": {"family": FONT, "size": 12, "color": INK}},
             "cells": {"values": cols, "align": "left", "font": {"family": FONT, "size": 11, "color": INK},
@@ -179,12 +200,14 @@ def _table(header: list[str], cols: list[list[str]], title: str) -> Figure:
 
 def comparison_figure(record: Mapping[str, Any]) -> Figure:
     """The side-by-side table; ★ marks the best form by AICc among comparable fits."""
-    return _table(*comparison_columns(record), "Comparison of fitted forms (★ best by AICc within comparable fits)")
+    return _table(*comparison_columns(record), "Comparison of fitted forms (★ best by AICc within comparable fits)",
+                  COMPARISON_WIDTHS)
 
 
 def parameter_figure(record: Mapping[str, Any]) -> Figure:
     """Each constant with its standard error and t-based 95% interval."""
-    return _table(*parameter_columns(record), "Constants with standard errors and 95% intervals")
+    return _table(*parameter_columns(record), "Constants with standard errors and 95% intervals",
+                  [2.6, 0.8, 1.0, 0.8, 1.6, 0.9])
 
 
 def profile_figure(record: Mapping[str, Any]) -> Figure | None:
@@ -247,7 +270,7 @@ def summary_sheet(record: Mapping[str, Any], *, landscape: bool = False) -> Figu
     data_fig = data_figure(record, fits)
     res_fig = residual_figure(record)
     comp = comparison_figure(record)["data"][0]
-    pars = parameter_figure(record)["data"][0]
+    pars = _table(*key_constant_columns(record), "", [1.3, 3.0])["data"][0]
     if landscape:
         d_dom, r_dom = ([0.0, 0.55], [0.42, 0.9]), ([0.0, 0.55], [0.0, 0.3])
         c_dom, p_dom = ([0.6, 1.0], [0.5, 0.9]), ([0.6, 1.0], [0.0, 0.45])
@@ -255,20 +278,21 @@ def summary_sheet(record: Mapping[str, Any], *, landscape: bool = False) -> Figu
         d_dom, r_dom = ([0.0, 1.0], [0.64, 0.9]), ([0.0, 1.0], [0.42, 0.56])
         c_dom, p_dom = ([0.0, 1.0], [0.2, 0.36]), ([0.0, 1.0], [0.0, 0.18])
     layout = _layout(sheet_heading(record), "", "")
-    layout["title"]["y"] = 0.985
-    layout["title"]["yanchor"] = "top"
+    layout["title"].update(y=0.985, yanchor="top", yref="container", x=0.015, xref="container", font={"size": 15},
+                           pad={"t": 4})
     layout["margin"] = {"l": 60, "r": 30, "t": 90, "b": 30}
     layout["xaxis"] = dict(data_fig["layout"]["xaxis"], domain=d_dom[0], anchor="y")
     layout["yaxis"] = dict(data_fig["layout"]["yaxis"], domain=d_dom[1], anchor="x")
     layout["xaxis2"] = dict(res_fig["layout"]["xaxis"], domain=r_dom[0], anchor="y2")
     layout["yaxis2"] = dict(res_fig["layout"]["yaxis"], domain=r_dom[1], anchor="x2")
-    layout["legend"] = {"orientation": "h", "x": 0.0, "y": d_dom[1][1] + 0.005, "yanchor": "bottom", "font": {"size": 10}}
+    layout["legend"] = {"x": d_dom[0][1], "xanchor": "right", "y": d_dom[1][0] + 0.01, "yanchor": "bottom",
+                        "font": {"size": 10}, "bgcolor": "rgba(255,255,255,0.8)", "bordercolor": GRID, "borderwidth": 1}
     layout["shapes"] = [dict(s, xref="x2 domain", yref="y2", x0=0, x1=1) for s in res_fig["layout"].get("shapes", [])]
     layout["annotations"] = [
         {"text": f"<b>{t}</b>", "xref": "paper", "yref": "paper", "x": dom[0][0], "y": dom[1][1] + 0.003,
          "xanchor": "left", "yanchor": "bottom", "showarrow": False, "font": {"size": 12}}
         for t, dom in (("Residuals", r_dom), ("Comparison of fitted forms (★ best by AICc)", c_dom),
-                       ("Constants with standard errors and 95% intervals", p_dom))
+                       ("Constants with 95% intervals", p_dom), ("Observations and fitted forms", d_dom))
     ]
     tables = [dict(comp, domain={"x": c_dom[0], "y": c_dom[1]}), dict(pars, domain={"x": p_dom[0], "y": p_dom[1]})]
     traces = _moved(data_fig["data"], "x") + _moved(res_fig["data"], "x2", legend=False) + tables
