@@ -19,7 +19,6 @@ import math
 from dataclasses import dataclass, replace
 from typing import Any, Sequence
 
-import numpy as np
 from scipy import stats as sps
 
 from growthcore.data import Series
