@@ -102,11 +102,15 @@ def report_html(record: Mapping[str, Any], *, plotlyjs: str | None = None) -> st
     figures = panel_figures(record)
     data = record["data"]
     config = {"displaylogo": False, "responsive": True}
-    divs, calls = [], []
+    divs, calls = {}, []
     for name, fig in figures.items():
         cls = "table-panel" if fig["data"] and fig["data"][0].get("type") == "table" else "panel"
-        divs.append(f'<div id="panel-{name}" class="{cls}" data-panel="{name}"></div>')
+        divs[name] = f'<div id="panel-{name}" class="{cls}" data-panel="{name}"></div>'
         calls.append(f"draw('panel-{name}', {_json_for_script(fig)});")
+
+    def show(*names: str) -> str:
+        return "\n".join(divs[n] for n in names if n in divs)
+
     fits = "\n".join(_fit_details(f) for f in record["fits"])
     settings_rows = [[k, json.dumps(v, ensure_ascii=False)] for k, v in (record.get("settings") or {}).items()]
     request_rows = [[label(f), json.dumps(f.get("request", {}), ensure_ascii=False)] for f in record["fits"]]
@@ -126,13 +130,13 @@ def report_html(record: Mapping[str, Any], *, plotlyjs: str | None = None) -> st
 <p class="caution">{esc(CAUTION)}</p>
 <h2>Data</h2>
 {_import_section(data)}
-{divs[0]}
+{show("data")}
 <h2>Residuals</h2>
-{divs[1]}
+{show("residuals", "residuals-fitted", "observed-predicted")}
 <h2>Comparison</h2>
 {''.join(f'<p>{esc(n)}</p>' for n in notes)}
-{''.join(divs[2:4])}
-{('<h2>Profile of the carrying capacity</h2>' + divs[4]) if len(divs) > 4 else ''}
+{show("comparison", "parameters")}
+{('<h2>Profile of the carrying capacity</h2>' + show("profile")) if "profile" in divs else ''}
 <h2>Each fit</h2>
 {fits}
 <h2>Settings</h2>

@@ -21,8 +21,15 @@ COLOURS = ("#0072B2", "#E69F00", "#009E73", "#CC79A7", "#56B4E9", "#D55E00")
 DASHES = ("solid", "dash", "dot", "dashdot", "longdash", "longdashdot")
 INK, MUTED, GRID = "#1f2a30", "#6b7780", "#e3e7ea"
 FONT = "Helvetica Neue, Arial, sans-serif"
-#: Panel names in the order they are exported; ``profile`` exists only when a fit profiled K.
-PANEL_NAMES = ("data", "residuals", "comparison", "parameters", "profile")
+#: Panel names in the order they are exported; the two residual views after ``residuals`` come from
+#: the app's builders, ``profile`` exists only when a fit profiled K.
+PANEL_NAMES = ("data", "residuals", "residuals-fitted", "observed-predicted", "comparison", "parameters", "profile")
+TITLES = {
+    "data": "Observations and fitted forms",
+    "residuals": "Residuals against time",
+    "residuals-fitted": "Residuals against fitted values",
+    "observed-predicted": "Observed against predicted",
+}
 
 
 def esc(text: Any) -> str:
@@ -230,15 +237,63 @@ def profile_figure(record: Mapping[str, Any]) -> Figure | None:
                                               "carrying capacity K", "SSE")}
 
 
+def app_panels(record: Mapping[str, Any], fits: Sequence[FitResult]) -> dict[str, Figure] | None:
+    """The dashboard's own plot panels for the record, so that exported figures match the app.
+
+    None when the app's figure builders are not importable (an engine-only install).
+    """
+    try:
+        from app.figures.residuals import observed_predicted_figure, residual_fitted_figure, residual_time_figure
+        from app.figures.trajectory import trajectory_figure
+        from app.state import fit_to_store, quantity_name
+    except ImportError:
+        return None
+    from growthcore.reopen import series_from_record
+
+    series = series_from_record(record)
+    data = record["data"]
+    rows = [int(p["row"]) for p in data["points"]] if all("row" in p for p in data["points"]) else None
+    plain = {"t": [p["t"] for p in data["points"]], "p": [p["p"] for p in data["points"]], "rows": rows}
+    labels = {"quantity": quantity_name(data["value"]["column"], data["value"]["unit"]),
+              "value_unit": data["value"]["unit"], "time_unit": data["time"]["unit"], "rows": rows,
+              "uirevision": None, "h": None}
+    stored = [fit_to_store(f, series) for f in fits]
+    capacity = (record.get("settings") or {}).get("capacity")
+    figures = {
+        "data": trajectory_figure(plain, [bool(u) for u in series.used], stored, capacity, labels),
+        "residuals": residual_time_figure(stored, labels),
+        "residuals-fitted": residual_fitted_figure(stored, labels),
+        "observed-predicted": observed_predicted_figure(stored, labels),
+    }
+    for name, fig in figures.items():
+        _for_export(fig, TITLES[name])
+    return figures
+
+
+def _for_export(fig: Figure, title: str) -> None:
+    """Drop what only makes sense under a pointer (the hover highlight, the draggable K line)."""
+    fig["data"] = [t for t in fig["data"] if t.get("meta") != "highlight"]
+    layout = fig["layout"]
+    # A family name with a digit must be quoted in CSS, or the browser drops the whole list
+    family = (layout.get("font") or {}).get("family")
+    if family:
+        layout["font"]["family"] = ", ".join(
+            f'"{n.strip()}"' if " " in n.strip() and not n.strip().startswith('"') else n.strip() for n in family.split(","))
+    layout["title"] = {"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 14}}
+    layout["margin"] = dict(layout.get("margin") or {}, t=60)
+    for shape in layout.get("shapes") or []:
+        if shape.pop("editable", False) and "label" in shape:
+            shape["label"]["text"] = shape["label"]["text"].replace(" — drag to move", "")
+
+
 def panel_figures(record: Mapping[str, Any]) -> dict[str, Figure]:
     """Every panel of the record by name (see ``PANEL_NAMES``)."""
     fits = fits_from_record(record)
-    out = {
-        "data": data_figure(record, fits),
-        "residuals": residual_figure(record),
+    out = app_panels(record, fits) or {"data": data_figure(record, fits), "residuals": residual_figure(record)}
+    out.update({
         "comparison": comparison_figure(record),
         "parameters": parameter_figure(record),
-    }
+    })
     prof = profile_figure(record)
     if prof is not None:
         out["profile"] = prof
@@ -267,8 +322,9 @@ def summary_sheet(record: Mapping[str, Any], *, landscape: bool = False) -> Figu
     Portrait stacks the four parts; landscape puts the plots on the left and the tables on the right.
     """
     fits = fits_from_record(record)
-    data_fig = data_figure(record, fits)
-    res_fig = residual_figure(record)
+    app_figs = app_panels(record, fits)
+    data_fig = app_figs["data"] if app_figs else data_figure(record, fits)
+    res_fig = app_figs["residuals"] if app_figs else residual_figure(record)
     comp = comparison_figure(record)["data"][0]
     pars = _table(*key_constant_columns(record), "", [1.3, 3.0])["data"][0]
     if landscape:
@@ -281,13 +337,18 @@ def summary_sheet(record: Mapping[str, Any], *, landscape: bool = False) -> Figu
     layout["title"].update(y=0.985, yanchor="top", yref="container", x=0.015, xref="container", font={"size": 15},
                            pad={"t": 4})
     layout["margin"] = {"l": 60, "r": 30, "t": 90, "b": 30}
+    for fig in (data_fig, res_fig):
+        fig["layout"].pop("title", None)
     layout["xaxis"] = dict(data_fig["layout"]["xaxis"], domain=d_dom[0], anchor="y")
     layout["yaxis"] = dict(data_fig["layout"]["yaxis"], domain=d_dom[1], anchor="x")
     layout["xaxis2"] = dict(res_fig["layout"]["xaxis"], domain=r_dom[0], anchor="y2")
     layout["yaxis2"] = dict(res_fig["layout"]["yaxis"], domain=r_dom[1], anchor="x2")
     layout["legend"] = {"x": d_dom[0][1], "xanchor": "right", "y": d_dom[1][0] + 0.01, "yanchor": "bottom",
                         "font": {"size": 10}, "bgcolor": "rgba(255,255,255,0.8)", "bordercolor": GRID, "borderwidth": 1}
-    layout["shapes"] = [dict(s, xref="x2 domain", yref="y2", x0=0, x1=1) for s in res_fig["layout"].get("shapes", [])]
+    layout["shapes"] = [
+        *(dict(s, xref="x domain", yref="y") for s in data_fig["layout"].get("shapes") or []),
+        *(dict(s, xref="x2 domain", yref="y2", x0=0, x1=1) for s in res_fig["layout"].get("shapes") or []),
+    ]
     layout["annotations"] = [
         {"text": f"<b>{t}</b>", "xref": "paper", "yref": "paper", "x": dom[0][0], "y": dom[1][1] + 0.003,
          "xanchor": "left", "yanchor": "bottom", "showarrow": False, "font": {"size": 12}}
