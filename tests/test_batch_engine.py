@@ -59,6 +59,17 @@ def test_vectorised_fits_equal_single_series_fits(model: str, error: str) -> Non
         assert_same_fit(f.result, fit(s, model, error=error, profile=False))
 
 
+def test_vectorised_curve_fits_keep_the_time_origin_of_late_starting_series() -> None:
+    # reference: growthcore.fit.fit, whose curves take p0 at the first observed time
+    plate = [Series(s.t + 1990.0, s.p, name=s.name) for s in invented_plate(4)]
+    batch = fit_batch(plate, ["logistic-curve"], workers=1)
+    assert {f.path for f in batch.fits} == {"vectorised"}
+    for s, f in zip(plate, batch.fits):
+        single = fit(s, "logistic-curve", profile=False)
+        assert_same_fit(f.result, single)
+        assert f.result.predict(s.t[:3]) == pytest.approx(single.predict(s.t[:3]), rel=1e-6)
+
+
 def test_first_start_matches_the_start_list() -> None:
     # identity: the first start computed alone equals the first of curve_starts
     s = invented_plate(1)[0]

@@ -23,6 +23,7 @@ from growthcore.data import Series
 from growthcore.fit.problem import P0_DIFFERENCE, Problem
 from growthcore.fit.result import Grid
 from growthcore.fit.simulate import iterate
+from growthcore.fit.trajectory import curve_problem
 from growthcore.fit.starts import _linearised, capacity_guess, curve_starts
 from growthcore.models.base import CurveForm, DifferenceForm, ModelForm
 
@@ -65,25 +66,19 @@ def prepare(series: Series, form: ModelForm, *, model: str, error: str,
 
 def _curve(series: Series, t: Array, p: Array, form: CurveForm, *, model: str, error: str,
            fixed: dict[str, float]) -> Prepared | None:
-    free = tuple(n for n in form.param_names if n not in fixed)
-    if p.size <= len(free):
+    problem = curve_problem(t, p, form, model=model, error=error, fixed=fixed,
+                            t_first=float(series.t[0]), origin=float(series.t[0]))
+    if p.size <= len(problem.free):
         return None
-
-    def predict(cols: Array) -> Array:
-        values = {n: (v if np.ndim(v) == 0 else np.asarray(v)[None, :]) for n, v in problem.values(cols).items()}
-        with np.errstate(all="ignore"):
-            return np.broadcast_to(form.value(t[:, None], values), (t.size, cols.shape[1]))
-
-    problem = Problem(model, "trajectory", error, form, form.params, free, dict(fixed), predict, t, p,
-                      settings={"fixed": dict(fixed), "t_first": float(series.t[0])})
+    elapsed = t - problem.settings["time_origin"]
 
     def vector(c: Mapping[str, float]) -> Array:
-        return np.array([problem.spec(n).clip(c.get(n, 1.0)) for n in free])
+        return np.array([problem.spec(n).clip(c.get(n, 1.0)) for n in problem.free])
 
     def starts() -> tuple[Array, ...]:
-        return tuple(vector(c) for c in curve_starts(form, t, p))
+        return tuple(vector(c) for c in curve_starts(form, elapsed, p))
 
-    return Prepared(problem, vector(first_curve_start(form, t, p)), None, 0, starts)
+    return Prepared(problem, vector(first_curve_start(form, elapsed, p)), None, 0, starts)
 
 
 def first_curve_start(form: CurveForm, t: Array, p: Array) -> dict[str, float]:

@@ -50,7 +50,7 @@ class _Stack:
             size = prep.problem.observed.size
             self.mask[:size, j] = True
             self.obs[:size, j] = prep.problem.scaled(prep.problem.observed)
-            self.t[:size, j] = prep.problem.t
+            self.t[:size, j] = prep.problem.t - float((prep.problem.settings or {}).get("time_origin", 0.0))
             if prep.offset is not None:
                 self.offset[:size, j] = prep.offset
 

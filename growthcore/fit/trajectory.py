@@ -92,24 +92,31 @@ def _finish(problem: Problem, best: NLSOutcome | None, form: ModelForm) -> FitRe
     return build_result(problem, best.x, message=f"nonlinear least squares on the path ({best.message})", notes=notes)
 
 
-def _fit_curve(t: Array, p: Array, form: CurveForm, *, model: str, error: str,
-               fixed: Mapping[str, float], start: Mapping[str, float], t_first: float, origin: float) -> FitResult:
+def curve_problem(t: Array, p: Array, form: CurveForm, *, model: str, error: str,
+                  fixed: Mapping[str, float], t_first: float, origin: float) -> Problem:
+    """The trajectory problem of a curve: p(t − origin) at the used times ``t``."""
     free = tuple(n for n in form.param_names if n not in fixed)
-    too_few = _too_few(model, error, form, p.size, len(free))
-    if too_few:
-        return too_few
+    elapsed = t - origin
 
     def predict(cols: Array) -> Array:
         values = {n: (v if np.ndim(v) == 0 else np.asarray(v)[None, :]) for n, v in problem.values(cols).items()}
         with np.errstate(all="ignore"):
             return np.broadcast_to(form.value(elapsed[:, None], values), (t.size, cols.shape[1]))
 
-    elapsed = t - origin
     problem = Problem(model, "trajectory", error, form, form.params, free, dict(fixed), predict, t, p,
                       settings={"fixed": dict(fixed), "t_first": t_first, "time_origin": origin})
-    guesses = curve_starts(form, elapsed, p)
+    return problem
+
+
+def _fit_curve(t: Array, p: Array, form: CurveForm, *, model: str, error: str,
+               fixed: Mapping[str, float], start: Mapping[str, float], t_first: float, origin: float) -> FitResult:
+    problem = curve_problem(t, p, form, model=model, error=error, fixed=fixed, t_first=t_first, origin=origin)
+    too_few = _too_few(model, error, form, p.size, len(problem.free))
+    if too_few:
+        return too_few
+    guesses = curve_starts(form, t - origin, p)
     candidates = [{**c, **start} for c in guesses] if not start else [dict(start)] + guesses
-    vectors = [np.array([problem.spec(n).clip(c.get(n, 1.0)) for n in free]) for c in candidates]
+    vectors = [np.array([problem.spec(n).clip(c.get(n, 1.0)) for n in problem.free]) for c in candidates]
     return _finish(problem, _best(problem, vectors), form)
 
 
