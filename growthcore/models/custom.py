@@ -32,7 +32,9 @@ def custom_form(terms: Sequence[str]) -> DifferenceForm:
 
     def basis(p: Array, v: Values) -> list[Array]:
         k = capacity(v)
-        return [np.broadcast_to(term.evaluate(p, k), np.shape(p)) for term in parsed]
+        cols = [term.evaluate(p, k) for term in parsed]
+        # A constant term gives a scalar; an array of K values (Jacobian columns) widens the shape.
+        return [np.broadcast_to(c, np.broadcast_shapes(np.shape(p), np.shape(c))) for c in cols]
 
     def increment(p: Array, v: Values) -> Array:
         return sum(v[n] * col for n, col in zip(names, basis(p, v)))  # type: ignore[return-value]
