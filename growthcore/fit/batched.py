@@ -111,7 +111,11 @@ def solve_batched(
         done = take[small_step | small_gain]
         reject = idx[~better]
         lam[reject] *= 4.0
-        stuck = reject[lam[reject] > 1e12]
+        # A rejected step whose predicted gain is already negligible means the minimum is reached;
+        # waiting for λ to blow up would only burn iterations.
+        predicted_gain = -(np.einsum("ak,ak->a", g, step) + 0.5 * np.einsum("ak,akl,al->a", step, a_mat, step))
+        negligible = predicted_gain[~better] <= ftol * np.maximum(sse[reject], 1e-300)
+        stuck = reject[(lam[reject] > 1e12) | negligible]
         converged[done] = True
         converged[stuck] = True  # no step lowers the SSE: a (local) minimum within the bounds
         active[done] = False
