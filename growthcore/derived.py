@@ -18,7 +18,7 @@ import math
 from typing import Any, Mapping
 
 import numpy as np
-from scipy.optimize import brentq
+from scipy.optimize import brentq, minimize_scalar
 
 from growthcore.fit.result import FitResult
 from growthcore.fit.simulate import iterate
@@ -116,7 +116,8 @@ def _difference_summary(result: FitResult, form: DifferenceForm, values: Mapping
         j = int(np.nanargmax(change))
         if not 0 < j < states.size - 1:
             return out  # the change keeps rising over the whole range: no inflection, no maximum rate
-        p_i, mu = float(states[j]), float(change[j]) / h
+        p_i, top_change = _refine_peak(form, values, states, j)
+        mu = top_change / h
         out["inflection_state"] = p_i
         out["max_rate"] = mu
         path = iterate(form, p_s, values, MAX_STEPS // 10)
@@ -140,14 +141,29 @@ def _curve_summary(result: FitResult, form: CurveForm, values: Mapping[str, floa
         rate = _rate(form, states, values)
         if np.any(np.isfinite(rate)) and np.nanmax(rate) > 0:
             j = int(np.nanargmax(rate))
-            p_i, mu = float(states[j]), float(rate[j])
             interior = 0 < j < states.size - 1
+            p_i, mu = _refine_peak(form, values, states, j) if interior else (float(states[j]), float(rate[j]))
             out["inflection_state"] = p_i if interior else None
             out["max_rate"] = mu
             t_i = time_to_reach(result, p_i) if interior else (0.0 if j == 0 else math.nan)
             out["inflection_time"] = _finite(t_i)
             out["lag_time"] = _finite(t_i - (p_i - p0) / mu) if math.isfinite(t_i) and mu > 0 and interior else None
     return out
+
+
+def _refine_peak(form: ModelForm, values: Mapping[str, float], states: Array, j: int) -> tuple[float, float]:
+    """The maximum of the rate between the grid neighbours of ``states[j]`` (the grid alone is too coarse)."""
+    def neg_rate(q: float) -> float:
+        value = float(_rate(form, np.array([q]), values)[0])
+        return -value if math.isfinite(value) else math.inf
+
+    a, b = float(states[j - 1]), float(states[j + 1])
+    best_p, best_rate = float(states[j]), -neg_rate(float(states[j]))
+    found = minimize_scalar(neg_rate, bounds=(a, b), method="bounded",
+                            options={"xatol": 1e-10 * max(abs(a), abs(b), 1e-300)})
+    if found.success and math.isfinite(found.fun) and -found.fun >= best_rate:
+        return float(found.x), float(-found.fun)
+    return best_p, best_rate
 
 
 def _first_crossing(t: Array, path: Array, level: float) -> float:
