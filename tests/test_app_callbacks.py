@@ -1,0 +1,179 @@
+"""Callbacks called directly: import, settings, K, exclusions, fits, panels and the table."""
+
+from __future__ import annotations
+
+import base64
+import json
+import os
+
+import numpy as np
+import pytest
+from dash import no_update
+
+from app import ids
+from app.callbacks.capacity import update_capacity
+from app.callbacks.comparison import draw_comparison, next_sort
+from app.callbacks.data import import_source, on_import
+from app.callbacks.exclusions import clicked_index, update_exclusions
+from app.callbacks.explore import explore_panels
+from app.callbacks.fits import compute_fits, needs_refit_on_drag
+from app.callbacks.panels import draw_panels
+from app.callbacks.settings import build_settings, check_terms, expand_forms
+from app.components.comparison import sort_rows
+from app.server import DEMO_FILE, read_source
+from app.state import series_from_store
+from growthcore.compare import compare
+from growthcore.explore import Candidate, candidate_fit, fit_forms
+
+CSV = "Day,Cover (%)\n" + "\n".join(f"{d},{v:.3f}" for d, v in zip(range(12), [2, 3.1, 4.7, 7, 10.2, 14, 18.5,
+                                                                              22, 24.9, 26.6, 27.5, 28.1]))
+
+
+def upload(text: str, name: str = "invented_cover.csv") -> str:
+    return "data:text/csv;base64," + base64.b64encode(text.encode()).decode()
+
+
+@pytest.fixture(scope="module")
+def demo() -> dict:
+    return import_source(read_source(DEMO_FILE))
+
+
+@pytest.fixture(scope="module")
+def settings() -> dict:
+    return build_settings(["logistic", "gompertz", "ricker", "beverton-holt"], [], "", "increments", "additive",
+                          "held")[0]
+
+
+def test_demo_reads_with_units(demo: dict) -> None:
+    assert demo["source"] == "algae_photobioreactor.csv"
+    assert demo["time_unit"] == "h" and demo["value_unit"] == "g/L" and demo["quantity"] == "Dry weight"
+    assert len(demo["t"]) == 40 and "Import report" in demo["report_text"]
+    json.dumps(demo)
+
+
+def test_upload_replaces_the_data_and_clears_the_mapping(demo: dict) -> None:
+    out = on_import(upload(CSV), 0, None, "invented_cover.csv", read_source(DEMO_FILE), demo, "Time", None, None,
+                    None, None, trigger=ids.UPLOAD)
+    source, data = out[0], out[1]
+    assert source["filename"] == "invented_cover.csv"
+    assert data["source"] == "invented_cover.csv" and data["value_unit"] == "%"
+    assert out[6] == data["name"]
+    assert out[8:] == (None, None, None, None, None)
+
+
+def test_malformed_upload_keeps_the_previous_data_and_names_the_file(demo: dict) -> None:
+    out = on_import(upload("just words\nand more words\n"), 0, None, "notes.csv", read_source(DEMO_FILE), demo,
+                    None, None, None, None, None, trigger=ids.UPLOAD)
+    assert out[1] is no_update
+    text = str(out[2])
+    assert "Not read." in text and "notes.csv" in text and "algae_photobioreactor.csv" in text
+
+
+def test_upload_over_the_limit_is_refused(demo: dict) -> None:
+    out = on_import(upload(CSV), 0, None, "big.csv", None, demo, None, None, None, None, None,
+                    trigger=ids.UPLOAD, max_bytes=50)
+    assert out[1] is no_update and "over the limit" in str(out[2])
+
+
+def test_bad_custom_term_shows_the_parser_message_in_place() -> None:
+    good, errors = check_terms("p*(1 - p/K)\n\np*(K-")
+    assert good == ["p*(1 - p/K)"] and len(errors) == 1 and errors[0].startswith("line 3:")
+    assert "^" in errors[0]
+    settings, message, _ = build_settings(["logistic", "custom"], [], "p*(K-", "increments", "additive", "held")
+    assert settings["models"] == ["logistic"]
+    assert "^" in str(message) and "left out" in str(message)
+    settings, _, _ = build_settings(["custom"], [], "p*(K-p)", "trajectory", "log", "held")
+    assert settings["models"] == ["custom"] and settings["terms"] == ["p*(K-p)"]
+
+
+def test_constant_term_variants_follow_each_difference_form() -> None:
+    assert expand_forms(["logistic", "logistic-curve"], True) == ["logistic", "logistic+c", "logistic-curve"]
+
+
+def test_capacity_initial_then_input_then_drag(demo: dict, settings: dict) -> None:
+    first = update_capacity(ids.DATA, None, None, None, demo, settings, None, None)
+    k0, _, slider, low, high = first[:5]
+    assert k0 == slider and low == 0 and high > max(demo["p"])
+    typed = update_capacity(ids.K_INPUT, 3.5, None, None, demo, settings, None, k0)
+    assert typed[0] == 3.5 and typed[1] is no_update and typed[2] == 3.5
+    dragged = update_capacity(ids.G_TRAJECTORY, None, None, {"shapes[0].y0": 3.91, "shapes[0].y1": 3.91},
+                              demo, settings, None, 3.5)
+    assert dragged[0] == 3.91 and dragged[1] == 3.91
+    zoom = update_capacity(ids.G_TRAJECTORY, None, None, {"xaxis.range[0]": 3}, demo, settings, None, 3.5)
+    assert zoom[0] is no_update
+    bad = update_capacity(ids.K_INPUT, -2, None, None, demo, settings, None, 3.5)
+    assert bad[0] is no_update and "positive" in bad[-1]
+    fitted = update_capacity(ids.K_FROM_FIT, None, None, None, demo, settings, None, 3.5)
+    assert fitted[0] > 3.0 and "logistic" in fitted[-1]
+
+
+def test_exclusions_toggle_undo_and_reset(demo: dict) -> None:
+    click = {"points": [{"customdata": [7, 9], "x": 84, "y": 0.4}]}
+    assert clicked_index(click) == 7 and clicked_index({"points": [{"x": 1}]}) is None
+    state = update_exclusions(ids.G_TRAJECTORY, None, demo, click)
+    assert state["excluded"] == {"7": "excluded by the user"}
+    assert series_from_store(demo, state).reason(7) == "excluded by the user"
+    again = update_exclusions(ids.G_CHANGE, state, demo, click)
+    assert again["excluded"] == {}
+    undone = update_exclusions(ids.EXCLUSION_UNDO, again, demo)
+    assert undone["excluded"] == {"7": "excluded by the user"}
+    cleared = update_exclusions(ids.EXCLUSION_CLEAR, undone, demo)
+    assert cleared["excluded"] == {}
+    other = dict(demo, key="another file")
+    assert update_exclusions(ids.DATA, undone, other)["excluded"] == {}
+    assert series_from_store(other, undone).excluded == {}
+
+
+def test_fits_store_carries_engine_numbers(demo: dict, settings: dict) -> None:
+    store = compute_fits(demo, None, settings, 4.2)
+    json.dumps(store, allow_nan=False)
+    series = series_from_store(demo)
+    direct = compare(fit_forms(series, settings["models"], method="increments", capacity=4.2))
+    assert [r["model"] for r in store["comparison"]] == [r.model for r in direct]
+    assert [r["aicc"] for r in store["comparison"]] == [r.aicc for r in direct]
+    assert sum(r["best"] for r in store["comparison"]) == 1
+    logistic = next(f for f in store["fits"] if f["model"] == "logistic")
+    assert logistic["parameters"]["K"] == {**logistic["parameters"]["K"], "value": 4.2, "fixed": True}
+
+
+def test_fits_follow_the_drag_only_when_cheap(settings: dict) -> None:
+    assert needs_refit_on_drag(settings)
+    assert not needs_refit_on_drag({**settings, "method": "trajectory"})
+    assert not needs_refit_on_drag({**settings, "k_mode": "fitted"})
+
+
+def test_fitted_k_mode_reports_profile_intervals(demo: dict, settings: dict) -> None:
+    store = compute_fits(demo, None, {**settings, "models": ["logistic"], "k_mode": "fitted"}, 4.2)
+    fit = store["fits"][0]
+    assert not fit["parameters"]["K"]["fixed"] and fit["profile_interval"] is not None
+    assert store["capacity"] is None
+
+
+def test_explore_panels_show_the_engine_slope(demo: dict, settings: dict) -> None:
+    _, fig2, readout = explore_panels(demo, None, settings, 4.0)
+    engine = candidate_fit(series_from_store(demo), Candidate("p·(1 − p/K)", "logistic"), 4.0)
+    text = str(readout)
+    assert f"r = {engine.slope:.4g}" in text and f"uncentered R² = {engine.r2_uncentered:.4g}" in text
+    _, _, other = explore_panels(demo, None, settings, 5.0)
+    assert str(other) != text
+    assert "ricker" in text  # says why Ricker has no candidate line
+
+
+def test_panels_and_table_from_the_store(demo: dict, settings: dict) -> None:
+    store = compute_fits(demo, None, settings, 4.2)
+    traj, rt, rf, op, flag, note = draw_panels(store, 4.2, demo, None)
+    assert traj["layout"]["shapes"][0]["y0"] == 4.2 and note == ""
+    _, _, _, _, _, stale = draw_panels(store, 4.5, demo, None)
+    assert "refitted" in stale
+    table, _ = draw_comparison(store, None)
+    text = str(table)
+    assert "★ best AICc" in text and "K = 4.2 (held)" in text
+
+
+def test_sorting_cycles_and_keeps_missing_values_last() -> None:
+    assert next_sort("aicc", None) == {"column": "aicc", "descending": False}
+    assert next_sort("aicc", {"column": "aicc", "descending": False})["descending"] is True
+    assert next_sort("aicc", {"column": "aicc", "descending": True})["column"] is None
+    rows = [{"aicc": 3.0}, {"aicc": None}, {"aicc": 1.0}]
+    assert [r["aicc"] for r in sort_rows(rows, {"column": "aicc", "descending": True})] == [3.0, 1.0, None]
+    assert [r["aicc"] for r in sort_rows(rows, {"column": "aicc", "descending": False})] == [1.0, 3.0, None]
