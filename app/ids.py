@@ -44,6 +44,8 @@ LIVE_NOTE = "model-live-note"
 EXCLUSION_LIST = "exclusion-list"
 EXCLUSION_UNDO = "exclusion-undo"
 EXCLUSION_CLEAR = "exclusion-clear"
+EXCLUDE_ROW = "exclusion-row"        # row number typed by the user (keyboard route)
+EXCLUDE_ROW_BUTTON = "exclusion-row-button"
 RESTORE = "exclusion-restore"      # pattern-matching type: {"type": RESTORE, "index": i}
 
 # Panels

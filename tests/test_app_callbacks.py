@@ -119,6 +119,9 @@ def test_exclusions_toggle_undo_and_reset(demo: dict) -> None:
     assert undone["excluded"] == {"7": "excluded by the user"}
     cleared = update_exclusions(ids.EXCLUSION_CLEAR, undone, demo)
     assert cleared["excluded"] == {}
+    by_row = update_exclusions(ids.EXCLUDE_ROW_BUTTON, cleared, demo, restore_index=9)  # row 9 is point 7
+    assert by_row["excluded"] == {"7": "excluded by the user"}
+    assert update_exclusions(ids.EXCLUDE_ROW_BUTTON, cleared, demo, restore_index=999) is None
     other = dict(demo, key="another file")
     assert update_exclusions(ids.DATA, undone, other)["excluded"] == {}
     assert series_from_store(other, undone).excluded == {}
@@ -162,7 +165,7 @@ def test_explore_panels_show_the_engine_slope(demo: dict, settings: dict) -> Non
 def test_panels_and_table_from_the_store(demo: dict, settings: dict) -> None:
     store = compute_fits(demo, None, settings, 4.2)
     traj, rt, rf, op, flag, note = draw_panels(store, 4.2, demo, None)
-    assert traj["layout"]["shapes"][0]["y0"] == 4.2 and note == ""
+    assert traj["layout"]["shapes"][0]["y0"] == 4.2 and "refitted" not in note and "first observation" in note
     _, _, _, _, _, stale = draw_panels(store, 4.5, demo, None)
     assert "refitted" in stale
     table, _ = draw_comparison(store, None)

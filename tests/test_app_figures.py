@@ -124,3 +124,16 @@ def test_panels_without_fits_say_so(data: dict) -> None:
         validate(fig)
         assert "no converged fit" in fig["layout"]["annotations"][0]["text"]
     validate(message_figure("nothing"))
+
+
+def test_one_colour_per_form_and_a_dash_per_method(fits: list[dict]) -> None:
+    from app.figures.common import fit_styles
+
+    styles = fit_styles(fits)
+    by_model: dict[str, set[str]] = {}
+    for f, st in zip(fits, styles):
+        by_model.setdefault(f["model"], set()).add(st["colour"])
+    assert all(len(c) == 1 for c in by_model.values())
+    assert len({next(iter(c)) for c in by_model.values()}) == len(by_model)
+    dashes = {(f["method"], st["dash"]) for f, st in zip(fits, styles)}
+    assert dashes == {("increments", "dot"), ("trajectory", "solid")}

@@ -23,9 +23,21 @@ def clicked_index(click: Mapping[str, Any] | None) -> int | None:
     return None
 
 
+def index_of_row(data: Mapping[str, Any], row: int) -> int | None:
+    """The point read from spreadsheet row ``row`` (its position + 1 when rows are not known)."""
+    rows = data.get("rows")
+    if rows:
+        return rows.index(int(row)) if int(row) in rows else None
+    return int(row) - 1 if 1 <= int(row) <= len(data["t"]) else None
+
+
 def update_exclusions(trigger: Any, state: Mapping[str, Any] | None, data: Mapping[str, Any] | None,
                       click: Mapping[str, Any] | None = None, restore_index: int | None = None) -> dict[str, Any] | None:
-    """The new exclusions state, or None when nothing changes."""
+    """The new exclusions state, or None when nothing changes.
+
+    ``restore_index`` is the point to restore for the list's buttons, and the typed row number for
+    the keyboard route (``EXCLUDE_ROW_BUTTON``).
+    """
     if data is None:
         return None
     key = data["key"]
@@ -41,6 +53,9 @@ def update_exclusions(trigger: Any, state: Mapping[str, Any] | None, data: Mappi
         return undo_exclusion(state) if state.get("key") == key else None
     if trigger == ids.EXCLUSION_CLEAR:
         return restore_exclusion(state, key, None)
+    if trigger == ids.EXCLUDE_ROW_BUTTON and restore_index is not None:
+        index = index_of_row(data, restore_index)
+        return toggle_exclusion(state, key, index) if index is not None else None
     if trigger == "restore" and restore_index is not None:
         return restore_exclusion(state, key, restore_index)
     return None
@@ -53,12 +68,12 @@ def register(app: Dash) -> None:
         Input(ids.DATA, "data"),
         *[Input(g, "clickData") for g in ids.GRAPHS],
         Input(ids.EXCLUSION_UNDO, "n_clicks"), Input(ids.EXCLUSION_CLEAR, "n_clicks"),
-        Input({"type": ids.RESTORE, "index": ALL}, "n_clicks"),
-        State(ids.EXCLUSIONS, "data"),
+        Input({"type": ids.RESTORE, "index": ALL}, "n_clicks"), Input(ids.EXCLUDE_ROW_BUTTON, "n_clicks"),
+        State(ids.EXCLUSIONS, "data"), State(ids.EXCLUDE_ROW, "value"),
     )
     def _exclusions(data, *args):
         clicks = args[: len(ids.GRAPHS)]
-        undo, clear, _restores, state = args[len(ids.GRAPHS):]
+        undo, clear, _restores, by_row, state, row = args[len(ids.GRAPHS):]
         trigger = ctx.triggered_id
         click = None
         restore_index = None
@@ -68,6 +83,10 @@ def register(app: Dash) -> None:
             restore_index, trigger = int(trigger["index"]), "restore"
         elif trigger in ids.GRAPHS:
             click = clicks[ids.GRAPHS.index(trigger)]
+        elif trigger == ids.EXCLUDE_ROW_BUTTON:
+            if not by_row or row is None:
+                return (no_update,) * (1 + len(ids.GRAPHS))
+            restore_index = int(row)
         elif trigger in (ids.EXCLUSION_UNDO, ids.EXCLUSION_CLEAR) and not (undo if trigger == ids.EXCLUSION_UNDO else clear):
             return (no_update,) * (1 + len(ids.GRAPHS))
         new = update_exclusions(trigger, state, data, click, restore_index)

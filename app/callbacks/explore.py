@@ -55,6 +55,11 @@ def candidate_readout(cands: list[dict[str, Any]], notes: list[str], capacity: f
             *[html.P(n, className="muted") for n in notes]]
 
 
+def style_order(settings: Mapping[str, Any]) -> dict[str, int]:
+    """Position of each form among the chosen forms: the fits panels colour a form by it."""
+    return {model: k for k, model in enumerate(settings.get("models", []))}
+
+
 def explore_panels(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
                    settings: Mapping[str, Any] | None, capacity: float | None, axis: str = "state") -> tuple[Any, ...]:
     """Outputs: the change figure, the candidate figure and the slope/R² readout."""
@@ -70,6 +75,9 @@ def explore_panels(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any]
     except GrowthcoreInputError as exc:
         cands, notes = [], [str(exc).splitlines()[0]]
     fitted = [candidate_to_store(candidate_fit(series, c, capacity)) for c in cands]
+    order = style_order(settings)
+    for c in fitted:
+        c["style"] = order.get(c["model"], len(order))
     fig2 = candidate_figure(fitted, labels)
     return fig1, fig2, candidate_readout(fitted, notes, capacity, data.get("value_unit", ""))
 

@@ -37,9 +37,12 @@ def draw_panels(fits_store: Mapping[str, Any] | None, capacity: float | None, da
     labels = labels_of(data)
     traj = trajectory_figure(data, [bool(u) for u in series.used], fits, capacity, labels)
     note = ""
+    if any(f.get("method") == "increments" and f.get("status") == "converged" for f in fits):
+        note = ("Increments fits are drawn as their map iterated from the first observation; their residuals "
+                "are one step ahead. ")
     if current and current.get("capacity") is not None and capacity is not None \
             and abs(current["capacity"] - capacity) > 1e-12 * max(abs(capacity), 1.0):
-        note = (f"The fits are for K = {current['capacity']:.4g}; they are refitted at K = {capacity:.4g} "
+        note += (f"The fits are for K = {current['capacity']:.4g}; they are refitted at K = {capacity:.4g} "
                 "when you release the slider.")
     return (traj, residual_time_figure(fits, labels), residual_fitted_figure(fits, labels),
             observed_predicted_figure(fits, labels), misfit_flag(fits), note)

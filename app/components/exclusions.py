@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any, Mapping
 
-from dash import html
+from dash import dcc, html
 
 from app import ids
 
@@ -14,6 +14,12 @@ def exclusions_section() -> html.Section:
         html.H2("Excluded points", className="section-title"),
         html.P("Click a point in any panel to leave it out of every fit; click it again to restore it.",
                className="hint"),
+        html.Div([
+            html.Label("Row", htmlFor=ids.EXCLUDE_ROW, className="field-label inline-label"),
+            dcc.Input(id=ids.EXCLUDE_ROW, type="number", min=1, step=1, debounce=True, className="row-input"),
+            html.Button("Exclude or restore", id=ids.EXCLUDE_ROW_BUTTON, n_clicks=0, className="button button-small",
+                        type="button"),
+        ], className="button-row"),
         html.Div(id=ids.EXCLUSION_LIST),
         html.Div([
             html.Button("Undo", id=ids.EXCLUSION_UNDO, n_clicks=0, className="button button-small", type="button"),

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Any, Sequence
+from typing import Any, Mapping, Sequence
 
 from app import theme
 
@@ -76,6 +76,28 @@ def highlight_trace() -> dict[str, Any]:
         "showlegend": False, "hoverinfo": "skip", "meta": HIGHLIGHT,
         "marker": {"size": 16, "symbol": "circle-open", "color": theme.HIGHLIGHT, "line": {"width": 2.5}},
     }
+
+
+SYMBOLS = ("circle", "square", "diamond", "triangle-up", "cross", "x")
+
+
+def fit_styles(fits: Sequence[Mapping[str, Any]]) -> list[dict[str, str]]:
+    """Colour, dash and marker of each fit: one colour per form in every panel; when both methods
+    are shown, the dash tells them apart (solid: trajectory, dotted: increments)."""
+    models: list[str] = []
+    for f in fits:
+        if f["model"] not in models:
+            models.append(f["model"])
+    both = len({f["method"] for f in fits}) > 1
+    out = []
+    for f in fits:
+        k = models.index(f["model"])
+        colour, dash = theme.form_style(k)
+        if both:
+            dash = "solid" if f["method"] == "trajectory" else "dot"
+        symbol = SYMBOLS[k % len(SYMBOLS)] + ("-open" if both and f["method"] == "increments" else "")
+        out.append({"colour": colour, "dash": dash, "symbol": symbol})
+    return out
 
 
 def message_figure(text: str) -> Figure:

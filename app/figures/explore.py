@@ -41,7 +41,8 @@ def candidate_figure(candidates: Sequence[Mapping[str, Any]], labels: Mapping[st
     """Δp per step against each candidate term g(p; K), with its fitted line through the origin.
 
     Each candidate holds ``label, status, message, index, g, dp, fitted, slope, r2_uncentered`` as
-    computed by :func:`growthcore.explore.candidate_fit`.
+    computed by :func:`growthcore.explore.candidate_fit`, and optionally ``style``: the position of its
+    form among the fits, so that a form has one colour in every panel.
     """
     shown = [c for c in candidates if c.get("status") == "converged" and c.get("g")]
     if not shown:
@@ -56,7 +57,7 @@ def candidate_figure(candidates: Sequence[Mapping[str, Any]], labels: Mapping[st
     layout["shapes"] = [_zero_line()]
     data = []
     for k, c in enumerate(shown):
-        colour, dash = theme.form_style(k)
+        colour, dash = theme.form_style(int(c.get("style", k)))
         rows = [_row_of(labels, i) for i in c["index"]]
         used = [True] * len(c["index"])
         trace = observation_trace(c["g"], c["dp"], c["index"], rows, used, name=f"g = {c['label']}",

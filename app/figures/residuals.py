@@ -5,7 +5,7 @@ from __future__ import annotations
 from typing import Any, Mapping, Sequence
 
 from app import theme
-from app.figures.common import Figure, axis_title, base_layout, highlight_trace, message_figure
+from app.figures.common import Figure, axis_title, base_layout, fit_styles, highlight_trace, message_figure
 
 _NONE = "no converged fit to show: pick a form, or see the comparison table for why a fit failed"
 
@@ -23,17 +23,16 @@ def _residual_title(fits: Sequence[Mapping[str, Any]], unit: str) -> str:
     return axis_title("Residual p − p̂", unit)
 
 
-def _points(k: int, f: Mapping[str, Any], x: Sequence[float | None], y: Sequence[float | None],
-            labels: Mapping[str, Any], hover: str) -> dict[str, Any]:
-    colour, _ = theme.form_style(k)
+def _points(style: Mapping[str, str], f: Mapping[str, Any], x: Sequence[float | None],
+            y: Sequence[float | None], labels: Mapping[str, Any], hover: str) -> dict[str, Any]:
     rows = labels.get("rows")
     cd = [[int(i), int(rows[i]) if rows else int(i) + 1] for i in f["index"]]
-    symbols = ("circle", "square", "diamond", "triangle-up", "cross", "x")
     return {
         "type": "scatter", "mode": "markers", "x": list(x), "y": list(y), "name": f["label"],
         "customdata": cd, "meta": "points",
-        "marker": {"size": 6, "color": colour, "symbol": symbols[k % len(symbols)],
-                   "line": {"width": 0.5, "color": theme.INK}},
+        "marker": {"size": 6, "color": style["colour"], "symbol": style["symbol"],
+                   "line": {"width": 0.5 if not style["symbol"].endswith("-open") else 1.5,
+                            "color": theme.INK if not style["symbol"].endswith("-open") else style["colour"]}},
         "hovertemplate": f"{f['label']}<br>{hover}<br>row %{{customdata[1]}}<extra></extra>",
     }
 
@@ -51,7 +50,8 @@ def residual_time_figure(fits: Sequence[Mapping[str, Any]], labels: Mapping[str,
     tu, vu = labels.get("time_unit", ""), labels.get("value_unit", "")
     layout = base_layout(axis_title("Time", tu), _residual_title(fits, vu), uirevision=labels.get("uirevision"))
     layout["shapes"] = [_zero_line()]
-    data = [_points(k, f, f["t"], f["residuals"], labels, f"t = %{{x:.4g}} {tu}<br>residual = %{{y:.3g}}")
+    styles = fit_styles(fits)
+    data = [_points(styles[k], f, f["t"], f["residuals"], labels, f"t = %{{x:.4g}} {tu}<br>residual = %{{y:.3g}}")
             for k, f in shown]
     return {"data": [*data, highlight_trace()], "layout": layout}
 
@@ -64,7 +64,8 @@ def residual_fitted_figure(fits: Sequence[Mapping[str, Any]], labels: Mapping[st
     vu = labels.get("value_unit", "")
     layout = base_layout(axis_title("Fitted p̂", vu), _residual_title(fits, vu), uirevision=labels.get("uirevision"))
     layout["shapes"] = [_zero_line()]
-    data = [_points(k, f, f["predicted"], f["residuals"], labels, f"p̂ = %{{x:.4g}} {vu}<br>residual = %{{y:.3g}}")
+    styles = fit_styles(fits)
+    data = [_points(styles[k], f, f["predicted"], f["residuals"], labels, f"p̂ = %{{x:.4g}} {vu}<br>residual = %{{y:.3g}}")
             for k, f in shown]
     return {"data": [*data, highlight_trace()], "layout": layout}
 
@@ -85,8 +86,9 @@ def observed_predicted_figure(fits: Sequence[Mapping[str, Any]], labels: Mapping
     layout["annotations"] = [{"text": "1:1", "x": hi, "y": hi, "xref": "x", "yref": "y", "showarrow": False,
                               "xanchor": "right", "yanchor": "bottom", "font": {"color": theme.MUTED, "size": 11}}]
     data = []
+    styles = fit_styles(fits)
     for k, f in shown:
         ahead = " (one step ahead)" if f["method"] == "increments" else ""
-        data.append(_points(k, f, f["predicted"], f["observed"], labels,
+        data.append(_points(styles[k], f, f["predicted"], f["observed"], labels,
                             f"predicted{ahead} = %{{x:.4g}} {vu}<br>observed = %{{y:.4g}} {vu}"))
     return {"data": [*data, highlight_trace()], "layout": layout}

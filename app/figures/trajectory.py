@@ -5,7 +5,8 @@ from __future__ import annotations
 from typing import Any, Mapping, Sequence
 
 from app import theme
-from app.figures.common import Figure, axis_title, base_layout, highlight_trace, observation_trace, rows_or_positions
+from app.figures.common import (Figure, axis_title, base_layout, fit_styles, highlight_trace, observation_trace,
+                                rows_or_positions)
 
 #: Position of the capacity line in ``layout.shapes``; the drag callback reads ``shapes[0].y0``.
 CAPACITY_SHAPE = 0
@@ -27,10 +28,11 @@ def trajectory_figure(data: Mapping[str, Any], used: Sequence[bool], fits: Seque
                             hover=f"t = %{{x:.4g}} {tu}<br>p = %{{y:.4g}} {vu}<br>row %{{customdata[1]}}"
                                   "<br>click to exclude or restore")
     traces: list[dict[str, Any]] = []
+    styles = fit_styles(fits)
     for k, f in enumerate(fits):
         if f.get("status") != "converged" or not f.get("path"):
             continue
-        colour, dash = theme.form_style(k)
+        colour, dash = styles[k]["colour"], styles[k]["dash"]
         difference = not f["model"].endswith("-curve")
         note = " — simulated from the first observation" if f["method"] == "increments" else ""
         traces.append({

@@ -86,7 +86,9 @@ def make_driver() -> Iterator[Callable[..., object]]:
                     "--disable-dev-shm-usage", f"--user-data-dir={profile}", f"--window-size={width},{height}"):
             options.add_argument(arg)
         driver = webdriver.Chrome(service=Service(CHROMEDRIVER), options=options)
-        driver.set_window_size(width, height)
+        # the viewport itself, not the window with its frame, is the screen size under test
+        driver.execute_cdp_cmd("Emulation.setDeviceMetricsOverride",
+                               {"width": width, "height": height, "deviceScaleFactor": 1, "mobile": False})
         drivers.append(driver)
         return driver
 

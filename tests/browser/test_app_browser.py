@@ -95,6 +95,21 @@ def test_demo_opens_with_every_panel(server_url: str, make_driver: Any, artifact
             assert n >= 2, graph
         assert not driver.find_elements("css selector", ".dash-debug-menu, .dash-fe-error__title")
         _shot(driver, artifacts, f"01-demo-{width}x{height}")
+    # keyboard: Tab reaches the K box, the row-exclusion box and the table's sort buttons
+    from selenium.webdriver.common.keys import Keys
+
+    from selenium.webdriver.common.action_chains import ActionChains
+
+    reached: set[str] = set()
+    wanted = {"model-k-input", "exclusion-row", "sort-button"}
+    for _ in range(250):
+        ActionChains(driver).send_keys(Keys.TAB).perform()
+        focused = driver.execute_script(
+            "var e = document.activeElement; return e.id + ' ' + (e.className || '').toString();")
+        reached |= {w for w in wanted if w in focused}
+        if wanted <= reached:
+            break
+    assert wanted <= reached, reached
 
 
 def test_upload_switch_forms_and_change_k(server_url: str, make_driver: Any, artifacts: str, tmp_path: Any) -> None:
