@@ -64,13 +64,16 @@ def candidate_figure(candidates: Sequence[Mapping[str, Any]], labels: Mapping[st
                                   hover=f"g = %{{x:.4g}}<br>Δp = %{{y:.4g}} {vu}<br>row %{{customdata[1]}}")
         trace["marker"].update(color=colour, symbol="circle", line={"width": 0.6, "color": theme.INK}, size=6)
         trace["legendgroup"] = c["label"]
+        trace["showlegend"] = False
         data.append(trace)
         pairs = sorted(zip(c["g"], c["fitted"]), key=lambda gv: gv[0])
         line_x = [0.0] + [g for g, _ in pairs]
         line_y = [0.0] + [v for _, v in pairs]
         data.append({
-            "type": "scatter", "mode": "lines", "x": line_x, "y": line_y, "legendgroup": c["label"],
-            "name": f"{c.get('slope_name', 'b')} = {c['slope']:.4g}, uncentered R² = {c['r2_uncentered']:.4f}",
+            "type": "scatter", "mode": "lines+markers", "x": line_x, "y": line_y, "legendgroup": c["label"],
+            "name": f"g = {c['label']}: {c.get('slope_name', 'b')} = {c['slope']:.4g}, "
+                    f"uncentered R² = {c['r2_uncentered']:.3f}",
+            "marker": {"size": 0.1, "color": colour},
             "line": {"color": colour, "dash": dash, "width": 2}, "hoverinfo": "skip",
         })
     data.append(highlight_trace())
