@@ -77,8 +77,9 @@ def create_app(data_path: str | None = None, *, max_upload_bytes: int = DEFAULT_
                          dev_tools_serve_dev_bundles=False, dev_tools_disable_version_check=True,
                          dev_tools_prune_errors=True, dev_tools_validate_callbacks=False,
                          dev_tools_silence_routes_logging=True)
+    # the browser sends files up to twice the limit (so that the server can say why it refuses them);
     # base64 inflates by 4/3, and the import request also carries the previous file and series
-    app.server.config["MAX_CONTENT_LENGTH"] = 3 * max_upload_bytes + 2_000_000
+    app.server.config["MAX_CONTENT_LENGTH"] = 5 * max_upload_bytes + 2_000_000
     app.server.config["GROWTHCORE_MAX_UPLOAD"] = max_upload_bytes
     app.layout = build_layout(source, max_upload_bytes=max_upload_bytes)
     register_all(app)

@@ -180,3 +180,15 @@ def test_sorting_cycles_and_keeps_missing_values_last() -> None:
     rows = [{"aicc": 3.0}, {"aicc": None}, {"aicc": 1.0}]
     assert [r["aicc"] for r in sort_rows(rows, {"column": "aicc", "descending": True})] == [3.0, 1.0, None]
     assert [r["aicc"] for r in sort_rows(rows, {"column": "aicc", "descending": False})] == [1.0, 3.0, None]
+
+
+def test_series_picker_switches_between_series_of_one_file() -> None:
+    path = os.path.join(os.path.dirname(DEMO_FILE), "reactor_replicates_long.csv")
+    if not os.path.exists(path):
+        pytest.skip("the replicate demo file is not written yet")
+    source = read_source(path)
+    first = import_source(source)
+    assert first["series_names"] == ["R1", "R2", "R3"] and first["name"] == "R1"
+    out = on_import(None, 0, "R2", None, source, first, None, None, None, None, None, trigger=ids.SERIES_PICK)
+    assert out[1]["name"] == "R2" and out[1]["key"] != first["key"]
+    assert out[0] is no_update  # the file itself is unchanged

@@ -20,7 +20,8 @@ def data_section(max_upload_bytes: int) -> html.Section:
                 html.Div(f"up to {limit_mb:g} MB; the file stays in this browser tab", className="hint"),
             ]),
             className="upload", className_active="upload upload-active", className_reject="upload upload-reject",
-            max_size=max_upload_bytes, multiple=False,
+            # twice the limit reaches the server, which names the file and the limit in its message
+            max_size=2 * max_upload_bytes, multiple=False,
             accept=".csv,.tsv,.txt,.xlsx,text/csv,text/tab-separated-values,"
                    "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
         ),
