@@ -136,9 +136,15 @@ def _fit_linear(problem: Problem, form: DifferenceForm, x: Array, dy: Array, sta
         return failed(problem.model, "increments", "additive",
                       "the rate terms are collinear or not finite on these data: their coefficients cannot be separated",
                       form=form)
+    with np.errstate(over="ignore", invalid="ignore"):
+        sse, dyy = float(res @ res), float(dy @ dy)
+    if not (math.isfinite(sse) and math.isfinite(dyy)):
+        return failed(problem.model, "increments", "additive",
+                      "the squared changes overflow: the values are too large to regress (rescale the data, e.g. to other units)",
+                      form=form)
     all_values = {**shape, **coef}
     xvec = np.array([all_values[n] for n in problem.free])
-    r2u = 1.0 - float(res @ res) / float(dy @ dy) if float(dy @ dy) > 0 else math.nan
+    r2u = 1.0 - sse / dyy if dyy > 0 else math.nan
     jac = None
     if not free_shape and reg is not None:
         jac = np.column_stack([_column(form, problem, x, all_values, n) for n in problem.free])
