@@ -88,5 +88,7 @@ def solve(
     with np.errstate(all="ignore"):
         raw = fn(res.x[:, None])[:, 0]
     finite = bool(np.all(np.isfinite(raw)))
-    sse = float(raw @ raw) if finite else math.inf
+    with np.errstate(over="ignore"):
+        sse = float(raw @ raw) if finite else math.inf
+    finite = finite and math.isfinite(sse)  # finite residuals can still overflow when squared
     return NLSOutcome(res.x, raw, res.jac, sse, bool(res.success) and finite, str(res.message), int(res.nfev), finite)
