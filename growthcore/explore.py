@@ -175,6 +175,7 @@ class CandidateFit:
     slope_ci95: tuple[float, float] | None = None
     r2_uncentered: float | None = None
     shape: dict[str, float] = field(default_factory=dict)
+    at_bound: tuple[str, ...] = ()
 
     @property
     def success(self) -> bool:
@@ -219,6 +220,7 @@ def candidate_fit(series: Series, candidate: Candidate, capacity: float | None) 
         slope_ci95=coef.ci95,
         r2_uncentered=metrics.r2_uncentered if metrics else None,
         shape=shape,
+        at_bound=tuple(p.name for p in result.parameters if p.at_bound),
     )
 
 

@@ -105,6 +105,10 @@ def test_candidate_fit_needs_a_positive_k() -> None:
 def test_candidate_fit_of_theta_logistic_reports_theta() -> None:
     out = candidate_fit(noisy_series(), Candidate("g", "theta-logistic"), 50.0)
     assert out.success and "theta" in out.shape
+    # K far below the data drives theta to its lower bound, and the result says so
+    low = candidate_fit(noisy_series(), Candidate("g", "theta-logistic"), 5.0)
+    assert low.success and low.shape["theta"] == pytest.approx(0.05) and low.at_bound == ("theta",)
+    assert out.at_bound == ()
 
 
 def test_candidate_column_is_the_term() -> None:

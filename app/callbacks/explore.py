@@ -32,7 +32,7 @@ def candidate_to_store(c: CandidateFit) -> dict[str, Any]:
             "index": [int(i) for i in c.index], "g": c.g.tolist(), "dp": c.dp.tolist(),
             "fitted": c.fitted.tolist(), "slope": c.slope, "slope_name": c.slope_name, "slope_se": c.slope_se,
             "slope_ci95": list(c.slope_ci95) if c.slope_ci95 else None, "r2_uncentered": c.r2_uncentered,
-            "shape": c.shape, "capacity": c.capacity}
+            "shape": c.shape, "capacity": c.capacity, "at_bound": list(c.at_bound)}
 
 
 def candidate_readout(cands: list[dict[str, Any]], notes: list[str], capacity: float | None, unit: str) -> list[Any]:
@@ -43,7 +43,10 @@ def candidate_readout(cands: list[dict[str, Any]], notes: list[str], capacity: f
             continue
         ci = c["slope_ci95"]
         interval = f" [{fmt(ci[0])}, {fmt(ci[1])}]" if ci else ""
-        shape = "".join(f", {n} = {fmt(v)}" for n, v in c["shape"].items())
+        shape = "".join(f", {n} = {fmt(v)}" + (" (at its bound)" if n in c.get("at_bound", []) else "")
+                        for n, v in c["shape"].items())
+        if c["slope_name"] in c.get("at_bound", []):
+            interval += " (at its bound)"
         items.append(html.Li([
             html.Strong(f"g = {c['label']}"), ": slope ",
             html.Span(f"{c['slope_name']} = {fmt(c['slope'])}", className="slope"), f"{interval} per step{shape}; ",
