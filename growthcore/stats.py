@@ -54,9 +54,8 @@ def regression_through_origin(x: Array, y: Array) -> OriginRegression:
     sse = float(residuals @ residuals)
     dof = n - k
     sigma2 = sse / dof if dof > 0 else math.nan
-    if rank == k:
-        xtx_inv = np.linalg.inv(x.T @ x)
-        cov = sigma2 * xtx_inv
+    if rank == k and dof > 0:
+        cov = sigma2 * np.linalg.inv(x.T @ x)
     else:
         cov = np.full((k, k), math.nan)
     se = np.sqrt(np.clip(np.diag(cov), 0.0, None)) if dof > 0 else np.full(k, math.nan)
@@ -161,7 +160,8 @@ class Diagnostics:
         return {k: (_finite_or_none(v) if isinstance(v, float) else v) for k, v in self.__dict__.items()}
 
 
-#: Common practice (no single source): Durbin–Watson far from 2 signals serial correlation.
+#: Common practice (no single source): Durbin–Watson below 1 signals positive serial correlation,
+#: above 3 negative serial correlation.
 DW_LOW, DW_HIGH = 1.0, 3.0
 
 
@@ -188,13 +188,23 @@ def residual_diagnostics(residuals: Array) -> Diagnostics:
         p = float(special.erfc(abs(z) / math.sqrt(2.0)))
     else:
         expected, z, p = math.nan, math.nan, math.nan
+    # Misfit of the mean function shows as long same-sign stretches: too few runs, DW well below 2.
+    # Alternating signs (too many runs, DW well above 2) are negative serial correlation of the
+    # errors, e.g. measurement noise entering both p_n and Δp_n: worth saying, but not a misfit.
     reasons = []
-    if math.isfinite(p) and p < 0.05:
-        reasons.append(f"{'too few' if z < 0 else 'too many'} sign runs (runs test p = {p:.3g})")
-    if math.isfinite(dw) and not DW_LOW <= dw <= DW_HIGH:
-        reasons.append(f"Durbin–Watson {dw:.2f} is far from 2")
+    if math.isfinite(p) and p < 0.05 and z < 0:
+        reasons.append(f"too few sign runs (runs test p = {p:.3g})")
+    if math.isfinite(dw) and dw < DW_LOW:
+        reasons.append(f"Durbin–Watson {dw:.2f} is far below 2")
     systematic = bool(reasons)
-    message = ("residuals look systematic: " + "; ".join(reasons)) if systematic else "no sign of systematic misfit"
+    alternating = (math.isfinite(p) and p < 0.05 and z > 0) or (math.isfinite(dw) and dw > DW_HIGH)
+    if systematic:
+        message = "residuals look systematic: " + "; ".join(reasons)
+    elif alternating:
+        message = (f"residuals alternate in sign more than chance (Durbin–Watson {dw:.2f}): negatively correlated "
+                   "errors, not a misfit of the curve")
+    else:
+        message = "no sign of systematic misfit"
     return Diagnostics(dw, runs, expected, z, p, systematic, message)
 
 
