@@ -16,12 +16,14 @@ import math
 import numpy as np
 import pytest
 
-sm = pytest.importorskip("statsmodels.api")
+import statsmodels.api as sm  # a test dependency: a missing reference library fails, it does not skip
+from statsmodels.sandbox.stats.runs import Runs
+from statsmodels.stats.stattools import durbin_watson
 
-from growthcore.data import Series  # noqa: E402
-from growthcore.fit import fit  # noqa: E402
-from growthcore.fit.increments import consecutive_pairs  # noqa: E402
-from growthcore.stats import fit_metrics, regression_through_origin  # noqa: E402
+from growthcore.data import Series
+from growthcore.fit import fit
+from growthcore.fit.increments import consecutive_pairs
+from growthcore.stats import fit_metrics, regression_through_origin, residual_diagnostics
 
 RTOL = 1e-10
 
@@ -125,22 +127,15 @@ def test_centered_metrics_equal_statsmodels_with_constant() -> None:
 
 def test_durbin_watson_equals_statsmodels() -> None:
     """Durbin–Watson statistic: statsmodels.stats.stattools.durbin_watson."""
-    from statsmodels.stats.stattools import durbin_watson
-
-    from growthcore.stats import residual_diagnostics
-
     e = np.random.default_rng(5).normal(size=40).cumsum() * 0.1
     assert residual_diagnostics(e).durbin_watson == pytest.approx(durbin_watson(e), rel=1e-12)
 
 
 def test_runs_test_equals_statsmodels() -> None:
     """Wald–Wolfowitz runs test on residual signs: statsmodels.sandbox.stats.runs.Runs (normal approximation)."""
-    runs_mod = pytest.importorskip("statsmodels.sandbox.stats.runs")
-    from growthcore.stats import residual_diagnostics
-
     e = np.random.default_rng(9).normal(size=37)
     d = residual_diagnostics(e)
-    z, p = runs_mod.Runs((e > 0).astype(int)).runs_test(correction=False)
+    z, p = Runs((e > 0).astype(int)).runs_test(correction=False)
     assert d.runs_z == pytest.approx(z, rel=1e-10)
     assert d.runs_p == pytest.approx(p, rel=1e-10)
 
