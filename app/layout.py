@@ -8,7 +8,9 @@ from dash import dcc, html
 
 from app import ids
 from app.components.data_panel import data_section
+from app.components.dynamics import dynamics_section
 from app.components.exclusions import exclusions_section
+from app.components.export import export_section
 from app.components.model_panel import model_section
 from app.components.panels import panels_section
 
@@ -56,8 +58,8 @@ def build_layout(source: Mapping[str, Any] | None, *, max_upload_bytes: int) -> 
                     html.Div(id=ids.COMPARISON_NOTES, className="hint"),
                     dcc.Loading(html.Div(id=ids.COMPARISON, className="table-box"), type="dot", delay_show=400),
                 ], className="panel panel-table", **{"aria-label": "Comparison"}),
-                html.Div(id=ids.DYNAMICS_SLOT),
-                html.Div(id=ids.EXPORT_SLOT),
+                html.Div(dynamics_section(), id=ids.DYNAMICS_SLOT),
+                html.Div(export_section(), id=ids.EXPORT_SLOT),
             ], id="main", className="main"),
         ], className="workspace"),
     ], className="page")

@@ -1,0 +1,341 @@
+"""Export of the chosen fits (record, PNGs, residual CSV, HTML report) and reopening a record.
+
+The record is made exactly as ``growthcore fit`` makes it (same fits, comparison, dynamics and
+settings) from the session's stores, so the command line can recompute it. PNGs are drawn in the
+browser by plotly.js (assets/export.js); the server only sends the figures and their sizes.
+"""
+
+from __future__ import annotations
+
+import argparse
+import base64
+import binascii
+import dataclasses
+import datetime as _dt
+import json
+import re
+from typing import Any, Mapping, Sequence
+
+from dash import ClientsideFunction, Dash, Input, Output, State, html, no_update
+
+from app import ids
+from app.callbacks.data import summary
+from app.state import data_to_store, empty_exclusions, series_from_store
+from growthcore.cli import fit_uncertainty
+from growthcore.compare import compare, comparison_notes
+from growthcore.data import Series
+from growthcore.errors import GrowthcoreInputError
+from growthcore.explore import fit_forms
+from growthcore.fit import FitResult
+from growthcore.io.report import ImportResult
+from growthcore.record import DataSource, build_record, seal
+from growthcore.reopen import RecordError, parse_record, reopen
+from growthcore.report.images import PANEL_SIZES, SHEET_SIZES
+from growthcore.report.panels import panel_figures, summary_sheet
+from growthcore.report.page import report_html
+from growthcore.report.tables import residual_csv_text
+
+#: The dashboard's exploration panels have no counterpart in the record; the browser saves them
+#: as drawn, at the panel size.
+LIVE_PANELS = ((ids.G_CHANGE, "change-against-state"), (ids.G_CANDIDATE, "change-against-candidate-terms"))
+SHEET = "summary-sheet"
+#: A record upload is refused beyond this size (base64 text), before decoding.
+MAX_RECORD_UPLOAD = 90_000_000
+
+
+# --------------------------------------------------------------------------------------------
+# The record of a session
+
+
+def held_capacity(settings: Mapping[str, Any], capacity: float | None) -> float | None:
+    """The K every fit holds (None when K is fitted), as the fits callback uses it."""
+    held = settings.get("k_mode", "held") == "held"
+    return capacity if held and capacity is not None and capacity > 0 else None
+
+
+def session_fits(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, settings: Mapping[str, Any],
+                 capacity: float | None, forms: Sequence[str] | None = None) -> tuple[Series, list[FitResult], list[str]]:
+    """The series and the fits of the chosen ``forms`` (all when None), as the panels show them.
+
+    Returns the fits and a note per form the engine refused (as the comparison notes show it).
+    """
+    series = series_from_store(data, exclusions)
+    k = held_capacity(settings, capacity)
+    held = settings.get("k_mode", "held") == "held"
+    chosen = [m for m in settings.get("models", []) if forms is None or m in forms]
+    fits: list[FitResult] = []
+    notes: list[str] = []
+    for model in chosen:
+        try:
+            fits.extend(fit_forms(series, [model], method=settings.get("method", "increments"),
+                                  error=settings.get("error", "additive"), capacity=k,
+                                  terms=settings.get("terms", []), profile=not held))
+        except GrowthcoreInputError as exc:
+            notes.append(f"{model}: {str(exc).splitlines()[0]}")
+    return series, fits, notes
+
+
+def record_settings(settings: Mapping[str, Any], capacity: float | None, models: Sequence[str]) -> dict[str, Any]:
+    """The run-wide settings in the command line's terms, plus the K shown in the exploration panels."""
+    method = settings.get("method", "increments")
+    return {
+        "models": list(models),
+        "methods": ["increments", "trajectory"] if method == "both" else [method],
+        "error": settings.get("error", "additive"),
+        "capacity": held_capacity(settings, capacity),
+        "terms": list(settings.get("terms", [])),
+        "profile": settings.get("k_mode", "held") != "held",
+        "capacity_estimate": float(capacity) if capacity is not None else None,
+    }
+
+
+def _later_steps() -> argparse.Namespace:
+    """The ``fit`` options of the uncertainty step at their defaults (no bootstrap, no forecast)."""
+    return argparse.Namespace(bootstrap=None, seed=fit_uncertainty.DEFAULT_SEED, forecast=None, forecast_span=None,
+                              bound=None, level=[])
+
+
+def session_record(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, settings: Mapping[str, Any],
+                   capacity: float | None, *, forms: Sequence[str] | None = None,
+                   created: _dt.datetime | None = None) -> dict[str, Any]:
+    """The sealed fit record of the session's chosen forms: the same members ``growthcore fit`` writes."""
+    series, fits, _notes = session_fits(data, exclusions, settings, capacity, forms)
+    models = [m for m in settings.get("models", []) if forms is None or m in forms]
+    report = data.get("report") or {}
+    source = DataSource(str(report.get("source", data.get("source", ""))), str(data.get("sha256", "")),
+                        dict(report) if report else None)
+    record = build_record(series, fits, source=source, settings=record_settings(settings, capacity, models),
+                          created=created)
+    record["comparison"] = {"rows": [r.to_dict() for r in compare(fits)], "notes": comparison_notes(fits)}
+    fit_uncertainty.apply(_later_steps(), series, fits, record)
+    return seal(record)
+
+
+# --------------------------------------------------------------------------------------------
+# Files
+
+
+def file_stem(name: str) -> str:
+    """A file-name-safe stem from the series name ('Tank A / run 2' -> 'Tank-A-run-2')."""
+    stem = re.sub(r"[^A-Za-z0-9._-]+", "-", name).strip("-.")
+    return stem[:60] or "series"
+
+
+def image_jobs(record: Mapping[str, Any], size: str, stem: str) -> dict[str, Any]:
+    """What the browser draws: each record panel and the sheet with its size, then the live panels."""
+    if size not in PANEL_SIZES:
+        raise GrowthcoreInputError(f"image size must be one of {', '.join(PANEL_SIZES)}; got {size!r}")
+    panel, sheet = PANEL_SIZES[size], SHEET_SIZES[size]
+
+    def job(name: str, fig: Any, s: Any) -> dict[str, Any]:
+        return {"filename": f"{stem}-{name}.png", "figure": fig, "width": s.width, "height": s.height,
+                "scale": s.scale, "dpi": s.dpi, "pixels": list(s.pixels)}
+
+    jobs = [job(name, fig, panel) for name, fig in panel_figures(record).items()]
+    jobs.append(job(SHEET, summary_sheet(record, landscape=sheet.width > sheet.height), sheet))
+    live = [dict(job(name, None, panel), graph=graph) for graph, name in LIVE_PANELS]
+    for j in live:
+        j.pop("figure")
+    return {"size": size, "images": jobs, "live": live}
+
+
+def record_text(record: Mapping[str, Any]) -> str:
+    """The record as ``growthcore fit --out`` writes it."""
+    return json.dumps(record, indent=2, allow_nan=False) + "\n"
+
+
+def on_export(n_clicks: int | None, data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
+              settings: Mapping[str, Any] | None, capacity: float | None, forms: Sequence[str] | None,
+              what: Sequence[str] | None, size: str | None, *,
+              created: _dt.datetime | None = None) -> tuple[Any, ...]:
+    """Outputs: record download, CSV download, HTML download, image jobs for the browser, message."""
+    nothing = (no_update,) * 4
+    if not n_clicks:
+        return (*nothing, no_update)
+    if data is None or settings is None:
+        return (*nothing, _message("Nothing to export yet: load a data file first.", error=True))
+    chosen = [m for m in (forms or []) if m in settings.get("models", [])]
+    if not chosen:
+        return (*nothing, _message("Choose at least one fitted form to export.", error=True))
+    what = list(what or [])
+    if not what:
+        return (*nothing, _message("Choose at least one kind of file to export.", error=True))
+    try:
+        record = session_record(data, exclusions, settings, capacity, forms=chosen, created=created)
+        stem = file_stem(str(record["data"].get("name", "series")))
+        images = image_jobs(record, size or "screen", stem) if "images" in what else no_update
+    except GrowthcoreInputError as exc:
+        return (*nothing, _message(f"Not exported: {str(exc).splitlines()[0]}", error=True))
+    files = []
+    rec = csv = page = no_update
+    if "record" in what:
+        rec = {"content": record_text(record), "filename": f"{stem}-fit-record.json", "type": "application/json"}
+        files.append(rec["filename"])
+    if "table" in what:
+        csv = {"content": residual_csv_text(record), "filename": f"{stem}-residuals.csv", "type": "text/csv"}
+        files.append(csv["filename"])
+    if "report" in what:
+        page = {"content": report_html(record), "filename": f"{stem}-report.html", "type": "text/html"}
+        files.append(page["filename"])
+    n_fits = len(record["fits"])
+    head = f"Exported {n_fits} fit{'s' if n_fits != 1 else ''} of {len(chosen)} form{'s' if len(chosen) != 1 else ''}"
+    tail = f": {', '.join(files)}" if files else ""
+    if images is not no_update:
+        tail += ("; " if files else ": ") + f"{len(images['images']) + len(images['live'])} PNG images ({size}) follow"
+    digest = record["integrity"]["value"][:12]
+    return (rec, csv, page, images, _message(f"{head}{tail}. Record SHA-256 {digest}…"))
+
+
+def _message(text: str, *, error: bool = False) -> html.Div:
+    if error:
+        return html.Div(text, className="message message-error")
+    return html.Div(text, className="message message-ok")
+
+
+# --------------------------------------------------------------------------------------------
+# Reopening
+
+
+def _unique(items: Sequence[str]) -> list[str]:
+    return list(dict.fromkeys(items))
+
+
+def controls_from_record(record: Mapping[str, Any]) -> dict[str, Any]:
+    """The model controls that make the app fit what the record holds.
+
+    Records written by the command line name their methods and a fixed K (or none); a record of
+    both methods opens with "both"; without a fixed K, K is fitted by every form.
+    """
+    settings = record.get("settings") or {}
+    fits = record.get("fits") or []
+    models = list(settings.get("models") or _unique([f["model"] for f in fits]))
+    methods = list(settings.get("methods") or _unique([f["method"] for f in fits]))
+    forms = _unique([m[: -len("+c")] if m.endswith("+c") else m for m in models])
+    capacity = settings.get("capacity")
+    estimate = settings.get("capacity_estimate")
+    if estimate is None:
+        estimate = capacity
+    if estimate is None:  # a command-line record: K as the first fit that has one found it
+        estimate = next((f["parameters"]["K"]["value"] for f in fits
+                         if f.get("status") == "converged" and "K" in (f.get("parameters") or {})), None)
+    return {
+        "forms": forms,
+        "constant": ["c"] if any(m.endswith("+c") for m in models) else [],
+        "terms": "\n".join(str(t) for t in settings.get("terms") or []),
+        "method": "both" if set(methods) >= {"increments", "trajectory"} else (methods[0] if methods else "increments"),
+        "error": settings.get("error") if settings.get("error") in ("additive", "log") else "additive",
+        "k_mode": "held" if capacity is not None else "fitted",
+        "capacity": None if estimate is None else float(estimate),
+    }
+
+
+def stores_from_record(record: Mapping[str, Any], *, name: str = "record") -> tuple[dict[str, Any], dict[str, Any]]:
+    """The data store and exclusions store of a checked record (see :func:`parse_record`)."""
+    opened = reopen(record, name=name)
+    series = opened.series
+    report = opened.import_report
+    plain = dataclasses.replace(series, excluded={})
+    if report is not None:
+        data = data_to_store(ImportResult(series=(plain,), report=report), plain, source=opened.source.source)
+    else:  # a record of data entered directly: no file, no import report
+        data = data_to_store_without_report(plain, opened.source)
+    data["source"] = record["data"].get("source") or data["source"]
+    excluded = {str(i): reason for i, reason in sorted(series.excluded.items())}
+    exclusions = dict(empty_exclusions(data["key"]), excluded=excluded)
+    return data, exclusions
+
+
+def data_to_store_without_report(series: Series, source: DataSource) -> dict[str, Any]:
+    from growthcore.io.report import ImportReport
+
+    report = ImportReport.from_dict({"source": source.source or "record", "sha256": source.sha256, "format": "record",
+                                     "layout": "record", "rows_read": len(series), "series": [], "left_out": [],
+                                     "notes": ["data taken from a fit record"]})
+    return data_to_store(ImportResult(series=(series,), report=report), series, source=source.source or "record")
+
+
+def decode_upload(contents: str, filename: str) -> bytes:
+    _, _, b64 = contents.partition(",")
+    if len(b64) > MAX_RECORD_UPLOAD:
+        raise RecordError(filename, [f"is larger than {MAX_RECORD_UPLOAD * 3 // 4 // 1_000_000} MB; records that "
+                                     "large are refused"])
+    try:
+        return base64.b64decode(b64, validate=True)
+    except (binascii.Error, ValueError):
+        raise RecordError(filename, ["arrived damaged (not valid base64); try again"]) from None
+
+
+def refusal(exc: RecordError) -> html.Div:
+    problems = exc.problems or (str(exc),)
+    body: list[Any] = [html.Strong("Not reopened. "), f"{exc.name}: {problems[0]}"]
+    if len(problems) > 1:
+        body.append(html.Ul([html.Li(p) for p in problems[1:]]))
+    body.append(html.Div("The session is unchanged.", className="muted"))
+    return html.Div(body, className="message message-error record-refused")
+
+
+def on_record_upload(contents: str | None, filename: str | None) -> tuple[Any, ...]:
+    """Outputs: source, data, exclusions, data summary, report text, series options, series value,
+    the six model controls, the pending K, and the message."""
+    keep = (no_update,) * 14
+    if not contents:
+        return (*keep, no_update)
+    name = filename or "record.json"
+    try:
+        record = parse_record(decode_upload(contents, name), name=name)
+        data, exclusions = stores_from_record(record, name=name)
+        controls = controls_from_record(record)
+    except RecordError as exc:
+        return (*keep, refusal(exc))
+    except GrowthcoreInputError as exc:
+        return (*keep, refusal(RecordError(name, [str(exc).splitlines()[0]])))
+    n_fits = len(record["fits"])
+    k = controls["capacity"]
+    pending = {"key": data["key"], "value": k} if k is not None else None
+    text = (f"Reopened {name}: series “{data['name']}”, {len(data['t'])} points, {len(exclusions['excluded'])} "
+            f"excluded, {n_fits} fit{'s' if n_fits != 1 else ''} written {record.get('created', '')}. The panels "
+            "are recomputed from the record's data and settings.")
+    return (None, data, exclusions, summary(data), data["report_text"], [{"label": data["name"], "value": data["name"]}],
+            data["name"], controls["forms"], controls["constant"], controls["terms"], controls["method"],
+            controls["error"], controls["k_mode"], pending, html.Div(text, className="message message-ok"))
+
+
+def register(app: Dash) -> None:
+    app.clientside_callback(
+        ClientsideFunction(namespace="growthcore_export", function_name="forms"),
+        Output(ids.EXPORT_FORMS, "options"), Output(ids.EXPORT_FORMS, "value"),
+        Input(ids.FITS, "data"), State(ids.EXPORT_FORMS, "value"), State(ids.EXPORT_FORMS, "options"),
+    )
+    app.callback(
+        Output(ids.DOWNLOAD_RECORD, "data"), Output(ids.DOWNLOAD_CSV, "data"), Output(ids.DOWNLOAD_HTML, "data"),
+        Output(ids.EXPORT_IMAGES, "data"), Output(ids.EXPORT_MESSAGE, "children"),
+        Input(ids.EXPORT_BUTTON, "n_clicks"),
+        State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"), State(ids.SETTINGS, "data"),
+        State(ids.CAPACITY, "data"), State(ids.EXPORT_FORMS, "value"), State(ids.EXPORT_WHAT, "value"),
+        State(ids.EXPORT_SIZE, "value"),
+        prevent_initial_call=True, running=[(Output(ids.EXPORT_BUTTON, "disabled"), True, False)],
+    )(on_export)
+    app.clientside_callback(
+        ClientsideFunction(namespace="growthcore_export", function_name="images"),
+        Output(ids.EXPORT_IMAGE_MESSAGE, "children"), Input(ids.EXPORT_IMAGES, "data"),
+        prevent_initial_call=True,
+    )
+    app.callback(
+        Output(ids.SOURCE, "data", allow_duplicate=True), Output(ids.DATA, "data", allow_duplicate=True),
+        Output(ids.EXCLUSIONS, "data", allow_duplicate=True),
+        Output(ids.DATA_SUMMARY, "children", allow_duplicate=True), Output(ids.REPORT, "children", allow_duplicate=True),
+        Output(ids.SERIES_PICK, "options", allow_duplicate=True), Output(ids.SERIES_PICK, "value", allow_duplicate=True),
+        Output(ids.FORMS, "value"), Output(ids.CONSTANT, "value"), Output(ids.TERMS, "value"),
+        Output(ids.METHOD, "value"), Output(ids.ERROR, "value"), Output(ids.K_MODE, "value"),
+        Output(ids.PENDING_CAPACITY, "data"), Output(ids.RECORD_MESSAGE, "children"),
+        Input(ids.RECORD_UPLOAD, "contents"), State(ids.RECORD_UPLOAD, "filename"),
+        prevent_initial_call=True,
+    )(on_record_upload)
+    # K of a reopened record, once the capacity callback has set up the controls for the new data
+    app.clientside_callback(
+        ClientsideFunction(namespace="growthcore_export", function_name="capacity"),
+        Output(ids.CAPACITY, "data", allow_duplicate=True), Output(ids.K_INPUT, "value", allow_duplicate=True),
+        Output(ids.K_SLIDER, "value", allow_duplicate=True), Output(ids.PENDING_CAPACITY, "data", allow_duplicate=True),
+        Input(ids.CAPACITY, "data"), State(ids.PENDING_CAPACITY, "data"), State(ids.DATA, "data"),
+        prevent_initial_call=True,
+    )
