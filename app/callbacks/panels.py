@@ -48,10 +48,19 @@ def draw_panels(fits_store: Mapping[str, Any] | None, capacity: float | None, da
             observed_predicted_figure(fits, labels), misfit_flag(fits), note)
 
 
+def with_forecast(outputs: tuple[Any, ...], forecast: Mapping[str, Any] | None,
+                  fits_store: Mapping[str, Any] | None) -> tuple[Any, ...]:
+    """The panels with the forecast band (panel 7) drawn on the trajectory, when it belongs to these fits."""
+    from app.callbacks.dynamics import band_on_trajectory
+
+    return (band_on_trajectory(outputs[0], forecast, fits_store), *outputs[1:])
+
+
 def register(app: Dash) -> None:
     app.callback(
         Output(ids.G_TRAJECTORY, "figure"), Output(ids.G_RESID_TIME, "figure"), Output(ids.G_RESID_FITTED, "figure"),
         Output(ids.G_OBS_PRED, "figure"), Output(ids.MISFIT_FLAG, "children"), Output(ids.TRAJECTORY_NOTE, "children"),
-        Input(ids.FITS, "data"), Input(ids.CAPACITY, "data"),
+        Input(ids.FITS, "data"), Input(ids.CAPACITY, "data"), Input(ids.FORECAST, "data"),
         State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"),
-    )(draw_panels)
+    )(lambda fits_store, capacity, fc, data, exclusions: with_forecast(
+        draw_panels(fits_store, capacity, data, exclusions), fc, fits_store))

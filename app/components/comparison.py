@@ -31,7 +31,8 @@ def fmt(x: float | None, digits: int = 4) -> str:
     return f"{x:.{digits}g}"
 
 
-def parameter_lines(params: Mapping[str, Mapping[str, Any]], profile: Sequence[float | None] | None) -> list[Any]:
+def parameter_lines(params: Mapping[str, Mapping[str, Any]], profile: Sequence[float | None] | None,
+                    boot: Mapping[str, Sequence[float] | None] | None = None) -> list[Any]:
     out: list[Any] = []
     for name, p in params.items():
         value = fmt(p.get("value"))
@@ -45,6 +46,9 @@ def parameter_lines(params: Mapping[str, Mapping[str, Any]], profile: Sequence[f
         if p.get("at_bound"):
             text += " at bound"
         out.append(html.Div(text, className="param"))
+        if boot and not p.get("fixed") and boot.get(name):
+            out.append(html.Div(f"{name} bootstrap [{fmt(boot[name][0])}, {fmt(boot[name][1])}]",
+                                className="param param-profile"))
         if name == "K" and profile and not p.get("fixed"):
             lo, hi = profile
             out.append(html.Div(f"K profile interval [{fmt(lo)}, {fmt(hi) if hi is not None else 'open'}]",
@@ -77,7 +81,8 @@ def _header(key: str, text: str, tip: str, sort: Mapping[str, Any] | None) -> ht
 
 
 def comparison_table(rows: Sequence[Mapping[str, Any]], fits: Sequence[Mapping[str, Any]],
-                     sort: Mapping[str, Any] | None = None) -> html.Table | html.P:
+                     sort: Mapping[str, Any] | None = None,
+                     boot: Mapping[tuple, Mapping[str, Any]] | None = None) -> html.Table | html.P:
     """The table itself; ``rows`` are :func:`growthcore.compare.compare` rows as dicts."""
     if not rows:
         return html.P("No fits yet: pick at least one form.", className="muted")
@@ -101,7 +106,8 @@ def comparison_table(rows: Sequence[Mapping[str, Any]], fits: Sequence[Mapping[s
         body.append(html.Tr([
             html.Td(html.Span("★ best AICc", className="best-badge") if r.get("best") else "", className="col-best"),
             html.Th(label, scope="row", className="col-form"),
-            html.Td(parameter_lines(r.get("parameters", {}), f.get("profile_interval")) if converged else "–"),
+            html.Td(parameter_lines(r.get("parameters", {}), f.get("profile_interval"),
+                                    (boot or {}).get((r["model"], r["method"], r["error"]))) if converged else "–"),
             *[html.Td(fmt(r.get(k), 3 if k == "weight" else 5 if k in ("aicc", "bic", "sse") else 4),
                       className="num") for k, _, _ in COLUMNS],
             html.Td("systematic" if misfit else "none" if misfit is False else "–",

@@ -1,0 +1,452 @@
+"""Panel 7: dynamics, bootstrap (chunk by chunk, with progress and cancelling) and the forecast band.
+
+The fits store holds plain data, so the engine's result of the chosen form is rebuilt by fitting it
+again (the same engine call with the same inputs gives the same numbers); the fit's signature
+(data, points used, K, form, constants) ties every bootstrap and forecast to the fit it belongs to,
+so nothing stale is shown after the data, exclusions or K change. While K is dragged the fits store
+holds a preview at the dragged K; this panel waits until K is committed.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import time
+from typing import Any, Mapping, Sequence
+
+from dash import Dash, Input, Output, State, ctx, html, no_update
+from dash.exceptions import PreventUpdate
+
+from app import ids
+from app.callbacks.explore import labels_of
+from app.components.dynamics import (CAUTION_STYLE, DERIVED_ROWS, MAX_RESAMPLES, derived_table, equilibria_table, fmt,
+                                     intervals_table)
+from app.figures.common import fit_styles, message_figure, rate_unit
+from app.figures.dynamics import cobweb_figure, sweep_figure, with_forecast_band
+from app.state import series_from_store
+from growthcore.data import Series
+from growthcore.dynamics import analyse, cobweb, sweep
+from growthcore.errors import GrowthcoreInputError
+from growthcore.explore import fit_forms
+from growthcore.fit import FitResult
+from growthcore.models.base import DifferenceForm
+from growthcore.uncertainty import FORECAST_CAUTION, BootstrapResult, bootstrap, derived_intervals, forecast
+
+#: First chunk of a run; later chunks are sized so that each answer takes about TARGET_SECONDS.
+FIRST_CHUNK = 50
+TARGET_SECONDS = 0.4
+MAX_CHUNK = 1000
+#: Bootstraps kept per session (one per fit signature), oldest dropped first.
+KEEP_DONE = 8
+MAX_FORECAST_STEPS = 2000
+
+
+# ----------------------------------------------------------------------------- which fit
+
+def fit_signature(fits_store: Mapping[str, Any], fit: Mapping[str, Any]) -> str:
+    """A short key that changes whenever the data, the points used, K, the form or its constants do."""
+    values = {n: p.get("value") for n, p in (fit.get("parameters") or {}).items()}
+    text = json.dumps([fits_store.get("key"), fits_store.get("capacity"), fits_store.get("used"), fit.get("label"),
+                       fit.get("error"), values, (fits_store.get("settings") or {}).get("terms")],
+                      sort_keys=True, default=str)
+    return hashlib.sha1(text.encode("utf-8")).hexdigest()[:16]
+
+
+def find_fit(fits_store: Mapping[str, Any] | None, label: str | None) -> Mapping[str, Any] | None:
+    for f in (fits_store or {}).get("fits", []):
+        if f.get("label") == label:
+            return f
+    return None
+
+
+def choose_fit(fits_store: Mapping[str, Any] | None, current: str | None) -> tuple[list[dict[str, Any]], str | None]:
+    """Options of the form picker and its value: the current choice while it exists, else the
+    difference form with the best AICc (the cobweb and sweep apply to maps), else the best fit."""
+    fits = (fits_store or {}).get("fits", [])
+    options = [{"label": f["label"] + ("" if f.get("status") == "converged" else " — failed"), "value": f["label"],
+                "disabled": f.get("status") != "converged"} for f in fits]
+    good = [f for f in fits if f.get("status") == "converged"]
+    if current in {f["label"] for f in good}:
+        return options, current
+    best = {(r["model"], r["method"], r["error"]) for r in (fits_store or {}).get("comparison", []) if r.get("best")}
+    ranked = sorted(good, key=lambda f: ((f["model"], f["method"], f["error"]) not in best,
+                                         f["model"].endswith("-curve")))
+    return options, (ranked[0]["label"] if ranked else None)
+
+
+def committed(fits_store: Mapping[str, Any] | None, capacity: float | None) -> bool:
+    """False while the fits store holds a preview at a dragged K that is not yet the committed K."""
+    held = (fits_store or {}).get("capacity")
+    if held is None or capacity is None:
+        return True
+    return abs(float(held) - float(capacity)) <= 1e-12 * max(abs(float(capacity)), 1.0)
+
+
+def rebuild(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, fits_store: Mapping[str, Any],
+            fit: Mapping[str, Any]) -> tuple[Series, FitResult]:
+    """The engine's result behind a plain fit, fitted again from the same inputs (no K profile)."""
+    series = series_from_store(data, exclusions)
+    settings = fits_store.get("settings") or {}
+    results = fit_forms(series, [fit["model"]], method=fit["method"], error=fit.get("error", "additive"),
+                        capacity=fits_store.get("capacity"), terms=settings.get("terms", []), profile=False)
+    if not results or not results[0].success:
+        raise GrowthcoreInputError(f"{fit['label']}: the fit did not converge again: "
+                                   f"{results[0].message if results else 'no result'}")
+    return series, results[0]
+
+
+def done_for(done: Mapping[str, Any] | None, signature: str) -> BootstrapResult | None:
+    entry = (done or {}).get(signature)
+    return BootstrapResult.from_dict(entry["result"]) if entry and entry.get("result") else None
+
+
+# ----------------------------------------------------------------------------- dynamics and derived times
+
+def _units(data: Mapping[str, Any]) -> dict[str, str]:
+    vu, tu = data.get("value_unit", ""), data.get("time_unit", "")
+    return {"time": tu, "state": vu, "rate": rate_unit(vu, tu), "per-time": f"per {tu}" if tu else "", "": ""}
+
+
+def _derived_rows(derived: Mapping[str, Any], level: float | None) -> list[tuple[str, str, str]]:
+    rows = list(DERIVED_ROWS)
+    if level is not None:
+        rows.append((f"time_to_level_{level:g}", f"Time to reach {level:g}", "time"))
+    rows += [(k, f"Time to reach {k.split('_')[2].replace('pct', '%')} of K", "time")
+             for k in derived if k.startswith("time_to_") and k.endswith("pct_K")]
+    return rows
+
+
+def dynamics_view(fits_store: Mapping[str, Any] | None, label: str | None, capacity: float | None,
+                  data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
+                  done: Mapping[str, Any] | None, level: float | None) -> tuple[Any, ...] | None:
+    """Outputs: sentences, equilibria table, cobweb figure, sweep figure, derived table.
+
+    None while the fits store holds a drag preview (nothing to redraw until K is committed).
+    """
+    if not committed(fits_store, capacity):
+        return None
+    fit = find_fit(fits_store, label)
+    if data is None or fits_store is None or fit is None or fits_store.get("key") != data.get("key"):
+        blank = message_figure("Fit at least one form to see what it implies.")
+        return [html.P("No converged fit to describe yet.", className="muted")], [], blank, blank, []
+    try:
+        series, result = rebuild(data, exclusions, fits_store, fit)
+    except GrowthcoreInputError as exc:
+        blank = message_figure("This fit cannot be described.")
+        return [html.P(str(exc).splitlines()[0], className="flag flag-warn")], [], blank, blank, []
+    boot = done_for(done, fit_signature(fits_store, fit))
+    usable = boot if boot is not None and boot.ok.sum() >= 20 else None
+    dyn = analyse(result, samples=usable.good() if usable is not None else None)
+    labels = {**labels_of(data), "rate_unit": "per step"}
+    unit = data.get("value_unit", "")
+    sentences: list[Any] = [html.P(s, className="dyn-sentence") for s in (dyn.sentences if dyn else ())]
+    if dyn is not None and dyn.long_run.kind == "chaos" and dyn.long_run.lyapunov is not None:
+        sentences.append(html.P(f"Lyapunov exponent {dyn.long_run.lyapunov:.3g} per step.", className="muted"))
+    if usable is None:
+        sentences.append(html.P("Intervals here are t-based until a bootstrap of this fit has run.", className="muted"))
+    form = result.form
+    equilibria = dyn.equilibria if dyn else ()
+    if isinstance(form, DifferenceForm):
+        top = max([float(v) for v in result.observed if math.isfinite(v)] + [float(e["value"]) for e in equilibria
+                   if e.get("value") is not None and math.isfinite(e["value"])] + [float(result.values.get("K", 0.0))])
+        web = cobweb(form, result.values, result.start_level, upper=1.3 * top if top > 0 else 1.0,
+                     equilibria=equilibria).to_dict()
+        rate = dyn.rate_parameter if dyn else None
+        interval = usable.interval(rate) if usable is not None and rate in usable.names else None
+        sw = sweep(result, interval=interval)
+        cobweb_fig = cobweb_figure(web, labels)
+        sweep_fig = sweep_figure(sw.to_dict() if sw else None, labels)
+    else:
+        cobweb_fig = message_figure(f"{fit['label']} is a closed-form curve: the cobweb applies to difference "
+                                    "equations.")
+        sweep_fig = message_figure("The sweep applies to difference equations with a rate constant.")
+    derived = derived_intervals(result, usable, levels=[level] if level is not None and level > 0 else [])
+    lv = level if level is not None and level > 0 else None
+    table = derived_table(derived, _derived_rows(derived, lv), _units(data), usable is not None)
+    return sentences, equilibria_table(equilibria, unit), cobweb_fig, sweep_fig, [
+        table, html.P([html.Strong("Caution. "), FORECAST_CAUTION], className="dyn-caution", style=CAUTION_STYLE)]
+
+
+# ----------------------------------------------------------------------------- bootstrap in chunks
+
+def _as_int(x: Any) -> int | None:
+    try:
+        v = float(x)
+    except (TypeError, ValueError):
+        return None
+    return int(v) if math.isfinite(v) and v == int(v) else None
+
+
+def start_run(run_clicks: int, cancel_clicks: int | None, resamples: Any, seed: Any, label: str | None,
+              fits_store: Mapping[str, Any] | None) -> dict[str, Any]:
+    """The bootstrap store for a new run (or for a request that cannot run, with the reason)."""
+    n, s = _as_int(resamples), _as_int(seed)
+    fit = find_fit(fits_store, label)
+    base = {"run": int(run_clicks or 0), "cancel_seen": int(cancel_clicks or 0), "label": label, "done": 0,
+            "result": None, "elapsed": 0.0, "chunk": FIRST_CHUNK}
+    if n is None or not 20 <= n <= MAX_RESAMPLES:
+        return {**base, "state": "refused", "message": f"Resamples must be a whole number from 20 to {MAX_RESAMPLES}; "
+                                                       f"got {resamples!r}."}
+    if s is None or s < 0:
+        return {**base, "state": "refused", "message": f"The seed must be a whole number 0 or larger; got {seed!r}."}
+    if fit is None or fit.get("status") != "converged" or fits_store is None:
+        return {**base, "state": "refused", "message": "Pick a converged fit to bootstrap."}
+    return {**base, "state": "running", "requested": n, "seed": s, "signature": fit_signature(fits_store, fit),
+            "message": ""}
+
+
+def _finish(boot: dict[str, Any], done: Mapping[str, Any] | None, state: str, message: str) -> tuple[dict, dict]:
+    boot = {**boot, "state": state, "message": message}
+    kept = dict(done or {})
+    if boot.get("result") and boot["result"].get("samples"):
+        kept.pop(boot["signature"], None)
+        kept[boot["signature"]] = {"label": boot["label"], "state": state, "result": boot["result"],
+                                   "elapsed": boot.get("elapsed", 0.0)}
+        while len(kept) > KEEP_DONE:
+            kept.pop(next(iter(kept)))
+    return boot, kept
+
+
+def next_chunk(chunk: int, took: float, requested: int) -> int:
+    """Resamples for the next answer: about TARGET_SECONDS of work, and at most a twentieth of the run
+    so that progress moves in visible steps and a cancel is heard soon."""
+    cap = min(MAX_CHUNK, max(20, requested // 20))
+    return int(min(cap, max(10, chunk * TARGET_SECONDS / max(took, 1e-3))))
+
+
+def bootstrap_step(boot: Mapping[str, Any] | None, done: Mapping[str, Any] | None, cancel_clicks: int | None,
+                   fits_store: Mapping[str, Any] | None, data: Mapping[str, Any] | None,
+                   exclusions: Mapping[str, Any] | None) -> tuple[Any, Any, bool]:
+    """One chunk of the run in ``boot``. Returns (boot store, done store, whether to ask for another chunk).
+
+    A cancel click seen here (or a change of the fit) ends the run and keeps the refits done so far.
+    """
+    if not boot or boot.get("state") != "running":
+        return no_update, no_update, False
+    boot = dict(boot)
+    if int(cancel_clicks or 0) > int(boot.get("cancel_seen", 0)):
+        return (*_finish(boot, done, "cancelled", f"Cancelled at {boot['done']} of {boot['requested']} resamples."),
+                False)
+    fit = find_fit(fits_store, boot["label"])
+    if fit is None or data is None or fits_store is None or fit_signature(fits_store, fit) != boot["signature"]:
+        return (*_finish(boot, done, "stopped", f"The fit changed (data, points, K or settings): the bootstrap "
+                                                f"stopped at {boot['done']} of {boot['requested']}; run it again."),
+                False)
+    t0 = time.perf_counter()
+    try:
+        series, result = rebuild(data, exclusions, fits_store, fit)
+    except GrowthcoreInputError as exc:
+        return (*_finish(boot, done, "failed", str(exc).splitlines()[0]), False)
+    start, n = int(boot["done"]), int(boot["requested"])
+    part = bootstrap(result, series=series, resamples=n, seed=int(boot["seed"]), start=start,
+                     stop=start + int(boot["chunk"]))
+    if part.done == 0:
+        return (*_finish(boot, done, "failed", f"Nothing to resample: {part.message}"), False)
+    so_far = BootstrapResult.from_dict(boot["result"]).merge(part) if boot.get("result") else part
+    took = time.perf_counter() - t0
+    boot.update(result=so_far.to_dict(), done=so_far.done, elapsed=float(boot.get("elapsed", 0.0)) + took,
+                chunk=next_chunk(int(boot["chunk"]), took, n))
+    if so_far.done >= n:
+        return (*_finish(boot, done, "complete", so_far.message), False)
+    return boot, no_update, True
+
+
+def progress_view(boot: Mapping[str, Any] | None, done: Mapping[str, Any] | None,
+                  fits_store: Mapping[str, Any] | None, label: str | None) -> tuple[str, str, Any, Any]:
+    """Outputs: progress value and maximum, the status line, the intervals table of the chosen fit."""
+    fit = find_fit(fits_store, label)
+    if fit is None or fits_store is None or fit.get("status") != "converged":
+        status = boot.get("message", "") if boot and boot.get("state") == "refused" else ""
+        return "0", "1", status, html.P("No converged fit chosen.", className="muted")
+    sig = fit_signature(fits_store, fit)
+    running = bool(boot and boot.get("signature") == sig and boot.get("state") == "running")
+    source: BootstrapResult | None = None
+    if running and boot and boot.get("result"):
+        source = BootstrapResult.from_dict(boot["result"])
+    elif not running:
+        source = done_for(done, sig)
+    value, top = "0", str(boot.get("requested", 1)) if boot else "1"
+    status: Any = "Not run for this fit yet: the table shows the t-based intervals only."
+    if boot and boot.get("state") == "refused":
+        status = boot["message"]
+    if running and boot:
+        value = str(boot["done"])
+        status = (f"Running: {boot['done']} of {boot['requested']} resamples (seed {boot['seed']}), "
+                  f"{boot['elapsed']:.1f} s so far. Cancel keeps the refits done.")
+    elif source is not None:
+        entry = (done or {}).get(sig, {})
+        state = entry.get("state", "complete")
+        value, top = str(source.done), str(source.requested)
+        words = {"complete": "Done", "cancelled": "Cancelled", "stopped": "Stopped"}.get(state, state.capitalize())
+        status = (f"{words}: {source.done} of {source.requested} resamples (seed {source.seed}), "
+                  f"{int(source.ok.sum())} refits converged, {source.failed} failed, in {entry.get('elapsed', 0.0):.1f} s.")
+        if source.done < source.requested:
+            status += " The intervals use only the refits done; run again for all of them."
+        if source.message:
+            status += f" {source.message}."
+        if source.notes:
+            status += " " + "; ".join(source.notes) + "."
+    elif boot and boot.get("state") in ("stopped", "failed", "cancelled") and boot.get("signature") == sig:
+        status = boot.get("message", "")
+    note = "" if source is None else f", {int(source.ok.sum())} refits" if source.complete else \
+        f", partial: {source.done} of {source.requested}"
+    intervals = {n: (list(ci) if ci else None) for n, ci in source.intervals().items()} if source else None
+    return value, top, status, intervals_table(fit.get("parameters") or {}, intervals, note)
+
+
+def boot_intervals(done: Mapping[str, Any] | None, fits_store: Mapping[str, Any] | None) -> dict[tuple, dict]:
+    """(model, method, error) → {constant: [lo, hi]} for the fits on screen that have a bootstrap."""
+    out: dict[tuple, dict] = {}
+    for f in (fits_store or {}).get("fits", []):
+        if f.get("status") != "converged" or fits_store is None:
+            continue
+        boot = done_for(done, fit_signature(fits_store, f))
+        if boot is not None:
+            out[(f["model"], f["method"], f["error"])] = {n: (list(ci) if ci else None)
+                                                         for n, ci in boot.intervals().items()}
+    return out
+
+
+# ----------------------------------------------------------------------------- forecast
+
+def forecast_request(mode: str | None, amount: Any, bound: Any) -> dict[str, Any]:
+    """The user's forecast choice, checked; ``error`` says what is wrong."""
+    try:
+        value = float(amount)
+    except (TypeError, ValueError):
+        value = math.nan
+    b: float | None
+    try:
+        b = float(bound) if bound not in (None, "") else None
+    except (TypeError, ValueError):
+        b = math.nan
+    if b is not None and not (math.isfinite(b) and b > 0):
+        return {"error": f"The plausibility bound must be a positive state; got {bound!r}."}
+    if mode == "span":
+        if not (math.isfinite(value) and value > 0):
+            return {"error": f"The time span must be a positive number; got {amount!r}."}
+        return {"mode": "span", "amount": value, "bound": b}
+    if not (math.isfinite(value) and value == int(value) and 1 <= value <= MAX_FORECAST_STEPS):
+        return {"error": f"Steps ahead must be a whole number from 1 to {MAX_FORECAST_STEPS}; got {amount!r}."}
+    return {"mode": "steps", "amount": int(value), "bound": b}
+
+
+def compute_forecast(request: Mapping[str, Any], label: str | None, fits_store: Mapping[str, Any] | None,
+                     data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
+                     done: Mapping[str, Any] | None) -> dict[str, Any]:
+    """The forecast store: the request, the fit it belongs to and the band (or the reason there is none)."""
+    out: dict[str, Any] = {"request": dict(request), "label": label}
+    if request.get("error"):
+        return {**out, "error": request["error"]}
+    fit = find_fit(fits_store, label)
+    if fit is None or fits_store is None or data is None or fit.get("status") != "converged":
+        return {**out, "error": "Pick a converged fit to forecast."}
+    out["signature"] = fit_signature(fits_store, fit)
+    try:
+        series, result = rebuild(data, exclusions, fits_store, fit)
+        boot = done_for(done, out["signature"])
+        steps = request["amount"] if request["mode"] == "steps" else None
+        span = request["amount"] if request["mode"] == "span" else None
+        fc = forecast(result, steps=steps, span=span, boot=boot, series=series, bound=request.get("bound"),
+                      seed=boot.seed if boot is not None else 20240601)
+    except GrowthcoreInputError as exc:
+        return {**out, "error": str(exc).splitlines()[0]}
+    return {**out, **fc.to_dict(), "last_observed": float(result.t[-1])}
+
+
+def forecast_notes(store: Mapping[str, Any] | None, fits_store: Mapping[str, Any] | None) -> list[Any]:
+    if not store:
+        return [html.P("No forecast drawn. Choose how far ahead and press Draw forecast; the band appears on "
+                       "the trajectory panel (3).", className="muted")]
+    if store.get("error"):
+        return [html.Div(store["error"], className="flag flag-warn")]
+    fit = find_fit(fits_store, store.get("label"))
+    if fit is None or fits_store is None or fit_signature(fits_store, fit) != store.get("signature"):
+        return [html.P("The forecast is being redrawn for the current fit…", className="muted")]
+    pts = store.get("points", [])
+    last = pts[-1] if pts else {}
+    head = (f"{store['label']}: {len(pts)} points to t = {fmt(last.get('t'))}; at the end {fmt(last.get('p'))} "
+            f"with a {100 * store.get('level', 0.95):.0f}% prediction band {fmt(last.get('lo'))} to {fmt(last.get('hi'))}. "
+            f"The band holds the uncertainty of the constants ({store.get('source', '')}) and the residual noise.")
+    warnings = [html.Li(w) for w in store.get("warnings", [])]
+    return [html.P(head), html.Ul(warnings, className="flag flag-warn dyn-warnings") if warnings else None]
+
+
+def band_on_trajectory(figure: Mapping[str, Any], store: Mapping[str, Any] | None,
+                       fits_store: Mapping[str, Any] | None) -> Mapping[str, Any]:
+    """The trajectory figure with the forecast band of the chosen fit, when the band belongs to the
+    fits on screen (a drag preview or a changed fit hides it until it is recomputed)."""
+    if not store or not store.get("points") or not fits_store:
+        return figure
+    fits = fits_store.get("fits", [])
+    for k, f in enumerate(fits):
+        if f.get("label") == store.get("label") and fit_signature(fits_store, f) == store.get("signature"):
+            colour = fit_styles(fits)[k]["colour"]
+            return with_forecast_band(figure, store["points"], colour=colour, name=f"forecast: {f['label']}",
+                                      level=store.get("level", 0.95), last_observed=store.get("last_observed"))
+    return figure
+
+
+# ----------------------------------------------------------------------------- wiring
+
+def register(app: Dash) -> None:
+    @app.callback(Output(ids.DYN_FIT, "options"), Output(ids.DYN_FIT, "value"),
+                  Input(ids.FITS, "data"), State(ids.DYN_FIT, "value"), State(ids.DYN_FIT, "options"))
+    def _choices(fits_store, current, old_options):
+        options, value = choose_fit(fits_store, current)
+        return (no_update if options == old_options else options), (no_update if value == current else value)
+
+    @app.callback(Output(ids.DYN_SENTENCES, "children"), Output(ids.DYN_EQUILIBRIA, "children"),
+                  Output(ids.G_COBWEB, "figure"), Output(ids.G_SWEEP, "figure"), Output(ids.DYN_DERIVED, "children"),
+                  Input(ids.FITS, "data"), Input(ids.DYN_FIT, "value"), Input(ids.CAPACITY, "data"),
+                  Input(ids.BOOT_DONE, "data"), Input(ids.DYN_LEVEL, "value"),
+                  State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"))
+    def _dynamics(fits_store, label, capacity, done, level, data, exclusions):
+        out = dynamics_view(fits_store, label, capacity, data, exclusions, done, level)
+        if out is None:
+            raise PreventUpdate
+        return out
+
+    @app.callback(Output(ids.BOOT, "data"), Output(ids.BOOT_DONE, "data"), Output(ids.BOOT_TICK, "max_intervals"),
+                  Input(ids.BOOT_RUN, "n_clicks"), Input(ids.BOOT_TICK, "n_intervals"), Input(ids.BOOT_CANCEL, "n_clicks"),
+                  State(ids.BOOT_N, "value"), State(ids.BOOT_SEED, "value"), State(ids.DYN_FIT, "value"),
+                  State(ids.FITS, "data"), State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"),
+                  State(ids.BOOT, "data"), State(ids.BOOT_DONE, "data"), prevent_initial_call=True)
+    def _bootstrap(run, ticks, cancel, resamples, seed, label, fits_store, data, exclusions, boot, done):
+        # the timer fires once per answer: each answer allows exactly one more tick (max_intervals)
+        trigger = ctx.triggered_id
+        if trigger == ids.BOOT_RUN:
+            new = start_run(run, cancel, resamples, seed, label, fits_store)
+            return new, no_update, (ticks or 0) + 1 if new["state"] == "running" else no_update
+        boot_out, done_out, more = bootstrap_step(boot, done, cancel, fits_store, data, exclusions)
+        return boot_out, done_out, (ticks or 0) + 1 if more else (ticks or 0)
+
+    app.callback(Output(ids.BOOT_PROGRESS, "value"), Output(ids.BOOT_PROGRESS, "max"), Output(ids.BOOT_STATUS, "children"),
+                 Output(ids.DYN_INTERVALS, "children"),
+                 Input(ids.BOOT, "data"), Input(ids.BOOT_DONE, "data"), Input(ids.FITS, "data"),
+                 Input(ids.DYN_FIT, "value"))(progress_view)
+
+    @app.callback(Output(ids.FORECAST, "data"),
+                  Input(ids.FC_RUN, "n_clicks"), Input(ids.FC_CLEAR, "n_clicks"), Input(ids.FITS, "data"),
+                  Input(ids.DYN_FIT, "value"), Input(ids.CAPACITY, "data"), Input(ids.BOOT_DONE, "data"),
+                  State(ids.FC_MODE, "value"), State(ids.FC_AMOUNT, "value"), State(ids.FC_BOUND, "value"),
+                  State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"), State(ids.FORECAST, "data"),
+                  prevent_initial_call=True)
+    def _forecast(_run, _clear, fits_store, label, capacity, done, mode, amount, bound, data, exclusions, current):
+        trigger = ctx.triggered_id
+        if trigger == ids.FC_CLEAR:
+            return None
+        if trigger == ids.FC_RUN:
+            return compute_forecast(forecast_request(mode, amount, bound), label, fits_store, data, exclusions, done)
+        # a fit, K or bootstrap change redraws a forecast already asked for, once K is committed
+        if not current or not committed(fits_store, capacity):
+            raise PreventUpdate
+        return compute_forecast(current["request"], label, fits_store, data, exclusions, done)
+
+    app.callback(Output(ids.FC_NOTES, "children"), Input(ids.FORECAST, "data"), Input(ids.FITS, "data"))(forecast_notes)
+
+
+__all__: Sequence[str] = ("fit_signature", "choose_fit", "committed", "rebuild", "dynamics_view", "start_run",
+                          "bootstrap_step", "progress_view", "boot_intervals", "forecast_request", "compute_forecast",
+                          "forecast_notes", "band_on_trajectory", "register")

@@ -1,0 +1,193 @@
+"""Panel 7: what the chosen fit implies — long run, equilibria, cobweb, sweep, bootstrap intervals,
+derived times and the forecast with its band (drawn on the trajectory panel)."""
+
+from __future__ import annotations
+
+import math
+from typing import Any, Mapping, Sequence
+
+from dash import dcc, html
+
+from app import ids
+from app.components.panels import GRAPH_CONFIG
+from growthcore.uncertainty import DEFAULT_RESAMPLES, DEFAULT_SEED, FORECAST_CAUTION
+
+#: Upper limit of resamples one run may ask for (the refits travel through the browser store).
+MAX_RESAMPLES = 10_000
+#: Pause between one chunk's answer and the next request (ms); the next chunk waits for the answer.
+TICK_MS = 30
+
+#: Derived quantities shown, in this order: key of growthcore.uncertainty.derived_intervals, label, unit kind.
+DERIVED_ROWS: tuple[tuple[str, str, str], ...] = (
+    ("doubling_time", "Doubling time at the starting level", "time"),
+    ("lag_time", "Lag time (tangent at the inflection meets the starting level)", "time"),
+    ("inflection_time", "Time of the inflection (fastest growth)", "time"),
+    ("inflection_state", "State at the inflection", "state"),
+    ("max_rate", "Largest change per unit time", "rate"),
+    ("growth_factor_per_step", "Growth factor per step at the starting level", ""),
+    ("specific_rate_at_start", "Specific rate at the start", "per-time"),
+)
+
+
+def fmt(x: float | None, digits: int = 4) -> str:
+    if x is None or (isinstance(x, float) and not math.isfinite(x)):
+        return "–"
+    return f"{x:.{digits}g}"
+
+
+def interval_text(ci: Sequence[float | None] | None) -> str:
+    if not ci or any(v is None for v in ci):
+        return "–"
+    return f"{fmt(ci[0])} to {fmt(ci[1])}"
+
+
+def _graph(graph_id: str, height: int = 300) -> dcc.Graph:
+    return dcc.Graph(id=graph_id, config=GRAPH_CONFIG, className="graph", style={"height": f"{height}px"},
+                     figure={"data": [], "layout": {}})
+
+
+#: Layout of this panel's own pieces (inline, so the shared stylesheet stays as it is).
+ROW = {"display": "flex", "flexWrap": "wrap", "alignItems": "flex-end", "gap": "8px 16px", "margin": "6px 0"}
+FIELD = {"display": "flex", "flexDirection": "column", "gap": "2px"}
+BLOCK = {"marginTop": "14px"}
+CAUTION_STYLE = {"margin": "8px 0", "padding": "6px 10px", "fontSize": "12.5px", "borderLeft": "3px solid #D55E00",
+                 "background": "#fbf1ea"}
+
+
+def _field(label: str, control: Any, control_id: str) -> html.Div:
+    return html.Div([html.Label(label, htmlFor=control_id, className="field-label"), control], className="dyn-field",
+                    style=FIELD)
+
+
+def dynamics_section() -> html.Section:
+    """The panel with its own stores and the timer that drives the bootstrap chunk by chunk."""
+    return html.Section([
+        dcc.Store(id=ids.BOOT, storage_type="memory"),
+        dcc.Store(id=ids.BOOT_DONE, storage_type="memory", data={}),
+        dcc.Store(id=ids.FORECAST, storage_type="memory"),
+        dcc.Interval(id=ids.BOOT_TICK, interval=TICK_MS, n_intervals=0, max_intervals=0),
+        html.Header([html.Span("7", className="panel-number"),
+                     html.H3("What the fitted model implies", className="panel-title")], className="panel-head"),
+        html.P("Long-run behaviour, equilibria and their stability, bootstrap intervals, derived times and a "
+               "forecast for one fitted form at a time.", className="panel-guide"),
+        html.Div([
+            _field("Fitted form", dcc.Dropdown(id=ids.DYN_FIT, options=[], value=None, clearable=False,
+                                               searchable=False, className="dyn-pick", style={"minWidth": "320px"}), ids.DYN_FIT),
+        ], className="dyn-controls", style=ROW),
+        html.Div(id=ids.DYN_SENTENCES, className="dyn-sentences", role="status", **{"aria-live": "polite"}),
+        html.Div([
+            html.Div([html.H4("Equilibria", className="dyn-subtitle"),
+                      html.Div(id=ids.DYN_EQUILIBRIA, className="table-box")], className="dyn-block", style=BLOCK),
+        ], className="dyn-row"),
+        html.Div([
+            html.Figure([_graph(ids.G_COBWEB), html.Figcaption(
+                "Cobweb: the fitted map against the line of no change; the dashed staircase follows the model "
+                "from the starting level. Filled circles are stable equilibria (|f'(p*)| < 1), open ones unstable.",
+                className="hint")], className="dyn-figure"),
+            html.Figure([_graph(ids.G_SWEEP), html.Figcaption(
+                "Sweep: long-run states for each value of the rate, the other constants held at their estimates. "
+                "The line marks the fitted rate, the shading its 95% interval (bootstrap when run, else t-based).",
+                className="hint")], className="dyn-figure"),
+        ], className="pair"),
+        html.Div([
+            html.H4("Bootstrap by residual resampling", className="dyn-subtitle"),
+            html.Div([
+                _field("Resamples", dcc.Input(id=ids.BOOT_N, type="number", value=DEFAULT_RESAMPLES, min=20,
+                                              max=MAX_RESAMPLES, step=1, className="k-input"), ids.BOOT_N),
+                _field("Seed", dcc.Input(id=ids.BOOT_SEED, type="number", value=DEFAULT_SEED, min=0, step=1,
+                                         className="k-input"), ids.BOOT_SEED),
+                html.Button("Run bootstrap", id=ids.BOOT_RUN, n_clicks=0, className="button", type="button"),
+                html.Button("Cancel", id=ids.BOOT_CANCEL, n_clicks=0, className="button button-small", type="button"),
+            ], className="dyn-controls", style=ROW),
+            html.Progress(id=ids.BOOT_PROGRESS, value="0", max=str(DEFAULT_RESAMPLES), className="dyn-progress", style={"width": "100%", "maxWidth": "480px", "height": "14px"},
+                          **{"aria-label": "bootstrap progress"}),
+            html.Div(id=ids.BOOT_STATUS, className="hint", role="status", **{"aria-live": "polite"}),
+            html.Div(id=ids.DYN_INTERVALS, className="table-box"),
+        ], className="dyn-block", style=BLOCK),
+        html.Div([
+            html.H4("Derived times", className="dyn-subtitle"),
+            _field("Time to reach the level", dcc.Input(id=ids.DYN_LEVEL, type="number", debounce=True, min=0,
+                                                        step="any", className="k-input",
+                                                        placeholder="state"), ids.DYN_LEVEL),
+            html.Div(id=ids.DYN_DERIVED, className="table-box"),
+        ], className="dyn-block", style=BLOCK),
+        html.Div([
+            html.H4("Forecast", className="dyn-subtitle"),
+            html.Div([
+                dcc.RadioItems(id=ids.FC_MODE, options=[{"label": "steps ahead", "value": "steps"},
+                                                        {"label": "time span ahead", "value": "span"}],
+                               value="steps", inline=True, inputClassName="check", labelClassName="check-label"),
+                _field("How far", dcc.Input(id=ids.FC_AMOUNT, type="number", value=10, min=0, step="any",
+                                            className="k-input"), ids.FC_AMOUNT),
+                _field("Plausibility bound (optional)", dcc.Input(id=ids.FC_BOUND, type="number", min=0, step="any",
+                                                                  className="k-input", placeholder="state"),
+                       ids.FC_BOUND),
+                html.Button("Draw forecast", id=ids.FC_RUN, n_clicks=0, className="button", type="button"),
+                html.Button("Remove", id=ids.FC_CLEAR, n_clicks=0, className="button button-small", type="button"),
+            ], className="dyn-controls", style=ROW),
+            html.P([html.Strong("Caution. "), FORECAST_CAUTION], className="dyn-caution", role="note",
+                   style=CAUTION_STYLE),
+            html.Div(id=ids.FC_NOTES, role="status", **{"aria-live": "polite"}),
+        ], className="dyn-block", style=BLOCK),
+    ], className="panel panel-table panel-dynamics", **{"aria-label": "What the fitted model implies"})
+
+
+def equilibria_table(equilibria: Sequence[Mapping[str, Any]], unit: str) -> html.Table | html.P:
+    if not equilibria:
+        return html.P("No equilibrium in the range of the data and K.", className="muted")
+    head = html.Tr([html.Th(f"p* [{unit}]" if unit else "p*", scope="col"), html.Th("multiplier f'(p*)", scope="col"),
+                    html.Th("stability", scope="col")])
+    rows = []
+    for e in equilibria:
+        stable = e.get("stable")
+        word = "stable" if stable else "unstable" if stable is False else "–"
+        rows.append(html.Tr([html.Td(fmt(e.get("value")), className="num"),
+                             html.Td(fmt(e.get("multiplier"), 3), className="num"),
+                             html.Td(word, className="status-ok" if stable else "misfit-yes" if stable is False else "")]))
+    return html.Table([html.Thead(head), html.Tbody(rows)], className="comparison dyn-table")
+
+
+def intervals_table(parameters: Mapping[str, Mapping[str, Any]],
+                    boot: Mapping[str, Sequence[float] | None] | None, boot_note: str) -> html.Table:
+    """Estimate, t-based 95% interval and bootstrap percentile interval of every constant."""
+    head = html.Tr([html.Th("constant", scope="col"), html.Th("estimate", scope="col"),
+                    html.Th("95% interval (t-based)", scope="col"),
+                    html.Th(f"95% interval (bootstrap percentile{boot_note})", scope="col")])
+    rows = []
+    for name, p in parameters.items():
+        if p.get("fixed"):
+            rows.append(html.Tr([html.Th(name, scope="row"), html.Td(fmt(p.get("value")), className="num"),
+                                 html.Td("held", colSpan=2, className="muted")]))
+            continue
+        b = (boot or {}).get(name)
+        rows.append(html.Tr([html.Th(name, scope="row"), html.Td(fmt(p.get("value")), className="num"),
+                             html.Td(interval_text(p.get("ci95")), className="num"),
+                             html.Td(interval_text(b) if boot else "not run", className="num")]))
+    return html.Table([html.Thead(head), html.Tbody(rows)], className="comparison dyn-table")
+
+
+def derived_table(derived: Mapping[str, Mapping[str, Any]], names: Sequence[tuple[str, str, str]],
+                  units: Mapping[str, str], bootstrapped: bool) -> html.Table | html.P:
+    """Derived quantities with their bootstrap intervals (where a bootstrap has run)."""
+    rows = []
+    for key, label, kind in names:
+        d = derived.get(key)
+        if d is None:
+            continue
+        unit = units.get(kind, "")
+        if d.get("ci95"):
+            ci = interval_text(d["ci95"])
+            if d.get("draws") and d.get("defined", 0) < d["draws"]:
+                ci += f" (exists in {d['defined']} of {d['draws']} refits)"
+        elif bootstrapped and d.get("draws"):
+            ci = f"too few refits where it exists ({d.get('defined', 0)} of {d['draws']})"
+        else:
+            ci = "run the bootstrap" if not bootstrapped else "–"
+        value = fmt(d.get("value")) if d.get("value") is not None else "not reached / not defined"
+        rows.append(html.Tr([html.Th(label, scope="row"), html.Td(value, className="num"),
+                             html.Td(unit, className="muted"), html.Td(ci, className="num")]))
+    if not rows:
+        return html.P("No derived times for this fit.", className="muted")
+    head = html.Tr([html.Th("quantity", scope="col"), html.Th("value", scope="col"), html.Th("unit", scope="col"),
+                    html.Th("95% interval (bootstrap percentile)", scope="col")])
+    return html.Table([html.Thead(head), html.Tbody(rows)], className="comparison dyn-table")
