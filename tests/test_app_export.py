@@ -275,3 +275,15 @@ def test_export_without_choices_says_what_is_missing() -> None:
 def test_file_stem_is_safe() -> None:
     assert ex.file_stem("Tank A / run 2") == "Tank-A-run-2"
     assert ex.file_stem("../..") == "series"
+
+
+def test_reopening_says_which_extra_forms_the_controls_add() -> None:
+    """The controls add the constant term to every difference form; a record of only one says so."""
+    stores = _session(["logistic", "gompertz"], constant=True)
+    record = ex.session_record(*stores, forms=["logistic", "logistic+c", "gompertz"])
+    out = _upload(ex.record_text(record))
+    assert out[8] == ["c"]
+    assert "also fit gompertz+c, which the record does not hold" in str(out[-1])
+    plain = ex.session_record(*stores, forms=["logistic", "gompertz"])
+    out = _upload(ex.record_text(plain))
+    assert out[8] == [] and "also fit" not in str(out[-1])

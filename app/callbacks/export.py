@@ -20,6 +20,7 @@ from dash import ClientsideFunction, Dash, Input, Output, State, html, no_update
 
 from app import ids
 from app.callbacks.data import summary
+from app.callbacks.settings import expand_forms
 from app.state import data_to_store, empty_exclusions, series_from_store
 from growthcore.cli import fit_uncertainty
 from growthcore.compare import compare, comparison_notes
@@ -200,6 +201,12 @@ def _unique(items: Sequence[str]) -> list[str]:
     return list(dict.fromkeys(items))
 
 
+def record_models(record: Mapping[str, Any]) -> list[str]:
+    """The form ids a record fitted, in order."""
+    settings = record.get("settings") or {}
+    return list(settings.get("models") or _unique([f["model"] for f in record.get("fits") or []]))
+
+
 def controls_from_record(record: Mapping[str, Any]) -> dict[str, Any]:
     """The model controls that make the app fit what the record holds.
 
@@ -208,7 +215,7 @@ def controls_from_record(record: Mapping[str, Any]) -> dict[str, Any]:
     """
     settings = record.get("settings") or {}
     fits = record.get("fits") or []
-    models = list(settings.get("models") or _unique([f["model"] for f in fits]))
+    models = record_models(record)
     methods = list(settings.get("methods") or _unique([f["method"] for f in fits]))
     forms = _unique([m[: -len("+c")] if m.endswith("+c") else m for m in models])
     capacity = settings.get("capacity")
@@ -276,8 +283,8 @@ def refusal(exc: RecordError) -> html.Div:
 
 def on_record_upload(contents: str | None, filename: str | None) -> tuple[Any, ...]:
     """Outputs: source, data, exclusions, data summary, report text, series options, series value,
-    the six model controls, the pending K, and the message."""
-    keep = (no_update,) * 14
+    the six model controls, the pending K, the data message and the record message."""
+    keep = (no_update,) * 15
     if not contents:
         return (*keep, no_update)
     name = filename or "record.json"
@@ -292,12 +299,17 @@ def on_record_upload(contents: str | None, filename: str | None) -> tuple[Any, .
     n_fits = len(record["fits"])
     k = controls["capacity"]
     pending = {"key": data["key"], "value": k} if k is not None else None
+    also = [m for m in expand_forms(controls["forms"], bool(controls["constant"])) if m not in record_models(record)]
     text = (f"Reopened {name}: series “{data['name']}”, {len(data['t'])} points, {len(exclusions['excluded'])} "
             f"excluded, {n_fits} fit{'s' if n_fits != 1 else ''} written {record.get('created', '')}. The panels "
             "are recomputed from the record's data and settings.")
+    if also:
+        text += f" The controls also fit {', '.join(also)}, which the record does not hold."
+    data_message = html.Div(f"Data from the fit record {name} (first read from {data['source']}).",
+                            className="message message-ok")
     return (None, data, exclusions, summary(data), data["report_text"], [{"label": data["name"], "value": data["name"]}],
             data["name"], controls["forms"], controls["constant"], controls["terms"], controls["method"],
-            controls["error"], controls["k_mode"], pending, html.Div(text, className="message message-ok"))
+            controls["error"], controls["k_mode"], pending, data_message, html.Div(text, className="message message-ok"))
 
 
 def register(app: Dash) -> None:
@@ -327,7 +339,8 @@ def register(app: Dash) -> None:
         Output(ids.SERIES_PICK, "options", allow_duplicate=True), Output(ids.SERIES_PICK, "value", allow_duplicate=True),
         Output(ids.FORMS, "value"), Output(ids.CONSTANT, "value"), Output(ids.TERMS, "value"),
         Output(ids.METHOD, "value"), Output(ids.ERROR, "value"), Output(ids.K_MODE, "value"),
-        Output(ids.PENDING_CAPACITY, "data"), Output(ids.RECORD_MESSAGE, "children"),
+        Output(ids.PENDING_CAPACITY, "data"), Output(ids.DATA_MESSAGE, "children", allow_duplicate=True),
+        Output(ids.RECORD_MESSAGE, "children"),
         Input(ids.RECORD_UPLOAD, "contents"), State(ids.RECORD_UPLOAD, "filename"),
         prevent_initial_call=True,
     )(on_record_upload)

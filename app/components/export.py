@@ -52,7 +52,7 @@ def export_section() -> html.Section:
                 dcc.RadioItems(id=ids.EXPORT_SIZE, options=[{"label": size_label(n), "value": n} for n in PANEL_SIZES],
                                value="screen", inputClassName="check", labelClassName="check-label"),
             ], className="fieldset"),
-        ], className="export-grid"),
+        ], className="export-grid", style={"display": "flex", "flexWrap": "wrap", "columnGap": "28px"}),
         html.Div([
             html.Button("Export the chosen forms", id=ids.EXPORT_BUTTON, n_clicks=0, className="button",
                         type="button"),
