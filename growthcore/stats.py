@@ -125,17 +125,21 @@ def fit_metrics(
     return Metrics(n, n_params, sse, rmse, residual_sd, r2, r2_adj, loglik, aic, aicc, bic, r2_uncentered)
 
 
-def covariance_from_jacobian(jac: Array, sse: float, dof: int) -> Array:
-    """s²·(JᵀJ)⁻¹ with s² = SSE/dof, by SVD so that a singular J gives NaN instead of garbage."""
+def covariance_and_condition(jac: Array, sse: float, dof: int) -> tuple[Array, float]:
+    """s²·(JᵀJ)⁻¹ with s² = SSE/dof and the condition number of J, from one SVD.
+
+    The SVD makes a singular J give NaN instead of garbage.
+    """
     k = jac.shape[1]
     if dof <= 0 or jac.size == 0 or not np.all(np.isfinite(jac)):
-        return np.full((k, k), math.nan)
+        return np.full((k, k), math.nan), math.nan
     _, s, vt = np.linalg.svd(jac, full_matrices=False)
+    condition = float(s[0] / s[-1]) if s.size and s[-1] > 0 else math.inf
     tol = np.finfo(float).eps * max(jac.shape) * (s[0] if s.size else 0.0)
     if s.size < k or np.any(s <= tol):
-        return np.full((k, k), math.nan)
+        return np.full((k, k), math.nan), condition
     inv = (vt.T / s**2) @ vt
-    return inv * (sse / dof)
+    return inv * (sse / dof), condition
 
 
 def correlation(cov: Array) -> Array:

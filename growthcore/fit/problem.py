@@ -11,7 +11,7 @@ import numpy as np
 from growthcore.fit.nls import jacobian
 from growthcore.fit.result import FitResult, Grid, ParameterEstimate
 from growthcore.models.base import ModelForm, ParamSpec
-from growthcore.stats import correlation, covariance_from_jacobian, fit_metrics, residual_diagnostics, t_quantile
+from growthcore.stats import correlation, covariance_and_condition, fit_metrics, residual_diagnostics, t_quantile
 
 Array = np.ndarray
 P0_DIFFERENCE = ParamSpec("p0", 0.0, math.inf, "state at the first time of the grid", "state")
@@ -94,7 +94,7 @@ def build_result(
     n = residuals.size
     sse = float(residuals @ residuals)
     dof = n - k
-    cov = covariance_from_jacobian(jac, sse, dof) if k else np.zeros((0, 0))
+    cov, condition = covariance_and_condition(jac, sse, dof) if k else (np.zeros((0, 0)), math.nan)
     tq = t_quantile(0.975, dof) if dof > 0 else math.nan
     notes_out = list(notes)
     estimates = []
@@ -119,10 +119,8 @@ def build_result(
             )
     if k and not np.all(np.isfinite(cov)):
         notes_out.append("the Jacobian is singular at the optimum: the constants are not separately identifiable")
-    elif k:
-        sv = np.linalg.svd(jac, compute_uv=False)
-        if sv[-1] > 0 and sv[0] / sv[-1] > 1e10:
-            notes_out.append(f"ill-conditioned fit (condition number {sv[0] / sv[-1]:.2g}): standard errors are fragile")
+    elif k and condition > 1e10:
+        notes_out.append(f"ill-conditioned fit (condition number {condition:.2g}): standard errors are fragile")
     if dof <= 0:
         notes_out.append("no residual degrees of freedom: no standard errors")
     metrics = fit_metrics(residuals, problem.observed, predicted, k, r2_uncentered=r2_uncentered)

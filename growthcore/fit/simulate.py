@@ -10,6 +10,9 @@ from growthcore.models.base import DifferenceForm
 
 Array = np.ndarray
 
+#: Up to this many parameter sets, plain Python floats beat numpy's per-call overhead on tiny arrays.
+SCALAR_LIMIT = 8
+
 
 def iterate(form: DifferenceForm, p0: Array | float, values: Mapping[str, Array | float], steps: int) -> Array:
     """States p_0 .. p_steps; shape (steps + 1,) + broadcast shape of p0 and the values.
@@ -18,6 +21,11 @@ def iterate(form: DifferenceForm, p0: Array | float, values: Mapping[str, Array 
     """
     p = np.asarray(p0, dtype=float)
     shape = np.broadcast_shapes(p.shape, *(np.shape(v) for v in values.values()))
+    size = int(np.prod(shape)) if shape else 1
+    if size <= SCALAR_LIMIT:
+        scalar = _iterate_scalar(form, p, values, steps, shape, size)
+        if scalar is not None:
+            return scalar
     path = np.empty((steps + 1, *shape))
     p = np.broadcast_to(p, shape).astype(float)
     path[0] = p
@@ -27,3 +35,35 @@ def iterate(form: DifferenceForm, p0: Array | float, values: Mapping[str, Array 
             p = p + increment(p, values)
             path[n] = p
     return path
+
+
+def _iterate_scalar(form: DifferenceForm, p0: Array, values: Mapping[str, Array | float], steps: int,
+                    shape: tuple[int, ...], size: int) -> Array | None:
+    """The same iteration one parameter set at a time in Python floats; None if floats would raise."""
+    starts = _floats(p0, shape, size)
+    columns = {n: _floats(v, shape, size) for n, v in values.items()}
+    path = np.empty((steps + 1, size))
+    increment = form.increment
+    try:
+        with np.errstate(all="ignore"):
+            for j in range(size):
+                v = {n: c[j] for n, c in columns.items()}
+                p = starts[j]
+                out = [p]
+                for _ in range(steps):
+                    p = p + increment(p, v)
+                    out.append(p)
+                path[:, j] = out
+    except (ArithmeticError, ValueError):
+        return None  # Python floats raise where numpy gives inf or nan: let numpy do it
+    return path.reshape((steps + 1, *shape))
+
+
+def _floats(v: Array | float, shape: tuple[int, ...], size: int) -> list[float]:
+    """``v`` broadcast to ``shape`` and flattened to Python floats (tolist is the fast route)."""
+    a = np.asarray(v, dtype=float)
+    if a.size == 1:
+        return [float(a.reshape(-1)[0])] * size
+    if a.size == size:
+        return a.reshape(-1).tolist()
+    return np.broadcast_to(a, shape).reshape(-1).tolist()

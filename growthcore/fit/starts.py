@@ -21,12 +21,21 @@ def capacity_guess(p: Array) -> float:
         return fallback
     x = p[:-1]
     y = np.diff(p) / x
-    b, a = np.polyfit(x, y, 1)
+    b, a = _line(x, y)
     if b < 0 and a > 0:
         k = -a / b
         if 0.5 * np.max(p) < k < 5.0 * np.max(p):
             return float(k)
     return fallback
+
+
+def _line(x: Array, y: Array) -> tuple[float, float]:
+    """Slope and intercept of the least-squares line (closed form; polyfit's overhead is not needed)."""
+    xm, ym = float(x.mean()), float(y.mean())
+    dx = x - xm
+    sxx = float(dx @ dx)
+    slope = float(dx @ (y - ym)) / sxx if sxx > 0 else 0.0
+    return slope, ym - slope * xm
 
 
 def curve_starts(form: ModelForm, t: Array, p: Array) -> list[dict[str, float]]:
@@ -58,7 +67,7 @@ def _linearised(form_id: str, t: Array, p: Array, k0: float, first: float) -> tu
     ok = np.isfinite(y)
     sign = 1.0 if form_id == "exponential-curve" else -1.0
     if np.sum(ok) >= 2 and np.ptp(t[ok]) > 0:
-        slope, intercept = np.polyfit(t[ok], y[ok], 1)
+        slope, intercept = _line(t[ok], y[ok])
         r0 = sign * slope
         with np.errstate(all="ignore"):
             if form_id == "exponential-curve":

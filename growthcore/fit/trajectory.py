@@ -9,12 +9,12 @@ error) or ln p − ln p̂ (log, i.e. multiplicative error).
 
 from __future__ import annotations
 
-from typing import Mapping
+from typing import Iterable, Iterator, Mapping
 
 import numpy as np
 
 from growthcore.data import Series
-from growthcore.fit.increments import fit_increments
+from growthcore.fit.increments import consecutive_pairs, fit_increments
 from growthcore.fit.nls import NLSOutcome, solve
 from growthcore.fit.problem import P0_DIFFERENCE, Problem, build_result
 from growthcore.fit.result import FitResult, Grid, failed
@@ -66,13 +66,14 @@ def _too_few(model: str, error: str, form: ModelForm, n: int, k: int) -> FitResu
     return None
 
 
-def _best(problem: Problem, candidates: list[Array]) -> NLSOutcome | None:
+def _best(problem: Problem, candidates: Iterable[Array]) -> NLSOutcome | None:
+    """Try starts in order (they may be built lazily) until one converges to a good enough fit."""
     best = None
     for x0 in candidates:
         outcome = solve(problem.residuals, x0, problem.lower, problem.upper, scale=problem.scale)
         if outcome.finite and (best is None or outcome.sse < best.sse * (1 - 1e-9)):
             best = outcome
-        if outcome.success and best is outcome and len(candidates) > 1 and _good_enough(problem, outcome):
+        if outcome.success and best is outcome and _good_enough(problem, outcome):
             break
     return best
 
@@ -144,17 +145,38 @@ def _fit_difference(series: Series, form: DifferenceForm, *, model: str, error: 
     problem = Problem(model, "trajectory", error, form, specs, free, dict(fixed), predict, t, p, grid=grid,
                       terms=terms, settings={"fixed": dict(fixed), "t_first": float(series.t[0])})
     first = float(series.p[0]) if used[0] else float(p[0])
-    seeds: list[dict[str, float]] = []
-    shape_fixed = {n: v for n, v in fixed.items() if n != "p0"}
-    inc = fit_increments(series, form, model=model, fixed=shape_fixed, start=start, terms=terms)
-    if inc.success:
-        seeds.append({**inc.values, "p0": first})
     k0 = capacity_guess(p)
     defaults = {"r": 0.5, "K": k0, "lambda": 1.6, "theta": 1.0, "A": 0.5 * float(np.min(p[p > 0])) if np.any(p > 0) else 1.0,
                 "c": 0.0, "p0": max(first, 1e-9)}
-    for factor in (1.0, 1.5):
-        seeds.append({**defaults, "K": k0 * factor})
-    if start:
-        seeds.insert(0, {**defaults, **start})
-    vectors = [np.array([problem.spec(n).clip(s.get(n, defaults.get(n, 1.0))) for n in free]) for s in seeds]
+    shape_fixed = {n: v for n, v in fixed.items() if n != "p0"}
+
+    def seeds() -> Iterator[dict[str, float]]:
+        if start:
+            yield {**defaults, **start}
+        quick = quick_seed(series, form, {**defaults, **shape_fixed})
+        if quick is not None:
+            yield {**defaults, **quick, "p0": max(first, 1e-9)}
+        inc = fit_increments(series, form, model=model, fixed=shape_fixed, start=start, terms=terms)
+        if inc.success:
+            yield {**inc.values, "p0": first}
+        for factor in (1.0, 1.5):
+            yield {**defaults, "K": k0 * factor}
+
+    vectors = (np.array([problem.spec(n).clip(s.get(n, defaults.get(n, 1.0))) for n in free]) for s in seeds())
     return _finish(problem, _best(problem, vectors), form)
+
+
+def quick_seed(series: Series, form: DifferenceForm, guesses: Mapping[str, float]) -> dict[str, float] | None:
+    """Linear constants from one regression of the change per step, the others at their guesses."""
+    pairs = consecutive_pairs(series)
+    if isinstance(pairs, str) or form.basis is None or not form.linear or pairs[1].size <= len(form.linear):
+        return None
+    _, x, y_next = pairs
+    with np.errstate(all="ignore"):
+        design = np.column_stack(form.basis(x, {**guesses, **{n: 0.0 for n in form.linear}}))
+    if not np.all(np.isfinite(design)):
+        return None
+    coef = np.linalg.lstsq(design, y_next - x, rcond=None)[0]
+    if not np.all(np.isfinite(coef)):
+        return None
+    return {**{n: guesses[n] for n in form.shape if n in guesses}, **dict(zip(form.linear, map(float, coef)))}
