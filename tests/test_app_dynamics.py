@@ -185,7 +185,7 @@ def test_chunked_run_equals_one_engine_call(demo: dict, k_demo: float, fits: dic
     stored = dy.done_for(done, sig)
     np.testing.assert_allclose(stored.samples, direct.samples, rtol=1e-12)
     lo, hi = np.percentile(direct.good()["r"], [2.5, 97.5])
-    value, top, status, table = dy.progress_view(boot, done, fits, label)
+    value, top, status, table = dy.progress_view(boot, dy.summaries(done), fits, label)
     assert (value, top) == ("400", "400") and status.startswith("Done: 400 of 400")
     assert f"{lo:.4g} to {hi:.4g}" in _text(table)
     t_ci = fits["fits"][2]["parameters"]["r"]["ci95"]
@@ -196,7 +196,7 @@ def test_cancel_keeps_the_refits_done(demo: dict, fits: dict) -> None:
     label = "gompertz (increments)"
     boot, done, steps = _run(dy.start_run(1, 0, 2000, 5, label, fits), {}, fits, demo, cancel_after=2)
     assert boot["state"] == "cancelled" and 0 < boot["done"] < 2000 and steps == 3
-    value, top, status, table = dy.progress_view(boot, done, fits, label)
+    value, top, status, table = dy.progress_view(boot, dy.summaries(done), fits, label)
     assert status.startswith(f"Cancelled: {boot['done']} of 2000") and "only the refits done" in status
     assert f"partial: {boot['done']} of 2000" in _text(table)
 
@@ -224,10 +224,10 @@ def test_bootstrap_changes_sentences_and_comparison(demo: dict, k_demo: float, f
     assert "bootstrap" in json.dumps(out[3]["layout"]) or out[3]["layout"]["shapes"]
     derived = _text(out[4])
     assert "run the bootstrap" not in derived and " to " in derived
-    table, _ = draw_comparison(fits, None, done)
+    table, _ = draw_comparison(fits, None, dy.summaries(done))
     assert "r bootstrap [" in _text(table)
     moved = compute_fits(demo, None, _settings(), rounded(0.9 * k_demo))
-    assert "bootstrap [" not in _text(draw_comparison(moved, None, done)[0])  # stale intervals are not shown
+    assert "bootstrap [" not in _text(draw_comparison(moved, None, dy.summaries(done))[0])  # stale intervals are not shown
 
 
 # ----------------------------------------------------------------------------- forecast
@@ -272,3 +272,12 @@ def test_registered_on_the_app() -> None:
     outputs = " ".join(app.callback_map)
     for name in ("store-bootstrap.data", "store-forecast.data", "panel-cobweb.figure", "forecast-notes.children"):
         assert name in outputs
+
+
+def test_summaries_leave_the_refits_out(demo: dict, fits: dict) -> None:
+    """What rides along with every table update stays small: counts and intervals, no refits."""
+    _, done, _ = _run(dy.start_run(1, 0, 1000, 4, "logistic (increments)", fits), {}, fits, demo)
+    small = dy.summaries(done)
+    assert len(json.dumps(small)) < 2000 < len(json.dumps(done))
+    entry = next(iter(small.values()))
+    assert entry["summary"]["done"] == 1000 and "result" not in entry

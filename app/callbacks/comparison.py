@@ -12,7 +12,7 @@ from app.components.comparison import comparison_table
 
 def draw_comparison(fits_store: Mapping[str, Any] | None, sort: Mapping[str, Any] | None,
                     done: Mapping[str, Any] | None = None) -> tuple[Any, Any]:
-    """The table and its notes; ``done`` holds the bootstraps of panel 7 (their intervals join the table)."""
+    """The table and its notes; ``done`` holds the bootstrap summaries of panel 7 (their intervals join the table)."""
     if not fits_store:
         return html.P("Fitting…", className="muted"), []
     from app.callbacks.dynamics import boot_intervals
@@ -32,7 +32,7 @@ def next_sort(column: str, current: Mapping[str, Any] | None) -> dict[str, Any]:
 
 def register(app: Dash) -> None:
     app.callback(Output(ids.COMPARISON, "children"), Output(ids.COMPARISON_NOTES, "children"),
-                 Input(ids.FITS, "data"), Input(ids.SORT, "data"), Input(ids.BOOT_DONE, "data"))(draw_comparison)
+                 Input(ids.FITS, "data"), Input(ids.SORT, "data"), Input(ids.BOOT_SUMMARY, "data"))(draw_comparison)
 
     @app.callback(Output(ids.SORT, "data"), Input({"type": ids.SORT_BUTTON, "column": ALL}, "n_clicks"),
                   State(ids.SORT, "data"), prevent_initial_call=True)

@@ -201,8 +201,9 @@ def _finish(boot: dict[str, Any], done: Mapping[str, Any] | None, state: str, me
     kept = dict(done or {})
     if boot.get("result") and boot["result"].get("samples"):
         kept.pop(boot["signature"], None)
+        summary = BootstrapResult.from_dict(boot["result"]).summary()
         kept[boot["signature"]] = {"label": boot["label"], "state": state, "result": boot["result"],
-                                   "elapsed": boot.get("elapsed", 0.0)}
+                                   "elapsed": boot.get("elapsed", 0.0), "summary": summary}
         while len(kept) > KEEP_DONE:
             kept.pop(next(iter(kept)))
     return boot, kept
@@ -252,7 +253,13 @@ def bootstrap_step(boot: Mapping[str, Any] | None, done: Mapping[str, Any] | Non
     return boot, no_update, True
 
 
-def progress_view(boot: Mapping[str, Any] | None, done: Mapping[str, Any] | None,
+def summaries(done: Mapping[str, Any] | None) -> dict[str, Any]:
+    """The finished bootstraps without their refits: counts and intervals, small enough to travel
+    with every table update."""
+    return {sig: {k: v for k, v in entry.items() if k != "result"} for sig, entry in (done or {}).items()}
+
+
+def progress_view(boot: Mapping[str, Any] | None, summary: Mapping[str, Any] | None,
                   fits_store: Mapping[str, Any] | None, label: str | None) -> tuple[str, str, Any, Any]:
     """Outputs: progress value and maximum, the status line, the intervals table of the chosen fit."""
     fit = find_fit(fits_store, label)
@@ -261,11 +268,12 @@ def progress_view(boot: Mapping[str, Any] | None, done: Mapping[str, Any] | None
         return "0", "1", status, html.P("No converged fit chosen.", className="muted")
     sig = fit_signature(fits_store, fit)
     running = bool(boot and boot.get("signature") == sig and boot.get("state") == "running")
-    source: BootstrapResult | None = None
+    info: Mapping[str, Any] | None = None
     if running and boot and boot.get("result"):
-        source = BootstrapResult.from_dict(boot["result"])
+        info = BootstrapResult.from_dict(boot["result"]).summary()
     elif not running:
-        source = done_for(done, sig)
+        entry = (summary or {}).get(sig)
+        info = entry.get("summary") if entry else None
     value, top = "0", str(boot.get("requested", 1)) if boot else "1"
     status: Any = "Not run for this fit yet: the table shows the t-based intervals only."
     if boot and boot.get("state") == "refused":
@@ -274,37 +282,36 @@ def progress_view(boot: Mapping[str, Any] | None, done: Mapping[str, Any] | None
         value = str(boot["done"])
         status = (f"Running: {boot['done']} of {boot['requested']} resamples (seed {boot['seed']}), "
                   f"{boot['elapsed']:.1f} s so far. Cancel keeps the refits done.")
-    elif source is not None:
-        entry = (done or {}).get(sig, {})
+    elif info is not None:
+        entry = (summary or {}).get(sig, {})
         state = entry.get("state", "complete")
-        value, top = str(source.done), str(source.requested)
+        value, top = str(info["done"]), str(info["requested"])
         words = {"complete": "Done", "cancelled": "Cancelled", "stopped": "Stopped"}.get(state, state.capitalize())
-        status = (f"{words}: {source.done} of {source.requested} resamples (seed {source.seed}), "
-                  f"{int(source.ok.sum())} refits converged, {source.failed} failed, in {entry.get('elapsed', 0.0):.1f} s.")
-        if source.done < source.requested:
+        status = (f"{words}: {info['done']} of {info['requested']} resamples (seed {info['seed']}), "
+                  f"{info['succeeded']} refits converged, {info['failed']} failed, in {entry.get('elapsed', 0.0):.1f} s.")
+        if info["done"] < info["requested"]:
             status += " The intervals use only the refits done; run again for all of them."
-        if source.message:
-            status += f" {source.message}."
-        if source.notes:
-            status += " " + "; ".join(source.notes) + "."
+        if info.get("message"):
+            status += f" {info['message']}."
+        if info.get("notes"):
+            status += " " + "; ".join(info["notes"]) + "."
     elif boot and boot.get("state") in ("stopped", "failed", "cancelled") and boot.get("signature") == sig:
         status = boot.get("message", "")
-    note = "" if source is None else f", {int(source.ok.sum())} refits" if source.complete else \
-        f", partial: {source.done} of {source.requested}"
-    intervals = {n: (list(ci) if ci else None) for n, ci in source.intervals().items()} if source else None
-    return value, top, status, intervals_table(fit.get("parameters") or {}, intervals, note)
+    note = "" if info is None else f", {info['succeeded']} refits" if info["done"] >= info["requested"] else \
+        f", partial: {info['done']} of {info['requested']}"
+    return value, top, status, intervals_table(fit.get("parameters") or {}, info["intervals"] if info else None, note)
 
 
-def boot_intervals(done: Mapping[str, Any] | None, fits_store: Mapping[str, Any] | None) -> dict[tuple, dict]:
-    """(model, method, error) → {constant: [lo, hi]} for the fits on screen that have a bootstrap."""
+def boot_intervals(summary: Mapping[str, Any] | None, fits_store: Mapping[str, Any] | None) -> dict[tuple, dict]:
+    """(model, method, error) → {constant: [lo, hi]} for the fits on screen that have a bootstrap
+    (``summary`` as from :func:`summaries`, or the full store of finished bootstraps)."""
     out: dict[tuple, dict] = {}
     for f in (fits_store or {}).get("fits", []):
         if f.get("status") != "converged" or fits_store is None:
             continue
-        boot = done_for(done, fit_signature(fits_store, f))
-        if boot is not None:
-            out[(f["model"], f["method"], f["error"])] = {n: (list(ci) if ci else None)
-                                                         for n, ci in boot.intervals().items()}
+        entry = (summary or {}).get(fit_signature(fits_store, f))
+        if entry and entry.get("summary"):
+            out[(f["model"], f["method"], f["error"])] = dict(entry["summary"]["intervals"])
     return out
 
 
@@ -390,25 +397,45 @@ def band_on_trajectory(figure: Mapping[str, Any], store: Mapping[str, Any] | Non
 
 # ----------------------------------------------------------------------------- wiring
 
+#: In the browser: pass the fits on only when they are at the committed K, so a drag of K sends
+#: no request to this panel's callbacks (the drag preview stays with panels 1 to 6).
+GATE_JS = """
+function(fits, capacity) {
+    if (!fits) { return null; }
+    var held = fits.capacity;
+    if (held !== null && held !== undefined && capacity !== null && capacity !== undefined &&
+            Math.abs(held - capacity) > 1e-12 * Math.max(Math.abs(capacity), 1)) {
+        return window.dash_clientside.no_update;
+    }
+    return {key: fits.key, capacity: held, at: Date.now()};
+}
+"""
+
+
 def register(app: Dash) -> None:
+    app.clientside_callback(GATE_JS, Output(ids.DYN_GATE, "data"), Input(ids.FITS, "data"), Input(ids.CAPACITY, "data"))
+
     @app.callback(Output(ids.DYN_FIT, "options"), Output(ids.DYN_FIT, "value"),
-                  Input(ids.FITS, "data"), State(ids.DYN_FIT, "value"), State(ids.DYN_FIT, "options"))
-    def _choices(fits_store, current, old_options):
+                  Input(ids.DYN_GATE, "data"), State(ids.FITS, "data"), State(ids.DYN_FIT, "value"),
+                  State(ids.DYN_FIT, "options"))
+    def _choices(_gate, fits_store, current, old_options):
         options, value = choose_fit(fits_store, current)
         return (no_update if options == old_options else options), (no_update if value == current else value)
 
     @app.callback(Output(ids.DYN_SENTENCES, "children"), Output(ids.DYN_EQUILIBRIA, "children"),
                   Output(ids.G_COBWEB, "figure"), Output(ids.G_SWEEP, "figure"), Output(ids.DYN_DERIVED, "children"),
-                  Input(ids.FITS, "data"), Input(ids.DYN_FIT, "value"), Input(ids.CAPACITY, "data"),
-                  Input(ids.BOOT_DONE, "data"), Input(ids.DYN_LEVEL, "value"),
-                  State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"))
-    def _dynamics(fits_store, label, capacity, done, level, data, exclusions):
+                  Input(ids.DYN_GATE, "data"), Input(ids.DYN_FIT, "value"), Input(ids.BOOT_SUMMARY, "data"),
+                  Input(ids.DYN_LEVEL, "value"),
+                  State(ids.FITS, "data"), State(ids.CAPACITY, "data"), State(ids.DATA, "data"),
+                  State(ids.EXCLUSIONS, "data"), State(ids.BOOT_DONE, "data"))
+    def _dynamics(_gate, label, _summary, level, fits_store, capacity, data, exclusions, done):
         out = dynamics_view(fits_store, label, capacity, data, exclusions, done, level)
         if out is None:
             raise PreventUpdate
         return out
 
-    @app.callback(Output(ids.BOOT, "data"), Output(ids.BOOT_DONE, "data"), Output(ids.BOOT_TICK, "max_intervals"),
+    @app.callback(Output(ids.BOOT, "data"), Output(ids.BOOT_DONE, "data"), Output(ids.BOOT_SUMMARY, "data"),
+                  Output(ids.BOOT_TICK, "max_intervals"),
                   Input(ids.BOOT_RUN, "n_clicks"), Input(ids.BOOT_TICK, "n_intervals"), Input(ids.BOOT_CANCEL, "n_clicks"),
                   State(ids.BOOT_N, "value"), State(ids.BOOT_SEED, "value"), State(ids.DYN_FIT, "value"),
                   State(ids.FITS, "data"), State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"),
@@ -418,22 +445,26 @@ def register(app: Dash) -> None:
         trigger = ctx.triggered_id
         if trigger == ids.BOOT_RUN:
             new = start_run(run, cancel, resamples, seed, label, fits_store)
-            return new, no_update, (ticks or 0) + 1 if new["state"] == "running" else no_update
+            return new, no_update, no_update, (ticks or 0) + 1 if new["state"] == "running" else no_update
         boot_out, done_out, more = bootstrap_step(boot, done, cancel, fits_store, data, exclusions)
-        return boot_out, done_out, (ticks or 0) + 1 if more else (ticks or 0)
+        summary_out = no_update if done_out is no_update else summaries(done_out)
+        return boot_out, done_out, summary_out, (ticks or 0) + 1 if more else (ticks or 0)
 
     app.callback(Output(ids.BOOT_PROGRESS, "value"), Output(ids.BOOT_PROGRESS, "max"), Output(ids.BOOT_STATUS, "children"),
                  Output(ids.DYN_INTERVALS, "children"),
-                 Input(ids.BOOT, "data"), Input(ids.BOOT_DONE, "data"), Input(ids.FITS, "data"),
-                 Input(ids.DYN_FIT, "value"))(progress_view)
+                 Input(ids.BOOT, "data"), Input(ids.BOOT_SUMMARY, "data"), Input(ids.DYN_GATE, "data"),
+                 Input(ids.DYN_FIT, "value"), State(ids.FITS, "data"),
+                 )(lambda boot, summary, _gate, label, fits_store: progress_view(boot, summary, fits_store, label))
 
     @app.callback(Output(ids.FORECAST, "data"),
-                  Input(ids.FC_RUN, "n_clicks"), Input(ids.FC_CLEAR, "n_clicks"), Input(ids.FITS, "data"),
-                  Input(ids.DYN_FIT, "value"), Input(ids.CAPACITY, "data"), Input(ids.BOOT_DONE, "data"),
+                  Input(ids.FC_RUN, "n_clicks"), Input(ids.FC_CLEAR, "n_clicks"), Input(ids.DYN_GATE, "data"),
+                  Input(ids.DYN_FIT, "value"), Input(ids.BOOT_SUMMARY, "data"),
                   State(ids.FC_MODE, "value"), State(ids.FC_AMOUNT, "value"), State(ids.FC_BOUND, "value"),
-                  State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"), State(ids.FORECAST, "data"),
+                  State(ids.FITS, "data"), State(ids.CAPACITY, "data"), State(ids.DATA, "data"),
+                  State(ids.EXCLUSIONS, "data"), State(ids.BOOT_DONE, "data"), State(ids.FORECAST, "data"),
                   prevent_initial_call=True)
-    def _forecast(_run, _clear, fits_store, label, capacity, done, mode, amount, bound, data, exclusions, current):
+    def _forecast(_run, _clear, _gate, label, _summary, mode, amount, bound, fits_store, capacity, data, exclusions,
+                  done, current):
         trigger = ctx.triggered_id
         if trigger == ids.FC_CLEAR:
             return None
@@ -444,9 +475,10 @@ def register(app: Dash) -> None:
             raise PreventUpdate
         return compute_forecast(current["request"], label, fits_store, data, exclusions, done)
 
-    app.callback(Output(ids.FC_NOTES, "children"), Input(ids.FORECAST, "data"), Input(ids.FITS, "data"))(forecast_notes)
+    app.callback(Output(ids.FC_NOTES, "children"), Input(ids.FORECAST, "data"), Input(ids.DYN_GATE, "data"),
+                 State(ids.FITS, "data"))(lambda store, _gate, fits_store: forecast_notes(store, fits_store))
 
 
 __all__: Sequence[str] = ("fit_signature", "choose_fit", "committed", "rebuild", "dynamics_view", "start_run",
-                          "bootstrap_step", "progress_view", "boot_intervals", "forecast_request", "compute_forecast",
+                          "bootstrap_step", "summaries", "progress_view", "boot_intervals", "forecast_request", "compute_forecast",
                           "forecast_notes", "band_on_trajectory", "register")

@@ -50,6 +50,8 @@ def _graph(graph_id: str, height: int = 300) -> dcc.Graph:
 ROW = {"display": "flex", "flexWrap": "wrap", "alignItems": "flex-end", "gap": "8px 16px", "margin": "6px 0"}
 FIELD = {"display": "flex", "flexDirection": "column", "gap": "2px"}
 BLOCK = {"marginTop": "14px"}
+INPUT = {"width": "120px", "font": "inherit", "padding": "4px 6px", "border": "1px solid #c9d1d6", "borderRadius": "4px"}
+TABLE = {"width": "auto", "minWidth": "min(100%, 640px)"}
 CAUTION_STYLE = {"margin": "8px 0", "padding": "6px 10px", "fontSize": "12.5px", "borderLeft": "3px solid #D55E00",
                  "background": "#fbf1ea"}
 
@@ -64,6 +66,8 @@ def dynamics_section() -> html.Section:
     return html.Section([
         dcc.Store(id=ids.BOOT, storage_type="memory"),
         dcc.Store(id=ids.BOOT_DONE, storage_type="memory", data={}),
+        dcc.Store(id=ids.BOOT_SUMMARY, storage_type="memory", data={}),
+        dcc.Store(id=ids.DYN_GATE, storage_type="memory"),
         dcc.Store(id=ids.FORECAST, storage_type="memory"),
         dcc.Interval(id=ids.BOOT_TICK, interval=TICK_MS, n_intervals=0, max_intervals=0),
         html.Header([html.Span("7", className="panel-number"),
@@ -93,9 +97,9 @@ def dynamics_section() -> html.Section:
             html.H4("Bootstrap by residual resampling", className="dyn-subtitle"),
             html.Div([
                 _field("Resamples", dcc.Input(id=ids.BOOT_N, type="number", value=DEFAULT_RESAMPLES, min=20,
-                                              max=MAX_RESAMPLES, step=1, className="k-input"), ids.BOOT_N),
+                                              max=MAX_RESAMPLES, step=1, style=INPUT), ids.BOOT_N),
                 _field("Seed", dcc.Input(id=ids.BOOT_SEED, type="number", value=DEFAULT_SEED, min=0, step=1,
-                                         className="k-input"), ids.BOOT_SEED),
+                                         style=INPUT), ids.BOOT_SEED),
                 html.Button("Run bootstrap", id=ids.BOOT_RUN, n_clicks=0, className="button", type="button"),
                 html.Button("Cancel", id=ids.BOOT_CANCEL, n_clicks=0, className="button button-small", type="button"),
             ], className="dyn-controls", style=ROW),
@@ -107,7 +111,7 @@ def dynamics_section() -> html.Section:
         html.Div([
             html.H4("Derived times", className="dyn-subtitle"),
             _field("Time to reach the level", dcc.Input(id=ids.DYN_LEVEL, type="number", debounce=True, min=0,
-                                                        step="any", className="k-input",
+                                                        step="any", style=INPUT,
                                                         placeholder="state"), ids.DYN_LEVEL),
             html.Div(id=ids.DYN_DERIVED, className="table-box"),
         ], className="dyn-block", style=BLOCK),
@@ -118,9 +122,9 @@ def dynamics_section() -> html.Section:
                                                         {"label": "time span ahead", "value": "span"}],
                                value="steps", inline=True, inputClassName="check", labelClassName="check-label"),
                 _field("How far", dcc.Input(id=ids.FC_AMOUNT, type="number", value=10, min=0, step="any",
-                                            className="k-input"), ids.FC_AMOUNT),
+                                            style=INPUT), ids.FC_AMOUNT),
                 _field("Plausibility bound (optional)", dcc.Input(id=ids.FC_BOUND, type="number", min=0, step="any",
-                                                                  className="k-input", placeholder="state"),
+                                                                  style=INPUT, placeholder="state"),
                        ids.FC_BOUND),
                 html.Button("Draw forecast", id=ids.FC_RUN, n_clicks=0, className="button", type="button"),
                 html.Button("Remove", id=ids.FC_CLEAR, n_clicks=0, className="button button-small", type="button"),
@@ -144,7 +148,7 @@ def equilibria_table(equilibria: Sequence[Mapping[str, Any]], unit: str) -> html
         rows.append(html.Tr([html.Td(fmt(e.get("value")), className="num"),
                              html.Td(fmt(e.get("multiplier"), 3), className="num"),
                              html.Td(word, className="status-ok" if stable else "misfit-yes" if stable is False else "")]))
-    return html.Table([html.Thead(head), html.Tbody(rows)], className="comparison dyn-table")
+    return html.Table([html.Thead(head), html.Tbody(rows)], className="comparison dyn-table", style=TABLE)
 
 
 def intervals_table(parameters: Mapping[str, Mapping[str, Any]],
@@ -163,7 +167,7 @@ def intervals_table(parameters: Mapping[str, Mapping[str, Any]],
         rows.append(html.Tr([html.Th(name, scope="row"), html.Td(fmt(p.get("value")), className="num"),
                              html.Td(interval_text(p.get("ci95")), className="num"),
                              html.Td(interval_text(b) if boot else "not run", className="num")]))
-    return html.Table([html.Thead(head), html.Tbody(rows)], className="comparison dyn-table")
+    return html.Table([html.Thead(head), html.Tbody(rows)], className="comparison dyn-table", style=TABLE)
 
 
 def derived_table(derived: Mapping[str, Mapping[str, Any]], names: Sequence[tuple[str, str, str]],
@@ -190,4 +194,4 @@ def derived_table(derived: Mapping[str, Mapping[str, Any]], names: Sequence[tupl
         return html.P("No derived times for this fit.", className="muted")
     head = html.Tr([html.Th("quantity", scope="col"), html.Th("value", scope="col"), html.Th("unit", scope="col"),
                     html.Th("95% interval (bootstrap percentile)", scope="col")])
-    return html.Table([html.Thead(head), html.Tbody(rows)], className="comparison dyn-table")
+    return html.Table([html.Thead(head), html.Tbody(rows)], className="comparison dyn-table", style=TABLE)

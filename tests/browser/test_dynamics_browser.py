@@ -1,0 +1,105 @@
+"""Panel 7 in headless Chromium on the invented demo data: a small bootstrap runs to the end with its
+progress and intervals, a long one is cancelled midway, a forecast band appears on the trajectory.
+
+Screenshots go to tests/artifacts/ at 1280×800 and 1920×1080.
+"""
+
+from __future__ import annotations
+
+import os
+import time
+from typing import Any, Callable
+
+import pytest
+
+pytestmark = pytest.mark.browser
+
+WAIT = 25
+
+
+def _wait(driver: Any, condition: Callable[[Any], Any], timeout: float = WAIT) -> Any:
+    from selenium.webdriver.support.ui import WebDriverWait
+
+    return WebDriverWait(driver, timeout, poll_frequency=0.05).until(condition)
+
+
+def _text(driver: Any, element_id: str) -> str:
+    return driver.execute_script(f"var e = document.getElementById('{element_id}'); return e ? e.innerText : '';")
+
+
+def _progress(driver: Any) -> tuple[int, int]:
+    v = driver.execute_script("var e = document.getElementById('bootstrap-progress');"
+                              "return [e.getAttribute('value'), e.getAttribute('max')];")
+    return int(float(v[0] or 0)), int(float(v[1] or 1))
+
+
+def _set(driver: Any, element_id: str, value: str) -> None:
+    from selenium.webdriver.common.by import By
+    from selenium.webdriver.common.keys import Keys
+
+    box = driver.find_element(By.ID, element_id)
+    box.send_keys(Keys.CONTROL, "a")
+    box.send_keys(Keys.DELETE)
+    box.send_keys(value)
+
+
+def _click(driver: Any, element_id: str) -> None:
+    driver.execute_script(f"document.getElementById('{element_id}').click()")
+
+
+def _show(driver: Any, element_id: str, artifacts: str, name: str) -> None:
+    driver.execute_script(f"document.getElementById('{element_id}').scrollIntoView({{block: 'start'}})")
+    time.sleep(0.4)
+    driver.save_screenshot(os.path.join(artifacts, f"{name}.png"))
+
+
+def _open(driver: Any, url: str) -> None:
+    driver.get(url)
+    _wait(driver, lambda d: "implies" in _text(d, "dynamics-sentences")
+          and "stable" in _text(d, "dynamics-equilibria"))
+
+
+@pytest.mark.parametrize("size", [(1280, 800), (1920, 1080)])
+def test_bootstrap_cancel_and_forecast(server_url: str, make_driver: Callable[..., Any], artifacts: str,
+                                       size: tuple[int, int]) -> None:
+    width, height = size
+    driver = make_driver(width, height)
+    _open(driver, server_url)
+    assert "multiplier f'(p*)" in _text(driver, "dynamics-equilibria")
+    _show(driver, "slot-dynamics", artifacts, f"dynamics_{width}_panel")
+
+    # a long run, cancelled once it has started: the refits done so far stay and say so
+    _set(driver, "bootstrap-resamples", "10000")
+    _click(driver, "bootstrap-run")
+    _wait(driver, lambda d: 0 < _progress(d)[0] and "Running" in _text(d, "bootstrap-status"))
+    _click(driver, "bootstrap-cancel")
+    _wait(driver, lambda d: "Cancelled" in _text(d, "bootstrap-status"))
+    done, top = _progress(driver)
+    assert 0 < done < 10000 and top == 10000
+    assert "partial" in _text(driver, "dynamics-intervals")
+    _show(driver, "bootstrap-run", artifacts, f"dynamics_{width}_cancelled")
+
+    # a small run to the end: progress full, bootstrap intervals beside the t-based ones
+    _set(driver, "bootstrap-resamples", "400")
+    _set(driver, "bootstrap-seed", "7")
+    _click(driver, "bootstrap-run")
+    _wait(driver, lambda d: "Done: 400 of 400" in _text(d, "bootstrap-status"))
+    assert _progress(driver) == (400, 400)
+    table = _text(driver, "dynamics-intervals")
+    assert "t-based" in table and "bootstrap percentile" in table and "not run" not in table
+    _wait(driver, lambda d: "bootstrap [" in _text(d, "comparison-table"))
+    _wait(driver, lambda d: "run the bootstrap" not in _text(d, "dynamics-derived"))
+    _show(driver, "bootstrap-run", artifacts, f"dynamics_{width}_bootstrap")
+
+    # a forecast: the band on the trajectory, its warnings and the caution beside it
+    _set(driver, "forecast-amount", "12")
+    _click(driver, "forecast-run")
+    _wait(driver, lambda d: "prediction band" in _text(d, "forecast-notes"))
+    notes = _text(driver, "forecast-notes")
+    assert "past the last observation" in notes and "bootstrap refits" in notes
+    assert "validated methods" in _text(driver, "slot-dynamics")
+    names = driver.execute_script("return document.getElementById('panel-trajectory')"
+                                  ".querySelector('.js-plotly-plot').data.map(t => t.name);")
+    assert any(n and n.startswith("forecast:") for n in names)
+    _show(driver, "forecast-run", artifacts, f"dynamics_{width}_forecast")
+    _show(driver, "panel-trajectory", artifacts, f"dynamics_{width}_trajectory_band")
