@@ -108,7 +108,6 @@ def _linear_solution(form: DifferenceForm, problem: Problem, x: Array, dy: Array
 def _fit_linear(problem: Problem, form: DifferenceForm, x: Array, dy: Array, start: Mapping[str, float]) -> FitResult:
     free_shape = tuple(n for n in form.shape if n in problem.free)
     shape_fixed = {n: problem.fixed[n] for n in form.shape if n in problem.fixed}
-    notes: list[str] = []
     if free_shape:
         x0 = np.array([_shape_start(n, start, problem.observed, x) for n in free_shape])
         lower = np.array([problem.spec(n).lower for n in free_shape])
@@ -128,7 +127,8 @@ def _fit_linear(problem: Problem, form: DifferenceForm, x: Array, dy: Array, sta
                           f"the concentrated regression did not converge ({outcome.message})", form=form)
         shape = {**shape_fixed, **dict(zip(free_shape, outcome.x))}
         if not outcome.success:
-            notes.append(f"optimiser message: {outcome.message}")
+            return failed(problem.model, "increments", "additive",
+                          f"the concentrated regression did not converge: {outcome.message}", form=form)
     else:
         shape = shape_fixed
     coef, res, reg = _linear_solution(form, problem, x, dy, shape)
@@ -150,7 +150,7 @@ def _fit_linear(problem: Problem, form: DifferenceForm, x: Array, dy: Array, sta
         jac = np.column_stack([_column(form, problem, x, all_values, n) for n in problem.free])
     message = "closed-form least squares through the origin" if not free_shape else \
         f"least squares through the origin, {', '.join(free_shape)} by minimising the concentrated SSE"
-    return build_result(problem, xvec, message=message, jac=jac, notes=tuple(notes), r2_uncentered=r2u)
+    return build_result(problem, xvec, message=message, jac=jac, r2_uncentered=r2u)
 
 
 def _column(form: DifferenceForm, problem: Problem, x: Array, values: Mapping[str, float], name: str) -> Array:
@@ -194,5 +194,7 @@ def _fit_nonlinear(problem: Problem, form: DifferenceForm, x: Array, start: Mapp
     if best is None:
         return failed(problem.model, "increments", "additive",
                       "nonlinear least squares of p_{n+1} on p_n did not converge from any start", form=form)
-    notes = () if best.success else (f"optimiser message: {best.message}",)
-    return build_result(problem, best.x, message="nonlinear least squares of p_{n+1} on p_n", notes=notes)
+    if not best.success:
+        return failed(problem.model, "increments", "additive",
+                      f"nonlinear least squares of p_{{n+1}} on p_n did not converge: {best.message}", form=form)
+    return build_result(problem, best.x, message=f"nonlinear least squares of p_{{n+1}} on p_n ({best.message})")

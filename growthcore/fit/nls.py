@@ -20,6 +20,16 @@ VectorResiduals = Callable[[Array], Array]
 PENALTY_FACTOR = 1e6
 
 
+#: MINPACK's stopping codes in our words.
+STOP_REASONS = {
+    1: "converged: the sum of squares stopped falling",
+    2: "converged: the constants stopped changing",
+    3: "converged: the sum of squares and the constants stopped changing",
+    4: "converged: the residuals are orthogonal to every direction the constants can move",
+    5: "stopped at the evaluation limit before converging",
+}
+
+
 @dataclass(frozen=True)
 class NLSOutcome:
     x: Array
@@ -99,12 +109,12 @@ def solve(
     upper: Array,
     *,
     scale: float,
-    max_nfev: int = 2000,
+    max_nfev: int | None = None,
     tol: float = 1e-12,
 ) -> NLSOutcome:
     """Minimise ||fn(x)||² within bounds; never raises for numerical trouble.
 
-    The bounds are removed by a change of coordinates (log for one-sided bounds, a logistic
+    ``max_nfev`` defaults to 200·(k + 1) residual evaluations. The bounds are removed by a change of coordinates (log for one-sided bounds, a logistic
     squash for two-sided ones) so that MINPACK's Levenberg–Marquardt (``leastsq``) can be used:
     its per-iteration cost is a fraction of a bounded trust-region method's. Standard errors are
     computed afterwards in the original coordinates.
@@ -138,7 +148,7 @@ def solve(
     try:
         with np.errstate(all="ignore"):
             u, _, info, message, ier = leastsq(fun, u0, Dfun=jac, full_output=True, ftol=tol, xtol=tol,
-                                               gtol=0.0, maxfev=max_nfev)
+                                               gtol=0.0, maxfev=max_nfev or 200 * (x0.size + 1))
     except (ValueError, TypeError, np.linalg.LinAlgError, FloatingPointError) as exc:
         empty = np.zeros((0, x0.size))
         return NLSOutcome(x0, np.array([]), empty, math.inf, False, f"optimiser stopped: {exc}", 0, False)
@@ -149,6 +159,6 @@ def solve(
     with np.errstate(over="ignore"):
         sse = float(raw @ raw) if finite else math.inf
     finite = finite and math.isfinite(sse)  # finite residuals can still overflow when squared
-    text = " ".join(str(message).split())
+    text = STOP_REASONS.get(int(ier), " ".join(str(message).split()))
     return NLSOutcome(x, raw, np.zeros((0, x0.size)), sse, ier in (1, 2, 3, 4) and finite, text,
                       int(info.get("nfev", 0)), finite)

@@ -44,6 +44,7 @@ def capacity_profile(result: FitResult, refit_with_k: Callable[[float, dict[str,
                 start = {n: v for n, v in refit.values.items() if n != "K"}
             else:
                 sse_by_k[float(k)] = math.nan
+                break  # the form cannot follow the data with K pushed this far
             if sse_by_k[float(k)] > 4 * threshold:
                 break
     ks = np.array(sorted(sse_by_k))

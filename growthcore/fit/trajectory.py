@@ -89,8 +89,11 @@ def _finish(problem: Problem, best: NLSOutcome | None, form: ModelForm) -> FitRe
         return failed(problem.model, "trajectory", problem.error,
                       "no start converged to a finite path: the form cannot follow these data (overflow or non-finite values)",
                       form=form)
-    notes = () if best.success else (f"optimiser stopped before full convergence: {best.message}",)
-    return build_result(problem, best.x, message=f"nonlinear least squares on the path ({best.message})", notes=notes)
+    if not best.success:
+        return failed(problem.model, "trajectory", problem.error,
+                      f"did not converge from any start: {best.message} (best SSE {best.sse:.6g}); "
+                      "the form may not suit these data, or fix a constant", form=form)
+    return build_result(problem, best.x, message=f"nonlinear least squares on the path ({best.message})")
 
 
 def curve_problem(t: Array, p: Array, form: CurveForm, *, model: str, error: str,
