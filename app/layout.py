@@ -13,6 +13,7 @@ from app.components.exclusions import exclusions_section
 from app.components.export import export_section
 from app.components.model_panel import model_section
 from app.components.panels import panels_section
+from app.components.series import overview_section
 
 CAUTION = (
     "Forecasts and derived times from a fitted growth law are unreliable outside the observed range of "
@@ -58,6 +59,7 @@ def build_layout(source: Mapping[str, Any] | None, *, max_upload_bytes: int) -> 
                     html.Div(id=ids.COMPARISON_NOTES, className="hint"),
                     dcc.Loading(html.Div(id=ids.COMPARISON, className="table-box"), type="dot", delay_show=400),
                 ], className="panel panel-table", **{"aria-label": "Comparison"}),
+                overview_section(),
                 html.Div(dynamics_section(), id=ids.DYNAMICS_SLOT),
                 html.Div(export_section(), id=ids.EXPORT_SLOT),
             ], id="main", className="main"),

@@ -5,6 +5,7 @@ from __future__ import annotations
 from dash import dcc, html
 
 from app import ids
+from app.components.series import picker
 from growthcore.io.loader import TIME_UNITS
 
 
@@ -30,7 +31,7 @@ def data_section(max_upload_bytes: int) -> html.Section:
         html.Label("Series", htmlFor=ids.SERIES_PICK, className="field-label"),
         dcc.Dropdown(id=ids.SERIES_PICK, options=[], value=None, clearable=False, searchable=True,
                      className="dropdown"),
-        html.Div(id=ids.SERIES_SLOT),
+        html.Div(picker(), id=ids.SERIES_SLOT),
         html.Details([
             html.Summary("Columns and units (override what the import guessed)"),
             html.Datalist(id=ids.MAP_COLUMNS),

@@ -1,0 +1,272 @@
+"""Many series in headless Chromium: upload a plate, fit every well in chunks, the overview grid and
+the plate map, a click that opens a well in the panels, and stopping a run.
+
+The plates uploaded here are invented in the test (logistic rises with seeded noise, one flat well).
+Screenshots go to tests/artifacts/.
+"""
+
+from __future__ import annotations
+
+import os
+import time
+from typing import Any, Callable
+
+import numpy as np
+import pytest
+
+pytestmark = pytest.mark.browser
+
+WAIT = 30
+
+
+def _wait(driver: Any, condition: Callable[[Any], Any], timeout: float = WAIT, poll: float = 0.05) -> Any:
+    from selenium.webdriver.support.ui import WebDriverWait
+
+    return WebDriverWait(driver, timeout, poll_frequency=poll).until(condition)
+
+
+def _text(driver: Any, element_id: str) -> str:
+    return driver.execute_script(f"var e = document.getElementById('{element_id}'); return e ? e.innerText : '';")
+
+
+def _wait_idle(driver: Any) -> None:
+    time.sleep(0.3)
+    _wait(driver, lambda d: d.execute_script("return document.querySelectorAll('[data-dash-is-loading]').length") == 0)
+
+
+def _shot(driver: Any, artifacts: str, name: str) -> None:
+    driver.save_screenshot(os.path.join(artifacts, f"{name}.png"))
+
+
+def invented_plate(path: str, rows: int = 8, cols: int = 12, n: int = 97, flat: tuple[str, ...] = ("C5",)) -> str:
+    """An invented plate run: logistic rises above a background; capacity grows along each row; blank wells."""
+    rng = np.random.default_rng(11)
+    t = np.arange(n) * 0.25
+    wells = [f"{chr(65 + r)}{c + 1}" for r in range(rows) for c in range(cols)]
+    columns = []
+    for i, well in enumerate(wells):
+        k = 0.6 + 0.6 * (i % cols) / max(1, cols - 1)
+        r = 0.5 + 0.5 * (i // cols) / max(1, rows - 1)
+        p = 0.08 + k / (1 + (k / 0.02 - 1) * np.exp(-r * t)) + rng.normal(0, 0.004, n)
+        if well in flat:  # a blank well, read as zero after background subtraction: nothing to fit
+            p = np.zeros(n)
+        columns.append(p)
+    with open(path, "w", encoding="utf-8") as fh:
+        fh.write("Time (h)," + ",".join(wells) + "\n")
+        for j in range(n):
+            fh.write(f"{t[j]:g}," + ",".join(f"{c[j]:.4f}" for c in columns) + "\n")
+    return path
+
+
+def _upload(driver: Any, path: str) -> None:
+    from selenium.webdriver.common.by import By
+
+    driver.find_element(By.CSS_SELECTOR, "#data-upload input[type=file]").send_keys(path)
+
+
+def _open_file(driver: Any, url: str, path: str) -> None:
+    driver.get(url)
+    _wait(driver, lambda d: "algae_photobioreactor.csv" in _text(d, "data-summary"))
+    _wait_idle(driver)
+    _upload(driver, path)
+    name = os.path.basename(path)
+    _wait(driver, lambda d: name in _text(d, "data-summary"))
+    _wait(driver, lambda d: d.execute_script(
+        "var s = document.getElementById('series-overview'); return s && !s.hidden;"))
+    _wait_idle(driver)
+
+
+def _set_forms(driver: Any, wanted: set[str]) -> None:
+    from selenium.webdriver.common.by import By
+
+    for label in driver.find_elements(By.CSS_SELECTOR, "#model-forms label"):
+        box = label.find_element(By.TAG_NAME, "input")
+        title = label.text.split("\n")[0]
+        if box.is_selected() != (title in wanted):
+            label.click()
+    _wait_idle(driver)
+
+
+def _grid_panels(driver: Any) -> int:
+    return driver.execute_script(
+        "var gd = document.querySelector('#batch-grid .js-plotly-plot');"
+        "return gd && gd.data ? gd.data.filter(t => t.meta === 'points').length : 0;")
+
+
+def _scroll_to(driver: Any, element_id: str) -> None:
+    driver.execute_script(f"document.getElementById('{element_id}').scrollIntoView({{block: 'start'}})")
+    time.sleep(0.3)
+
+
+def _run_to_end(driver: Any, total: int) -> list[str]:
+    """Click 'Fit every series' and return the distinct status lines seen until the run ends."""
+    from selenium.webdriver.common.by import By
+
+    driver.find_element(By.ID, "batch-run").click()
+    seen: list[str] = []
+
+    def done(d: Any) -> bool:
+        line = _text(d, "batch-status")
+        if line and (not seen or seen[-1] != line):
+            seen.append(line)
+        return line.startswith(f"All {total} series fitted")
+
+    _wait(driver, done, timeout=60, poll=0.03)
+    _wait_idle(driver)
+    return seen
+
+
+def _click_at(driver: Any, x: float, y: float) -> None:
+    """Move the pointer to (x, y) of the viewport, rest there (plotly picks the point on hover), click."""
+    from selenium.webdriver.common.action_chains import ActionChains
+    from selenium.webdriver.common.actions.action_builder import ActionBuilder
+
+    actions = ActionBuilder(driver)
+    actions.pointer_action.move_to_location(int(x), int(y))
+    actions.perform()
+    ActionChains(driver).pause(0.4).click().perform()
+
+
+def _click_plate_well(driver: Any, row: int, col: int) -> None:
+    from selenium.webdriver.common.by import By
+
+    plot = driver.find_element(By.CSS_SELECTOR, "#batch-plate .js-plotly-plot")
+    driver.execute_script("arguments[0].scrollIntoView({block: 'center'})", plot)
+    x, y = driver.execute_script(
+        "var gd = arguments[0], L = gd._fullLayout, r = gd.getBoundingClientRect();"
+        "return [r.left + L.xaxis._offset + L.xaxis.l2p(arguments[2]), r.top + L.yaxis._offset + L.yaxis.l2p(arguments[1])];",
+        plot, row, col + 1)
+    _click_at(driver, x, y)
+
+
+def _click_grid_point(driver: Any, series: str) -> None:
+    """Click a middle observation of one series' panel in the overview grid."""
+    from selenium.webdriver.common.by import By
+
+    plot = driver.find_element(By.CSS_SELECTOR, "#batch-grid .js-plotly-plot")
+    script = ("var gd = arguments[0], L = gd._fullLayout, r = gd.getBoundingClientRect();"
+              "var tr = gd.data.find(t => t.meta === 'points' && t.name === arguments[1]);"
+              "var xa = L[tr.xaxis.replace('x', 'xaxis')], ya = L[tr.yaxis.replace('y', 'yaxis')];"
+              "var k = Math.floor(tr.x.length * 0.15);"
+              "return [r.left + xa._offset + xa.l2p(tr.x[k]), r.top + ya._offset + ya.l2p(tr.y[k])];")
+    _, y = driver.execute_script(script, plot, series)
+    driver.execute_script("window.scrollBy(0, arguments[0] - window.innerHeight / 2)", y)
+    time.sleep(0.3)
+    x, y = driver.execute_script(script, plot, series)
+    _click_at(driver, x, y)
+
+
+def _trajectory_name(driver: Any) -> str:
+    return driver.execute_script(
+        "var gd = document.querySelector('#panel-trajectory .js-plotly-plot');"
+        "return gd && gd.layout && gd.layout.title ? (gd.layout.title.text || '') : '';")
+
+
+def test_plate_overview_map_and_click(server_url: str, make_driver: Any, artifacts: str, tmp_path: Any) -> None:
+    from selenium.webdriver.common.by import By
+
+    plate = invented_plate(str(tmp_path / "invented_plate_96.csv"))
+    driver = make_driver(1280, 800)
+    _open_file(driver, server_url, plate)
+    assert "“A1”" in _text(driver, "data-summary")
+    _set_forms(driver, {"Discrete logistic", "Discrete Gompertz"})
+    # before any fit: the grid shows the data of all 96 wells, the plate map waits
+    _wait(driver, lambda d: _grid_panels(d) == 96)
+    assert "not fitted yet" in _text(driver, "batch-grid")
+
+    seen = _run_to_end(driver, 96)
+    partial = [s for s in seen if s.startswith("Fitting") and " 0 of 96" not in s and "96 of 96" not in s]
+    assert partial, f"no progress line between start and end: {seen}"
+    status = _text(driver, "batch-status")
+    assert "2 form(s)" in status
+    # the blank well cannot be fitted by either form: its panel and its cell are marked
+    grid_text = _text(driver, "batch-grid")
+    assert "C5 · fit failed" in grid_text, grid_text[:400]
+    assert "fit(s) of" in _text(driver, "batch-failed") and "C5" in _text(driver, "batch-failed")
+    n_lines = driver.execute_script(
+        "return document.querySelector('#batch-grid .js-plotly-plot').data.filter(t => t.meta === 'fit').length;")
+    assert n_lines == 95
+    heat = driver.execute_script(
+        "var gd = document.querySelector('#batch-plate .js-plotly-plot');"
+        "var h = gd.data[0]; return [h.type, h.z.length, h.z[0].length, gd.data.some(t => t.meta === 'failed')];")
+    assert heat == ["heatmap", 8, 12, True]
+    assert driver.find_element(By.ID, "batch-plate-quantity").text.strip().startswith("constant K")
+
+    _scroll_to(driver, "series-overview")
+    _shot(driver, artifacts, "series-01-grid-1280x800")
+    _scroll_to(driver, "batch-plate-box")
+    _shot(driver, artifacts, "series-02-plate-1280x800")
+
+    # a click on well D7 of the plate map opens it in the panels
+    _click_plate_well(driver, 3, 6)
+    _wait(driver, lambda d: "“D7”" in _text(d, "data-summary"))
+    _wait(driver, lambda d: "D7" in _text(d, "series-position"))
+    _wait_idle(driver)
+    _wait(driver, lambda d: "D7" in _trajectory_name(d) or "D7" in _text(d, "panel-trajectory"))
+    scroll = driver.execute_script("return document.getElementById('main').getBoundingClientRect().top")
+    assert abs(scroll) < 40, scroll
+    _shot(driver, artifacts, "series-03-opened-D7")
+
+    # a click on the panel of B3 in the grid does the same
+    _scroll_to(driver, "batch-grid")
+    _click_grid_point(driver, "B3")
+    _wait(driver, lambda d: "“B3”" in _text(d, "data-summary"))
+    _wait_idle(driver)
+    frame = driver.execute_script(
+        "var gd = document.querySelector('#batch-grid .js-plotly-plot'); return gd.layout.shapes[0].visible;")
+    assert frame is True
+    # next steps through the file order: B3 -> B4
+    driver.find_element(By.ID, "series-next").click()
+    _wait(driver, lambda d: "“B4”" in _text(d, "data-summary"))
+    _wait_idle(driver)
+    _shot(driver, artifacts, "series-04-opened-B4")
+
+    wide = make_driver(1920, 1080)
+    _open_file(wide, server_url, plate)
+    _set_forms(wide, {"Discrete logistic", "Discrete Gompertz"})
+    _run_to_end(wide, 96)
+    _scroll_to(wide, "series-overview")
+    _shot(wide, artifacts, "series-05-grid-1920x1080")
+    _scroll_to(wide, "batch-plate-box")
+    _shot(wide, artifacts, "series-06-plate-1920x1080")
+
+
+def test_stop_a_run_and_group_filter(server_url: str, make_driver: Any, artifacts: str, tmp_path: Any) -> None:
+    from selenium.webdriver.common.by import By
+    from selenium.webdriver.common.keys import Keys
+
+    plate = invented_plate(str(tmp_path / "invented_plate_384.csv"), rows=16, cols=24, n=60)
+    driver = make_driver(1280, 800)
+    _open_file(driver, server_url, plate)
+    _wait(driver, lambda d: _grid_panels(d) == 96)
+    assert "series 1–96 of 384" in _text(driver, "batch-grid")
+    driver.find_element(By.ID, "batch-run").click()
+    _wait(driver, lambda d: _text(d, "batch-status").startswith("Fitting") and " 0 of 384" not in _text(d, "batch-status"))
+    driver.find_element(By.ID, "batch-stop").click()
+    _wait(driver, lambda d: _text(d, "batch-status").startswith("Stopped by you"))
+    time.sleep(1.5)   # no further chunk may arrive
+    _wait_idle(driver)
+    line = _text(driver, "batch-status")
+    assert line.startswith("Stopped by you"), line
+    done = int(line.split("after ")[1].split(" of")[0])
+    assert 0 < done < 384
+    assert "not fitted" in _text(driver, "batch-grid")
+    _scroll_to(driver, "series-overview")
+    _shot(driver, artifacts, "series-07-stopped")
+
+    # group wells by plate row with a pattern; show row C only
+    driver.find_element(By.CSS_SELECTOR, "#data-series-slot details summary, #slot-series details summary").click()
+    driver.find_element(By.CSS_SELECTOR, "#series-group-mode input[value=pattern]").click()
+    box = driver.find_element(By.ID, "series-group-text")
+    box.send_keys(r"^([A-P])\d+$", Keys.ENTER)
+    _wait(driver, lambda d: "16 group(s) of 384 series" in _text(d, "series-group-message"))
+    driver.find_element(By.CSS_SELECTOR, "#series-group-filter").click()
+    option = [o for o in driver.find_elements(By.CSS_SELECTOR, "[role=option]") if o.text.startswith("C (24)")]
+    option[0].click()
+    _wait(driver, lambda d: _grid_panels(d) == 24)
+    driver.find_element(By.ID, "series-next").click()
+    _wait(driver, lambda d: "“C1”" in _text(d, "data-summary"))
+    _wait(driver, lambda d: "C1: 1 of 24 in group C" in _text(d, "series-position"))
+    _wait_idle(driver)
+    _scroll_to(driver, "series-overview")
+    _shot(driver, artifacts, "series-08-group-C")
