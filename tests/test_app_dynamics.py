@@ -117,7 +117,7 @@ def test_logistic_equilibria_multiplier_is_one_minus_r(demo: dict, k_demo: float
     assert stable["x"][0] == pytest.approx(k_demo, rel=1e-6)
     line = [s for s in sweep_fig["layout"]["shapes"] if s["type"] == "line"][0]
     assert line["x0"] == pytest.approx(r)
-    assert "Caution" in _text(derived)
+    assert "caution under Forecast" in _text(derived)
 
 
 def test_two_cycle_said_in_words() -> None:

@@ -20,7 +20,7 @@ from dash.exceptions import PreventUpdate
 
 from app import ids
 from app.callbacks.explore import labels_of
-from app.components.dynamics import (CAUTION_STYLE, DERIVED_ROWS, MAX_RESAMPLES, derived_table, equilibria_table, fmt,
+from app.components.dynamics import (DERIVED_ROWS, MAX_RESAMPLES, derived_table, equilibria_table, fmt,
                                      intervals_table)
 from app.figures.common import fit_styles, message_figure, rate_unit
 from app.figures.dynamics import cobweb_figure, sweep_figure, with_forecast_band
@@ -31,7 +31,7 @@ from growthcore.errors import GrowthcoreInputError
 from growthcore.explore import fit_forms
 from growthcore.fit import FitResult
 from growthcore.models.base import DifferenceForm
-from growthcore.uncertainty import FORECAST_CAUTION, BootstrapResult, bootstrap, derived_intervals, forecast
+from growthcore.uncertainty import BootstrapResult, bootstrap, derived_intervals, forecast
 
 #: First chunk of a run; later chunks are sized so that each answer takes about TARGET_SECONDS.
 FIRST_CHUNK = 50
@@ -165,7 +165,8 @@ def dynamics_view(fits_store: Mapping[str, Any] | None, label: str | None, capac
     lv = level if level is not None and level > 0 else None
     table = derived_table(derived, _derived_rows(derived, lv), _units(data), usable is not None)
     return sentences, equilibria_table(equilibria, unit), cobweb_fig, sweep_fig, [
-        table, html.P([html.Strong("Caution. "), FORECAST_CAUTION], className="dyn-caution", style=CAUTION_STYLE)]
+        table, html.P("The caution under Forecast applies to these times as well: they are read from the fitted law.",
+                      className="hint")]
 
 
 # ----------------------------------------------------------------------------- bootstrap in chunks

@@ -50,7 +50,7 @@ def _graph(graph_id: str, height: int = 300) -> dcc.Graph:
 ROW = {"display": "flex", "flexWrap": "wrap", "alignItems": "flex-end", "gap": "8px 16px", "margin": "6px 0"}
 FIELD = {"display": "flex", "flexDirection": "column", "gap": "2px"}
 BLOCK = {"marginTop": "14px"}
-INPUT = {"width": "120px", "font": "inherit", "padding": "4px 6px", "border": "1px solid #c9d1d6", "borderRadius": "4px"}
+INPUT = {"width": "160px", "font": "inherit", "padding": "4px 6px", "border": "1px solid #c9d1d6", "borderRadius": "4px"}
 TABLE = {"width": "auto", "minWidth": "min(100%, 640px)"}
 CAUTION_STYLE = {"margin": "8px 0", "padding": "6px 10px", "fontSize": "12.5px", "borderLeft": "3px solid #D55E00",
                  "background": "#fbf1ea"}
@@ -161,7 +161,7 @@ def intervals_table(parameters: Mapping[str, Mapping[str, Any]],
     for name, p in parameters.items():
         if p.get("fixed"):
             rows.append(html.Tr([html.Th(name, scope="row"), html.Td(fmt(p.get("value")), className="num"),
-                                 html.Td("held", colSpan=2, className="muted")]))
+                                 html.Td("held at the estimate: its uncertainty is in neither interval", colSpan=2, className="muted")]))
             continue
         b = (boot or {}).get(name)
         rows.append(html.Tr([html.Th(name, scope="row"), html.Td(fmt(p.get("value")), className="num"),
