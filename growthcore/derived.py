@@ -80,7 +80,13 @@ def derived_quantities(result: FitResult) -> dict[str, Any]:
     """Plain numbers that the fitted constants imply; each is None where it does not exist."""
     if not result.success or result.form is None:
         return {}
+    with np.errstate(all="ignore"):
+        return _derived(result)
+
+
+def _derived(result: FitResult) -> dict[str, Any]:
     form = result.form
+    assert form is not None
     values = result.values
     lo, hi = state_range(form, values, result.observed)
     out: dict[str, Any] = {}

@@ -49,6 +49,10 @@ def regression_through_origin(x: Array, y: Array) -> OriginRegression:
         x = x[:, None]
     y = np.asarray(y, dtype=float)
     n, k = x.shape
+    if not (np.all(np.isfinite(x)) and np.all(np.isfinite(y))):
+        nan = np.full(k, math.nan)
+        return OriginRegression(nan, nan, np.full((k, k), math.nan), np.full(n, math.nan), math.nan, n - k,
+                                math.nan, math.nan, 0)
     coef, _, rank, _ = np.linalg.lstsq(x, y, rcond=None)
     residuals = y - x @ coef
     sse = float(residuals @ residuals)

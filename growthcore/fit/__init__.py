@@ -5,6 +5,8 @@ from __future__ import annotations
 from dataclasses import replace
 from typing import Mapping, Sequence
 
+import numpy as np
+
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit.increments import fit_increments
@@ -87,11 +89,12 @@ def fit(
     if len(series.used.nonzero()[0]) < 3:
         return failed(model_id, method, error, f"only {int(series.used.sum())} usable points: a fit needs at least 3", form=form)
     try:
-        result = run(fixed_all, start)
-        if profile and result.success and "K" in result.values and "K" not in fixed_all:
-            prof = capacity_profile(result, lambda k, s: run({**fixed_all, "K": k}, s))
-            if prof is not None:
-                result = replace(result, profile=prof)
+        with np.errstate(all="ignore"):  # numerical trouble is reported through the status, not warnings
+            result = run(fixed_all, start)
+            if profile and result.success and "K" in result.values and "K" not in fixed_all:
+                prof = capacity_profile(result, lambda k, s: run({**fixed_all, "K": k}, s))
+                if prof is not None:
+                    result = replace(result, profile=prof)
     except (FloatingPointError, OverflowError, ZeroDivisionError, ValueError, ArithmeticError) as exc:
         if isinstance(exc, GrowthcoreInputError):
             raise
