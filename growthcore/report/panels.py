@@ -331,8 +331,9 @@ def summary_sheet(record: Mapping[str, Any], *, landscape: bool = False) -> Figu
         d_dom, r_dom = ([0.0, 0.55], [0.42, 0.9]), ([0.0, 0.55], [0.0, 0.3])
         c_dom, p_dom = ([0.6, 1.0], [0.5, 0.9]), ([0.6, 1.0], [0.0, 0.45])
     else:
-        d_dom, r_dom = ([0.0, 1.0], [0.64, 0.9]), ([0.0, 1.0], [0.42, 0.56])
-        c_dom, p_dom = ([0.0, 1.0], [0.2, 0.36]), ([0.0, 1.0], [0.0, 0.18])
+        # Gaps leave room for each plot's axis title above the next part's heading.
+        d_dom, r_dom = ([0.0, 1.0], [0.67, 0.97]), ([0.0, 1.0], [0.44, 0.6])
+        c_dom, p_dom = ([0.0, 1.0], [0.24, 0.37]), ([0.0, 1.0], [0.0, 0.2])
     layout = _layout(sheet_heading(record), "", "")
     layout["title"].update(y=0.985, yanchor="top", yref="container", x=0.015, xref="container", font={"size": 15},
                            pad={"t": 4})
