@@ -377,13 +377,13 @@ def grid_figure(batch: Mapping[str, Any] | None, labels: Sequence[str], merged: 
                                          "yref": "paper", "x": 0.5, "y": 0.5}]
     scales = shared_scales(panels)
     if scales is not None:
-        (t0, t1), (p0, p1) = scales
+        (t0, t1), (p0, p1), (t_lo, t_hi), (p_lo, p_hi) = scales
         for i in range(len(page_ids)):
             suffix = "" if i == 0 else str(i + 1)
             fig["layout"][f"xaxis{suffix}"]["range"] = [t0, t1]
             fig["layout"][f"yaxis{suffix}"]["range"] = [p0, p1]
         t_unit = f" {batch['time_unit']}" if batch.get("time_unit") else ""
-        head += f" · every panel on the same scales: t {t0:.3g}–{t1:.3g}{t_unit}, value {p0:.3g}–{p1:.3g}"
+        head += f" · same scales in every panel: t {t_lo:.4g} to {t_hi:.4g}{t_unit}, value {p_lo:.4g} to {p_hi:.4g}"
         fig["layout"]["title"]["text"] = head
     boxes = {sid: _box(fig, i) for i, sid in enumerate(page_ids)}
     fig["layout"]["shapes"] = [highlight_shape(boxes.get(current or "")), *fig["layout"].get("shapes", [])]
@@ -393,8 +393,11 @@ def grid_figure(batch: Mapping[str, Any] | None, labels: Sequence[str], merged: 
     return fig, {"key": batch["key"], "boxes": boxes}
 
 
-def shared_scales(panels: Sequence[Mapping[str, Any]]) -> tuple[tuple[float, float], tuple[float, float]] | None:
-    """One time range and one value range for every panel, so that panels compare by eye."""
+def shared_scales(panels: Sequence[Mapping[str, Any]]) -> tuple[tuple[float, float], ...] | None:
+    """One time range and one value range for every panel, so that panels compare by eye.
+
+    Returns the padded axis ranges (time, value) and the data ranges they enclose (time, value).
+    """
     ts = [v for p in panels for v in p["t"] if v is not None and math.isfinite(v)]
     ps = [v for p in panels for v in [*p["p"], *p.get("fit_p", [])] if v is not None and math.isfinite(v)]
     if not ts or not ps:
@@ -403,7 +406,7 @@ def shared_scales(panels: Sequence[Mapping[str, Any]]) -> tuple[tuple[float, flo
     p0, p1 = min(ps), max(ps)
     pad_t = 0.03 * (t1 - t0 or 1.0)
     pad_p = 0.06 * (p1 - p0 or abs(p1) or 1.0)
-    return (t0 - pad_t, t1 + pad_t), (p0 - pad_p, p1 + pad_p)
+    return (t0 - pad_t, t1 + pad_t), (p0 - pad_p, p1 + pad_p), (t0, t1), (p0, p1)
 
 
 def redraw_too_soon(view: Mapping[str, Any] | None, job: Mapping[str, Any] | None, *,
@@ -630,7 +633,8 @@ def register(app: Dash) -> None:
     )(progress_view)
 
     @app.callback(
-        Output(ids.GRID, "figure"), Output(ids.GRID_VIEW, "data"), Output(ids.BATCH_FORM, "options"),
+        Output(ids.GRID, "figure"), Output(ids.GRID, "style"), Output(ids.GRID_VIEW, "data"),
+        Output(ids.BATCH_FORM, "options"),
         Output(ids.BATCH_FORM, "value"), Output(ids.GRID_PAGE, "options"), Output(ids.GRID_PAGE, "value"),
         Output(ids.GRID_PAGE, "disabled"), Output(ids.BATCH_FAILED, "children"),
         Input(ids.BATCH_SERIES, "data"), Input(ids.BATCH_FITS, "data"), Input(ids.BATCH_FORM, "value"),
@@ -654,10 +658,12 @@ def register(app: Dash) -> None:
             raise PreventUpdate
         fig, view = grid_figure(batch, labels, merged, label, shown, page, (data or {}).get("name"), running=running)
         view.update(run=(job or {}).get("run"), drawn=time.time())
-        return fig, view, options, label, page_options, page, not many, failed_list(merged, label, shown)
+        style = {"height": f"{fig['layout'].get('height', 220)}px"}
+        return fig, style, view, options, label, page_options, page, not many, failed_list(merged, label, shown)
 
     @app.callback(
-        Output(ids.PLATE, "figure"), Output(ids.PLATE_QUANTITY, "options"), Output(ids.PLATE_QUANTITY, "value"),
+        Output(ids.PLATE, "figure"), Output(ids.PLATE, "style"), Output(ids.PLATE_QUANTITY, "options"),
+        Output(ids.PLATE_QUANTITY, "value"),
         Input(ids.BATCH_SERIES, "data"), Input(ids.BATCH_FITS, "data"), Input(ids.BATCH_FORM, "value"),
         Input(ids.PLATE_QUANTITY, "value"), Input(ids.BATCH_GROUPS, "data"), Input(ids.GROUP_FILTER, "value"),
         State(ids.BATCH_JOB, "data"), State(ids.DATA, "data"),
@@ -669,7 +675,8 @@ def register(app: Dash) -> None:
         _, label = form_choice(labels, label)
         options, quantity = quantity_options(merged, label, quantity)
         shown = members(batch, groups, group)
-        return plate_figure(batch, merged, label, quantity, shown, group, (data or {}).get("name")), options, quantity
+        fig = plate_figure(batch, merged, label, quantity, shown, group, (data or {}).get("name"))
+        return fig, {"height": f"{fig['layout']['height']}px"}, options, quantity
 
     @app.callback(
         Output(ids.SERIES_PICK, "value", allow_duplicate=True),

@@ -87,7 +87,7 @@ def overview_section() -> html.Section:
                                    clearable=False, searchable=False, className="dropdown")],
                      className="batch-field batch-field-small"),
         ], className="batch-row"),
-        dcc.Graph(id=ids.GRID, config={**GRAPH_CONFIG, "responsive": True}, className="batch-grid",
+        dcc.Graph(id=ids.GRID, config={**GRAPH_CONFIG, "displayModeBar": False}, className="batch-grid",
                   figure={"data": [], "layout": {}}),
         html.Div(id=ids.BATCH_FAILED, className="batch-failed"),
         html.Div([

@@ -162,27 +162,38 @@ def _trajectory_name(driver: Any) -> str:
         "return gd && gd.layout && gd.layout.title ? (gd.layout.title.text || '') : '';")
 
 
-def test_plate_overview_map_and_click(server_url: str, make_driver: Any, artifacts: str, tmp_path: Any) -> None:
+def _viewport(driver: Any, width: int, height: int) -> None:
+    driver.set_window_size(width, height)
+    driver.execute_cdp_cmd("Emulation.setDeviceMetricsOverride",
+                           {"width": width, "height": height, "deviceScaleFactor": 1, "mobile": False})
+    time.sleep(0.8)   # plotly redraws the responsive figures for the new width
+    _wait_idle(driver)
+
+
+def test_plate_overview_map_click_stop_and_groups(server_url: str, make_driver: Any, artifacts: str,
+                                                  tmp_path: Any) -> None:
     from selenium.webdriver.common.by import By
+    from selenium.webdriver.common.keys import Keys
 
     plate = invented_plate(str(tmp_path / "invented_plate_96.csv"))
     driver = make_driver(1280, 800)
     _open_file(driver, server_url, plate)
     assert "“A1”" in _text(driver, "data-summary")
     _set_forms(driver, {"Discrete logistic", "Discrete Gompertz"})
-    # before any fit: the grid shows the data of all 96 wells, the plate map waits
+    # before any fit: the grid shows the data of all 96 wells
     _wait(driver, lambda d: _grid_panels(d) == 96)
     assert "not fitted yet" in _text(driver, "batch-grid")
 
     seen = _run_to_end(driver, 96)
     partial = [s for s in seen if s.startswith("Fitting") and " 0 of 96" not in s and "96 of 96" not in s]
     assert partial, f"no progress line between start and end: {seen}"
-    status = _text(driver, "batch-status")
-    assert "2 form(s)" in status
-    # the blank well cannot be fitted by either form: its panel and its cell are marked
+    assert "2 form(s)" in _text(driver, "batch-status")
+    # the blank well cannot be fitted by either form: its panel and its cell are marked, with the reason
     grid_text = _text(driver, "batch-grid")
     assert "C5 · fit failed" in grid_text, grid_text[:400]
-    assert "fit(s) of" in _text(driver, "batch-failed") and "C5" in _text(driver, "batch-failed")
+    assert "same scales in every panel" in grid_text
+    failed = _text(driver, "batch-failed")
+    assert "1 fit(s) of logistic (increments) failed" in failed and "C5" in failed
     n_lines = driver.execute_script(
         "return document.querySelector('#batch-grid .js-plotly-plot').data.filter(t => t.meta === 'fit').length;")
     assert n_lines == 95
@@ -191,74 +202,66 @@ def test_plate_overview_map_and_click(server_url: str, make_driver: Any, artifac
         "var h = gd.data[0]; return [h.type, h.z.length, h.z[0].length, gd.data.some(t => t.meta === 'failed')];")
     assert heat == ["heatmap", 8, 12, True]
     assert driver.find_element(By.ID, "batch-plate-quantity").text.strip().startswith("constant K")
+    for width, height in ((1280, 800), (1920, 1080)):
+        _viewport(driver, width, height)
+        _scroll_to(driver, "series-overview")
+        _shot(driver, artifacts, f"series-01-grid-{width}x{height}")
+        _scroll_to(driver, "batch-plate-box")
+        _shot(driver, artifacts, f"series-02-plate-{width}x{height}")
+    _viewport(driver, 1280, 800)
 
-    _scroll_to(driver, "series-overview")
-    _shot(driver, artifacts, "series-01-grid-1280x800")
-    _scroll_to(driver, "batch-plate-box")
-    _shot(driver, artifacts, "series-02-plate-1280x800")
-
-    # a click on well D7 of the plate map opens it in the panels
+    # a click on well D7 of the plate map opens it in the panels, which scroll into view
     _click_plate_well(driver, 3, 6)
     _wait(driver, lambda d: "“D7”" in _text(d, "data-summary"))
-    _wait(driver, lambda d: "D7" in _text(d, "series-position"))
+    _wait(driver, lambda d: "D7: 43 of 96 in the file" in _text(d, "series-position"))
     _wait_idle(driver)
-    _wait(driver, lambda d: "D7" in _trajectory_name(d) or "D7" in _text(d, "panel-trajectory"))
-    scroll = driver.execute_script("return document.getElementById('main').getBoundingClientRect().top")
-    assert abs(scroll) < 40, scroll
+    _wait(driver, lambda d: "D7" in _text(d, "panel-trajectory"))
+    top = driver.execute_script("return document.getElementById('main').getBoundingClientRect().top")
+    assert abs(top) < 40, top
     _shot(driver, artifacts, "series-03-opened-D7")
 
-    # a click on the panel of B3 in the grid does the same
-    _scroll_to(driver, "batch-grid")
+    # a click on the panel of B3 in the grid does the same, and the grid frames B3
     _click_grid_point(driver, "B3")
     _wait(driver, lambda d: "“B3”" in _text(d, "data-summary"))
     _wait_idle(driver)
     frame = driver.execute_script(
-        "var gd = document.querySelector('#batch-grid .js-plotly-plot'); return gd.layout.shapes[0].visible;")
-    assert frame is True
+        "var gd = document.querySelector('#batch-grid .js-plotly-plot'); var s = gd.layout.shapes[0];"
+        "var L = gd.layout, i = gd.data.findIndex(t => t.meta === 'points' && t.name === 'B3');"
+        "var ax = gd.data[i].xaxis.replace('x', 'xaxis'); return [s.visible, s.x0 < L[ax].domain[0], s.x1 > L[ax].domain[1]];")
+    assert frame == [True, True, True]
     # next steps through the file order: B3 -> B4
     driver.find_element(By.ID, "series-next").click()
     _wait(driver, lambda d: "“B4”" in _text(d, "data-summary"))
     _wait_idle(driver)
-    _shot(driver, artifacts, "series-04-opened-B4")
 
-    wide = make_driver(1920, 1080)
-    _open_file(wide, server_url, plate)
-    _set_forms(wide, {"Discrete logistic", "Discrete Gompertz"})
-    _run_to_end(wide, 96)
-    _scroll_to(wide, "series-overview")
-    _shot(wide, artifacts, "series-05-grid-1920x1080")
-    _scroll_to(wide, "batch-plate-box")
-    _shot(wide, artifacts, "series-06-plate-1920x1080")
-
-
-def test_stop_a_run_and_group_filter(server_url: str, make_driver: Any, artifacts: str, tmp_path: Any) -> None:
-    from selenium.webdriver.common.by import By
-    from selenium.webdriver.common.keys import Keys
-
-    plate = invented_plate(str(tmp_path / "invented_plate_384.csv"), rows=16, cols=24, n=60)
-    driver = make_driver(1280, 800)
-    _open_file(driver, server_url, plate)
-    _wait(driver, lambda d: _grid_panels(d) == 96)
-    assert "series 1–96 of 384" in _text(driver, "batch-grid")
+    # a 384-well plate: pages of 96; a run stopped part way keeps what it fitted
+    big = invented_plate(str(tmp_path / "invented_plate_384.csv"), rows=16, cols=24, n=40)
+    _upload(driver, big)
+    _wait(driver, lambda d: "invented_plate_384.csv" in _text(d, "data-summary"))
+    _wait(driver, lambda d: "series 1–96 of 384" in _text(d, "batch-grid"))
+    _wait_idle(driver)
+    assert _grid_panels(driver) == 96
     driver.find_element(By.ID, "batch-run").click()
     _wait(driver, lambda d: _text(d, "batch-status").startswith("Fitting") and " 0 of 384" not in _text(d, "batch-status"))
     driver.find_element(By.ID, "batch-stop").click()
     _wait(driver, lambda d: _text(d, "batch-status").startswith("Stopped by you"))
-    time.sleep(1.5)   # no further chunk may arrive
+    time.sleep(1.0)   # no further chunk may arrive
     _wait_idle(driver)
     line = _text(driver, "batch-status")
     assert line.startswith("Stopped by you"), line
     done = int(line.split("after ")[1].split(" of")[0])
     assert 0 < done < 384
     assert "not fitted" in _text(driver, "batch-grid")
+    heat = driver.execute_script("var h = document.querySelector('#batch-plate .js-plotly-plot').data[0];"
+                                 "return [h.z.length, h.z[0].length, h.text[15][23]];")
+    assert heat == [16, 24, "not fitted yet"]
     _scroll_to(driver, "series-overview")
-    _shot(driver, artifacts, "series-07-stopped")
+    _shot(driver, artifacts, "series-04-stopped-384")
 
-    # group wells by plate row with a pattern; show row C only
-    driver.find_element(By.CSS_SELECTOR, "#data-series-slot details summary, #slot-series details summary").click()
+    # group wells by plate row with a pattern; show row C only and step into it
+    driver.find_element(By.CSS_SELECTOR, "#slot-series details summary").click()
     driver.find_element(By.CSS_SELECTOR, "#series-group-mode input[value=pattern]").click()
-    box = driver.find_element(By.ID, "series-group-text")
-    box.send_keys(r"^([A-P])\d+$", Keys.ENTER)
+    driver.find_element(By.ID, "series-group-text").send_keys(r"^([A-P])\d+$", Keys.ENTER)
     _wait(driver, lambda d: "16 group(s) of 384 series" in _text(d, "series-group-message"))
     driver.find_element(By.CSS_SELECTOR, "#series-group-filter").click()
     option = [o for o in driver.find_elements(By.CSS_SELECTOR, "[role=option]") if o.text.startswith("C (24)")]
@@ -269,4 +272,4 @@ def test_stop_a_run_and_group_filter(server_url: str, make_driver: Any, artifact
     _wait(driver, lambda d: "C1: 1 of 24 in group C" in _text(d, "series-position"))
     _wait_idle(driver)
     _scroll_to(driver, "series-overview")
-    _shot(driver, artifacts, "series-08-group-C")
+    _shot(driver, artifacts, "series-05-group-C")
