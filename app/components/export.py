@@ -30,7 +30,7 @@ def export_section() -> html.Section:
         dcc.Download(id=ids.DOWNLOAD_RECORD),
         dcc.Download(id=ids.DOWNLOAD_CSV),
         dcc.Download(id=ids.DOWNLOAD_HTML),
-        html.Header([html.Span("7", className="panel-number"),
+        html.Header([html.Span("8", className="panel-number"),
                      html.H3("Export and reopen", className="panel-title")], className="panel-head"),
         html.P("Save the chosen fits as a fit record that reopens here or in `growthcore fit --from-record`, "
                "with figures, the residual table and a report page. The browser may ask once to allow "
