@@ -6,7 +6,6 @@ import base64
 import json
 import os
 
-import numpy as np
 import pytest
 from dash import no_update
 

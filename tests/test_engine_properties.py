@@ -20,6 +20,7 @@ from hypothesis import strategies as st
 
 from growthcore.data import Series
 from growthcore.fit import fit
+from growthcore.fit.increments import consecutive_pairs
 from growthcore.fit.simulate import iterate
 from growthcore.models import MODEL_IDS, get_form
 
@@ -77,7 +78,22 @@ def _noisy(path: np.ndarray, seed: int) -> np.ndarray:
     return path * np.exp(np.random.default_rng(seed).normal(0.0, NOISE, path.size))
 
 
-def _assert_recovered(result, truth: dict[str, float], model: str) -> None:
+def _truth_sse(result, truth: dict[str, float], series: Series) -> float:
+    """SSE of the true constants on the fit's own residual scale (one step ahead, or the whole path)."""
+    form = get_form(result.model)
+    if result.method == "increments":
+        _, p_n, p_next = consecutive_pairs(series)
+        residual = p_next - form.next_state(p_n, truth)
+    else:
+        n = int(round((series.t[-1] - series.t[0]) / (series.t[1] - series.t[0])))
+        residual = series.p - iterate(form, truth["p0"], truth, n)
+    return float(residual @ residual)
+
+
+def _assert_recovered(result, truth: dict[str, float], model: str, series: Series | None = None) -> None:
+    """Each constant within TOLERANCE of the truth; or, where the data pin a constant only weakly,
+    within 4 standard errors with the fit at least as good (in SSE) as the true constants, which shows
+    the engine found the least-squares optimum rather than that the data are informative."""
     assert result.status == "converged", (model, result.method, result.message)
     for name, value in truth.items():
         if name not in result.values:
@@ -86,8 +102,10 @@ def _assert_recovered(result, truth: dict[str, float], model: str) -> None:
         if abs(got - value) <= TOLERANCE * abs(value) + 1e-9:
             continue
         se = result.parameter(name).se
-        weak = se is not None and se < 0.25 * abs(got) and abs(got - value) <= 4.0 * se
-        assert weak, (model, result.method, name, got, value, se)
+        close = se is not None and abs(got - value) <= 4.0 * se
+        weak = close and se < 0.25 * abs(got)
+        optimum = close and series is not None and result.metrics.sse <= _truth_sse(result, truth, series) * (1 + 1e-9)
+        assert weak or optimum, (model, result.method, name, got, value, se)
 
 
 @pytest.mark.parametrize("model", list(DIFFERENCE_CASES))
@@ -104,7 +122,7 @@ def test_difference_forms_recover_their_constants(model: str) -> None:
         for method in ("increments", "trajectory"):
             result = fit(series, model, method=method, profile=False)
             expect = truth if method == "trajectory" else {k: x for k, x in truth.items() if k != "p0"}
-            _assert_recovered(result, expect, model)
+            _assert_recovered(result, expect, model, series)
 
     check()
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any, Mapping
 
-from dash import Dash, Input, Output, State, ctx, html
+from dash import Dash, Input, Output, ctx, html
 
 from app import ids
 from app.components.comparison import fmt

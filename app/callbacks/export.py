@@ -20,14 +20,13 @@ from dash import ClientsideFunction, Dash, Input, Output, State, html, no_update
 
 from app import ids
 from app.callbacks.data import summary
+from app.callbacks.fits import held_capacity, session_fits
 from app.callbacks.settings import expand_forms
-from app.state import data_to_store, empty_exclusions, series_from_store
+from app.state import data_to_store, empty_exclusions
 from growthcore.cli import fit_uncertainty
 from growthcore.compare import compare, comparison_notes
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
-from growthcore.explore import fit_forms
-from growthcore.fit import FitResult
 from growthcore.io.report import ImportResult
 from growthcore.record import DataSource, build_record, seal
 from growthcore.reopen import RecordError, parse_record, reopen
@@ -46,34 +45,6 @@ MAX_RECORD_UPLOAD = 90_000_000
 
 # --------------------------------------------------------------------------------------------
 # The record of a session
-
-
-def held_capacity(settings: Mapping[str, Any], capacity: float | None) -> float | None:
-    """The K every fit holds (None when K is fitted), as the fits callback uses it."""
-    held = settings.get("k_mode", "held") == "held"
-    return capacity if held and capacity is not None and capacity > 0 else None
-
-
-def session_fits(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, settings: Mapping[str, Any],
-                 capacity: float | None, forms: Sequence[str] | None = None) -> tuple[Series, list[FitResult], list[str]]:
-    """The series and the fits of the chosen ``forms`` (all when None), as the panels show them.
-
-    Returns the fits and a note per form the engine refused (as the comparison notes show it).
-    """
-    series = series_from_store(data, exclusions)
-    k = held_capacity(settings, capacity)
-    held = settings.get("k_mode", "held") == "held"
-    chosen = [m for m in settings.get("models", []) if forms is None or m in forms]
-    fits: list[FitResult] = []
-    notes: list[str] = []
-    for model in chosen:
-        try:
-            fits.extend(fit_forms(series, [model], method=settings.get("method", "increments"),
-                                  error=settings.get("error", "additive"), capacity=k,
-                                  terms=settings.get("terms", []), profile=not held))
-        except GrowthcoreInputError as exc:
-            notes.append(f"{model}: {str(exc).splitlines()[0]}")
-    return series, fits, notes
 
 
 def record_settings(settings: Mapping[str, Any], capacity: float | None, models: Sequence[str]) -> dict[str, Any]:

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Any, Mapping
+from typing import Any, Mapping, Sequence
 
 from dash import Dash, Input, Output, State, ctx
 from dash.exceptions import PreventUpdate
@@ -12,7 +12,9 @@ from app.callbacks.capacity import rounded
 from app.state import fit_to_store, rows_to_store, series_from_store
 from growthcore.compare import compare, comparison_notes
 from growthcore.errors import GrowthcoreInputError
+from growthcore.data import Series
 from growthcore.explore import fit_forms
+from growthcore.fit import FitResult
 
 
 def needs_refit_on_drag(settings: Mapping[str, Any]) -> bool:
@@ -20,23 +22,41 @@ def needs_refit_on_drag(settings: Mapping[str, Any]) -> bool:
     return settings.get("k_mode") == "held" and settings.get("method") == "increments"
 
 
-def compute_fits(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
-                 settings: Mapping[str, Any] | None, capacity: float | None) -> dict[str, Any] | None:
-    """The fits store: plain fits, comparison rows and notes, for the given data and choices."""
-    if data is None or settings is None:
-        return None
-    series = series_from_store(data, exclusions)
+def held_capacity(settings: Mapping[str, Any], capacity: float | None) -> float | None:
+    """The K every fit holds (None when K is fitted), as the fits callback uses it."""
     held = settings.get("k_mode", "held") == "held"
-    k = capacity if held and capacity is not None and capacity > 0 else None
+    return capacity if held and capacity is not None and capacity > 0 else None
+
+
+def session_fits(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, settings: Mapping[str, Any],
+                 capacity: float | None, forms: Sequence[str] | None = None) -> tuple[Series, list[FitResult], list[str]]:
+    """The series and the fits of the chosen ``forms`` (all when None), as the panels show them.
+
+    Returns the fits and a note per form the engine refused (as the comparison notes show it).
+    """
+    series = series_from_store(data, exclusions)
+    k = held_capacity(settings, capacity)
+    held = settings.get("k_mode", "held") == "held"
+    chosen = [m for m in settings.get("models", []) if forms is None or m in forms]
+    fits: list[FitResult] = []
     notes: list[str] = []
-    fits = []
-    for model in settings.get("models", []):
+    for model in chosen:
         try:
             fits.extend(fit_forms(series, [model], method=settings.get("method", "increments"),
                                   error=settings.get("error", "additive"), capacity=k,
                                   terms=settings.get("terms", []), profile=not held))
         except GrowthcoreInputError as exc:
             notes.append(f"{model}: {str(exc).splitlines()[0]}")
+    return series, fits, notes
+
+
+def compute_fits(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
+                 settings: Mapping[str, Any] | None, capacity: float | None) -> dict[str, Any] | None:
+    """The fits store: plain fits, comparison rows and notes, for the given data and choices."""
+    if data is None or settings is None:
+        return None
+    series, fits, notes = session_fits(data, exclusions, settings, capacity)
+    k = held_capacity(settings, capacity)
     rows = compare(fits)
     notes.extend(comparison_notes(fits))
     return {

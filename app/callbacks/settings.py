@@ -54,7 +54,7 @@ def build_settings(forms: Sequence[str] | None, constant: Sequence[str] | None, 
             notes.append(html.Div("Write at least one term for the custom form.", className="muted"))
         else:
             models.append("custom")
-            notes.append(html.Div(f"custom form: Δp = " + " + ".join(f"b{i + 1}·({t})" for i, t in enumerate(terms)),
+            notes.append(html.Div("custom form: Δp = " + " + ".join(f"b{i + 1}·({t})" for i, t in enumerate(terms)),
                                   className="muted"))
     elif errors:
         notes.append(html.Pre("\n".join(errors), className="terms-error"))
