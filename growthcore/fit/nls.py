@@ -72,6 +72,22 @@ class Unbounded:
         self.low = lo_f & ~hi_f
         self.high = hi_f & ~lo_f
         self.trivial = not np.any(lo_f | hi_f)
+        self._plan = [(int(b) + 2 * int(lo) + 4 * int(hi), float(a), float(c)) for b, lo, hi, a, c in
+                      zip(self.both, self.low, self.high, self.lower, self.upper)]
+
+    def _column_to_x(self, u: Array) -> Array:
+        """One parameter column in plain floats: the solver's residual calls are single columns."""
+        out = []
+        for (kind, lo, hi), ui in zip(self._plan, u[:, 0].tolist()):
+            if kind == 1:
+                out.append(lo + (hi - lo) / (1.0 + math.exp(-ui)) if ui > -700 else lo)
+            elif kind == 2:
+                out.append(lo + math.exp(min(ui, 700.0)))
+            elif kind == 4:
+                out.append(hi - math.exp(min(ui, 700.0)))
+            else:
+                out.append(ui)
+        return np.array(out)[:, None]
 
     def to_u(self, x: Array) -> Array:
         u = np.array(x, dtype=float)
@@ -87,6 +103,8 @@ class Unbounded:
         """``u`` of shape (k,) or (k, m) back to the original coordinates."""
         if self.trivial:
             return u
+        if u.ndim == 2 and u.shape[1] <= 8:
+            return np.hstack([self._column_to_x(u[:, j:j + 1]) for j in range(u.shape[1])])
         x = np.array(u, dtype=float)
         lo, hi = self.lower, self.upper
         if u.ndim > 1:

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
+from functools import cached_property
 from typing import Callable, Mapping
 
 import numpy as np
@@ -65,8 +66,12 @@ class Problem:
                 return np.log(states)
         return states
 
+    @cached_property
+    def _target(self) -> Array:
+        return self.scaled(self.observed)[:, None]
+
     def residuals(self, cols: Array) -> Array:
-        return self.scaled(self.observed)[:, None] - self.scaled(self.predict(cols))
+        return self._target - self.scaled(self.predict(cols))
 
     @property
     def scale(self) -> float:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from typing import Mapping
 
 import numpy as np
@@ -20,8 +21,8 @@ def iterate(form: DifferenceForm, p0: Array | float, values: Mapping[str, Array 
     Overflow gives inf or nan in the path rather than an exception.
     """
     p = np.asarray(p0, dtype=float)
-    shape = np.broadcast_shapes(p.shape, *(np.shape(v) for v in values.values()))
-    size = int(np.prod(shape)) if shape else 1
+    shape = _common_shape([p.shape, *(np.shape(v) for v in values.values())])
+    size = math.prod(shape)
     if size <= SCALAR_LIMIT:
         scalar = _iterate_scalar(form, p, values, steps, shape, size)
         if scalar is not None:
@@ -35,6 +36,14 @@ def iterate(form: DifferenceForm, p0: Array | float, values: Mapping[str, Array 
             p = p + increment(p, values)
             path[n] = p
     return path
+
+
+def _common_shape(shapes: list[tuple[int, ...]]) -> tuple[int, ...]:
+    """The broadcast shape; the usual case (scalars and one shared shape) without numpy's general rule."""
+    distinct = {sh for sh in shapes if sh != ()}
+    if len(distinct) <= 1:
+        return distinct.pop() if distinct else ()
+    return np.broadcast_shapes(*shapes)
 
 
 def _iterate_scalar(form: DifferenceForm, p0: Array, values: Mapping[str, Array | float], steps: int,
