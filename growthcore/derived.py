@@ -163,7 +163,9 @@ def _refine_peak(form: ModelForm, values: Mapping[str, float], states: Array, j:
         value = float(_rate(form, np.array([q]), values)[0])
         return -value if math.isfinite(value) else math.inf
 
-    a, b = float(states[j - 1]), float(states[j + 1])
+    a, b = sorted((float(states[j - 1]), float(states[j + 1])))  # states fall when the path declines
+    if not a < b:
+        return float(states[j]), -neg_rate(float(states[j]))
     best_p, best_rate = float(states[j]), -neg_rate(float(states[j]))
     found = minimize_scalar(neg_rate, bounds=(a, b), method="bounded",
                             options={"xatol": 1e-10 * max(abs(a), abs(b), 1e-300)})
