@@ -281,3 +281,24 @@ def test_summaries_leave_the_refits_out(demo: dict, fits: dict) -> None:
     assert len(json.dumps(small)) < 2000 < len(json.dumps(done))
     entry = next(iter(small.values()))
     assert entry["summary"]["done"] == 1000 and "result" not in entry
+
+
+def test_export_record_carries_the_panel_bootstrap_and_forecast(demo: dict, k_demo: float, fits: dict) -> None:
+    """What panel 7 shows is what the exported record holds: the bootstrap is reproduced from its seed
+    and count (resample b is seeded by (seed, b): engine contract), the forecast from its request."""
+    from app.callbacks import export as ex
+
+    label = "ricker (increments)"
+    boot, done, _ = _run(dy.start_run(1, 0, 200, 5, label, fits), {}, fits, demo)
+    request = dy.forecast_request("steps", 6, None)
+    store = dy.compute_forecast(request, label, fits, demo, None, done)
+    settings = _settings()
+    record = ex.session_record(demo, None, settings, k_demo, forms=["ricker"], forecast_store=store, boot_done=done)
+    (ricker,) = [f for f in record["fits"] if f["model"] == "ricker"]
+    assert record["settings"]["bootstrap"] == 200 and record["settings"]["seed"] == 5
+    assert record["settings"]["forecast_steps"] == 6
+    panel = dy.done_for(done, dy.fit_signature(fits, dy.find_fit(fits, label)))
+    lo, hi = panel.interval("r")
+    assert ricker["parameters"]["r"]["ci95_bootstrap"] == pytest.approx([lo, hi], rel=1e-9)
+    assert len(ricker["forecast"]) == 6
+    assert [round(p["t"], 9) for p in ricker["forecast"]] == [round(p["t"], 9) for p in store["points"]]

@@ -61,15 +61,35 @@ def record_settings(settings: Mapping[str, Any], capacity: float | None, models:
     }
 
 
-def _later_steps() -> argparse.Namespace:
-    """The ``fit`` options of the uncertainty step at their defaults (no bootstrap, no forecast)."""
-    return argparse.Namespace(bootstrap=None, seed=fit_uncertainty.DEFAULT_SEED, forecast=None, forecast_span=None,
-                              bound=None, level=[])
+def later_steps(forecast_store: Mapping[str, Any] | None = None,
+                boot_done: Mapping[str, Any] | None = None) -> argparse.Namespace:
+    """The ``fit`` options of the uncertainty step that reproduce what the dynamics panel shows.
+
+    Its latest finished (or cancelled) bootstrap gives the resamples done and the seed; resample b is
+    seeded by (seed, b), so the record's refits are the panel's. Its drawn forecast gives the steps or
+    span and the bound. As on the command line, both apply to every exported form.
+    """
+    args = argparse.Namespace(bootstrap=None, seed=fit_uncertainty.DEFAULT_SEED, forecast=None,
+                              forecast_span=None, bound=None, level=[])
+    finished = [entry.get("summary") or {} for entry in (boot_done or {}).values()]
+    finished = [s for s in finished if s.get("done")]
+    if finished:
+        args.bootstrap = int(finished[-1]["done"])
+        args.seed = int(finished[-1].get("seed", args.seed))
+    request = (forecast_store or {}).get("request") or {}
+    if request.get("mode") == "steps":
+        args.forecast = int(request["amount"])
+    elif request.get("mode") == "span":
+        args.forecast_span = float(request["amount"])
+    if request:
+        args.bound = request.get("bound")
+    return args
 
 
 def session_record(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, settings: Mapping[str, Any],
                    capacity: float | None, *, forms: Sequence[str] | None = None,
-                   created: _dt.datetime | None = None) -> dict[str, Any]:
+                   created: _dt.datetime | None = None, forecast_store: Mapping[str, Any] | None = None,
+                   boot_done: Mapping[str, Any] | None = None) -> dict[str, Any]:
     """The sealed fit record of the session's chosen forms: the same members ``growthcore fit`` writes."""
     series, fits, _notes = session_fits(data, exclusions, settings, capacity, forms)
     models = [m for m in settings.get("models", []) if forms is None or m in forms]
@@ -79,7 +99,7 @@ def session_record(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None
     record = build_record(series, fits, source=source, settings=record_settings(settings, capacity, models),
                           created=created)
     record["comparison"] = {"rows": [r.to_dict() for r in compare(fits)], "notes": comparison_notes(fits)}
-    fit_uncertainty.apply(_later_steps(), series, fits, record)
+    fit_uncertainty.apply(later_steps(forecast_store, boot_done), series, fits, record, quiet=True)
     return seal(record)
 
 
@@ -118,7 +138,8 @@ def record_text(record: Mapping[str, Any]) -> str:
 
 def on_export(n_clicks: int | None, data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
               settings: Mapping[str, Any] | None, capacity: float | None, forms: Sequence[str] | None,
-              what: Sequence[str] | None, size: str | None, *,
+              what: Sequence[str] | None, size: str | None, forecast_store: Mapping[str, Any] | None = None,
+              boot_done: Mapping[str, Any] | None = None, *,
               created: _dt.datetime | None = None) -> tuple[Any, ...]:
     """Outputs: record download, CSV download, HTML download, image jobs for the browser, message."""
     nothing = (no_update,) * 4
@@ -133,7 +154,8 @@ def on_export(n_clicks: int | None, data: Mapping[str, Any] | None, exclusions: 
     if not what:
         return (*nothing, _message("Choose at least one kind of file to export.", error=True))
     try:
-        record = session_record(data, exclusions, settings, capacity, forms=chosen, created=created)
+        record = session_record(data, exclusions, settings, capacity, forms=chosen, created=created,
+                                forecast_store=forecast_store, boot_done=boot_done)
         stem = file_stem(str(record["data"].get("name", "series")))
         images = image_jobs(record, size or "screen", stem) if "images" in what else no_update
     except GrowthcoreInputError as exc:
@@ -295,7 +317,7 @@ def register(app: Dash) -> None:
         Input(ids.EXPORT_BUTTON, "n_clicks"),
         State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"), State(ids.SETTINGS, "data"),
         State(ids.CAPACITY, "data"), State(ids.EXPORT_FORMS, "value"), State(ids.EXPORT_WHAT, "value"),
-        State(ids.EXPORT_SIZE, "value"),
+        State(ids.EXPORT_SIZE, "value"), State(ids.FORECAST, "data"), State(ids.BOOT_DONE, "data"),
         prevent_initial_call=True, running=[(Output(ids.EXPORT_BUTTON, "disabled"), True, False)],
     )(on_export)
     app.clientside_callback(

@@ -72,8 +72,12 @@ def _one(args: argparse.Namespace, series: Series, result: FitResult, out: dict[
     return lines
 
 
-def apply(args: argparse.Namespace, series: Series, fits: Sequence[FitResult], record: dict[str, Any]) -> None:
-    """Add dynamics, bootstrap intervals and forecasts to the fit dicts (record["fits"][i] is fits[i])."""
+def apply(args: argparse.Namespace, series: Series, fits: Sequence[FitResult], record: dict[str, Any],
+          *, quiet: bool = False) -> None:
+    """Add dynamics, bootstrap intervals and forecasts to the fit dicts (record["fits"][i] is fits[i]).
+
+    The plain sentences go to standard error for the terminal unless ``quiet`` (the app shows them).
+    """
     _check(args)
     lines: list[str] = []
     for result, out in zip(fits, record["fits"]):
@@ -85,6 +89,8 @@ def apply(args: argparse.Namespace, series: Series, fits: Sequence[FitResult], r
         "bootstrap": args.bootstrap, "seed": args.seed, "forecast_steps": args.forecast,
         "forecast_span": args.forecast_span, "bound": args.bound, "levels": list(args.level)})
     record["caution"] = FORECAST_CAUTION
+    if quiet:
+        return
     for line in lines:
         print(line, file=sys.stderr)
     if forecasting:
