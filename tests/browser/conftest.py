@@ -73,15 +73,19 @@ def make_driver() -> Iterator[Callable[..., object]]:
     drivers = []
     profiles = []
 
-    def make(width: int = 1280, height: int = 800) -> object:
+    def make(width: int = 1280, height: int = 800, *, extra_args: tuple[str, ...] = (),
+             browser_log: bool = False) -> object:
         profile = tempfile.mkdtemp(prefix="gc-chromium-")
         profiles.append(profile)
         options = webdriver.ChromeOptions()
         options.binary_location = CHROMIUM
         for arg in ("--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
                     "--disable-background-networking", "--disable-component-update", "--disable-sync",
-                    "--disable-dev-shm-usage", f"--user-data-dir={profile}", f"--window-size={width},{height}"):
+                    "--disable-dev-shm-usage", f"--user-data-dir={profile}", f"--window-size={width},{height}",
+                    *extra_args):
             options.add_argument(arg)
+        if browser_log:
+            options.set_capability("goog:loggingPrefs", {"browser": "ALL"})
         driver = webdriver.Chrome(service=Service(CHROMEDRIVER), options=options)
         # the viewport itself, not the window with its frame, is the screen size under test
         driver.execute_cdp_cmd("Emulation.setDeviceMetricsOverride",

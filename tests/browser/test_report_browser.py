@@ -1,13 +1,10 @@
 """The HTML report opened from disk in headless Chromium with the network cut off: every figure draws.
 
-Without Chromium the test skips, except under CI (CI=true), where it fails.
+Without Chromium the test skips, except under CI (CI=true), where it fails (tests/browser/conftest.py).
 """
 
 from __future__ import annotations
 
-import os
-import shutil
-import tempfile
 from pathlib import Path
 
 import pytest
@@ -16,47 +13,13 @@ from growthcore.reopen import load_record
 from growthcore.report import write_html
 from record_cases import FIXTURES
 
-CHROMIUM = shutil.which("chromium") or "/usr/bin/chromium"
-CHROMEDRIVER = shutil.which("chromedriver") or "/usr/bin/chromedriver"
-
-
-def _missing() -> str | None:
-    for path in (CHROMIUM, CHROMEDRIVER):
-        if not os.path.exists(path):
-            return f"{path} not found"
-    try:
-        import selenium  # noqa: F401
-    except ImportError:
-        return "selenium is not installed"
-    return None
+#: No name resolves and no proxy answers: any fetch the page tried would fail.
+OFFLINE = ("--host-resolver-rules=MAP * ~NOTFOUND", "--proxy-server=127.0.0.1:9")
 
 
 @pytest.fixture()
-def driver():
-    missing = _missing()
-    if missing:
-        if os.environ.get("CI", "").lower() == "true":
-            pytest.fail(f"the HTML report test must run under CI but headless Chromium is unavailable: {missing}")
-        pytest.skip(f"headless Chromium unavailable: {missing}")
-    from selenium import webdriver
-    from selenium.webdriver.chrome.service import Service
-
-    profile = tempfile.mkdtemp(prefix="growthcore-report-")
-    options = webdriver.ChromeOptions()
-    options.binary_location = CHROMIUM
-    for flag in ("--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-                 "--disable-background-networking", "--disable-component-update", "--disable-sync",
-                 f"--user-data-dir={profile}", "--window-size=1200,900",
-                 # no name resolves and no proxy answers: any fetch would fail
-                 "--host-resolver-rules=MAP * ~NOTFOUND", "--proxy-server=127.0.0.1:9"):
-        options.add_argument(flag)
-    options.set_capability("goog:loggingPrefs", {"browser": "ALL"})
-    browser = webdriver.Chrome(service=Service(CHROMEDRIVER), options=options)
-    try:
-        yield browser
-    finally:
-        browser.quit()
-        shutil.rmtree(profile, ignore_errors=True)
+def driver(make_driver):
+    return make_driver(1200, 900, extra_args=OFFLINE, browser_log=True)
 
 
 @pytest.mark.browser
