@@ -35,8 +35,8 @@ PATH_POINTS = 120       # points kept of each fitted path (enough for a panel a 
 GRID_REDRAW_S = 3.0     # while a run goes on, the grid (slow to draw in the browser) is redrawn at most this often
 PLATE_METRICS = ("rmse", "r2", "aicc", "bic", "durbin_watson", "runs_p")
 #: Shown instead of a fit for a series the current run has not reached; the figure builder draws
-#: such a panel with its data only (a "converged" status without a path is drawn plainly).
-NOT_FITTED = {"status": "converged", "message": "", "fit_t": [], "fit_p": []}
+#: such a panel with its data only.
+NOT_FITTED = {"status": "not fitted", "message": "", "fit_t": [], "fit_p": []}
 
 
 # ---------------------------------------------------------------------------------------------
@@ -450,10 +450,10 @@ def plate_figure(batch: Mapping[str, Any] | None, merged: Mapping[str, Mapping[s
     for sid in batch["names"]:
         entry = fits.get(sid)
         if sid not in shown:
-            values[sid] = {"value": None, "status": "converged", "message": ""}
+            values[sid] = {"value": None, "status": "not fitted", "message": ""}
             notes[sid] = f"not in group {group}"
         elif entry is None:
-            values[sid] = {"value": None, "status": "converged", "message": ""}
+            values[sid] = {"value": None, "status": "not fitted", "message": ""}
             notes[sid] = "not fitted yet"
         else:
             values[sid] = {"value": entry["values"].get(quantity or "") if entry["status"] == "converged" else None,

@@ -60,7 +60,7 @@ def overview_grid(panels: Sequence[Mapping[str, Any]], *, columns: int = 8, max_
             "marker": {"size": 3, "color": [theme.INK if u else theme.MUTED for u in used]},
             "customdata": [sid] * len(panel["t"]), "hovertemplate": f"{sid}<br>t = %{{x}}<br>p = %{{y}}<extra></extra>",
         })
-        failed = panel.get("status") != "converged"
+        failed = panel.get("status") == "failed"
         if not failed and panel.get("fit_t"):
             data.append({
                 "type": "scatter", "mode": "lines", "x": list(panel["fit_t"]), "y": list(panel["fit_p"]),
@@ -105,7 +105,7 @@ def plate_map(values: Mapping[str, Mapping[str, Any]], *, quantity: str, title: 
         ids[r][c] = well
         v = entry.get("value")
         z[r][c] = v
-        if entry.get("status") == "converged":
+        if entry.get("status") != "failed":
             text[r][c] = f"{quantity} = {v:.4g}" if v is not None else f"{quantity} not available"
         else:
             text[r][c] = f"fit failed: {entry.get('message', '')}"
