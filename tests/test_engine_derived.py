@@ -108,22 +108,18 @@ def test_difference_growth_factor_and_doubling_time() -> None:
     assert d["doubling_time"] == pytest.approx(h * math.log(2.0) / math.log1p(r), rel=1e-12)
 
 
-def test_beverton_holt_equilibrium_and_multiplier() -> None:
-    """Beverton–Holt: fixed point K with f'(K) = 1/λ (derivative of λp/(1 + (λ − 1)p/K) at K)."""
-    lam, k = 1.8, 500.0
-    path = iterate(get_form("beverton-holt"), 5.0, {"lambda": lam, "K": k}, 25)
-    result = fit(Series(np.arange(26.0), path), "beverton-holt", method="increments", profile=False)
+@pytest.mark.parametrize(("model", "p0", "steps", "params", "multiplier"), [
+    # Beverton–Holt: fixed point K with f'(K) = 1/λ (derivative of λp/(1 + (λ − 1)p/K) at K).
+    pytest.param("beverton-holt", 5.0, 25, {"lambda": 1.8, "K": 500.0}, 1.0 / 1.8, id="beverton-holt"),
+    # Ricker p·exp(r(1 − p/K)): f'(K) = 1 − r (May 1974), stable for 0 < r < 2.
+    pytest.param("ricker", 3.0, 30, {"r": 1.5, "K": 60.0}, 1.0 - 1.5, id="ricker"),
+])
+def test_positive_equilibrium_and_multiplier(model: str, p0: float, steps: int, params: dict[str, float],
+                                             multiplier: float) -> None:
+    """The fixed point K of a path iterated exactly from the map, its multiplier f'(K), and |f'(K)| < 1."""
+    path = iterate(get_form(model), p0, params, steps)
+    result = fit(Series(np.arange(steps + 1.0), path), model, method="increments", profile=False)
     eq = [e for e in result.derived["equilibria"] if e["value"] > 0]
-    assert eq[0]["value"] == pytest.approx(k, rel=1e-8)
-    assert eq[0]["multiplier"] == pytest.approx(1.0 / lam, rel=1e-7)
+    assert eq[0]["value"] == pytest.approx(params["K"], rel=1e-8)
+    assert eq[0]["multiplier"] == pytest.approx(multiplier, rel=1e-7)
     assert eq[0]["stable"] is True
-
-
-def test_ricker_multiplier_at_k() -> None:
-    """Ricker p·exp(r(1 − p/K)): f'(K) = 1 − r (May 1974), stable for 0 < r < 2."""
-    r, k = 1.5, 60.0
-    path = iterate(get_form("ricker"), 3.0, {"r": r, "K": k}, 30)
-    result = fit(Series(np.arange(31.0), path), "ricker", method="increments", profile=False)
-    eq = [e for e in result.derived["equilibria"] if e["value"] > 0]
-    assert eq[0]["value"] == pytest.approx(k, rel=1e-8)
-    assert eq[0]["multiplier"] == pytest.approx(1.0 - r, rel=1e-7)

@@ -10,7 +10,7 @@ import shutil
 import socket
 import tempfile
 import threading
-from typing import Callable, Iterator
+from typing import Any, Callable, Iterator
 
 import pytest
 
@@ -42,6 +42,20 @@ def _browser_available(request: pytest.FixtureRequest) -> None:
     if os.environ.get("CI", "").lower() == "true":
         pytest.fail(f"browser tests must run under CI but headless Chromium is unavailable: {missing}")
     pytest.skip(f"headless Chromium unavailable: {missing}")
+
+
+def chromium_options(profile: str, width: int, height: int, extra_args: tuple[str, ...] = ()) -> Any:
+    """Headless Chromium options with its own profile folder and no traffic of its own to the network."""
+    from selenium import webdriver
+
+    options = webdriver.ChromeOptions()
+    options.binary_location = CHROMIUM
+    for arg in ("--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+                "--disable-background-networking", "--disable-component-update", "--disable-sync",
+                "--disable-dev-shm-usage", f"--user-data-dir={profile}", f"--window-size={width},{height}",
+                *extra_args):
+        options.add_argument(arg)
+    return options
 
 
 def free_port() -> int:
@@ -77,13 +91,7 @@ def make_driver() -> Iterator[Callable[..., object]]:
              browser_log: bool = False) -> object:
         profile = tempfile.mkdtemp(prefix="gc-chromium-")
         profiles.append(profile)
-        options = webdriver.ChromeOptions()
-        options.binary_location = CHROMIUM
-        for arg in ("--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-                    "--disable-background-networking", "--disable-component-update", "--disable-sync",
-                    "--disable-dev-shm-usage", f"--user-data-dir={profile}", f"--window-size={width},{height}",
-                    *extra_args):
-            options.add_argument(arg)
+        options = chromium_options(profile, width, height, extra_args)
         if browser_log:
             options.set_capability("goog:loggingPrefs", {"browser": "ALL"})
         driver = webdriver.Chrome(service=Service(CHROMEDRIVER), options=options)

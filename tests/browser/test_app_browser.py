@@ -5,48 +5,14 @@ Every step saves a screenshot to tests/artifacts/. The data uploaded here are in
 
 from __future__ import annotations
 
-import os
-import time
-from typing import Any, Callable
+from typing import Any
 
 import numpy as np
 import pytest
 
+from tests.browser.page import comparison_rows, open_demo, scroll_to, shot, text, upload, wait, wait_idle
+
 pytestmark = pytest.mark.browser
-
-WAIT = 25
-
-
-def _wait(driver: Any, condition: Callable[[Any], Any], timeout: float = WAIT) -> Any:
-    from selenium.webdriver.support.ui import WebDriverWait
-
-    return WebDriverWait(driver, timeout, poll_frequency=0.1).until(condition)
-
-
-def _text(driver: Any, element_id: str) -> str:
-    """innerText read in one script call, so a re-render between lookups cannot go stale."""
-    return driver.execute_script(f"var e = document.getElementById('{element_id}'); return e ? e.innerText : '';")
-
-
-def _table_rows(driver: Any) -> list[str]:
-    return driver.execute_script(
-        "return Array.from(document.querySelectorAll('#comparison-table tbody tr')).map(r => r.innerText);")
-
-
-def _open(driver: Any, url: str, rows: int = 4) -> None:
-    driver.get(url)
-    _wait(driver, lambda d: len(_table_rows(d)) >= rows and "uncentered R²" in _text(d, "panel-candidate-summary"))
-    _wait_idle(driver)
-
-
-def _wait_idle(driver: Any) -> None:
-    """Until Dash has no request in flight (the renderer marks loading components)."""
-    time.sleep(0.3)
-    _wait(driver, lambda d: d.execute_script("return document.querySelectorAll('[data-dash-is-loading]').length") == 0)
-
-
-def _shot(driver: Any, artifacts: str, name: str) -> None:
-    driver.save_screenshot(os.path.join(artifacts, f"{name}.png"))
 
 
 def _write_csv(path: str, header: str, t: np.ndarray, p: np.ndarray) -> str:
@@ -68,22 +34,10 @@ def _invented_stock(tmp_path: Any, name: str, k: float, r: float) -> str:
     return _write_csv(str(tmp_path / name), "Year,Stock index (t)", np.arange(1990, 2020), obs)
 
 
-def _upload(driver: Any, path: str) -> None:
-    from selenium.webdriver.common.by import By
-
-    box = driver.find_element(By.CSS_SELECTOR, "#data-upload input[type=file]")
-    box.send_keys(path)
-
-
-def _scroll_to(driver: Any, element_id: str) -> None:
-    driver.execute_script(f"document.getElementById('{element_id}').scrollIntoView({{block: 'center'}})")
-    time.sleep(0.2)
-
-
 def test_demo_opens_with_every_panel(server_url: str, make_driver: Any, artifacts: str) -> None:
     for width, height in ((1280, 800), (1920, 1080)):
         driver = make_driver(width, height)
-        _open(driver, server_url)
+        open_demo(driver, server_url)
         page = driver.find_element("tag name", "body").text
         assert "algae_photobioreactor.csv" in page
         assert "validated methods" in page and "qualified professionals" in page
@@ -94,7 +48,7 @@ def test_demo_opens_with_every_panel(server_url: str, make_driver: Any, artifact
                 f"return document.querySelector('#{graph} .js-plotly-plot').data.length")
             assert n >= 2, graph
         assert not driver.find_elements("css selector", ".dash-debug-menu, .dash-fe-error__title")
-        _shot(driver, artifacts, f"01-demo-{width}x{height}")
+        shot(driver, artifacts, f"01-demo-{width}x{height}")
     # keyboard: Tab reaches the K box, the row-exclusion box and the table's sort buttons
     from selenium.webdriver.common.keys import Keys
 
@@ -117,44 +71,44 @@ def test_upload_switch_forms_and_change_k(server_url: str, make_driver: Any, art
     from selenium.webdriver.common.keys import Keys
 
     driver = make_driver(1280, 800)
-    _open(driver, server_url)
+    open_demo(driver, server_url)
     path = _invented_stock(tmp_path, "invented_stock_index.csv", k=120.0, r=0.6)
-    _upload(driver, path)
-    _wait(driver, lambda d: "invented_stock_index.csv" in _text(d, "data-summary"))
-    _wait(driver, lambda d: "Stock index" in d.execute_script(
+    upload(driver, path)
+    wait(driver, lambda d: "invented_stock_index.csv" in text(d, "data-summary"))
+    wait(driver, lambda d: "Stock index" in d.execute_script(
         "return document.querySelector('#panel-trajectory .js-plotly-plot').layout.yaxis.title.text"))
-    _wait_idle(driver)
-    _shot(driver, artifacts, "02-upload")
+    wait_idle(driver)
+    shot(driver, artifacts, "02-upload")
 
     # switch forms: add the theta-logistic, drop Ricker
     labels = {e.text.split("\n")[0]: e for e in driver.find_elements(By.CSS_SELECTOR, "#model-forms label")}
     labels["Theta-logistic"].click()
     labels["Ricker"].click()
-    _wait(driver, lambda d: any(r.startswith("theta-logistic") or "theta-logistic" in r for r in _table_rows(d))
-          and not any("ricker" in r for r in _table_rows(d)))
-    _wait_idle(driver)
-    _shot(driver, artifacts, "03-forms")
+    wait(driver, lambda d: any(r.startswith("theta-logistic") or "theta-logistic" in r for r in comparison_rows(d))
+         and not any("ricker" in r for r in comparison_rows(d)))
+    wait_idle(driver)
+    shot(driver, artifacts, "03-forms")
 
     # change K by the number box: slope, uncentered R² and the table must all change
-    before_summary = _text(driver, "panel-candidate-summary")
-    before_table = _table_rows(driver)
+    before_summary = text(driver, "panel-candidate-summary")
+    before_table = comparison_rows(driver)
     box = driver.find_element(By.ID, "model-k-input")
     box.send_keys(Keys.CONTROL, "a")
     box.send_keys("90", Keys.ENTER)
-    _wait(driver, lambda d: "K = 90" in _text(d, "panel-candidate-summary"))
-    _wait(driver, lambda d: _table_rows(d) != before_table)
-    after_summary = _text(driver, "panel-candidate-summary")
+    wait(driver, lambda d: "K = 90" in text(d, "panel-candidate-summary"))
+    wait(driver, lambda d: comparison_rows(d) != before_table)
+    after_summary = text(driver, "panel-candidate-summary")
     assert after_summary != before_summary
     slope = lambda s: [line for line in s.splitlines() if "p·(1 − p/K)" in line]  # noqa: E731
     assert slope(after_summary) != slope(before_summary)
-    assert "K = 90 (held)" in "\n".join(_table_rows(driver))
-    _wait_idle(driver)
-    _shot(driver, artifacts, "04-k-by-input")
+    assert "K = 90 (held)" in "\n".join(comparison_rows(driver))
+    wait_idle(driver)
+    shot(driver, artifacts, "04-k-by-input")
 
     # change K by dragging the dashed line on the trajectory panel
     from selenium.webdriver.common.action_chains import ActionChains
 
-    _scroll_to(driver, "panel-trajectory")
+    scroll_to(driver, "panel-trajectory")
     plot = driver.find_element(By.CSS_SELECTOR, "#panel-trajectory .js-plotly-plot")
     dx, dy = driver.execute_script(
         "var gd = arguments[0], L = gd._fullLayout, r = gd.getBoundingClientRect();"
@@ -162,25 +116,31 @@ def test_upload_switch_forms_and_change_k(server_url: str, make_driver: Any, art
         "return [x - r.width / 2, y - r.height / 2];", plot)
     ActionChains(driver).move_to_element_with_offset(plot, int(dx), int(dy)).pause(0.3).click_and_hold() \
         .move_by_offset(0, 10).move_by_offset(0, 30).pause(0.2).release().perform()
-    _wait(driver, lambda d: d.find_element(By.ID, "model-k-input").get_attribute("value") not in ("90", ""))
+    wait(driver, lambda d: d.find_element(By.ID, "model-k-input").get_attribute("value") not in ("90", ""))
     dragged = float(driver.find_element(By.ID, "model-k-input").get_attribute("value"))
     assert dragged < 90
-    _wait(driver, lambda d: f"K = {dragged:g}" in _text(d, "panel-candidate-summary"))
-    _wait_idle(driver)
-    _shot(driver, artifacts, "05-k-by-drag")
+    wait(driver, lambda d: f"K = {dragged:g}" in text(d, "panel-candidate-summary"))
+    wait_idle(driver)
+    shot(driver, artifacts, "05-k-by-drag")
 
 
-def _click_observation(driver: Any, graph: str, k: int) -> None:
-    """Click the k-th observation marker of a panel (the trace with meta 'points')."""
-    from selenium.webdriver.common.action_chains import ActionChains
+def _observation_marker(driver: Any, graph: str, k: int) -> Any:
+    """The k-th observation marker of a panel (the trace with meta 'points'), scrolled into view."""
     from selenium.webdriver.common.by import By
 
-    _scroll_to(driver, graph)
+    scroll_to(driver, graph)
     trace = driver.execute_script(
         f"var gd = document.querySelector('#{graph} .js-plotly-plot');"
         "for (var i = 0; i < gd.data.length; i++) { if (gd.data[i].meta === 'points') return i; } return -1;")
     points = driver.find_elements(By.CSS_SELECTOR, f"#{graph} .scatterlayer .trace:nth-of-type({trace + 1}) path.point")
-    ActionChains(driver).move_to_element(points[k]).pause(0.3).click().perform()
+    return points[k]
+
+
+def _click_observation(driver: Any, graph: str, k: int) -> None:
+    """Click the k-th observation marker of a panel."""
+    from selenium.webdriver.common.action_chains import ActionChains
+
+    ActionChains(driver).move_to_element(_observation_marker(driver, graph, k)).pause(0.3).click().perform()
 
 
 def test_hover_highlights_and_click_excludes(server_url: str, make_driver: Any, artifacts: str) -> None:
@@ -188,66 +148,61 @@ def test_hover_highlights_and_click_excludes(server_url: str, make_driver: Any, 
     from selenium.webdriver.common.by import By
 
     driver = make_driver(1280, 800)
-    _open(driver, server_url)
-    before = _table_rows(driver)
+    open_demo(driver, server_url)
+    before = comparison_rows(driver)
     # hover: the same observation is ringed in the other panels
-    _scroll_to(driver, "panel-trajectory")
-    trace = driver.execute_script(
-        "var gd = document.querySelector('#panel-trajectory .js-plotly-plot');"
-        "for (var i = 0; i < gd.data.length; i++) { if (gd.data[i].meta === 'points') return i; } return -1;")
-    point = driver.find_elements(By.CSS_SELECTOR,
-                                 f"#panel-trajectory .scatterlayer .trace:nth-of-type({trace + 1}) path.point")[20]
+    point = _observation_marker(driver, "panel-trajectory", 20)
     ActionChains(driver).move_to_element(point).pause(0.5).perform()
     ringed = "var gd = document.querySelector('#panel-change .js-plotly-plot');" \
              "var h = gd.data.filter(function (t) { return t.meta === 'highlight'; })[0]; return h.x.length;"
-    _wait(driver, lambda d: d.execute_script(ringed) == 1)
-    _shot(driver, artifacts, "06-hover")
+    wait(driver, lambda d: d.execute_script(ringed) == 1)
+    shot(driver, artifacts, "06-hover")
 
     _click_observation(driver, "panel-trajectory", 20)
-    _wait(driver, lambda d: "excluded by the user" in _text(d, "exclusion-list"))
-    _wait(driver, lambda d: _table_rows(d) != before)
-    assert "row 22" in _text(driver, "exclusion-list")  # header is row 1, so point 20 is row 22
-    rows_after = _table_rows(driver)
+    wait(driver, lambda d: "excluded by the user" in text(d, "exclusion-list"))
+    wait(driver, lambda d: comparison_rows(d) != before)
+    assert "row 22" in text(driver, "exclusion-list")  # header is row 1, so point 20 is row 22
+    rows_after = comparison_rows(driver)
     # an interior point ends two consecutive pairs: 39 pairs of the 40 observations become 37
     assert all("\t37\t" in r for r in rows_after), rows_after
-    _wait_idle(driver)
-    _shot(driver, artifacts, "07-excluded")
+    wait_idle(driver)
+    shot(driver, artifacts, "07-excluded")
 
     driver.find_element(By.ID, "exclusion-undo").click()
-    _wait(driver, lambda d: "None: every point is used." in _text(d, "exclusion-list"))
-    _wait(driver, lambda d: _table_rows(d) == before)
+    wait(driver, lambda d: "None: every point is used." in text(d, "exclusion-list"))
+    wait(driver, lambda d: comparison_rows(d) == before)
 
 
 def test_malformed_file_shows_message(server_url: str, make_driver: Any, artifacts: str, tmp_path: Any) -> None:
     driver = make_driver(1280, 800)
-    _open(driver, server_url)
+    open_demo(driver, server_url)
     bad = tmp_path / "broken_export.csv"
     bad.write_text("notes from the run\nthe sensor was off\nno numbers at all here\n", encoding="utf-8")
-    _upload(driver, str(bad))
-    _wait(driver, lambda d: "Not read." in _text(d, "data-message"))
-    message = _text(driver, "data-message")
+    upload(driver, str(bad))
+    wait(driver, lambda d: "Not read." in text(d, "data-message"))
+    message = text(driver, "data-message")
     assert "broken_export.csv" in message
     assert "still show algae_photobioreactor.csv" in message
     assert "Traceback" not in driver.find_element("tag name", "body").text
-    assert len(_table_rows(driver)) >= 4
-    _shot(driver, artifacts, "08-malformed")
+    assert len(comparison_rows(driver)) >= 4
+    shot(driver, artifacts, "08-malformed")
 
 
 def test_two_sessions_do_not_share_data(server_url: str, make_driver: Any, artifacts: str, tmp_path: Any) -> None:
     first, second = make_driver(1280, 800), make_driver(1280, 800)
-    _open(first, server_url)
-    _open(second, server_url)
+    open_demo(first, server_url)
+    open_demo(second, server_url)
     a = _invented_stock(tmp_path, "site_north.csv", k=80.0, r=0.5)
     b = _invented_stock(tmp_path, "site_south.csv", k=300.0, r=0.9)
-    _upload(first, a)
-    _upload(second, b)
-    _wait(first, lambda d: "site_north.csv" in _text(d, "data-summary"))
-    _wait(second, lambda d: "site_south.csv" in _text(d, "data-summary"))
-    _wait_idle(first)
-    _wait_idle(second)
+    upload(first, a)
+    upload(second, b)
+    wait(first, lambda d: "site_north.csv" in text(d, "data-summary"))
+    wait(second, lambda d: "site_south.csv" in text(d, "data-summary"))
+    wait_idle(first)
+    wait_idle(second)
     first.refresh()  # a reload starts a fresh session: nothing of the other tab leaks in
-    _open(first, server_url)
+    open_demo(first, server_url)
     assert "site_south.csv" not in first.find_element("tag name", "body").text
     assert "site_north.csv" not in second.find_element("tag name", "body").text
-    assert "site_south.csv" in _text(second, "data-summary")
-    _shot(second, artifacts, "09-second-session")
+    assert "site_south.csv" in text(second, "data-summary")
+    shot(second, artifacts, "09-second-session")

@@ -6,25 +6,17 @@ Screenshots go to tests/artifacts/ at 1280×800 and 1920×1080.
 
 from __future__ import annotations
 
-import os
-import time
+from functools import partial
 from typing import Any, Callable
 
 import pytest
 
+from tests.browser import page
+from tests.browser.page import shot, text
+
 pytestmark = pytest.mark.browser
 
-WAIT = 25
-
-
-def _wait(driver: Any, condition: Callable[[Any], Any], timeout: float = WAIT) -> Any:
-    from selenium.webdriver.support.ui import WebDriverWait
-
-    return WebDriverWait(driver, timeout, poll_frequency=0.05).until(condition)
-
-
-def _text(driver: Any, element_id: str) -> str:
-    return driver.execute_script(f"var e = document.getElementById('{element_id}'); return e ? e.innerText : '';")
+wait = partial(page.wait, timeout=25, poll=0.05)
 
 
 def _progress(driver: Any) -> tuple[int, int]:
@@ -47,16 +39,10 @@ def _click(driver: Any, element_id: str) -> None:
     driver.execute_script(f"document.getElementById('{element_id}').click()")
 
 
-def _show(driver: Any, element_id: str, artifacts: str, name: str) -> None:
-    driver.execute_script(f"document.getElementById('{element_id}').scrollIntoView({{block: 'start'}})")
-    time.sleep(0.4)
-    driver.save_screenshot(os.path.join(artifacts, f"{name}.png"))
-
-
 def _open(driver: Any, url: str) -> None:
     driver.get(url)
-    _wait(driver, lambda d: "implies" in _text(d, "dynamics-sentences")
-          and "stable" in _text(d, "dynamics-equilibria"))
+    wait(driver, lambda d: "implies" in text(d, "dynamics-sentences")
+         and "stable" in text(d, "dynamics-equilibria"))
 
 
 @pytest.mark.parametrize("size", [(1280, 800), (1920, 1080)])
@@ -65,41 +51,41 @@ def test_bootstrap_cancel_and_forecast(server_url: str, make_driver: Callable[..
     width, height = size
     driver = make_driver(width, height)
     _open(driver, server_url)
-    assert "multiplier f'(p*)" in _text(driver, "dynamics-equilibria")
-    _show(driver, "slot-dynamics", artifacts, f"dynamics_{width}_panel")
+    assert "multiplier f'(p*)" in text(driver, "dynamics-equilibria")
+    shot(driver, artifacts, f"dynamics_{width}_panel", "slot-dynamics", pause=0.4)
 
     # a long run, cancelled once it has started: the refits done so far stay and say so
     _set(driver, "bootstrap-resamples", "10000")
     _click(driver, "bootstrap-run")
-    _wait(driver, lambda d: 0 < _progress(d)[0] and "Running" in _text(d, "bootstrap-status"))
+    wait(driver, lambda d: 0 < _progress(d)[0] and "Running" in text(d, "bootstrap-status"))
     _click(driver, "bootstrap-cancel")
-    _wait(driver, lambda d: "Cancelled" in _text(d, "bootstrap-status"))
+    wait(driver, lambda d: "Cancelled" in text(d, "bootstrap-status"))
     done, top = _progress(driver)
     assert 0 < done < 10000 and top == 10000
-    assert "partial" in _text(driver, "dynamics-intervals")
-    _show(driver, "bootstrap-run", artifacts, f"dynamics_{width}_cancelled")
+    assert "partial" in text(driver, "dynamics-intervals")
+    shot(driver, artifacts, f"dynamics_{width}_cancelled", "bootstrap-run", pause=0.4)
 
     # a small run to the end: progress full, bootstrap intervals beside the t-based ones
     _set(driver, "bootstrap-resamples", "400")
     _set(driver, "bootstrap-seed", "7")
     _click(driver, "bootstrap-run")
-    _wait(driver, lambda d: "Done: 400 of 400" in _text(d, "bootstrap-status"))
+    wait(driver, lambda d: "Done: 400 of 400" in text(d, "bootstrap-status"))
     assert _progress(driver) == (400, 400)
-    table = _text(driver, "dynamics-intervals")
+    table = text(driver, "dynamics-intervals")
     assert "t-based" in table and "bootstrap percentile" in table and "not run" not in table
-    _wait(driver, lambda d: "bootstrap [" in _text(d, "comparison-table"))
-    _wait(driver, lambda d: "run the bootstrap" not in _text(d, "dynamics-derived"))
-    _show(driver, "bootstrap-run", artifacts, f"dynamics_{width}_bootstrap")
+    wait(driver, lambda d: "bootstrap [" in text(d, "comparison-table"))
+    wait(driver, lambda d: "run the bootstrap" not in text(d, "dynamics-derived"))
+    shot(driver, artifacts, f"dynamics_{width}_bootstrap", "bootstrap-run", pause=0.4)
 
     # a forecast: the band on the trajectory, its warnings and the caution beside it
     _set(driver, "forecast-amount", "12")
     _click(driver, "forecast-run")
-    _wait(driver, lambda d: "prediction band" in _text(d, "forecast-notes"))
-    notes = _text(driver, "forecast-notes")
+    wait(driver, lambda d: "prediction band" in text(d, "forecast-notes"))
+    notes = text(driver, "forecast-notes")
     assert "past the last observation" in notes and "bootstrap refits" in notes
-    assert "validated methods" in _text(driver, "slot-dynamics")
+    assert "validated methods" in text(driver, "slot-dynamics")
     names = driver.execute_script("return document.getElementById('panel-trajectory')"
                                   ".querySelector('.js-plotly-plot').data.map(t => t.name);")
     assert any(n and n.startswith("forecast:") for n in names)
-    _show(driver, "forecast-run", artifacts, f"dynamics_{width}_forecast")
-    _show(driver, "panel-trajectory", artifacts, f"dynamics_{width}_trajectory_band")
+    shot(driver, artifacts, f"dynamics_{width}_forecast", "forecast-run", pause=0.4)
+    shot(driver, artifacts, f"dynamics_{width}_trajectory_band", "panel-trajectory", pause=0.4)

@@ -14,6 +14,7 @@ import struct
 import tempfile
 import time
 import zlib
+from functools import partial
 from typing import Any, Callable, Iterator
 
 import jsonschema
@@ -21,40 +22,18 @@ import pytest
 
 from growthcore.report.images import PANEL_SIZES, SHEET_SIZES, png_size
 from growthcore.schemas import record_schema
-from tests.browser.conftest import CHROMEDRIVER, CHROMIUM
+from tests.browser import page
+from tests.browser.conftest import CHROMEDRIVER, chromium_options
+from tests.browser.page import comparison_rows, shot, text
 
 pytestmark = pytest.mark.browser
 
-WAIT = 30
 K = 4.3
 EXCLUDED_ROW = 6
 
-
-def _wait(driver: Any, condition: Callable[[Any], Any], timeout: float = WAIT) -> Any:
-    from selenium.webdriver.support.ui import WebDriverWait
-
-    return WebDriverWait(driver, timeout, poll_frequency=0.1).until(condition)
-
-
-def _text(driver: Any, element_id: str) -> str:
-    return driver.execute_script(f"var e = document.getElementById('{element_id}'); return e ? e.innerText : '';")
-
-
-def _rows(driver: Any) -> list[str]:
-    return driver.execute_script(
-        "return Array.from(document.querySelectorAll('#comparison-table tbody tr')).map(r => r.innerText);")
-
-
-def _idle(driver: Any) -> None:
-    time.sleep(0.3)
-    _wait(driver, lambda d: d.execute_script("return document.querySelectorAll('[data-dash-is-loading]').length") == 0)
-
-
-def _shot(driver: Any, artifacts: str, name: str, element_id: str | None = None) -> None:
-    if element_id:
-        driver.execute_script(f"document.getElementById('{element_id}').scrollIntoView({{block: 'start'}})")
-        time.sleep(0.3)
-    driver.save_screenshot(os.path.join(artifacts, f"{name}.png"))
+wait = partial(page.wait, timeout=30, poll=0.1)
+wait_idle = partial(page.wait_idle, timeout=30, poll=0.1)
+open_demo = partial(page.open_demo, timeout=30, poll=0.1)
 
 
 @pytest.fixture()
@@ -68,12 +47,7 @@ def downloading_driver() -> Iterator[Callable[[], tuple[Any, str]]]:
     def make() -> tuple[Any, str]:
         profile = tempfile.mkdtemp(prefix="gc-chromium-")
         downloads = tempfile.mkdtemp(prefix="gc-downloads-")
-        options = webdriver.ChromeOptions()
-        options.binary_location = CHROMIUM
-        for arg in ("--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-                    "--disable-background-networking", "--disable-component-update", "--disable-sync",
-                    "--disable-dev-shm-usage", f"--user-data-dir={profile}", "--window-size=1280,900"):
-            options.add_argument(arg)
+        options = chromium_options(profile, 1280, 900)
         options.add_experimental_option("prefs", {
             "download.default_directory": downloads, "download.prompt_for_download": False,
             "download.directory_upgrade": True, "safebrowsing.enabled": False,
@@ -94,12 +68,6 @@ def downloading_driver() -> Iterator[Callable[[], tuple[Any, str]]]:
             pass
         shutil.rmtree(profile, ignore_errors=True)
         shutil.rmtree(downloads, ignore_errors=True)
-
-
-def _open(driver: Any, url: str) -> None:
-    driver.get(url)
-    _wait(driver, lambda d: len(_rows(d)) >= 4 and "uncentered R²" in _text(d, "panel-candidate-summary"))
-    _idle(driver)
 
 
 def _type(driver: Any, element_id: str, text: str) -> None:
@@ -159,31 +127,31 @@ def test_export_every_file_then_reopen_and_refuse_a_tampered_record(
     from selenium.webdriver.common.by import By
 
     driver, downloads = downloading_driver()
-    _open(driver, server_url)
+    open_demo(driver, server_url)
     # a K of our own and one point left out, so that the record carries both
     _type(driver, "model-k-input", str(K))
-    _wait(driver, lambda d: f"K = {K:g} (held)" in "\n".join(_rows(d)))
+    wait(driver, lambda d: f"K = {K:g} (held)" in "\n".join(comparison_rows(d)))
     _type(driver, "exclusion-row", str(EXCLUDED_ROW))
     driver.find_element(By.ID, "exclusion-row-button").click()
-    _wait(driver, lambda d: f"row {EXCLUDED_ROW}" in _text(d, "exclusion-list"))
-    _idle(driver)
-    rows_before = _rows(driver)
+    wait(driver, lambda d: f"row {EXCLUDED_ROW}" in text(d, "exclusion-list"))
+    wait_idle(driver)
+    rows_before = comparison_rows(driver)
 
     driver.execute_script("document.getElementById('slot-export').scrollIntoView({block: 'start'})")
-    _wait(driver, lambda d: "logistic (increments)" in _text(d, "export-forms"))
+    wait(driver, lambda d: "logistic (increments)" in text(d, "export-forms"))
     driver.find_element(By.CSS_SELECTOR, "#export-size input[value=print]").click()
     # leave out one form to see that only the chosen forms are exported
     driver.find_element(By.CSS_SELECTOR, "#export-forms input[value=ricker]").click()
-    _shot(driver, artifacts, "20-export-section", "slot-export")
+    shot(driver, artifacts, "20-export-section", "slot-export")
     started = time.monotonic()
     driver.find_element(By.ID, "export-button").click()
-    _wait(driver, lambda d: "PNG images (print) saved" in _text(d, "export-image-message"), 60)
+    wait(driver, lambda d: "PNG images (print) saved" in text(d, "export-image-message"), timeout=60)
     expected = 3 + 7 + 2  # record, CSV, HTML; six panels and the sheet (no K profile here); two live panels
-    files = _wait(driver, lambda d: _finished(downloads, expected), 30)
+    files = wait(driver, lambda d: _finished(downloads, expected), timeout=30)
     elapsed = time.monotonic() - started
-    _shot(driver, artifacts, "21-exported", "slot-export")
+    shot(driver, artifacts, "21-exported", "slot-export")
     print(f"export at print size: {len(files)} files in {elapsed:.1f} s")
-    assert "Exported 3 fits of 3 forms" in _text(driver, "export-message")
+    assert "Exported 3 fits of 3 forms" in text(driver, "export-message")
 
     by_end = {name.split("-", 2)[-1] if name.count("-") >= 2 else name: name for name in files}
     record_name = next(n for n in files if n.endswith("fit-record.json"))
@@ -204,9 +172,9 @@ def test_export_every_file_then_reopen_and_refuse_a_tampered_record(
 
     html_name = next(n for n in files if n.endswith("report.html"))
     with open(os.path.join(downloads, html_name), encoding="utf-8") as fh:
-        page = fh.read()
-    assert "Plotly.newPlot" in page and 'id="panel-data"' in page and 'id="panel-comparison"' in page
-    assert record["integrity"]["value"] in page
+        html = fh.read()
+    assert "Plotly.newPlot" in html and 'id="panel-data"' in html and 'id="panel-comparison"' in html
+    assert record["integrity"]["value"] in html
 
     pngs = [n for n in files if n.endswith(".png")]
     assert len(pngs) == 9, by_end
@@ -223,22 +191,22 @@ def test_export_every_file_then_reopen_and_refuse_a_tampered_record(
 
     # a fresh session: reopen the record, see the same K, exclusion and numbers
     fresh, _ = downloading_driver()
-    _open(fresh, server_url)
-    assert _rows(fresh) != rows_before
+    open_demo(fresh, server_url)
+    assert comparison_rows(fresh) != rows_before
     record_path = tmp_path / "reopen.json"
     record_path.write_text(record_text, encoding="utf-8")
     fresh.find_element(By.CSS_SELECTOR, "#export-record-upload input[type=file]").send_keys(str(record_path))
-    _wait(fresh, lambda d: "Reopened reopen.json" in _text(d, "export-record-message"))
-    _wait(fresh, lambda d: f"K = {K:g} (held)" in "\n".join(_rows(d)) and len(_rows(d)) == 3)
-    _idle(fresh)
+    wait(fresh, lambda d: "Reopened reopen.json" in text(d, "export-record-message"))
+    wait(fresh, lambda d: f"K = {K:g} (held)" in "\n".join(comparison_rows(d)) and len(comparison_rows(d)) == 3)
+    wait_idle(fresh)
     # the same constants, intervals and metrics per form; ΔAICc and weights change with the set of forms
     expected_rows = {k: v for k, v in _per_form(rows_before).items() if not k.startswith("ricker")}
-    assert _per_form(_rows(fresh)) == expected_rows
+    assert _per_form(comparison_rows(fresh)) == expected_rows
     assert len(expected_rows) == 3
     assert float(fresh.find_element(By.ID, "model-k-input").get_attribute("value")) == K
-    assert f"row {EXCLUDED_ROW}" in _text(fresh, "exclusion-list")
-    _shot(fresh, artifacts, "23-reopened")
-    _shot(fresh, artifacts, "24-reopened-export", "slot-export")
+    assert f"row {EXCLUDED_ROW}" in text(fresh, "exclusion-list")
+    shot(fresh, artifacts, "23-reopened")
+    shot(fresh, artifacts, "24-reopened-export", "slot-export")
 
     # a tampered record: one constant changed by hand
     tampered = json.loads(record_text)
@@ -246,10 +214,10 @@ def test_export_every_file_then_reopen_and_refuse_a_tampered_record(
     bad_path = tmp_path / "edited.json"
     bad_path.write_text(json.dumps(tampered, indent=2), encoding="utf-8")
     fresh.find_element(By.CSS_SELECTOR, "#export-record-upload input[type=file]").send_keys(str(bad_path))
-    _wait(fresh, lambda d: "Not reopened" in _text(d, "export-record-message"))
-    message = _text(fresh, "export-record-message")
+    wait(fresh, lambda d: "Not reopened" in text(d, "export-record-message"))
+    message = text(fresh, "export-record-message")
     assert "edited.json" in message and "integrity hash mismatch" in message
-    _idle(fresh)
-    assert _per_form(_rows(fresh)) == expected_rows, "a refused record must leave the session as it was"
+    wait_idle(fresh)
+    assert _per_form(comparison_rows(fresh)) == expected_rows, "a refused record must leave the session as it was"
     assert fresh.execute_script("return document.getElementById('app-error').hidden") is True
-    _shot(fresh, artifacts, "25-tampered-refused", "slot-export")
+    shot(fresh, artifacts, "25-tampered-refused", "slot-export")

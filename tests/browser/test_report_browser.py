@@ -12,6 +12,7 @@ import pytest
 from growthcore.reopen import load_record
 from growthcore.report import write_html
 from record_cases import FIXTURES
+from tests.browser.page import wait
 
 #: No name resolves and no proxy answers: any fetch the page tried would fail.
 OFFLINE = ("--host-resolver-rules=MAP * ~NOTFOUND", "--proxy-server=127.0.0.1:9")
@@ -24,8 +25,6 @@ def driver(make_driver):
 
 @pytest.mark.browser
 def test_report_opens_offline_and_draws_every_figure(driver, tmp_path: Path) -> None:
-    from selenium.webdriver.support.ui import WebDriverWait
-
     record = load_record(FIXTURES / "fit-record-v1.json")
     page = write_html(record, tmp_path / "report.html")
     driver.set_network_conditions(offline=True, latency=0, download_throughput=0, upload_throughput=0)
@@ -38,7 +37,7 @@ def test_report_opens_offline_and_draws_every_figure(driver, tmp_path: Path) -> 
             "return Array.from(document.querySelectorAll('[data-panel]'))"
             ".every(e => e.classList.contains('js-plotly-plot') && e.querySelector('svg.main-svg'));")
 
-    WebDriverWait(driver, 20).until(drawn)
+    wait(driver, drawn, timeout=20, poll=0.5)  # selenium's own default poll
     # Each plot panel drew its traces; each table panel its cells.
     counts = driver.execute_script(
         "return Array.from(document.querySelectorAll('[data-panel]')).map("

@@ -9,33 +9,20 @@ from __future__ import annotations
 
 import os
 import time
-from typing import Any, Callable
+from functools import partial
+from typing import Any
 
 import numpy as np
 import pytest
 
+from tests.browser import page
+from tests.browser.page import shot, text, upload
+
 pytestmark = pytest.mark.browser
 
-WAIT = 30
-
-
-def _wait(driver: Any, condition: Callable[[Any], Any], timeout: float = WAIT, poll: float = 0.05) -> Any:
-    from selenium.webdriver.support.ui import WebDriverWait
-
-    return WebDriverWait(driver, timeout, poll_frequency=poll).until(condition)
-
-
-def _text(driver: Any, element_id: str) -> str:
-    return driver.execute_script(f"var e = document.getElementById('{element_id}'); return e ? e.innerText : '';")
-
-
-def _wait_idle(driver: Any) -> None:
-    time.sleep(0.3)
-    _wait(driver, lambda d: d.execute_script("return document.querySelectorAll('[data-dash-is-loading]').length") == 0)
-
-
-def _shot(driver: Any, artifacts: str, name: str) -> None:
-    driver.save_screenshot(os.path.join(artifacts, f"{name}.png"))
+wait = partial(page.wait, timeout=30, poll=0.05)
+wait_idle = partial(page.wait_idle, timeout=30, poll=0.05)
+scroll_to = partial(page.scroll_to, block="start", pause=0.3)
 
 
 def invented_plate(path: str, rows: int = 8, cols: int = 12, n: int = 97, flat: tuple[str, ...] = ("C5",)) -> str:
@@ -58,22 +45,16 @@ def invented_plate(path: str, rows: int = 8, cols: int = 12, n: int = 97, flat: 
     return path
 
 
-def _upload(driver: Any, path: str) -> None:
-    from selenium.webdriver.common.by import By
-
-    driver.find_element(By.CSS_SELECTOR, "#data-upload input[type=file]").send_keys(path)
-
-
 def _open_file(driver: Any, url: str, path: str) -> None:
     driver.get(url)
-    _wait(driver, lambda d: "algae_photobioreactor.csv" in _text(d, "data-summary"))
-    _wait_idle(driver)
-    _upload(driver, path)
+    wait(driver, lambda d: "algae_photobioreactor.csv" in text(d, "data-summary"))
+    wait_idle(driver)
+    upload(driver, path)
     name = os.path.basename(path)
-    _wait(driver, lambda d: name in _text(d, "data-summary"))
-    _wait(driver, lambda d: d.execute_script(
+    wait(driver, lambda d: name in text(d, "data-summary"))
+    wait(driver, lambda d: d.execute_script(
         "var s = document.getElementById('series-overview'); return s && !s.hidden;"))
-    _wait_idle(driver)
+    wait_idle(driver)
 
 
 def _set_forms(driver: Any, wanted: set[str]) -> None:
@@ -84,18 +65,13 @@ def _set_forms(driver: Any, wanted: set[str]) -> None:
         title = label.text.split("\n")[0]
         if box.is_selected() != (title in wanted):
             label.click()
-    _wait_idle(driver)
+    wait_idle(driver)
 
 
 def _grid_panels(driver: Any) -> int:
     return driver.execute_script(
         "var gd = document.querySelector('#batch-grid .js-plotly-plot');"
         "return gd && gd.data ? gd.data.filter(t => t.meta === 'points').length : 0;")
-
-
-def _scroll_to(driver: Any, element_id: str) -> None:
-    driver.execute_script(f"document.getElementById('{element_id}').scrollIntoView({{block: 'start'}})")
-    time.sleep(0.3)
 
 
 def _run_to_end(driver: Any, total: int) -> list[str]:
@@ -106,13 +82,13 @@ def _run_to_end(driver: Any, total: int) -> list[str]:
     seen: list[str] = []
 
     def done(d: Any) -> bool:
-        line = _text(d, "batch-status")
+        line = text(d, "batch-status")
         if line and (not seen or seen[-1] != line):
             seen.append(line)
         return line.startswith(f"All {total} series fitted")
 
-    _wait(driver, done, timeout=60, poll=0.03)
-    _wait_idle(driver)
+    wait(driver, done, timeout=60, poll=0.03)
+    wait_idle(driver)
     return seen
 
 
@@ -167,7 +143,7 @@ def _viewport(driver: Any, width: int, height: int) -> None:
     driver.execute_cdp_cmd("Emulation.setDeviceMetricsOverride",
                            {"width": width, "height": height, "deviceScaleFactor": 1, "mobile": False})
     time.sleep(0.8)   # plotly redraws the responsive figures for the new width
-    _wait_idle(driver)
+    wait_idle(driver)
 
 
 def test_plate_overview_map_click_stop_and_groups(server_url: str, make_driver: Any, artifacts: str,
@@ -178,21 +154,21 @@ def test_plate_overview_map_click_stop_and_groups(server_url: str, make_driver: 
     plate = invented_plate(str(tmp_path / "invented_plate_96.csv"))
     driver = make_driver(1280, 800)
     _open_file(driver, server_url, plate)
-    assert "“A1”" in _text(driver, "data-summary")
+    assert "“A1”" in text(driver, "data-summary")
     _set_forms(driver, {"Discrete logistic", "Discrete Gompertz"})
     # before any fit: the grid shows the data of all 96 wells
-    _wait(driver, lambda d: _grid_panels(d) == 96)
-    assert "not fitted yet" in _text(driver, "batch-grid")
+    wait(driver, lambda d: _grid_panels(d) == 96)
+    assert "not fitted yet" in text(driver, "batch-grid")
 
     seen = _run_to_end(driver, 96)
     partial = [s for s in seen if s.startswith("Fitting") and " 0 of 96" not in s and "96 of 96" not in s]
     assert partial, f"no progress line between start and end: {seen}"
-    assert "2 form(s)" in _text(driver, "batch-status")
+    assert "2 form(s)" in text(driver, "batch-status")
     # the blank well cannot be fitted by either form: its panel and its cell are marked, with the reason
-    grid_text = _text(driver, "batch-grid")
+    grid_text = text(driver, "batch-grid")
     assert "C5 · fit failed" in grid_text, grid_text[:400]
     assert "same scales in every panel" in grid_text
-    failed = _text(driver, "batch-failed")
+    failed = text(driver, "batch-failed")
     assert "1 fit(s) of logistic (increments) failed" in failed and "C5" in failed
     n_lines = driver.execute_script(
         "return document.querySelector('#batch-grid .js-plotly-plot').data.filter(t => t.meta === 'fit').length;")
@@ -204,26 +180,26 @@ def test_plate_overview_map_click_stop_and_groups(server_url: str, make_driver: 
     assert driver.find_element(By.ID, "batch-plate-quantity").text.strip().startswith("constant K")
     for width, height in ((1280, 800), (1920, 1080)):
         _viewport(driver, width, height)
-        _scroll_to(driver, "series-overview")
-        _shot(driver, artifacts, f"series-01-grid-{width}x{height}")
-        _scroll_to(driver, "batch-plate-box")
-        _shot(driver, artifacts, f"series-02-plate-{width}x{height}")
+        scroll_to(driver, "series-overview")
+        shot(driver, artifacts, f"series-01-grid-{width}x{height}")
+        scroll_to(driver, "batch-plate-box")
+        shot(driver, artifacts, f"series-02-plate-{width}x{height}")
     _viewport(driver, 1280, 800)
 
     # a click on well D7 of the plate map opens it in the panels, which scroll into view
     _click_plate_well(driver, 3, 6)
-    _wait(driver, lambda d: "“D7”" in _text(d, "data-summary"))
-    _wait(driver, lambda d: "D7: 43 of 96 in the file" in _text(d, "series-position"))
-    _wait_idle(driver)
-    _wait(driver, lambda d: "D7" in _text(d, "panel-trajectory"))
+    wait(driver, lambda d: "“D7”" in text(d, "data-summary"))
+    wait(driver, lambda d: "D7: 43 of 96 in the file" in text(d, "series-position"))
+    wait_idle(driver)
+    wait(driver, lambda d: "D7" in text(d, "panel-trajectory"))
     top = driver.execute_script("return document.getElementById('main').getBoundingClientRect().top")
     assert abs(top) < 40, top
-    _shot(driver, artifacts, "series-03-opened-D7")
+    shot(driver, artifacts, "series-03-opened-D7")
 
     # a click on the panel of B3 in the grid does the same, and the grid frames B3
     _click_grid_point(driver, "B3")
-    _wait(driver, lambda d: "“B3”" in _text(d, "data-summary"))
-    _wait_idle(driver)
+    wait(driver, lambda d: "“B3”" in text(d, "data-summary"))
+    wait_idle(driver)
     frame = driver.execute_script(
         "var gd = document.querySelector('#batch-grid .js-plotly-plot'); var s = gd.layout.shapes[0];"
         "var L = gd.layout, i = gd.data.findIndex(t => t.meta === 'points' && t.name === 'B3');"
@@ -231,45 +207,45 @@ def test_plate_overview_map_click_stop_and_groups(server_url: str, make_driver: 
     assert frame == [True, True, True]
     # next steps through the file order: B3 -> B4
     driver.find_element(By.ID, "series-next").click()
-    _wait(driver, lambda d: "“B4”" in _text(d, "data-summary"))
-    _wait_idle(driver)
+    wait(driver, lambda d: "“B4”" in text(d, "data-summary"))
+    wait_idle(driver)
 
     # a 384-well plate: pages of 96; a run stopped part way keeps what it fitted
     big = invented_plate(str(tmp_path / "invented_plate_384.csv"), rows=16, cols=24, n=40)
-    _upload(driver, big)
-    _wait(driver, lambda d: "invented_plate_384.csv" in _text(d, "data-summary"))
-    _wait(driver, lambda d: "series 1–96 of 384" in _text(d, "batch-grid"))
-    _wait_idle(driver)
+    upload(driver, big)
+    wait(driver, lambda d: "invented_plate_384.csv" in text(d, "data-summary"))
+    wait(driver, lambda d: "series 1–96 of 384" in text(d, "batch-grid"))
+    wait_idle(driver)
     assert _grid_panels(driver) == 96
     driver.find_element(By.ID, "batch-run").click()
-    _wait(driver, lambda d: _text(d, "batch-status").startswith("Fitting") and " 0 of 384" not in _text(d, "batch-status"))
+    wait(driver, lambda d: text(d, "batch-status").startswith("Fitting") and " 0 of 384" not in text(d, "batch-status"))
     driver.find_element(By.ID, "batch-stop").click()
-    _wait(driver, lambda d: _text(d, "batch-status").startswith("Stopped by you"))
+    wait(driver, lambda d: text(d, "batch-status").startswith("Stopped by you"))
     time.sleep(1.0)   # no further chunk may arrive
-    _wait_idle(driver)
-    line = _text(driver, "batch-status")
+    wait_idle(driver)
+    line = text(driver, "batch-status")
     assert line.startswith("Stopped by you"), line
     done = int(line.split("after ")[1].split(" of")[0])
     assert 0 < done < 384
-    assert "not fitted" in _text(driver, "batch-grid")
+    assert "not fitted" in text(driver, "batch-grid")
     heat = driver.execute_script("var h = document.querySelector('#batch-plate .js-plotly-plot').data[0];"
                                  "return [h.z.length, h.z[0].length, h.text[15][23]];")
     assert heat == [16, 24, "not fitted yet"]
-    _scroll_to(driver, "series-overview")
-    _shot(driver, artifacts, "series-04-stopped-384")
+    scroll_to(driver, "series-overview")
+    shot(driver, artifacts, "series-04-stopped-384")
 
     # group wells by plate row with a pattern; show row C only and step into it
     driver.find_element(By.CSS_SELECTOR, "#slot-series details summary").click()
     driver.find_element(By.CSS_SELECTOR, "#series-group-mode input[value=pattern]").click()
     driver.find_element(By.ID, "series-group-text").send_keys(r"^([A-P])\d+$", Keys.ENTER)
-    _wait(driver, lambda d: "16 group(s) of 384 series" in _text(d, "series-group-message"))
+    wait(driver, lambda d: "16 group(s) of 384 series" in text(d, "series-group-message"))
     driver.find_element(By.CSS_SELECTOR, "#series-group-filter").click()
     option = [o for o in driver.find_elements(By.CSS_SELECTOR, "[role=option]") if o.text.startswith("C (24)")]
     option[0].click()
-    _wait(driver, lambda d: _grid_panels(d) == 24)
+    wait(driver, lambda d: _grid_panels(d) == 24)
     driver.find_element(By.ID, "series-next").click()
-    _wait(driver, lambda d: "“C1”" in _text(d, "data-summary"))
-    _wait(driver, lambda d: "C1: 1 of 24 in group C" in _text(d, "series-position"))
-    _wait_idle(driver)
-    _scroll_to(driver, "series-overview")
-    _shot(driver, artifacts, "series-05-group-C")
+    wait(driver, lambda d: "“C1”" in text(d, "data-summary"))
+    wait(driver, lambda d: "C1: 1 of 24 in group C" in text(d, "series-position"))
+    wait_idle(driver)
+    scroll_to(driver, "series-overview")
+    shot(driver, artifacts, "series-05-group-C")
