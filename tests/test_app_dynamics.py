@@ -302,3 +302,19 @@ def test_export_record_carries_the_panel_bootstrap_and_forecast(demo: dict, k_de
     assert ricker["parameters"]["r"]["ci95_bootstrap"] == pytest.approx([lo, hi], rel=1e-9)
     assert len(ricker["forecast"]) == 6
     assert [round(p["t"], 9) for p in ricker["forecast"]] == [round(p["t"], 9) for p in store["points"]]
+
+
+def test_correlation_of_the_estimates_is_shown_as_the_engine_computes_it(demo: dict, k_demo: float) -> None:
+    """The table shows FitResult.correlation (s²(JᵀJ)⁻¹ scaled to unit diagonal: identity check on the
+    diagonal and symmetry) for the fit in the panel, to three significant digits."""
+    store = compute_fits(demo, None, _settings(method="trajectory", models=["logistic"]), k_demo)
+    label = store["fits"][0]["label"]
+    view = dy.dynamics_view(store, label, k_demo, demo, None, None, None)
+    text = _text(view[4])
+    assert "Correlation of the estimates" in text
+    _, result = dy.rebuild(demo, None, store, dy.find_fit(store, label))
+    corr = result.correlation
+    np.testing.assert_allclose(np.diag(corr), 1.0, rtol=1e-12)
+    np.testing.assert_allclose(corr, corr.T, rtol=1e-12)
+    for v in corr[np.triu_indices_from(corr, 1)]:
+        assert f"{v:.3g}" in text

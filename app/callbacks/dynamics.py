@@ -20,8 +20,8 @@ from dash.exceptions import PreventUpdate
 
 from app import ids
 from app.callbacks.explore import labels_of
-from app.components.dynamics import (DERIVED_ROWS, MAX_RESAMPLES, derived_table, equilibria_table, fmt,
-                                     intervals_table)
+from app.components.dynamics import (DERIVED_ROWS, MAX_RESAMPLES, correlation_table, derived_table,
+                                     equilibria_table, fmt, intervals_table)
 from app.figures.common import fit_styles, message_figure, rate_unit
 from app.figures.dynamics import cobweb_figure, sweep_figure, with_forecast_band
 from app.state import series_from_store
@@ -164,9 +164,11 @@ def dynamics_view(fits_store: Mapping[str, Any] | None, label: str | None, capac
     derived = derived_intervals(result, usable, levels=[level] if level is not None and level > 0 else [])
     lv = level if level is not None and level > 0 else None
     table = derived_table(derived, _derived_rows(derived, lv), _units(data), usable is not None)
+    free = [p.name for p in result.parameters if not p.fixed]
+    correlations = result.correlation.tolist() if result.correlation is not None else None
     return sentences, equilibria_table(equilibria, unit), cobweb_fig, sweep_fig, [
         table, html.P("The caution under Forecast applies to these times as well: they are read from the fitted law.",
-                      className="hint")]
+                      className="hint"), correlation_table(free, correlations)]
 
 
 # ----------------------------------------------------------------------------- bootstrap in chunks

@@ -151,6 +151,30 @@ def equilibria_table(equilibria: Sequence[Mapping[str, Any]], unit: str) -> html
     return html.Table([html.Thead(head), html.Tbody(rows)], className="comparison dyn-table", style=TABLE)
 
 
+def _strong(v: float | None) -> bool:
+    return v is not None and math.isfinite(v) and abs(v) > 0.95
+
+
+def correlation_table(names: Sequence[str], matrix: Sequence[Sequence[float | None]] | None) -> html.Div:
+    """Correlations of the fitted constants (from the Jacobian at the optimum); |r| near 1 means the data
+    trade one constant against another."""
+    if not matrix or len(names) < 2:
+        return html.Div()
+    head = html.Tr([html.Th("", scope="col"), *(html.Th(n, scope="col") for n in names)])
+    rows = [html.Tr([html.Th(n, scope="row"),
+                     *(html.Td(fmt(v, 3), className="num",
+                               style={"fontWeight": "bold"} if i != j and _strong(v) else None)
+                       for j, v in enumerate(row))])
+            for i, (n, row) in enumerate(zip(names, matrix))]
+    return html.Div([
+        html.H4("Correlation of the estimates", className="dyn-subtitle"),
+        html.Table([html.Thead(head), html.Tbody(rows)], className="comparison dyn-table", style=TABLE),
+        html.P("From the Jacobian at the optimum. Values near ±1 (bold beyond 0.95) mean the data trade one "
+               "constant against the other: their separate intervals understate how well the pair is known.",
+               className="hint"),
+    ])
+
+
 def intervals_table(parameters: Mapping[str, Mapping[str, Any]],
                     boot: Mapping[str, Sequence[float] | None] | None, boot_note: str) -> html.Table:
     """Estimate, t-based 95% interval and bootstrap percentile interval of every constant."""
