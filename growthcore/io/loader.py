@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 import hashlib
 import os
 from dataclasses import dataclass
@@ -13,7 +15,8 @@ from growthcore.data import Series
 from growthcore.errors import ImportFailure
 from growthcore.io.headers import Column, find_header, make_columns
 from growthcore.io.layout import choose_layout, profile_columns
-from growthcore.io.numbers import NumberFormat, detect_number_format, is_missing, parse_number, thousands_separator
+from growthcore.io.numbers import (NumberFormat, detect_number_format, is_missing, parse_number, parse_plain_number,
+                                   thousands_separator)
 from growthcore.io.report import ImportReport, ImportResult, LeftOut, SeriesSummary
 from growthcore.io.sniff import decode_text, detect_format
 from growthcore.io.table import Table
@@ -271,6 +274,10 @@ class _Builder:
             x = float(cell)
         else:
             text = str(cell)
+            if fmt.decimal == ".":
+                quick = parse_plain_number(text)  # most cells of most files: skip the slower checks below
+                if quick is not None:
+                    return quick
             if is_missing(text):
                 self._leave_out(rownums[i], col, cell, "missing-value mark", data_idx[i])
                 return None
@@ -282,7 +289,7 @@ class _Builder:
                 self._leave_out(rownums[i], col, cell, "not a number", data_idx[i])
                 return None
             x = parsed
-        if not np.isfinite(x):
+        if not math.isfinite(x):
             self._leave_out(rownums[i], col, cell, "not a finite number", data_idx[i])
             return None
         return x

@@ -43,20 +43,33 @@ def is_missing(text: str) -> bool:
     return text.strip().lower() in MISSING_MARKS
 
 
+def parse_plain_number(text: str) -> float | None:
+    """``text`` as a finite number with a decimal point and no grouping, else None (then the full rules apply).
+
+    float() alone would also take "1_0", "inf", "nan" or non-ASCII digits, hence the checks around it.
+    """
+    s = text.strip()
+    if not s or len(s) > 64 or not s.isascii() or "_" in s or not (s[-1].isdigit() or s[-1] == "."):
+        return None
+    if s.lstrip("+-")[:1] not in _DIGIT_START:
+        return None
+    try:
+        x = float(s)
+    except ValueError:
+        return None
+    return x if abs(x) != float("inf") else None
+
+
 def parse_number(text: str, fmt: NumberFormat) -> float | None:
     """The number written in ``text`` under ``fmt``, or None when it is not a plain finite number."""
     s = text.strip()
     if not s or len(s) > 64:
         return None
     dec = fmt.decimal
-    if dec == "." and s.isascii() and "_" not in s and (s[-1:].isdigit() or s[-1:] == "."):
-        # Fast path for the common case; float() alone would also take "1_0", "inf" or non-ASCII digits.
-        try:
-            x = float(s)
-        except ValueError:
-            x = None
-        if x is not None and s.lstrip("+-")[:1] in _DIGIT_START:
-            return x if abs(x) != float("inf") else None
+    if dec == ".":
+        quick = parse_plain_number(s)
+        if quick is not None:
+            return quick
     if _PLAIN[dec].fullmatch(s):
         return _finite(s.replace(",", ".") if dec == "," else s)
     m = _GROUPED[dec].fullmatch(s)
