@@ -28,13 +28,13 @@ Array = np.ndarray
 MAX_STEPS = 10_000
 
 
-def state_range(form: ModelForm, values: Mapping[str, float], observed: Array) -> tuple[float, float]:
-    """A range of states wide enough to hold the data, K and any positive equilibrium near them."""
+def state_upper(values: Mapping[str, float], observed: Array) -> float:
+    """An upper state wide enough to hold the data, K and any positive equilibrium near them."""
     top = float(np.nanmax(np.abs(observed))) if observed.size else 1.0
     k = values.get("K")
     if k is not None and math.isfinite(k):
         top = max(top, k)
-    return 0.0, 3.0 * top if top > 0 else 1.0
+    return 3.0 * top if top > 0 else 1.0
 
 
 def _rate(form: ModelForm, p: Array, values: Mapping[str, float]) -> Array:
@@ -88,7 +88,7 @@ def _derived(result: FitResult) -> dict[str, Any]:
     form = result.form
     assert form is not None
     values = result.values
-    lo, hi = state_range(form, values, result.observed)
+    hi = state_upper(values, result.observed)
     out: dict[str, Any] = {}
     if "K" in values and "r" in values and values["K"] > 0 and form.id.startswith("logistic") and form.kind == "difference":
         out["k"] = values["r"] / values["K"]

@@ -92,7 +92,7 @@ class _Known:
 def _central_jacobians(stack: _Stack, x: Array, cols: Array) -> tuple[Array, Array]:
     """Predictions (n, a) at x (k, a) and Jacobians d(prediction on the error scale)/dx, (a, n, k).
 
-    The steps are those of :func:`growthcore.fit.nls.jacobian` with ``central=True``.
+    The steps are those of :func:`growthcore.fit.nls.jacobian` (central differences).
     """
     k, a = x.shape
     h = np.finfo(float).eps ** (1.0 / 3.0) * np.maximum(np.abs(x), 1e-3)

@@ -34,7 +34,6 @@ STOP_REASONS = {
 class NLSOutcome:
     x: Array
     residuals: Array
-    jac: Array
     sse: float
     success: bool
     message: str
@@ -46,19 +45,13 @@ def _steps(x: Array, rel: float) -> Array:
     return rel * np.maximum(np.abs(x), 1e-3)
 
 
-def jacobian(fn: VectorResiduals, x: Array, *, central: bool = False) -> Array:
-    """d residuals / d x by finite differences in one call of ``fn``."""
+def jacobian(fn: VectorResiduals, x: Array) -> Array:
+    """d residuals / d x by central differences in one call of ``fn`` (for standard errors)."""
     k = x.size
-    eps = np.finfo(float).eps
-    if central:
-        h = _steps(x, eps ** (1.0 / 3.0))
-        cols = np.concatenate([x[:, None] + np.diag(h), x[:, None] - np.diag(h)], axis=1)
-        r = fn(cols)
-        return (r[:, :k] - r[:, k:]) / (2.0 * h)
-    h = _steps(x, math.sqrt(eps))
-    cols = np.concatenate([x[:, None], x[:, None] + np.diag(h)], axis=1)
+    h = _steps(x, np.finfo(float).eps ** (1.0 / 3.0))
+    cols = np.concatenate([x[:, None] + np.diag(h), x[:, None] - np.diag(h)], axis=1)
     r = fn(cols)
-    return (r[:, 1:] - r[:, :1]) / h
+    return (r[:, :k] - r[:, k:]) / (2.0 * h)
 
 
 class Unbounded:
@@ -132,10 +125,10 @@ def solve(
 ) -> NLSOutcome:
     """Minimise ||fn(x)||² within bounds; never raises for numerical trouble.
 
-    ``max_nfev`` defaults to 200·(k + 1) residual evaluations. The bounds are removed by a change of coordinates (log for one-sided bounds, a logistic
-    squash for two-sided ones) so that MINPACK's Levenberg–Marquardt (``leastsq``) can be used:
-    its per-iteration cost is a fraction of a bounded trust-region method's. Standard errors are
-    computed afterwards in the original coordinates.
+    The bounds are removed by a change of coordinates (log for one-sided bounds, a logistic squash
+    for two-sided ones) so that MINPACK's Levenberg–Marquardt (``leastsq``) can be used: its
+    per-iteration cost is a fraction of a bounded trust-region method's. Standard errors are
+    computed afterwards in the original coordinates. ``max_nfev`` defaults to 200·(k + 1).
     """
     penalty = PENALTY_FACTOR * max(scale, 1e-300)
     coords = Unbounded(lower, upper)
@@ -155,8 +148,7 @@ def solve(
 
     def jac(u: Array) -> Array:
         # MINPACK asks for the Jacobian right after the residuals at the same point: reuse them.
-        eps = np.finfo(float).eps
-        h = math.sqrt(eps) * np.maximum(np.abs(u), 1e-3)
+        h = _steps(u, math.sqrt(np.finfo(float).eps))
         shifted = safe(u[:, None] + np.diag(h))
         base = last["r"] if "u" in last and np.array_equal(last["u"], u) else safe(u[:, None])[:, 0]
         return (shifted - base[:, None]) / h
@@ -168,8 +160,7 @@ def solve(
             u, _, info, message, ier = leastsq(fun, u0, Dfun=jac, full_output=True, ftol=tol, xtol=tol,
                                                gtol=0.0, maxfev=max_nfev or 200 * (x0.size + 1))
     except (ValueError, TypeError, np.linalg.LinAlgError, FloatingPointError) as exc:
-        empty = np.zeros((0, x0.size))
-        return NLSOutcome(x0, np.array([]), empty, math.inf, False, f"optimiser stopped: {exc}", 0, False)
+        return NLSOutcome(x0, np.array([]), math.inf, False, f"optimiser stopped: {exc}", 0, False)
     x = coords.to_x(np.asarray(u, dtype=float))
     with np.errstate(all="ignore"):
         raw = fn(x[:, None])[:, 0]
@@ -178,5 +169,5 @@ def solve(
         sse = float(raw @ raw) if finite else math.inf
     finite = finite and math.isfinite(sse)  # finite residuals can still overflow when squared
     text = STOP_REASONS.get(int(ier), " ".join(str(message).split()))
-    return NLSOutcome(x, raw, np.zeros((0, x0.size)), sse, ier in (1, 2, 3, 4) and finite, text,
+    return NLSOutcome(x, raw, sse, ier in (1, 2, 3, 4) and finite, text,
                       int(info.get("nfev", 0)), finite)

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from functools import cached_property
 from typing import Callable, Mapping
 
@@ -95,7 +95,7 @@ def build_result(
         predicted = problem.predict(x[:, None])[:, 0]
         residuals = problem.scaled(problem.observed) - problem.scaled(predicted)
         if jac is None:
-            jac = -jacobian(problem.residuals, x, central=True) if k else np.zeros((residuals.size, 0))
+            jac = -jacobian(problem.residuals, x) if k else np.zeros((residuals.size, 0))
     n = residuals.size
     sse = float(residuals @ residuals)
     dof = n - k
@@ -156,7 +156,3 @@ def build_result(
 def _at_bound(value: float, spec: ParamSpec) -> bool:
     scale = max(abs(value), 1e-12)
     return any(math.isfinite(b) and abs(value - b) <= 1e-7 * max(scale, abs(b)) for b in (spec.lower, spec.upper))
-
-
-def with_notes(result: FitResult, *notes: str) -> FitResult:
-    return replace(result, notes=(*result.notes, *notes))

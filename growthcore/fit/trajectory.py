@@ -42,16 +42,13 @@ def fit_trajectory(
     """
     used = series.used
     t, p = series.t[used], series.p[used]
-    if error == "log" and np.any(p <= 0):
-        j = int(np.flatnonzero(used)[np.flatnonzero(p <= 0)[0]])
+    nonpositive = np.flatnonzero(used)[p <= 0]
+    if nonpositive.size and (error == "log" or form.needs_positive):
+        j = int(nonpositive[0])
+        need = "log error needs p > 0" if error == "log" else f"{form.id} takes ln of the state, which needs p > 0"
+        advice = " (exclude it or use additive error)" if error == "log" else ""
         return failed(model, "trajectory", error,
-                      f"log error needs p > 0; row {series.row_of(j)} has p = {series.p[j]:g} (exclude it or use additive error)",
-                      form=form)
-    if form.needs_positive and np.any(p <= 0):
-        j = int(np.flatnonzero(used)[np.flatnonzero(p <= 0)[0]])
-        return failed(model, "trajectory", error,
-                      f"{form.id} takes ln of the state, which needs p > 0; row {series.row_of(j)} has p = {series.p[j]:g}",
-                      form=form)
+                      f"{need}; row {series.row_of(j)} has p = {series.p[j]:g}{advice}", form=form)
     if isinstance(form, DifferenceForm):
         return _fit_difference(series, form, model=model, error=error, fixed=fixed, start=start, terms=terms)
     origin = float(series.t[0]) if time_origin is None else float(time_origin)
