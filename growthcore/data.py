@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
+from functools import cached_property
 from typing import Mapping
 
 import numpy as np
@@ -77,12 +78,13 @@ class Series:
     def __len__(self) -> int:
         return int(self.t.size)
 
-    @property
+    @cached_property
     def used(self) -> np.ndarray:
-        """Boolean mask of points that enter fits: not excluded and finite."""
+        """Boolean mask (read-only) of points that enter fits: not excluded and finite."""
         mask = np.isfinite(self.p)
         for i in self.excluded:
             mask[i] = False
+        mask.setflags(write=False)
         return mask
 
     def reason(self, i: int) -> str:
@@ -110,6 +112,10 @@ class Series:
 
     def step(self) -> StepInfo:
         """Detect a regular step, allowing gaps that are whole multiples of it."""
+        return self._step
+
+    @cached_property
+    def _step(self) -> StepInfo:
         if self.t.size < 2:
             return StepInfo(False, None, None, "fewer than two times: no step can be found")
         diffs = np.diff(self.t)
@@ -120,7 +126,9 @@ class Series:
         if np.all(np.abs(ratio - index) * h <= STEP_TOLERANCE * max(span, h)):
             gaps = int(np.sum(np.rint(diffs / h) > 1))
             note = f"regular step h = {h:g}" + (f" with {gaps} gap(s)" if gaps else "")
-            return StepInfo(True, h, index.astype(int), note)
+            grid_index = index.astype(int)
+            grid_index.setflags(write=False)  # shared by every caller of the cached step
+            return StepInfo(True, h, grid_index, note)
         return StepInfo(
             False,
             None,

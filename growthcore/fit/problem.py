@@ -9,6 +9,7 @@ from typing import Callable, Mapping
 
 import numpy as np
 
+from growthcore.fit.lm import Evaluation
 from growthcore.fit.nls import jacobian
 from growthcore.fit.result import FitResult, Grid, ParameterEstimate
 from growthcore.models.base import ModelForm, ParamSpec
@@ -24,6 +25,8 @@ class Problem:
 
     ``predict`` maps a (k, m) array of free-parameter columns to (n, m) predicted states at the
     fitted points; residuals are observed minus predicted on the error scale (identity or log).
+    ``exact``, when given, evaluates the residuals of one parameter vector together with their
+    exact Jacobian (see :mod:`growthcore.fit.lm`).
     """
 
     model: str
@@ -39,6 +42,7 @@ class Problem:
     grid: Grid | None = None
     terms: tuple[str, ...] = ()
     settings: Mapping[str, object] | None = None
+    exact: Evaluation | None = None
 
     @property
     def lower(self) -> Array:

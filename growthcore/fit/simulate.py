@@ -27,6 +27,11 @@ def iterate(form: DifferenceForm, p0: Array | float, values: Mapping[str, Array 
         scalar = _iterate_scalar(form, p, values, steps, shape, size)
         if scalar is not None:
             return scalar
+    return _iterate_numpy(form, p, values, steps, shape)
+
+
+def _iterate_numpy(form: DifferenceForm, p: Array, values: Mapping[str, Array | float], steps: int,
+                   shape: tuple[int, ...]) -> Array:
     path = np.empty((steps + 1, *shape))
     p = np.broadcast_to(p, shape).astype(float)
     path[0] = p
@@ -46,25 +51,45 @@ def _common_shape(shapes: list[tuple[int, ...]]) -> tuple[int, ...]:
     return np.broadcast_shapes(*shapes)
 
 
+def path_of(form: DifferenceForm, p0: float, values: Mapping[str, float], steps: int) -> Array:
+    """States p_0 .. p_steps for one parameter set given as plain floats."""
+    try:
+        return np.array(_float_path(form, p0, values, steps))
+    except (ArithmeticError, ValueError, TypeError):
+        # Python floats raise (or turn complex) where numpy gives inf or nan: let numpy do it
+        return _iterate_numpy(form, np.asarray(p0, dtype=float), values, steps, ())
+
+
+def _float_path(form: DifferenceForm, p: float, values: Mapping[str, float], steps: int) -> list[float]:
+    out = [p]
+    append = out.append
+    if form.scalar_step is not None:
+        step = form.scalar_step(values)
+        for _ in range(steps):
+            p = step(p)
+            append(p)
+    else:
+        increment = form.increment
+        with np.errstate(all="ignore"):
+            for _ in range(steps):
+                p = p + increment(p, values)
+                append(p)
+    if isinstance(p, complex):  # a fractional power of a negative state: numpy gives nan instead
+        raise TypeError("the path left the real numbers")
+    return out
+
+
 def _iterate_scalar(form: DifferenceForm, p0: Array, values: Mapping[str, Array | float], steps: int,
                     shape: tuple[int, ...], size: int) -> Array | None:
     """The same iteration one parameter set at a time in Python floats; None if floats would raise."""
     starts = _floats(p0, shape, size)
     columns = {n: _floats(v, shape, size) for n, v in values.items()}
     path = np.empty((steps + 1, size))
-    increment = form.increment
     try:
-        with np.errstate(all="ignore"):
-            for j in range(size):
-                v = {n: c[j] for n, c in columns.items()}
-                p = starts[j]
-                out = [p]
-                for _ in range(steps):
-                    p = p + increment(p, v)
-                    out.append(p)
-                path[:, j] = out
-    except (ArithmeticError, ValueError):
-        return None  # Python floats raise where numpy gives inf or nan: let numpy do it
+        for j in range(size):
+            path[:, j] = _float_path(form, starts[j], {n: c[j] for n, c in columns.items()}, steps)
+    except (ArithmeticError, ValueError, TypeError):
+        return None
     return path.reshape((steps + 1, *shape))
 
 

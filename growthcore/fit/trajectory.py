@@ -9,16 +9,18 @@ error) or ln p − ln p̂ (log, i.e. multiplicative error).
 
 from __future__ import annotations
 
-from typing import Iterable, Iterator, Mapping
+from typing import Callable, Iterable, Iterator, Mapping, Sequence
 
 import numpy as np
 
 from growthcore.data import Series
 from growthcore.fit.increments import consecutive_pairs, fit_increments
+from growthcore.fit.lm import Evaluation, solve_exact
 from growthcore.fit.nls import NLSOutcome, solve
 from growthcore.fit.problem import P0_DIFFERENCE, Problem, build_result
 from growthcore.fit.result import FitResult, Grid, failed
-from growthcore.fit.simulate import iterate
+from growthcore.fit.sensitivity import path_jacobian
+from growthcore.fit.simulate import iterate, path_of
 from growthcore.fit.starts import capacity_guess, curve_starts
 from growthcore.models.base import CurveForm, DifferenceForm, ModelForm
 
@@ -66,13 +68,24 @@ def _too_few(model: str, error: str, form: ModelForm, n: int, k: int) -> FitResu
 def _best(problem: Problem, candidates: Iterable[Array]) -> NLSOutcome | None:
     """Try starts in order (they may be built lazily) until one converges to a good enough fit."""
     best = None
+    lower, upper = problem.lower, problem.upper
     for x0 in candidates:
-        outcome = solve(problem.residuals, x0, problem.lower, problem.upper, scale=problem.scale)
+        outcome = _solve_one(problem, x0, lower, upper)
         if outcome.finite and (best is None or outcome.sse < best.sse * (1 - 1e-9)):
             best = outcome
         if outcome.success and best is outcome and _good_enough(problem, outcome):
             break
     return best
+
+
+def _solve_one(problem: Problem, x0: Array, lower: Array, upper: Array) -> NLSOutcome:
+    """The exact-Jacobian solver where the problem has one, MINPACK where it stops short or at a bound."""
+    if problem.exact is not None:
+        outcome = solve_exact(problem.exact, x0, lower, upper, max_nfev=100 * (x0.size + 1))
+        if outcome.success and not np.any(np.isclose(outcome.x, lower, rtol=1e-7, atol=0.0)
+                                          | np.isclose(outcome.x, upper, rtol=1e-7, atol=0.0)):
+            return outcome
+    return solve(problem.residuals, x0, lower, upper, scale=problem.scale)
 
 
 def _good_enough(problem: Problem, outcome: NLSOutcome) -> bool:
@@ -90,7 +103,8 @@ def _finish(problem: Problem, best: NLSOutcome | None, form: ModelForm) -> FitRe
         return failed(problem.model, "trajectory", problem.error,
                       f"did not converge from any start: {best.message} (best SSE {best.sse:.6g}); "
                       "the form may not suit these data, or fix a constant", form=form)
-    return build_result(problem, best.x, message=f"nonlinear least squares on the path ({best.message})")
+    jac = -best.jac if best.jac is not None else None
+    return build_result(problem, best.x, jac=jac, message=f"nonlinear least squares on the path ({best.message})")
 
 
 def curve_problem(t: Array, p: Array, form: CurveForm, *, model: str, error: str,
@@ -143,7 +157,8 @@ def _fit_difference(series: Series, form: DifferenceForm, *, model: str, error: 
 
     grid = Grid(float(series.t[0]), float(step.h))
     problem = Problem(model, "trajectory", error, form, specs, free, dict(fixed), predict, t, p, grid=grid,
-                      terms=terms, settings={"fixed": dict(fixed), "t_first": float(series.t[0])})
+                      terms=terms, settings={"fixed": dict(fixed), "t_first": float(series.t[0])},
+                      exact=_path_evaluation(form, free, fixed, steps, offset, p, error))
     first = float(series.p[0]) if used[0] else float(p[0])
     k0 = capacity_guess(p)
     defaults = {"r": 0.5, "K": k0, "lambda": 1.6, "theta": 1.0, "A": 0.5 * float(np.min(p[p > 0])) if np.any(p > 0) else 1.0,
@@ -164,6 +179,33 @@ def _fit_difference(series: Series, form: DifferenceForm, *, model: str, error: 
 
     vectors = (np.array([problem.spec(n).clip(s.get(n, defaults.get(n, 1.0))) for n in free]) for s in seeds())
     return _finish(problem, _best(problem, vectors), form)
+
+
+def _path_evaluation(form: DifferenceForm, free: tuple[str, ...], fixed: Mapping[str, float], steps: int,
+                     offset: Array, observed: Array, error: str) -> Evaluation:
+    """Residuals of one parameter vector and, on demand, their exact Jacobian by forward sensitivities."""
+    log = error == "log"
+    with np.errstate(all="ignore"):
+        target = np.log(observed) if log else observed
+    fixed = dict(fixed)
+
+    def evaluate(x: Sequence[float]) -> tuple[Array, Callable[[], Array]] | None:
+        values = {**fixed, **dict(zip(free, x))}
+        path = path_of(form, values["p0"], values, steps)
+        predicted = path[offset]
+        with np.errstate(all="ignore"):
+            residuals = target - (np.log(predicted) if log else predicted)
+        if not np.all(np.isfinite(residuals)):
+            return None
+
+        def jacobian() -> Array:
+            with np.errstate(all="ignore"):
+                sens = path_jacobian(form, values, free, path)[offset]
+                return -sens / predicted[:, None] if log else -sens
+
+        return residuals, jacobian
+
+    return evaluate
 
 
 def quick_seed(series: Series, form: DifferenceForm, guesses: Mapping[str, float]) -> dict[str, float] | None:

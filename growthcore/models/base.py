@@ -43,7 +43,10 @@ class DifferenceForm:
     """A difference equation p_{n+1} = p_n + Δ(p_n), with every rate constant per step h.
 
     ``increment`` gives Δ(p) and ``increment_dp`` its derivative dΔ/dp, so the map's
-    derivative is f'(p) = 1 + dΔ/dp. When Δ is linear in some constants, ``linear`` names them and
+    derivative is f'(p) = 1 + dΔ/dp. ``increment_partials`` gives ∂Δ/∂θ for the constants it
+    knows in closed form (trajectory fits take the rest by finite differences). ``scalar_step``,
+    given plain-float values, returns f as a function of one float: iterating one parameter set
+    in Python floats is several times faster than numpy on a single state. When Δ is linear in some constants, ``linear`` names them and
     ``basis`` returns one column per name for given values of the others: Δ = Σ coef_j · basis_j(p).
     The increments method then regresses the change on those columns through the origin.
     """
@@ -56,6 +59,8 @@ class DifferenceForm:
     increment_dp: StateFn
     linear: tuple[str, ...] = ()
     basis: Callable[[Array, Values], list[Array]] | None = None
+    increment_partials: Callable[[Array, Values], dict[str, Array]] | None = None
+    scalar_step: Callable[[Mapping[str, float]], Callable[[float], float]] | None = None
     needs_positive: bool = False
     notes: tuple[str, ...] = field(default_factory=tuple)
     kind: Literal["difference"] = "difference"

@@ -43,6 +43,9 @@ def custom_form(terms: Sequence[str]) -> DifferenceForm:
         k = capacity(v)
         return sum(v[n] * d.evaluate(p, k) for n, d in zip(names, derivatives))  # type: ignore[return-value]
 
+    def partials(p: Array, v: Values) -> dict[str, Array]:
+        return dict(zip(names, basis(p, v)))  # K enters the terms nonlinearly: left to finite differences
+
     params = tuple(ParamSpec(n, -INF, INF, f"coefficient of {t.canonical}", "") for n, t in zip(names, parsed))
     if uses_k:
         params = (*params, K_CAP)
@@ -54,6 +57,7 @@ def custom_form(terms: Sequence[str]) -> DifferenceForm:
         params=params,
         increment=increment,
         increment_dp=increment_dp,
+        increment_partials=partials,
         linear=names,
         basis=basis,
         notes=tuple(f"term {n}: {t.text}" for n, t in zip(names, parsed)),

@@ -1,0 +1,136 @@
+"""A small Levenberg–Marquardt solver for problems that supply their exact Jacobian.
+
+For a handful of constants and a few hundred residuals the cost of MINPACK's wrapper (shape checks,
+finite differences, one call per Jacobian column) outweighs the arithmetic. Here each iteration is
+one residual evaluation, one Jacobian when the step is accepted, and a k×k Cholesky solve in plain
+floats (numpy's per-call overhead dominates at this size). Bounds are kept by projecting the trial
+point; callers fall back to :func:`growthcore.fit.nls.solve` when this solver stops at a bound or
+does not converge.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Callable, Sequence
+
+import numpy as np
+
+from growthcore.fit.nls import STOP_REASONS, NLSOutcome
+
+Array = np.ndarray
+#: x (plain floats) ↦ (residuals, a function giving d residuals / dx at x), or None where not finite.
+Evaluation = Callable[[Sequence[float]], "tuple[Array, Callable[[], Array]] | None"]
+
+#: A step is taken when the sum of squares falls by at least this fraction of the predicted fall.
+ACCEPT_RATIO = 1e-4
+
+
+def solve_exact(
+    evaluate: Evaluation,
+    x0: Array,
+    lower: Array,
+    upper: Array,
+    *,
+    max_nfev: int,
+    ftol: float = 1e-12,
+    xtol: float = 1e-10,
+) -> NLSOutcome:
+    """Minimise the sum of squared residuals from ``x0`` within [lower, upper]; never raises.
+
+    Converged when the fall of the sum of squares that the next Gauss–Newton step predicts is at
+    most ``ftol`` of it, or when the step shrinks below ``xtol`` relative to x.
+    """
+    lo, hi = lower.tolist(), upper.tolist()
+    x = [min(max(v, a), b) for v, a, b in zip(np.asarray(x0, dtype=float).tolist(), lo, hi)]
+    out = evaluate(x)
+    if out is None:
+        return _stopped(x, 1, "the starting point gives a non-finite path")
+    r, jac = out[0], out[1]()
+    sse = float(r @ r)
+    normal = _normal_equations(jac, r)
+    if normal is None or not math.isfinite(sse):
+        return _stopped(x, 1, "the Jacobian is not finite at the start")
+    a, g = normal
+    scale = [max(a[i][i], 1e-300) for i in range(len(x))]
+    damping, growth, nfev = 1e-3, 2.0, 1
+    while nfev < max_nfev:
+        step = _damped_step(a, g, damping, scale)
+        if step is None:
+            damping, growth = damping * growth, growth * 2.0
+            continue
+        trial = [min(max(xi + si, l), h) for xi, si, l, h in zip(x, step, lo, hi)]
+        step = [ti - xi for ti, xi in zip(trial, x)]
+        predicted = -(2.0 * _dot(step, g) + _quadratic(a, step))
+        if predicted <= ftol * sse and _newton_fall(a, g) <= ftol * sse:
+            return _converged(x, r, sse, jac, 1 if predicted > 0 else 4, nfev)
+        if math.sqrt(_dot(step, step)) <= xtol * (math.sqrt(_dot(x, x)) + xtol):
+            return _converged(x, r, sse, jac, 2, nfev)
+        out = evaluate(trial)
+        nfev += 1
+        sse_new = float(out[0] @ out[0]) if out is not None else math.inf
+        ratio = (sse - sse_new) / predicted if math.isfinite(sse_new) else -1.0
+        if ratio < ACCEPT_RATIO:
+            damping, growth = damping * growth, growth * 2.0
+            continue
+        assert out is not None
+        x, r, sse, jac = trial, out[0], sse_new, out[1]()
+        normal = _normal_equations(jac, r)
+        if normal is None:
+            return _stopped(x, nfev, "the Jacobian is not finite")
+        a, g = normal
+        scale = [max(s, a[i][i]) for i, s in enumerate(scale)]
+        damping *= max(1.0 / 3.0, 1.0 - (2.0 * ratio - 1.0) ** 3)
+        growth = 2.0
+    return NLSOutcome(np.array(x), r, sse, False, STOP_REASONS[5], nfev, True, jac)
+
+
+def _normal_equations(jac: Array, r: Array) -> tuple[list[list[float]], list[float]] | None:
+    a = jac.T @ jac
+    if not math.isfinite(float(a.sum())):
+        return None
+    return a.tolist(), (jac.T @ r).tolist()
+
+
+def _newton_fall(a: list[list[float]], g: list[float]) -> float:
+    """The fall of the sum of squares an undamped Gauss–Newton step predicts (inf if A is singular)."""
+    step = _damped_step(a, g, 0.0, [0.0] * len(g))
+    return -_dot(step, g) if step is not None else math.inf
+
+
+def _damped_step(a: list[list[float]], g: list[float], damping: float, scale: list[float]) -> list[float] | None:
+    """Solve (A + damping·diag(scale))·s = −g by Cholesky; None if the matrix is not positive definite."""
+    k = len(g)
+    low = [[0.0] * k for _ in range(k)]
+    for i in range(k):
+        row = a[i]
+        for j in range(i + 1):
+            total = row[j] + (damping * scale[i] if i == j else 0.0) - _dot(low[i][:j], low[j][:j])
+            if i == j:
+                if not total > 0.0:
+                    return None
+                low[i][i] = math.sqrt(total)
+            else:
+                low[i][j] = total / low[j][j]
+    y = [0.0] * k
+    for i in range(k):
+        y[i] = (-g[i] - _dot(low[i][:i], y[:i])) / low[i][i]
+    s = [0.0] * k
+    for i in reversed(range(k)):
+        s[i] = (y[i] - sum(low[j][i] * s[j] for j in range(i + 1, k))) / low[i][i]
+    return s
+
+
+def _dot(u: Sequence[float], v: Sequence[float]) -> float:
+    return sum(ui * vi for ui, vi in zip(u, v))
+
+
+def _quadratic(a: list[list[float]], s: list[float]) -> float:
+    return sum(si * _dot(row, s) for si, row in zip(s, a))
+
+
+def _converged(x: list[float], r: Array, sse: float, jac: Array, reason: int, nfev: int) -> NLSOutcome:
+    return NLSOutcome(np.array(x), r, sse, True, STOP_REASONS[reason], nfev, True, jac)
+
+
+def _stopped(x: list[float], nfev: int, message: str) -> NLSOutcome:
+    return NLSOutcome(np.array(x), np.array([]), math.inf, False, message, nfev, False)
