@@ -135,15 +135,17 @@ def covariance_and_condition(jac: Array, sse: float, dof: int) -> tuple[Array, f
     The SVD makes a singular J give NaN instead of garbage.
     """
     k = jac.shape[1]
-    if dof <= 0 or jac.size == 0 or not np.all(np.isfinite(jac)):
+    if dof <= 0 or jac.size == 0 or not np.isfinite(jac).all():
         return np.full((k, k), math.nan), math.nan
     _, s, vt = np.linalg.svd(jac, full_matrices=False)
-    condition = float(s[0] / s[-1]) if s.size and s[-1] > 0 else math.inf
-    tol = np.finfo(float).eps * max(jac.shape) * (s[0] if s.size else 0.0)
-    if s.size < k or np.any(s <= tol):
+    if s.size < k:
+        return np.full((k, k), math.nan), math.inf
+    largest, smallest = float(s[0]), float(s[-1])
+    condition = largest / smallest if smallest > 0 else math.inf
+    if smallest <= np.finfo(float).eps * max(jac.shape) * largest:
         return np.full((k, k), math.nan), condition
-    inv = (vt.T / s**2) @ vt
-    return inv * (sse / dof), condition
+    scaled = vt / s[:, None]
+    return (scaled.T @ scaled) * (sse / dof), condition
 
 
 def correlation(cov: Array) -> Array:
@@ -183,17 +185,21 @@ def residual_diagnostics(residuals: Array) -> Diagnostics:
     """
     e = np.asarray(residuals, dtype=float)
     ss = float(e @ e)
-    dw = float(np.sum(np.diff(e) ** 2) / ss) if ss > 0 and e.size > 1 else math.nan
+    if ss > 0 and e.size > 1:
+        change = e[1:] - e[:-1]
+        dw = float(change @ change) / ss
+    else:
+        dw = math.nan
     signs = np.sign(e[e != 0])
-    n_pos = int(np.sum(signs > 0))
-    n_neg = int(np.sum(signs < 0))
-    n = n_pos + n_neg
-    runs = int(1 + np.sum(signs[1:] != signs[:-1])) if n else 0
+    n = int(signs.size)
+    n_pos = int(np.count_nonzero(signs > 0))
+    n_neg = n - n_pos
+    runs = 1 + int(np.count_nonzero(signs[1:] != signs[:-1])) if n else 0
     if n_pos and n_neg and n > 1:
         expected = 2.0 * n_pos * n_neg / n + 1.0
         var = 2.0 * n_pos * n_neg * (2.0 * n_pos * n_neg - n) / (n * n * (n - 1))
         z = (runs - expected) / math.sqrt(var) if var > 0 else 0.0
-        p = float(special.erfc(abs(z) / math.sqrt(2.0)))
+        p = math.erfc(abs(z) / math.sqrt(2.0))
     else:
         expected, z, p = math.nan, math.nan, math.nan
     # Misfit of the mean function shows as long same-sign stretches: too few runs, DW well below 2.

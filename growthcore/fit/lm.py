@@ -11,6 +11,7 @@ does not converge.
 from __future__ import annotations
 
 import math
+from operator import mul
 from typing import Callable, Sequence
 
 import numpy as np
@@ -18,8 +19,9 @@ import numpy as np
 from growthcore.fit.nls import STOP_REASONS, NLSOutcome
 
 Array = np.ndarray
-#: x (plain floats) ↦ (residuals, a function giving d residuals / dx at x), or None where not finite.
-Evaluation = Callable[[Sequence[float]], "tuple[Array, Callable[[], Array]] | None"]
+#: x (plain floats) ↦ (residuals r, their sum of squares, a function giving M = d predictions / dx
+#: at x), or None where not finite. Residuals are observed − predicted, so dr/dx = −M.
+Evaluation = Callable[[Sequence[float]], "tuple[Array, float, Callable[[], Array]] | None"]
 
 #: A step is taken when the sum of squares falls by at least this fraction of the predicted fall.
 ACCEPT_RATIO = 1e-4
@@ -45,35 +47,34 @@ def solve_exact(
     out = evaluate(x)
     if out is None:
         return _stopped(x, 1, "the starting point gives a non-finite path")
-    r, jac = out[0], out[1]()
-    sse = float(r @ r)
+    r, sse, jac = out[0], out[1], out[2]()
     normal = _normal_equations(jac, r)
-    if normal is None or not math.isfinite(sse):
+    if normal is None:
         return _stopped(x, 1, "the Jacobian is not finite at the start")
     a, g = normal
     scale = [max(a[i][i], 1e-300) for i in range(len(x))]
     damping, growth, nfev = 1e-3, 2.0, 1
     while nfev < max_nfev:
-        step = _damped_step(a, g, damping, scale)
+        step = _solve_damped(a, g, damping, scale)
         if step is None:
             damping, growth = damping * growth, growth * 2.0
             continue
         trial = [min(max(xi + si, l), h) for xi, si, l, h in zip(x, step, lo, hi)]
         step = [ti - xi for ti, xi in zip(trial, x)]
-        predicted = -(2.0 * _dot(step, g) + _quadratic(a, step))
+        # the linear model's fall: ||r||² − ||r − M·s||² = 2·sᵀg − sᵀA·s
+        predicted = 2.0 * _dot(step, g) - _quadratic(a, step)
         if predicted <= ftol * sse and _newton_fall(a, g) <= ftol * sse:
             return _converged(x, r, sse, jac, 1 if predicted > 0 else 4, nfev)
         if math.sqrt(_dot(step, step)) <= xtol * (math.sqrt(_dot(x, x)) + xtol):
             return _converged(x, r, sse, jac, 2, nfev)
         out = evaluate(trial)
         nfev += 1
-        sse_new = float(out[0] @ out[0]) if out is not None else math.inf
-        ratio = (sse - sse_new) / predicted if math.isfinite(sse_new) else -1.0
+        ratio = (sse - out[1]) / predicted if out is not None else -1.0
         if ratio < ACCEPT_RATIO:
             damping, growth = damping * growth, growth * 2.0
             continue
         assert out is not None
-        x, r, sse, jac = trial, out[0], sse_new, out[1]()
+        x, r, sse, jac = trial, out[0], out[1], out[2]()
         normal = _normal_equations(jac, r)
         if normal is None:
             return _stopped(x, nfev, "the Jacobian is not finite")
@@ -85,6 +86,7 @@ def solve_exact(
 
 
 def _normal_equations(jac: Array, r: Array) -> tuple[list[list[float]], list[float]] | None:
+    """A = MᵀM and g = Mᵀr as nested lists, or None if M is not finite."""
     a = jac.T @ jac
     if not math.isfinite(float(a.sum())):
         return None
@@ -93,39 +95,48 @@ def _normal_equations(jac: Array, r: Array) -> tuple[list[list[float]], list[flo
 
 def _newton_fall(a: list[list[float]], g: list[float]) -> float:
     """The fall of the sum of squares an undamped Gauss–Newton step predicts (inf if A is singular)."""
-    step = _damped_step(a, g, 0.0, [0.0] * len(g))
-    return -_dot(step, g) if step is not None else math.inf
+    step = _solve_damped(a, g, 0.0, [0.0] * len(g))
+    return _dot(step, g) if step is not None else math.inf
 
 
-def _damped_step(a: list[list[float]], g: list[float], damping: float, scale: list[float]) -> list[float] | None:
-    """Solve (A + damping·diag(scale))·s = −g by Cholesky; None if the matrix is not positive definite."""
+def _solve_damped(a: list[list[float]], g: list[float], damping: float, scale: list[float]) -> list[float] | None:
+    """Solve (A + damping·diag(scale))·s = g by Cholesky; None if that matrix is not positive definite."""
     k = len(g)
-    low = [[0.0] * k for _ in range(k)]
+    low: list[list[float]] = []
     for i in range(k):
-        row = a[i]
-        for j in range(i + 1):
-            total = row[j] + (damping * scale[i] if i == j else 0.0) - _dot(low[i][:j], low[j][:j])
-            if i == j:
-                if not total > 0.0:
-                    return None
-                low[i][i] = math.sqrt(total)
-            else:
-                low[i][j] = total / low[j][j]
+        row, li = a[i], [0.0] * k
+        for j in range(i):
+            lj, total = low[j], row[j]
+            for m in range(j):
+                total -= li[m] * lj[m]
+            li[j] = total / lj[j]
+        total = row[i] + damping * scale[i]
+        for m in range(i):
+            total -= li[m] * li[m]
+        if not total > 0.0:
+            return None
+        li[i] = math.sqrt(total)
+        low.append(li)
     y = [0.0] * k
     for i in range(k):
-        y[i] = (-g[i] - _dot(low[i][:i], y[:i])) / low[i][i]
-    s = [0.0] * k
+        total, li = g[i], low[i]
+        for m in range(i):
+            total -= li[m] * y[m]
+        y[i] = total / li[i]
     for i in reversed(range(k)):
-        s[i] = (y[i] - sum(low[j][i] * s[j] for j in range(i + 1, k))) / low[i][i]
-    return s
+        total = y[i]
+        for m in range(i + 1, k):
+            total -= low[m][i] * y[m]
+        y[i] = total / low[i][i]
+    return y
 
 
 def _dot(u: Sequence[float], v: Sequence[float]) -> float:
-    return sum(ui * vi for ui, vi in zip(u, v))
+    return sum(map(mul, u, v))
 
 
 def _quadratic(a: list[list[float]], s: list[float]) -> float:
-    return sum(si * _dot(row, s) for si, row in zip(s, a))
+    return sum(si * sum(map(mul, row, s)) for si, row in zip(s, a))
 
 
 def _converged(x: list[float], r: Array, sse: float, jac: Array, reason: int, nfev: int) -> NLSOutcome:

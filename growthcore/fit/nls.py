@@ -39,7 +39,7 @@ class NLSOutcome:
     message: str
     nfev: int
     finite: bool
-    jac: Array | None = None  # d residuals / dx at x, when the solver had it exactly
+    jac: Array | None = None  # d predictions (on the error scale) / dx at x, when the solver had it exactly
 
 
 def _steps(x: Array, rel: float) -> Array:

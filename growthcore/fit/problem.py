@@ -44,13 +44,20 @@ class Problem:
     settings: Mapping[str, object] | None = None
     exact: Evaluation | None = None
 
-    @property
+    @cached_property
     def lower(self) -> Array:
         return np.array([self.spec(n).lower for n in self.free])
 
-    @property
+    @cached_property
     def upper(self) -> Array:
         return np.array([self.spec(n).upper for n in self.free])
+
+    @cached_property
+    def spread(self) -> float:
+        """The sum of squares of the observations about their mean, on the error scale."""
+        target = self._target[:, 0]
+        centred = target - target.mean()
+        return float(centred @ centred)
 
     def spec(self, name: str) -> ParamSpec:
         for s in self.specs:
@@ -97,22 +104,22 @@ def build_result(
     k = x.size
     with np.errstate(all="ignore"):
         predicted = problem.predict(x[:, None])[:, 0]
-        residuals = problem.scaled(problem.observed) - problem.scaled(predicted)
+        residuals = problem._target[:, 0] - problem.scaled(predicted)
         if jac is None:
             jac = -jacobian(problem.residuals, x) if k else np.zeros((residuals.size, 0))
     n = residuals.size
     sse = float(residuals @ residuals)
     dof = n - k
     cov, condition = covariance_and_condition(jac, sse, dof) if k else (np.zeros((0, 0)), math.nan)
+    cov_finite = bool(np.isfinite(cov).all())
     tq = t_quantile(0.975, dof) if dof > 0 else math.nan
     notes_out = list(notes)
     estimates = []
-    free_index = {name: i for i, name in enumerate(problem.free)}
+    free_values = dict(zip(problem.free, zip(x.tolist(), cov.diagonal().tolist())))
     for spec in problem.specs:
-        if spec.name in free_index:
-            i = free_index[spec.name]
-            value = float(x[i])
-            se = math.sqrt(cov[i, i]) if math.isfinite(cov[i, i]) and cov[i, i] >= 0 else math.nan
+        if spec.name in free_values:
+            value, var = free_values[spec.name]
+            se = math.sqrt(var) if var >= 0 else math.nan  # NaN fails the comparison too
             ci = (value - tq * se, value + tq * se) if math.isfinite(se) and math.isfinite(tq) else None
             at_bound = _at_bound(value, spec)
             if at_bound:
@@ -126,14 +133,14 @@ def build_result(
                 ParameterEstimate(spec.name, float(problem.fixed[spec.name]), None, None, True, False,
                                   spec.description, spec.unit)
             )
-    if k and not np.all(np.isfinite(cov)):
+    if k and not cov_finite:
         notes_out.append("the Jacobian is singular at the optimum: the constants are not separately identifiable")
     elif k and condition > 1e10:
         notes_out.append(f"ill-conditioned fit (condition number {condition:.2g}): standard errors are fragile")
     if dof <= 0:
         notes_out.append("no residual degrees of freedom: no standard errors")
     metrics = fit_metrics(residuals, problem.observed, predicted, k, r2_uncentered=r2_uncentered)
-    corr = correlation(cov) if k and np.all(np.isfinite(cov)) else None
+    corr = correlation(cov) if k and cov_finite else None
     settings = dict(problem.settings or {})
     return FitResult(
         model=problem.model,

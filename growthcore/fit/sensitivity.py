@@ -26,19 +26,18 @@ SAFE_PRODUCT_LOW, SAFE_PRODUCT_HIGH = 1e-150, 1e150
 def path_jacobian(form: DifferenceForm, values: Mapping[str, float], free: Sequence[str], path: Array) -> Array:
     """d p_n / d θ for n = 0..N along ``path`` (its states p_0..p_N), one column per free constant.
 
-    ``p0`` may be among ``free``; every other name must be a constant of ``form``.
+    ``p0`` may be among ``free``; every other name must be a constant of ``form``. Runs under the
+    caller's ``np.errstate``: a path near overflow gives inf or nan entries, which callers check.
     """
     states = path[:-1]
     multiplier = 1.0 + form.increment_dp(states, values)
     known = form.increment_partials(states, values) if form.increment_partials is not None else {}
-    forcing = np.empty((states.size, len(free)))
-    for j, name in enumerate(free):
-        if name == "p0":
-            forcing[:, j] = 0.0
-        else:
-            forcing[:, j] = known[name] if name in known else _central_partial(form, states, values, name)
-    start = np.array([1.0 if name == "p0" else 0.0 for name in free])
-    return _linear_recursion(multiplier, forcing, start)
+    zero = np.zeros(states.shape)
+    forcing = np.array([
+        zero if name == "p0" else known[name] if name in known else _central_partial(form, states, values, name)
+        for name in free
+    ]).T
+    return _linear_recursion(multiplier, forcing, np.array([1.0 if name == "p0" else 0.0 for name in free]))
 
 
 def _linear_recursion(a: Array, b: Array, s0: Array) -> Array:
@@ -52,14 +51,14 @@ def _linear_recursion(a: Array, b: Array, s0: Array) -> Array:
     out[0] = s0
     if a.size == 0:
         return out
-    with np.errstate(all="ignore"):
-        products = np.cumprod(a)[:, None]
-        size = np.abs(products)
-        if size.min() > SAFE_PRODUCT_LOW and size.max() < SAFE_PRODUCT_HIGH:
-            cumulative = np.cumsum(b / products, axis=0)
-            cumulative += s0
-            np.multiply(products, cumulative, out=out[1:])
-            return out
+    products = a.cumprod()[:, None]
+    smallest = products.min()
+    size = products if smallest > 0.0 else np.abs(products)
+    if (smallest if smallest > 0.0 else size.min()) > SAFE_PRODUCT_LOW and size.max() < SAFE_PRODUCT_HIGH:
+        cumulative = (b / products).cumsum(axis=0)
+        cumulative += s0
+        np.multiply(products, cumulative, out=out[1:])
+        return out
     s = s0.tolist()
     rows = b.tolist()
     for n, (an, bn) in enumerate(zip(a.tolist(), rows), start=1):

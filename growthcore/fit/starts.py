@@ -16,15 +16,16 @@ def capacity_guess(p: Array) -> float:
 
     Falls back to 1.1 × the largest value when that line does not slope down.
     """
-    fallback = 1.1 * float(np.max(p)) if p.size and np.max(p) > 0 else 1.0
-    if p.size < 3 or np.any(p[:-1] <= 0):
+    top = float(p.max()) if p.size else 0.0
+    fallback = 1.1 * top if top > 0 else 1.0
+    if p.size < 3 or not p[:-1].min() > 0:
         return fallback
     x = p[:-1]
-    y = np.diff(p) / x
+    y = (p[1:] - x) / x
     b, a = _line(x, y)
     if b < 0 and a > 0:
         k = -a / b
-        if 0.5 * np.max(p) < k < 5.0 * np.max(p):
+        if 0.5 * top < k < 5.0 * top:
             return float(k)
     return fallback
 

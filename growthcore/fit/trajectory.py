@@ -9,6 +9,7 @@ error) or ln p − ln p̂ (log, i.e. multiplicative error).
 
 from __future__ import annotations
 
+import math
 from typing import Callable, Iterable, Iterator, Mapping, Sequence
 
 import numpy as np
@@ -82,16 +83,18 @@ def _solve_one(problem: Problem, x0: Array, lower: Array, upper: Array) -> NLSOu
     """The exact-Jacobian solver where the problem has one, MINPACK where it stops short or at a bound."""
     if problem.exact is not None:
         outcome = solve_exact(problem.exact, x0, lower, upper, max_nfev=100 * (x0.size + 1))
-        if outcome.success and not np.any(np.isclose(outcome.x, lower, rtol=1e-7, atol=0.0)
-                                          | np.isclose(outcome.x, upper, rtol=1e-7, atol=0.0)):
+        if outcome.success and not _near_bound(outcome.x.tolist(), lower.tolist(), upper.tolist()):
             return outcome
     return solve(problem.residuals, x0, lower, upper, scale=problem.scale)
 
 
+def _near_bound(x: list[float], lower: list[float], upper: list[float]) -> bool:
+    return any(math.isfinite(b) and abs(v - b) <= 1e-7 * abs(b) for v, lo, hi in zip(x, lower, upper) for b in (lo, hi))
+
+
 def _good_enough(problem: Problem, outcome: NLSOutcome) -> bool:
     """A converged start is accepted unless residuals are large beside the spread of the data."""
-    spread = float(np.var(problem.scaled(problem.observed))) * problem.observed.size
-    return outcome.sse < 0.5 * spread
+    return outcome.sse < 0.5 * problem.spread
 
 
 def _finish(problem: Problem, best: NLSOutcome | None, form: ModelForm) -> FitResult:
@@ -103,8 +106,7 @@ def _finish(problem: Problem, best: NLSOutcome | None, form: ModelForm) -> FitRe
         return failed(problem.model, "trajectory", problem.error,
                       f"did not converge from any start: {best.message} (best SSE {best.sse:.6g}); "
                       "the form may not suit these data, or fix a constant", form=form)
-    jac = -best.jac if best.jac is not None else None
-    return build_result(problem, best.x, jac=jac, message=f"nonlinear least squares on the path ({best.message})")
+    return build_result(problem, best.x, jac=best.jac, message=f"nonlinear least squares on the path ({best.message})")
 
 
 def curve_problem(t: Array, p: Array, form: CurveForm, *, model: str, error: str,
@@ -153,6 +155,9 @@ def _fit_difference(series: Series, form: DifferenceForm, *, model: str, error: 
 
     def predict(cols: Array) -> Array:
         values = problem.values(cols)
+        if cols.shape[1] == 1:  # one parameter set: the plain-float path
+            single = {n: float(np.asarray(v).reshape(-1)[0]) for n, v in values.items()}
+            return path_of(form, single["p0"], single, steps)[offset][:, None]
         return iterate(form, values["p0"], values, steps)[offset].reshape(offset.size, -1)
 
     grid = Grid(float(series.t[0]), float(step.h))
@@ -183,27 +188,32 @@ def _fit_difference(series: Series, form: DifferenceForm, *, model: str, error: 
 
 def _path_evaluation(form: DifferenceForm, free: tuple[str, ...], fixed: Mapping[str, float], steps: int,
                      offset: Array, observed: Array, error: str) -> Evaluation:
-    """Residuals of one parameter vector and, on demand, their exact Jacobian by forward sensitivities."""
-    log = error == "log"
-    with np.errstate(all="ignore"):
-        target = np.log(observed) if log else observed
-    fixed = dict(fixed)
+    """Residuals of one parameter vector and, on demand, the exact Jacobian of the predictions.
 
-    def evaluate(x: Sequence[float]) -> tuple[Array, Callable[[], Array]] | None:
-        values = {**fixed, **dict(zip(free, x))}
+    Runs under the caller's ``np.errstate`` (:func:`growthcore.fit.fit` silences numpy warnings).
+    """
+    log = error == "log"
+    target = np.log(observed) if log else observed
+    base = dict(fixed)
+    whole = offset.size == steps + 1  # no gaps: the path itself is the prediction
+
+    def evaluate(x: Sequence[float]) -> tuple[Array, float, Callable[[], Array]] | None:
+        values = dict(base)
+        values.update(zip(free, x))
         path = path_of(form, values["p0"], values, steps)
-        predicted = path[offset]
-        with np.errstate(all="ignore"):
-            residuals = target - (np.log(predicted) if log else predicted)
-        if not np.all(np.isfinite(residuals)):
+        predicted = path if whole else path[offset]
+        residuals = target - (np.log(predicted) if log else predicted)
+        sse = float(residuals @ residuals)
+        if not math.isfinite(sse):
             return None
 
         def jacobian() -> Array:
-            with np.errstate(all="ignore"):
-                sens = path_jacobian(form, values, free, path)[offset]
-                return -sens / predicted[:, None] if log else -sens
+            sens = path_jacobian(form, values, free, path)
+            if not whole:
+                sens = sens[offset]
+            return sens / predicted[:, None] if log else sens
 
-        return residuals, jacobian
+        return residuals, sse, jacobian
 
     return evaluate
 
@@ -215,10 +225,17 @@ def quick_seed(series: Series, form: DifferenceForm, guesses: Mapping[str, float
         return None
     _, x, y_next = pairs
     with np.errstate(all="ignore"):
-        design = np.column_stack(form.basis(x, {**guesses, **{n: 0.0 for n in form.linear}}))
-    if not np.all(np.isfinite(design)):
+        columns = form.basis(x, {**guesses, **{n: 0.0 for n in form.linear}})
+        change = y_next - x
+        if len(columns) == 1:  # the usual case: one coefficient, in closed form
+            column = np.broadcast_to(columns[0], x.shape)
+            size = float(column @ column)
+            coef = [float(column @ change) / size if size > 0 else math.nan]
+        else:
+            design = np.column_stack(columns)
+            if not np.isfinite(design).all():
+                return None
+            coef = np.linalg.lstsq(design, change, rcond=None)[0].tolist()
+    if not all(math.isfinite(c) for c in coef):
         return None
-    coef = np.linalg.lstsq(design, y_next - x, rcond=None)[0]
-    if not np.all(np.isfinite(coef)):
-        return None
-    return {**{n: guesses[n] for n in form.shape if n in guesses}, **dict(zip(form.linear, map(float, coef)))}
+    return {**{n: guesses[n] for n in form.shape if n in guesses}, **dict(zip(form.linear, coef))}
