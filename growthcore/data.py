@@ -137,6 +137,19 @@ class Series:
             "difference-equation forms need a regular grid; the curve forms serve irregular times",
         )
 
+    @cached_property
+    def consecutive(self) -> tuple[np.ndarray, np.ndarray, np.ndarray] | str:
+        """(positions i, p_i, p_{i+1}) for used points one grid step apart, or why there are none."""
+        step = self.step()
+        if not step.regular or step.index is None:
+            return step.message
+        used = self.used
+        i = np.flatnonzero((np.diff(step.index) == 1) & used[:-1] & used[1:])
+        pairs = (i, self.p[i], self.p[i + 1])
+        for a in pairs:
+            a.setflags(write=False)
+        return pairs
+
     def to_points(self) -> list[dict[str, object]]:
         """The points as plain records: t, p, whether used, and the reason when not."""
         used = self.used

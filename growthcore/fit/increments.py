@@ -28,13 +28,7 @@ Array = np.ndarray
 
 def consecutive_pairs(series: Series) -> tuple[Array, Array, Array] | str:
     """(positions i, p_i, p_{i+1}) for used points one grid step apart, or why there are none."""
-    step = series.step()
-    if not step.regular or step.index is None:
-        return step.message
-    used = series.used
-    index = step.index
-    i = np.flatnonzero((np.diff(index) == 1) & used[:-1] & used[1:])
-    return i, series.p[i], series.p[i + 1]
+    return series.consecutive
 
 
 def fit_increments(

@@ -56,7 +56,7 @@ class Problem:
     def spread(self) -> float:
         """The sum of squares of the observations about their mean, on the error scale."""
         target = self._target[:, 0]
-        centred = target - target.mean()
+        centred = target - float(target.sum()) / target.size
         return float(centred @ centred)
 
     def spec(self, name: str) -> ParamSpec:

@@ -32,7 +32,7 @@ def capacity_guess(p: Array) -> float:
 
 def _line(x: Array, y: Array) -> tuple[float, float]:
     """Slope and intercept of the least-squares line (closed form; polyfit's overhead is not needed)."""
-    xm, ym = float(x.mean()), float(y.mean())
+    xm, ym = float(x.sum()) / x.size, float(y.sum()) / y.size
     dx = x - xm
     sxx = float(dx @ dx)
     slope = float(dx @ (y - ym)) / sxx if sxx > 0 else 0.0

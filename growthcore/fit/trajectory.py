@@ -228,7 +228,7 @@ def quick_seed(series: Series, form: DifferenceForm, guesses: Mapping[str, float
         columns = form.basis(x, {**guesses, **{n: 0.0 for n in form.linear}})
         change = y_next - x
         if len(columns) == 1:  # the usual case: one coefficient, in closed form
-            column = np.broadcast_to(columns[0], x.shape)
+            column = columns[0] if np.shape(columns[0]) == x.shape else np.broadcast_to(columns[0], x.shape)
             size = float(column @ column)
             coef = [float(column @ change) / size if size > 0 else math.nan]
         else:
