@@ -86,7 +86,7 @@ def fit(
         return fit_trajectory(series, form, model=model_id, error=error, fixed=fixed_now, start=start_now,
                               terms=terms_t, time_origin=time_origin)
 
-    if len(series.used.nonzero()[0]) < 3:
+    if np.count_nonzero(series.used) < 3:
         return failed(model_id, method, error, f"only {int(series.used.sum())} usable points: a fit needs at least 3", form=form)
     try:
         with np.errstate(all="ignore"):  # numerical trouble is reported through the status, not warnings

@@ -20,8 +20,9 @@ from growthcore.fit.nls import STOP_REASONS, NLSOutcome
 
 Array = np.ndarray
 #: x (plain floats) ↦ (residuals r, their sum of squares, a function giving M = d predictions / dx
-#: at x), or None where not finite. Residuals are observed − predicted, so dr/dx = −M.
-Evaluation = Callable[[Sequence[float]], "tuple[Array, float, Callable[[], Array]] | None"]
+#: at x, the predicted states), or None where not finite. Residuals are observed − predicted on the
+#: error scale, so dr/dx = −M.
+Evaluation = Callable[[Sequence[float]], "tuple[Array, float, Callable[[], Array], Array] | None"]
 
 #: A step is taken when the sum of squares falls by at least this fraction of the predicted fall.
 ACCEPT_RATIO = 1e-4
@@ -48,11 +49,11 @@ def solve_exact(
     """
     lo, hi = lower.tolist(), upper.tolist()
     x = [min(max(v, a), b) for v, a, b in zip(np.asarray(x0, dtype=float).tolist(), lo, hi)]
-    out = evaluate(x)
-    if out is None:
+    last = evaluate(x)
+    if last is None:
         return _stopped(x, 1, "the starting point gives a non-finite path")
-    r, sse, jac = out[0], out[1], out[2]()
-    normal = _normal_equations(jac, r)
+    sse, jac = last[1], last[2]()
+    normal = _normal_equations(jac, last[0])
     if normal is None:
         return _stopped(x, 1, "the Jacobian is not finite at the start")
     a, g = normal
@@ -70,25 +71,24 @@ def solve_exact(
         if predicted <= ftol * sse:
             newton = _solve_damped(a, g, 0.0, [0.0] * len(g))
             if newton is not None and _dot(newton, g) <= ftol * sse:
-                return _last_step(evaluate, x, r, sse, jac, newton, lo, hi, nfev)
+                return _last_step(evaluate, x, last, jac, newton, lo, hi, nfev)
         if math.sqrt(_dot(step, step)) <= xtol * (math.sqrt(_dot(x, x)) + xtol):
-            return _converged(x, r, sse, jac, 2, nfev)
+            return _converged(x, last, jac, 2, nfev)
         out = evaluate(trial)
         nfev += 1
         ratio = (sse - out[1]) / predicted if out is not None else -1.0
-        if ratio < ACCEPT_RATIO:
+        if out is None or ratio < ACCEPT_RATIO:
             damping, growth = damping * growth, growth * 2.0
             continue
-        assert out is not None
-        x, r, sse, jac = trial, out[0], out[1], out[2]()
-        normal = _normal_equations(jac, r)
+        x, last, sse, jac = trial, out, out[1], out[2]()
+        normal = _normal_equations(jac, last[0])
         if normal is None:
             return _stopped(x, nfev, "the Jacobian is not finite")
         a, g = normal
         scale = [max(s, a[i][i]) for i, s in enumerate(scale)]
         damping *= max(1.0 / 3.0, 1.0 - (2.0 * ratio - 1.0) ** 3)
         growth = 2.0
-    return NLSOutcome(np.array(x), r, sse, False, STOP_REASONS[5], nfev, True, jac)
+    return NLSOutcome(np.array(x), last[0], sse, False, STOP_REASONS[5], nfev, True, jac, last[3])
 
 
 def _normal_equations(jac: Array, r: Array) -> tuple[list[list[float]], list[float]] | None:
@@ -99,16 +99,16 @@ def _normal_equations(jac: Array, r: Array) -> tuple[list[list[float]], list[flo
     return a.tolist(), (jac.T @ r).tolist()
 
 
-def _last_step(evaluate: Evaluation, x: list[float], r: Array, sse: float, jac: Array, newton: list[float],
+def _last_step(evaluate: Evaluation, x: list[float], last: tuple, jac: Array, newton: list[float],
                lo: list[float], hi: list[float], nfev: int) -> NLSOutcome:
     """Converged at ``x``; take the final Gauss–Newton step if it keeps the sum of squares down."""
     final = [min(max(xi + si, l), h) for xi, si, l, h in zip(x, newton, lo, hi)]
     if final != x:
         out = evaluate(final)
         nfev += 1
-        if out is not None and out[1] <= sse:
-            return _converged(final, out[0], out[1], jac, 1, nfev)
-    return _converged(x, r, sse, jac, 1 if any(g != 0.0 for g in newton) else 4, nfev)
+        if out is not None and out[1] <= last[1]:
+            return _converged(final, out, jac, 1, nfev)
+    return _converged(x, last, jac, 1 if any(g != 0.0 for g in newton) else 4, nfev)
 
 
 def _solve_damped(a: list[list[float]], g: list[float], damping: float, scale: list[float]) -> list[float] | None:
@@ -151,8 +151,9 @@ def _quadratic(a: list[list[float]], s: list[float]) -> float:
     return sum(si * sum(map(mul, row, s)) for si, row in zip(s, a))
 
 
-def _converged(x: list[float], r: Array, sse: float, jac: Array, reason: int, nfev: int) -> NLSOutcome:
-    return NLSOutcome(np.array(x), r, sse, True, STOP_REASONS[reason], nfev, True, jac)
+def _converged(x: list[float], at_x: tuple, jac: Array, reason: int, nfev: int) -> NLSOutcome:
+    """``at_x`` is the evaluation at x: (residuals, sse, Jacobian function, predicted states)."""
+    return NLSOutcome(np.array(x), at_x[0], at_x[1], True, STOP_REASONS[reason], nfev, True, jac, at_x[3])
 
 
 def _stopped(x: list[float], nfev: int, message: str) -> NLSOutcome:

@@ -40,6 +40,7 @@ class NLSOutcome:
     nfev: int
     finite: bool
     jac: Array | None = None  # d predictions (on the error scale) / dx at x, when the solver had it exactly
+    predicted: Array | None = None  # the predicted states at x, when the solver had them
 
 
 def _steps(x: Array, rel: float) -> Array:

@@ -95,15 +95,20 @@ def build_result(
     *,
     message: str,
     jac: Array | None = None,
+    predicted: Array | None = None,
     notes: tuple[str, ...] = (),
     r2_uncentered: float | None = None,
     t_residual: Array | None = None,
 ) -> FitResult:
-    """Standard errors from the Jacobian at ``x``, t-based intervals, metrics and diagnostics."""
+    """Standard errors from the Jacobian at ``x``, t-based intervals, metrics and diagnostics.
+
+    ``jac`` (d predictions on the error scale / dx) and ``predicted`` are computed when not given.
+    """
     x = np.asarray(x, dtype=float)
     k = x.size
     with np.errstate(all="ignore"):
-        predicted = problem.predict(x[:, None])[:, 0]
+        if predicted is None:
+            predicted = problem.predict(x[:, None])[:, 0]
         residuals = problem._target[:, 0] - problem.scaled(predicted)
         if jac is None:
             jac = -jacobian(problem.residuals, x) if k else np.zeros((residuals.size, 0))

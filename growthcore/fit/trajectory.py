@@ -45,9 +45,8 @@ def fit_trajectory(
     """
     used = series.used
     t, p = series.t[used], series.p[used]
-    nonpositive = np.flatnonzero(used)[p <= 0]
-    if nonpositive.size and (error == "log" or form.needs_positive):
-        j = int(nonpositive[0])
+    if (error == "log" or form.needs_positive) and not p.min() > 0:
+        j = int(np.flatnonzero(used)[p <= 0][0])
         need = "log error needs p > 0" if error == "log" else f"{form.id} takes ln of the state, which needs p > 0"
         advice = " (exclude it or use additive error)" if error == "log" else ""
         return failed(model, "trajectory", error,
@@ -106,7 +105,8 @@ def _finish(problem: Problem, best: NLSOutcome | None, form: ModelForm) -> FitRe
         return failed(problem.model, "trajectory", problem.error,
                       f"did not converge from any start: {best.message} (best SSE {best.sse:.6g}); "
                       "the form may not suit these data, or fix a constant", form=form)
-    return build_result(problem, best.x, jac=best.jac, message=f"nonlinear least squares on the path ({best.message})")
+    return build_result(problem, best.x, jac=best.jac, predicted=best.predicted,
+                        message=f"nonlinear least squares on the path ({best.message})")
 
 
 def curve_problem(t: Array, p: Array, form: CurveForm, *, model: str, error: str,
@@ -166,8 +166,10 @@ def _fit_difference(series: Series, form: DifferenceForm, *, model: str, error: 
                       exact=_path_evaluation(form, free, fixed, steps, offset, p, error))
     first = float(series.p[0]) if used[0] else float(p[0])
     k0 = capacity_guess(p)
-    defaults = {"r": 0.5, "K": k0, "lambda": 1.6, "theta": 1.0, "A": 0.5 * float(np.min(p[p > 0])) if np.any(p > 0) else 1.0,
-                "c": 0.0, "p0": max(first, 1e-9)}
+    defaults = {"r": 0.5, "K": k0, "lambda": 1.6, "theta": 1.0, "c": 0.0, "p0": max(first, 1e-9)}
+    if "A" in free:
+        positive = p[p > 0]
+        defaults["A"] = 0.5 * float(positive.min()) if positive.size else 1.0
     shape_fixed = {n: v for n, v in fixed.items() if n != "p0"}
 
     def seeds() -> Iterator[dict[str, float]]:
@@ -197,7 +199,7 @@ def _path_evaluation(form: DifferenceForm, free: tuple[str, ...], fixed: Mapping
     base = dict(fixed)
     whole = offset.size == steps + 1  # no gaps: the path itself is the prediction
 
-    def evaluate(x: Sequence[float]) -> tuple[Array, float, Callable[[], Array]] | None:
+    def evaluate(x: Sequence[float]) -> tuple[Array, float, Callable[[], Array], Array] | None:
         values = dict(base)
         values.update(zip(free, x))
         path = path_of(form, values["p0"], values, steps)
@@ -213,7 +215,7 @@ def _path_evaluation(form: DifferenceForm, free: tuple[str, ...], fixed: Mapping
                 sens = sens[offset]
             return sens / predicted[:, None] if log else sens
 
-        return residuals, sse, jacobian
+        return residuals, sse, jacobian, predicted
 
     return evaluate
 
