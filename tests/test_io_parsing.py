@@ -120,3 +120,42 @@ def test_left_out_keeps_the_cell_as_written_and_in_row_order() -> None:
     assert r.series[0].time_column == "Zeit (h)"
     assert [(x.row, x.value) for x in r.report.left_out] == [(3, "x"), (5, "0,25")]
     assert "time column 'Zeit (h)' chosen by its header" in r.report.notes
+
+
+def test_clock_times_of_day_that_pass_midnight_continue_into_the_next_day() -> None:
+    """An overnight run logged by wall-clock time (invented readings): 24 h is added after 23:30."""
+    text = "clock,od\n22:30,0.10\n23:00,0.12\n23:30,0.15\n00:00,0.19\n00:30,0.24\n01:00,0.30\n"
+    r = load_bytes(text.encode(), "overnight.csv")
+    assert list(r.series[0].t) == [22.5, 23.0, 23.5, 24.0, 24.5, 25.0]
+    assert list(r.series[0].p) == [0.10, 0.12, 0.15, 0.19, 0.24, 0.30]
+    assert any("pass midnight at row(s) 5" in n for n in r.report.notes)
+
+
+def test_long_layout_restarts_are_not_read_as_midnight() -> None:
+    """Each series restarting at 0:00 is a new series, not a new day; the crossing is per series."""
+    text = ("well,clock,od\nA,23:00,0.1\nA,23:30,0.2\nA,00:00,0.3\nA,00:30,0.4\n"
+            "B,23:00,0.1\nB,23:30,0.2\nB,00:00,0.35\nB,00:30,0.5\n")
+    r = load_bytes(text.encode(), "plates.csv")
+    assert [list(s.t) for s in r.series] == [[23.0, 23.5, 24.0, 24.5]] * 2
+
+
+@pytest.mark.parametrize("clock, crossing", [
+    (["01:00", "03:00", "02:00", "04:00"], False),   # a shuffled row
+    (["01:00", "02:00", "03:00", "00:30"], False),   # the 'crossing' would be a 21.5 h step among 1 h steps
+    (["20:00", "22:00", "23:00", "01:00"], True),    # a 2 h step across midnight among 1-2 h steps
+], ids=["shuffled", "too-long-a-step", "crossing"])
+def test_midnight_needs_the_pattern_of_a_crossing(clock: list[str], crossing: bool) -> None:
+    text = "clock,od\n" + "".join(f"{c},{0.1 * (i + 1):.1f}\n" for i, c in enumerate(clock))
+    r = load_bytes(text.encode(), "odd.csv")
+    notes = "\n".join(r.report.notes)
+    assert ("pass midnight" in notes) is crossing
+    assert ("sorted by time" in notes) is not crossing
+    if crossing:
+        assert list(r.series[0].t) == [20.0, 22.0, 23.0, 25.0]
+
+
+def test_elapsed_durations_beyond_a_day_are_never_unwrapped() -> None:
+    text = "elapsed,od\n22:00:00,0.1\n30:00:00,0.2\n26:00:00,0.3\n40:00:00,0.4\n"
+    r = load_bytes(text.encode(), "elapsed.csv")
+    notes = "\n".join(r.report.notes)
+    assert "pass midnight" not in notes and list(r.series[0].t) == [22.0, 26.0, 30.0, 40.0]

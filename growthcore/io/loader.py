@@ -21,7 +21,7 @@ from growthcore.io.report import ImportReport, ImportResult, LeftOut, SeriesSumm
 from growthcore.io.sniff import decode_text, detect_format
 from growthcore.io.table import Table
 from growthcore.io.textsheet import read_text_table
-from growthcore.io.timeparse import UNIT_SECONDS, convert_time_column
+from growthcore.io.timeparse import UNIT_SECONDS, convert_time_column, midnight_wraps
 from growthcore.io.xlsxsheet import read_xlsx_table
 
 #: Fewest usable points a series needs for any fit.
@@ -219,7 +219,7 @@ class _Builder:
         out_series: list[Series] = []
         summaries: list[SeriesSummary] = []
         for sname, vcol, pts in groups:
-            made = self._series(sname, vcol, tcol, conv.unit, pts)
+            made = self._series(sname, vcol, tcol, conv.unit, pts, clock=conv.kind == "duration")
             if made is not None:
                 out_series.append(made[0])
                 summaries.append(made[1])
@@ -249,6 +249,24 @@ class _Builder:
             notes=tuple(self.notes),
         )
         return ImportResult(series=tuple(out_series), report=report)
+
+    def _unwrap_midnight(self, sname: str, tcol: Column, unit: str, pts: list[_Point]) -> None:
+        """Clock times of day that pass midnight: a day is added from each crossing on."""
+        day = UNIT_SECONDS["d"] / UNIT_SECONDS[unit]
+        wraps = midnight_wraps([p.t for p in pts], day)
+        if not wraps:
+            return
+        added = 0.0
+        crossings = set(wraps)
+        for i, point in enumerate(pts):
+            if i in crossings:
+                added += day
+            point.t += added
+        rows = ", ".join(str(pts[i].row) for i in wraps)
+        self.notes.append(
+            f"series {sname!r}: the clock times in column {tcol.label!r} pass midnight at row(s) {rows}; "
+            "read as the next day (24 h added from there on)"
+        )
 
     def _leave_out(self, row: int, col: Column, cell: object, reason: str, index: int) -> None:
         if cell is None and self.table.formula_at is not None:
@@ -295,8 +313,10 @@ class _Builder:
         return x
 
     def _series(
-        self, sname: str, vcol: Column, tcol: Column, unit: str, pts: list[_Point]
+        self, sname: str, vcol: Column, tcol: Column, unit: str, pts: list[_Point], *, clock: bool = False
     ) -> tuple[Series, SeriesSummary] | None:
+        if clock:
+            self._unwrap_midnight(sname, tcol, unit, pts)
         order = sorted(range(len(pts)), key=lambda k: (pts[k].t, k))
         if order != list(range(len(pts))):
             k = next(j for j in range(1, len(pts)) if pts[j].t < pts[j - 1].t)

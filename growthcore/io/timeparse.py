@@ -207,6 +207,27 @@ _KIND_WORDS = {
 }
 
 
+def midnight_wraps(times: Sequence[float], day: float) -> list[int] | None:
+    """Positions where clock times of day pass midnight, or None when the times are not such a run.
+
+    Times of day (all within [0, day)) that fall at some rows and rise everywhere else are read as
+    passing midnight there when adding a day at each fall makes them increase with steps no longer
+    than three times the usual one; shuffled rows almost never fit that pattern.
+    """
+    if len(times) < 3 or not all(0.0 <= v < day for v in times):
+        return None
+    falls = [i for i in range(1, len(times)) if times[i] < times[i - 1]]
+    rises = [times[i] - times[i - 1] for i in range(1, len(times)) if times[i] > times[i - 1]]
+    if not falls or not rises:
+        return None
+    usual = sorted(rises)[len(rises) // 2]
+    for i in falls:
+        step = times[i] + day - times[i - 1]
+        if not 0.0 < step <= 3.0 * usual:
+            return None
+    return falls
+
+
 def convert_time_column(
     cells: Sequence[object],
     rows: Sequence[int],
