@@ -14,6 +14,7 @@ HIGHLIGHT = "store-highlight"      # the observation under the pointer (clientsi
 
 # Data section
 UPLOAD = "data-upload"
+UPLOAD_REFUSED = "store-upload-refused"  # a file the browser refused as too large (set by upload_guard.js)
 SERIES_PICK = "data-series"
 MAP_TIME = "data-map-time"
 MAP_VALUE = "data-map-value"

@@ -12,10 +12,10 @@ from dash import no_update
 from app import ids
 from app.callbacks.capacity import update_capacity
 from app.callbacks.comparison import draw_comparison, next_sort
-from app.callbacks.data import import_source, on_import
+from app.callbacks.data import import_source, on_import, refused_message
 from app.callbacks.exclusions import clicked_index, update_exclusions
 from app.callbacks.explore import explore_panels
-from app.callbacks.fits import compute_fits, needs_refit_on_drag
+from app.callbacks.fits import compute_fits, needs_refit_on_drag, skip_refit
 from app.callbacks.panels import draw_panels
 from app.callbacks.settings import build_settings, check_terms, expand_forms
 from app.components.comparison import sort_rows
@@ -191,3 +191,24 @@ def test_series_picker_switches_between_series_of_one_file() -> None:
     out = on_import(None, 0, "R2", None, source, first, None, None, None, None, None, trigger=ids.SERIES_PICK)
     assert out[1]["name"] == "R2" and out[1]["key"] != first["key"]
     assert out[0] is no_update  # the file itself is unchanged
+
+
+def test_reopened_record_is_fitted_once_with_its_own_capacity() -> None:
+    """While a record's K is pending, the first guess the capacity control sets for the new data is not fitted."""
+    data = {"key": "abc"}
+    held = {"k_mode": "held", "method": "trajectory"}
+    pending = {"key": "abc", "value": 152.0}
+    assert skip_refit(ids.CAPACITY, 140.0, held, data, None, pending)          # the first guess: wait
+    assert not skip_refit(ids.CAPACITY, 152.0, held, data, None, pending)      # the record's K: fit
+    assert not skip_refit(ids.CAPACITY, 140.0, held, data, None, None)         # nothing pending: fit
+    assert not skip_refit(ids.CAPACITY, 140.0, held, {"key": "other"}, None, pending)  # pending for other data
+    previous = {"key": "abc", "capacity": 152.0}
+    assert skip_refit(ids.CAPACITY, 152.0, held, data, previous, None)          # same K again: nothing to do
+    assert skip_refit(ids.CAPACITY, 99.0, {"k_mode": "fitted"}, data, previous, None)  # K fitted: K changes are moot
+
+
+def test_file_refused_by_the_browser_gets_a_message() -> None:
+    message = refused_message({"name": "year.csv", "size": 25_000_000, "at": 1}, {"source": "demo.csv"}, 10_000_000)
+    flat = str(message.children)
+    assert "year.csv" in flat and "25,000,000 bytes" in flat and "10,000,000 bytes" in flat and "demo.csv" in flat
+    assert refused_message(None, None, 10_000_000) is no_update

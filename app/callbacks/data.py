@@ -94,8 +94,26 @@ def on_import(contents: str | None, _apply: int, pick: str | None, filename: str
             [html.Option(value=c) for c in columns], *clear)
 
 
+def refused_message(refused: Mapping[str, Any] | None, previous: Mapping[str, Any] | None,
+                    max_bytes: int) -> html.Div | Any:
+    """The message for a file the browser refused to send because it is far over the limit."""
+    if not refused or "name" not in refused:
+        return no_update
+    size = int(refused.get("size") or 0)
+    return failure_message(f"{refused['name']}: the file is {size:,} bytes, over the limit of {max_bytes:,} bytes; "
+                           "split it or raise the limit (growthcore serve --max-upload-mb)", previous)
+
+
 def register(app: Dash) -> None:
     max_bytes = int(app.server.config.get("GROWTHCORE_MAX_UPLOAD", DEFAULT_MAX_BYTES))
+
+    @app.callback(
+        Output(ids.DATA_MESSAGE, "children", allow_duplicate=True),
+        Input(ids.UPLOAD_REFUSED, "data"), State(ids.DATA, "data"),
+        prevent_initial_call=True,
+    )
+    def _refused(refused, previous):
+        return refused_message(refused, previous, max_bytes)
 
     @app.callback(
         Output(ids.SOURCE, "data"), Output(ids.DATA, "data"), Output(ids.DATA_MESSAGE, "children"),

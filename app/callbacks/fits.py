@@ -70,23 +70,33 @@ def compute_fits(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] |
     }
 
 
+def skip_refit(trigger: str | None, k: float | None, settings: Mapping[str, Any] | None,
+               data: Mapping[str, Any] | None, previous: Mapping[str, Any] | None,
+               pending: Mapping[str, Any] | None) -> bool:
+    """Whether a change leaves the fits as they are (the callback then sends nothing)."""
+    if trigger == ids.CAPACITY and settings is not None and settings.get("k_mode") == "fitted" and previous:
+        return True
+    if pending and pending.get("value") is not None and pending.get("key") == (data or {}).get("key") \
+            and k != pending["value"]:
+        return True  # a reopened record's K is on its way: fits with the first guess would be thrown away
+    return bool(previous and k == previous.get("capacity") and trigger in (ids.K_SLIDER, ids.CAPACITY)
+                and previous.get("key") == (data or {}).get("key"))
+
+
 def register(app: Dash) -> None:
     @app.callback(
         Output(ids.FITS, "data"),
         Input(ids.DATA, "data"), Input(ids.EXCLUSIONS, "data"), Input(ids.SETTINGS, "data"),
         Input(ids.CAPACITY, "data"), Input(ids.K_SLIDER, "drag_value"),
-        State(ids.FITS, "data"),
+        State(ids.FITS, "data"), State(ids.PENDING_CAPACITY, "data"),
     )
-    def _fits(data, exclusions, settings, capacity, drag, previous):
+    def _fits(data, exclusions, settings, capacity, drag, previous, pending):
         trigger = ctx.triggered_id
         k = capacity
         if trigger == ids.K_SLIDER:
             if not drag or settings is None or not needs_refit_on_drag(settings):
                 raise PreventUpdate
             k = rounded(float(drag))
-        elif trigger == ids.CAPACITY and settings is not None and settings.get("k_mode") == "fitted" and previous:
-            raise PreventUpdate
-        if previous and k == previous.get("capacity") and trigger in (ids.K_SLIDER, ids.CAPACITY) \
-                and previous.get("key") == (data or {}).get("key"):
+        if skip_refit(trigger, k, settings, data, previous, pending):
             raise PreventUpdate
         return compute_fits(data, exclusions, settings, k)

@@ -11,9 +11,10 @@ from growthcore.io.loader import TIME_UNITS
 
 def data_section(max_upload_bytes: int) -> html.Section:
     limit_mb = max_upload_bytes / 1_000_000
+    browser_limit = 2 * max_upload_bytes
     return html.Section([
         html.H2("Data", className="section-title"),
-        dcc.Upload(
+        html.Div(dcc.Upload(
             id=ids.UPLOAD,
             children=html.Div([
                 html.Span("Drop a CSV, TSV or XLSX file here, or "),
@@ -21,11 +22,13 @@ def data_section(max_upload_bytes: int) -> html.Section:
                 html.Div(f"up to {limit_mb:g} MB; the file stays in this browser tab", className="hint"),
             ]),
             className="upload", className_active="upload upload-active", className_reject="upload upload-reject",
-            # twice the limit reaches the server, which names the file and the limit in its message
-            max_size=2 * max_upload_bytes, multiple=False,
+            # up to twice the limit reaches the server, which names the file and the limit in its
+            # message; larger files the browser refuses, and assets/upload_guard.js says so
+            max_size=browser_limit, multiple=False,
             accept=".csv,.tsv,.txt,.xlsx,text/csv,text/tab-separated-values,"
                    "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet",
-        ),
+        ), **{"data-upload-limit": str(browser_limit), "data-refused-store": ids.UPLOAD_REFUSED}),
+        dcc.Store(id=ids.UPLOAD_REFUSED),
         html.Div(id=ids.DATA_MESSAGE, role="status", **{"aria-live": "polite"}),
         html.Div(id=ids.DATA_SUMMARY, className="data-summary"),
         html.Label("Series", htmlFor=ids.SERIES_PICK, className="field-label"),

@@ -188,6 +188,21 @@ def test_malformed_file_shows_message(server_url: str, make_driver: Any, artifac
     shot(driver, artifacts, "08-malformed")
 
 
+def test_file_far_over_the_limit_is_refused_with_a_message(server_url: str, make_driver: Any, tmp_path: Any) -> None:
+    """Over twice the limit the browser never sends the file; the page still says why nothing happened."""
+    driver = make_driver(1280, 800)
+    open_demo(driver, server_url)
+    big = tmp_path / "whole_year_export.csv"
+    with open(big, "wb") as handle:
+        handle.truncate(21_000_000)  # over twice the default 10 MB limit (sparse: nothing is written)
+    upload(driver, str(big))
+    wait(driver, lambda d: "Not read." in text(d, "data-message"))
+    message = text(driver, "data-message")
+    assert "whole_year_export.csv" in message and "21,000,000 bytes" in message and "10,000,000" in message
+    assert "still show algae_photobioreactor.csv" in message
+    assert len(comparison_rows(driver)) >= 4
+
+
 def test_two_sessions_do_not_share_data(server_url: str, make_driver: Any, artifacts: str, tmp_path: Any) -> None:
     first, second = make_driver(1280, 800), make_driver(1280, 800)
     open_demo(first, server_url)
