@@ -159,3 +159,21 @@ def test_elapsed_durations_beyond_a_day_are_never_unwrapped() -> None:
     r = load_bytes(text.encode(), "elapsed.csv")
     notes = "\n".join(r.report.notes)
     assert "pass midnight" not in notes and list(r.series[0].t) == [22.0, 26.0, 30.0, 40.0]
+
+
+@pytest.mark.parametrize("text", [
+    "h,a,b\n0,1.5,-2\n1,2.5e1,0\n2,+3.,.5\n3,4,5\n",                 # exponents, signs, a zero and a negative
+    "h,a,b\n0,1.5,2\n2,2.5,3\n1,3.5,4\n3,4,5\n",                   # unsorted: the general path sorts
+    "h,a,b\n0,1.5,2\n1,2.5,3\n1,3.5,4\n3,4,5\n",                   # a repeated time: the general path decides
+    "h,a,b\n0,1.5,2\n1,NA,3\n2,3.5,1e999\n3,4,5\n",                # a missing mark and an overflow: per cell
+])
+def test_whole_column_conversion_reads_as_the_per_cell_rules(text: str, monkeypatch: pytest.MonkeyPatch) -> None:
+    """The one-call conversion of clean columns gives the same series and report as the per-cell path."""
+    import growthcore.io.loader as loader
+
+    quick = load_bytes(text.encode(), "cols.csv")
+    monkeypatch.setattr(loader, "plain_number_column", lambda cells: None)
+    slow = load_bytes(text.encode(), "cols.csv")
+    assert [(s.name, list(s.t), list(s.p), s.rows) for s in quick.series] == \
+        [(s.name, list(s.t), list(s.p), s.rows) for s in slow.series]
+    assert quick.report.to_dict() == slow.report.to_dict()

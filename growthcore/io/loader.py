@@ -7,7 +7,7 @@ import math
 import hashlib
 import os
 from dataclasses import dataclass
-from typing import Sequence
+from typing import NamedTuple, Sequence
 
 import numpy as np
 
@@ -16,7 +16,7 @@ from growthcore.errors import ImportFailure
 from growthcore.io.headers import Column, find_header, make_columns
 from growthcore.io.layout import choose_layout, profile_columns
 from growthcore.io.numbers import (NumberFormat, detect_number_format, is_missing, parse_number, parse_plain_number,
-                                   thousands_separator)
+                                   plain_number_column, thousands_separator)
 from growthcore.io.report import ImportReport, ImportResult, LeftOut, SeriesSummary
 from growthcore.io.sniff import decode_text, detect_format
 from growthcore.io.table import Table
@@ -112,7 +112,11 @@ class _Point:
     row: int
     t: float
     p: float
-    raw: str = ""
+    cell: object = None  # the cell as read, labelled only when a message needs it
+
+    @property
+    def raw(self) -> str:
+        return "" if self.cell is None else _label(self.cell)
 
 
 class _Builder:
@@ -184,11 +188,13 @@ class _Builder:
                 bad_time_rows.add(i)
                 self._leave_out(rownums[i], tcol, tcells[i], why, data_idx[i])
 
-        groups: list[tuple[str, Column, list[_Point]]] = []
+        groups: list[tuple[str, Column, list[_Point] | _Columns]] = []
         if layout.series is not None:
             scol = layout.series
             vcol = layout.values[0]
             by_id: dict[str, list[_Point]] = {}
+            cells = [_cell(r, vcol.index) for r in rows]
+            quick = plain_number_column(cells) if fmt.decimal == "." else None
             for i, r in enumerate(rows):
                 if i in bad_time_rows:
                     continue
@@ -197,23 +203,27 @@ class _Builder:
                     self._leave_out(rownums[i], scol, sid, "blank series name", data_idx[i])
                     continue
                 key = _label(sid)
-                pv = self._value(r, i, vcol, fmt, rownums, data_idx)
+                pv = quick[i] if quick is not None else self._value(cells[i], i, vcol, fmt, rownums, data_idx)
                 if pv is not None:
-                    raw = _label(_cell(r, vcol.index))
-                    by_id.setdefault(key, []).append(_Point(rownums[i], conv.values[i], pv, raw))  # type: ignore[arg-type]
+                    by_id.setdefault(key, []).append(_Point(rownums[i], conv.values[i], pv, cells[i]))  # type: ignore[arg-type]
                 else:
                     by_id.setdefault(key, [])
             groups = [(k, vcol, pts) for k, pts in by_id.items()]
         else:
+            times = conv.values
             for vcol in layout.values:
-                pts = []
-                for i, r in enumerate(rows):
-                    if i in bad_time_rows:
-                        continue
-                    pv = self._value(r, i, vcol, fmt, rownums, data_idx)
-                    if pv is not None:
-                        raw = _label(_cell(r, vcol.index))
-                        pts.append(_Point(rownums[i], conv.values[i], pv, raw))  # type: ignore[arg-type]
+                cells = [_cell(r, vcol.index) for r in rows]
+                quick = plain_number_column(cells) if fmt.decimal == "." else None
+                if quick is not None and not bad_time_rows:  # the clean case, without per-cell checks
+                    pts = _Columns(rownums, times, quick, cells)  # type: ignore[arg-type]
+                else:
+                    pts = []
+                    for i, cell in enumerate(cells):
+                        if i in bad_time_rows:
+                            continue
+                        pv = quick[i] if quick is not None else self._value(cell, i, vcol, fmt, rownums, data_idx)
+                        if pv is not None:
+                            pts.append(_Point(rownums[i], times[i], pv, cell))  # type: ignore[arg-type]
                 groups.append((vcol.name, vcol, pts))
 
         out_series: list[Series] = []
@@ -279,9 +289,8 @@ class _Builder:
         self.left_out.append(LeftOut(row, col.label, "" if cell is None else _label(cell), reason))
 
     def _value(
-        self, r: Sequence[object], i: int, col: Column, fmt: NumberFormat, rownums: Sequence[int], data_idx: Sequence[int]
+        self, cell: object, i: int, col: Column, fmt: NumberFormat, rownums: Sequence[int], data_idx: Sequence[int]
     ) -> float | None:
-        cell = _cell(r, col.index)
         if cell is None:
             self._leave_out(rownums[i], col, cell, "blank value", data_idx[i])
             return None
@@ -313,8 +322,13 @@ class _Builder:
         return x
 
     def _series(
-        self, sname: str, vcol: Column, tcol: Column, unit: str, pts: list[_Point], *, clock: bool = False
+        self, sname: str, vcol: Column, tcol: Column, unit: str, pts: list[_Point] | _Columns, *, clock: bool = False
     ) -> tuple[Series, SeriesSummary] | None:
+        if isinstance(pts, _Columns):
+            quick = self._clean_series(sname, vcol, tcol, unit, pts)
+            if quick is not None:
+                return quick
+            pts = [_Point(n, t, v, c) for n, t, v, c in zip(pts.rows, pts.times, pts.values, pts.cells)]
         if clock:
             self._unwrap_midnight(sname, tcol, unit, pts)
         order = sorted(range(len(pts)), key=lambda k: (pts[k].t, k))
@@ -383,6 +397,33 @@ class _Builder:
         )
         summary = SeriesSummary(sname, tcol.label, unit, vcol.label, vcol.unit, len(merged), nonpos, tuple(averaged))
         return s, summary
+
+
+    def _clean_series(self, sname: str, vcol: Column, tcol: Column, unit: str,
+                      cols: _Columns) -> tuple[Series, SeriesSummary] | None:
+        """A column with every value plain and times strictly increasing, straight from arrays."""
+        t, p = np.array(cols.times, dtype=float), np.array(cols.values, dtype=float)
+        if t.size < MIN_POINTS or not (np.diff(t) > 0).all():
+            return None  # the general path sorts, merges or refuses, and says so
+        low = np.flatnonzero(p <= 0)
+        nonpos = tuple((cols.rows[i], float(t[i]), float(p[i])) for i in low.tolist())
+        if nonpos:
+            self.notes.append(
+                f"series {sname!r}: {len(nonpos)} value(s) <= 0 kept (rows {_ranges([n[0] for n in nonpos])}); "
+                "terms with ln need p > 0"
+            )
+        s = Series(t=t, p=p, name=sname, time_unit=unit, value_unit=vcol.unit, time_column=tcol.label,
+                   value_column=vcol.label, rows=tuple(cols.rows))
+        return s, SeriesSummary(sname, tcol.label, unit, vcol.label, vcol.unit, t.size, nonpos, ())
+
+
+class _Columns(NamedTuple):
+    """One value column whose every cell is a plain number, with the row numbers and times."""
+
+    rows: Sequence[int]
+    times: Sequence[float]
+    values: Sequence[float]
+    cells: Sequence[object]
 
 
 def _cell(row: Sequence[object], j: int) -> object:

@@ -2,9 +2,12 @@
 
 from __future__ import annotations
 
+import math
 import re
 from dataclasses import dataclass
-from typing import Iterable
+from typing import Iterable, Sequence
+
+import numpy as np
 
 #: Cell texts that mean "no value here"; they are reported as blanks, not as bad numbers.
 MISSING_MARKS = frozenset(
@@ -58,6 +61,36 @@ def parse_plain_number(text: str) -> float | None:
     except ValueError:
         return None
     return x if abs(x) != float("inf") else None
+
+
+_PLAIN_CHARS = frozenset("0123456789.+-eE")
+
+
+def plain_number_column(cells: Sequence[object]) -> list[float] | None:
+    """Every cell as a float when all are plain numbers written as text, else None.
+
+    The common case of a clean column in one numpy conversion instead of the per-cell rules. With
+    only digits, signs, points and exponents in the text, float() accepts exactly what
+    :func:`parse_plain_number` accepts; any other cell (blank, missing mark, grouping, a word, an
+    overflow) sends the whole column back to the per-cell rules, which name each problem.
+    """
+    if not cells:
+        return None
+    if all(type(c) is float or type(c) is int for c in cells):  # a workbook's saved numbers
+        numbers = [float(c) for c in cells]  # type: ignore[arg-type]
+        return numbers if all(math.isfinite(v) for v in numbers) else None
+    if not all(type(c) is str for c in cells):
+        return None
+    texts: list[str] = cells  # type: ignore[assignment]
+    if max(map(len, texts)) > 64 or not set("".join(texts)) <= _PLAIN_CHARS:
+        return None
+    try:
+        values = np.array(texts, dtype=float)
+    except ValueError:
+        return None
+    if not np.isfinite(values).all():
+        return None
+    return values.tolist()
 
 
 def parse_number(text: str, fmt: NumberFormat) -> float | None:
