@@ -69,7 +69,8 @@ def test_a_failing_callback_shows_our_message_not_a_traceback(app) -> None:
             {"id": ids.CAPACITY, "property": "data", "value": 3.0},
             {"id": ids.K_SLIDER, "property": "drag_value", "value": None},
         ],
-        "state": [{"id": ids.FITS, "property": "data", "value": None}],
+        "state": [{"id": ids.FITS, "property": "data", "value": None},
+                  {"id": ids.PENDING_CAPACITY, "property": "data", "value": None}],
         "changedPropIds": [f"{ids.DATA}.data"],
     }
     reply = client.post("/_dash-update-component", data=json.dumps(payload), content_type="application/json")

@@ -177,3 +177,16 @@ def test_whole_column_conversion_reads_as_the_per_cell_rules(text: str, monkeypa
     assert [(s.name, list(s.t), list(s.p), s.rows) for s in quick.series] == \
         [(s.name, list(s.t), list(s.p), s.rows) for s in slow.series]
     assert quick.report.to_dict() == slow.report.to_dict()
+
+
+def test_report_lists_every_column_and_the_series_not_read() -> None:
+    text = "Hours,Temp (C),A1,A2,Comment\n0,30,0.1,0.1,start\n1,30,0.2,,\n2,31,0.4,,\n3,31,0.8,,end\n"
+    r = load_bytes(text.encode(), "plate.csv", time="Hours", value=["A1", "A2"])
+    assert r.report.columns == ("Hours", "Temp (C)", "A1", "A2", "Comment")
+    assert r.report.not_read == (("A2", "only 1 usable point(s)"),)
+    assert [s.name for s in r.series] == ["A1"]
+    text_report = r.report.to_text()
+    assert "Columns (5): 'Hours', 'Temp (C)', 'A1', 'A2', 'Comment'" in text_report
+    assert "A2: not read (only 1 usable point(s))" in text_report
+    again = type(r.report).from_dict(r.report.to_dict())
+    assert again.columns == r.report.columns and again.not_read == r.report.not_read

@@ -87,7 +87,8 @@ def on_import(contents: str | None, _apply: int, pick: str | None, filename: str
         return (no_update, no_update, failure_message(message, previous), no_update, no_update,
                 no_update, no_update, no_update, *clear)
     names = data["series_names"]
-    columns = sorted({data["time_column"], data["value_column"]})
+    # every column of the file, so that the mapping fields can offer the ones the import did not pick
+    columns = data["report"].get("columns") or sorted({data["time_column"], data["value_column"]})
     ok = html.Div(f"Read {data['source']}: {len(names)} series.", className="message message-ok")
     return (source if new_upload else no_update, data, ok, summary(data), data["report_text"],
             [{"label": n, "value": n} for n in names], data["name"],

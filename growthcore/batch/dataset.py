@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import os
-import re
 from dataclasses import dataclass, field
 from typing import Mapping, Sequence
 
@@ -12,7 +11,6 @@ from growthcore.errors import GrowthcoreInputError, ImportFailure
 from growthcore.io import ImportReport, load_bytes
 from growthcore.batch.groups import groups_from_column, groups_from_pattern, members
 
-_NOT_READ = re.compile(r"^series (?P<name>'.*'|\".*\") not read: (?P<why>.*)$")
 
 
 @dataclass(frozen=True)
@@ -102,9 +100,4 @@ def load_batch(
         if loose:
             notes.append(f"{len(loose)} series have no value in column {groups!r} and are in no group: "
                          + ", ".join(loose[:10]) + (" ..." if len(loose) > 10 else ""))
-    not_read = []
-    for note in imported.report.notes:
-        m = _NOT_READ.match(note)
-        if m:
-            not_read.append((m.group("name")[1:-1], m.group("why")))
-    return BatchData(imported.series, mapping, name, imported.report, tuple(not_read), tuple(notes))
+    return BatchData(imported.series, mapping, name, imported.report, imported.report.not_read, tuple(notes))

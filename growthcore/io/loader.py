@@ -128,6 +128,7 @@ class _Builder:
         self.average = average_duplicates
         self.left_out: list[LeftOut] = []
         self.notes: list[str] = list(table.notes)
+        self.not_read: list[tuple[str, str]] = []
 
     def build(
         self,
@@ -257,6 +258,8 @@ class _Builder:
             series=tuple(summaries),
             left_out=tuple(sorted(self.left_out, key=lambda x: x.row if x.row is not None else 0)),
             notes=tuple(self.notes),
+            columns=tuple(c.label for c in columns),
+            not_read=tuple(self.not_read),
         )
         return ImportResult(series=tuple(out_series), report=report)
 
@@ -378,6 +381,7 @@ class _Builder:
                             f"series {sname!r} has only {len(merged)} usable point(s); at least {MIN_POINTS} are needed")
                 )
             self.notes.append(f"series {sname!r} not read: only {len(merged)} usable point(s)")
+            self.not_read.append((sname, f"only {len(merged)} usable point(s)"))
             return None
         nonpos = tuple((g.row, g.t, g.p) for g in merged if g.p <= 0)
         if nonpos:

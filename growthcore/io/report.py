@@ -79,6 +79,8 @@ class ImportReport:
     series: tuple[SeriesSummary, ...]
     left_out: tuple[LeftOut, ...]
     notes: tuple[str, ...]
+    columns: tuple[str, ...] = ()  # every column of the table, in file order, as labelled
+    not_read: tuple[tuple[str, str], ...] = ()  # (series, reason) for series found but not read
 
     def to_dict(self) -> dict[str, Any]:
         """Plain JSON-ready data; the keys are part of the fit record's format."""
@@ -98,6 +100,8 @@ class ImportReport:
             "series": [s.to_dict() for s in self.series],
             "left_out": [x.to_dict() for x in self.left_out],
             "notes": list(self.notes),
+            "columns": list(self.columns),
+            "not_read": [{"series": name, "reason": why} for name, why in self.not_read],
         }
 
     @classmethod
@@ -119,6 +123,8 @@ class ImportReport:
             series=tuple(SeriesSummary.from_dict(s) for s in d["series"]),
             left_out=tuple(LeftOut(x.get("row"), str(x["column"]), str(x["value"]), str(x["reason"])) for x in d["left_out"]),
             notes=tuple(str(n) for n in d["notes"]),
+            columns=tuple(str(c) for c in d.get("columns", [])),
+            not_read=tuple((str(x["series"]), str(x["reason"])) for x in d.get("not_read", [])),
         )
 
     def to_text(self, max_left_out: int = 50) -> str:
@@ -137,6 +143,8 @@ class ImportReport:
         lines.append(f"  header row  {self.header_row if self.header_row is not None else 'none (columns named by position)'}")
         lines.append(f"  layout      {self.layout}")
         lines.append(f"  rows read   {self.rows_read}")
+        if self.columns:
+            lines.append(f"Columns ({len(self.columns)}): " + ", ".join(repr(c) for c in self.columns))
         lines.append(f"Series ({len(self.series)}):")
         for s in self.series:
             tu = f" [{s.time_unit}]" if s.time_unit else " [no unit]"
@@ -151,6 +159,8 @@ class ImportReport:
                 lines.append(f"    {len(s.nonpositive)} value(s) <= 0 (rows {rows}{more}): terms with ln need p > 0")
             if s.averaged:
                 lines.append(f"    {len(s.averaged)} time(s) with repeated values averaged")
+        for name, why in self.not_read:
+            lines.append(f"  {name}: not read ({why})")
         lines.append(f"Left out ({len(self.left_out)}):")
         if not self.left_out:
             lines.append("  nothing")
