@@ -119,6 +119,13 @@ PLATE_BOX = "batch-plate-box"
 PLATE_QUANTITY = "batch-plate-quantity"
 PLATE = "batch-plate"
 BATCH_FAILED = "batch-failed"
+BATCH_TABLES = "batch-tables"            # the table download, group means and F test (after a run)
+BATCH_TABLE_BUTTON = "batch-table-button"
+BATCH_DOWNLOAD = "batch-download"
+GROUP_SUMMARY = "batch-group-summary"
+FTEST_CONSTANT = "batch-ftest-constant"
+FTEST_RUN = "batch-ftest-run"
+FTEST_RESULT = "batch-ftest-result"
 
 # Dynamics, uncertainty and forecast (panel 7, in DYNAMICS_SLOT)
 BOOT = "store-bootstrap"           # the bootstrap run in progress: request, partial refits, progress

@@ -219,8 +219,8 @@ def fit_chunk(job: Mapping[str, Any], batch: Mapping[str, Any], groups: Mapping[
                     fits[label] = {}
                     labels.append(label)
                 flat = row(sf, params, used.get(sf.series))
-                values = {k: flat[k] for k in (*params, *METRICS, "durbin_watson", "runs_p")
-                          if flat.get(k) is not None and k != "n"}
+                keys = (*params, *(f"{n}_se" for n in params), *METRICS, "durbin_watson", "runs_p")
+                values = {k: flat[k] for k in keys if flat.get(k) is not None and k != "n"}
                 panel = panels[sf.series]
                 fit_t, fit_p = _thin(panel["fit_t"], panel["fit_p"])
                 fits[label][sf.series] = {"status": sf.result.status, "message": sf.result.message,

@@ -96,4 +96,25 @@ def overview_section() -> html.Section:
                                    placeholder="fit the series first", className="dropdown")], className="batch-field"),
             dcc.Graph(id=ids.PLATE, config=GRAPH_CONFIG, className="batch-plate", figure={"data": [], "layout": {}}),
         ], id=ids.PLATE_BOX, hidden=True),
+        tables_box(),
     ], id=ids.SERIES_OVERVIEW, className="panel batch-panel", hidden=True, **{"aria-label": "Every series"})
+
+
+def tables_box() -> html.Div:
+    """The run's table as CSV, group means of the shown form, and the F test between groups."""
+    return html.Div([
+        html.Div([
+            html.Button("Download the table (CSV)", id=ids.BATCH_TABLE_BUTTON, n_clicks=0, className="button",
+                        type="button"),
+            html.Span("one row per series and fitted form: status, message, every constant and metric",
+                      className="hint"),
+            dcc.Download(id=ids.BATCH_DOWNLOAD),
+        ], className="batch-row"),
+        html.Div(id=ids.GROUP_SUMMARY),
+        html.Div([
+            html.Label("Do the groups differ in", htmlFor=ids.FTEST_CONSTANT, className="field-label"),
+            dcc.Dropdown(id=ids.FTEST_CONSTANT, options=[], value=None, clearable=False, className="dropdown"),
+            html.Button("Run the F test", id=ids.FTEST_RUN, n_clicks=0, className="button", type="button"),
+        ], className="batch-row batch-ftest"),
+        dcc.Loading(html.Div(id=ids.FTEST_RESULT, role="status", **{"aria-live": "polite"}), type="dot"),
+    ], id=ids.BATCH_TABLES, className="batch-tables", hidden=True)

@@ -249,3 +249,46 @@ def test_plate_overview_map_click_stop_and_groups(server_url: str, make_driver: 
     wait_idle(driver)
     scroll_to(driver, "series-overview")
     shot(driver, artifacts, "series-05-group-C")
+
+
+def test_group_means_f_test_and_table_download(server_url: str, make_driver: Any, artifacts: str,
+                                               tmp_path: Any) -> None:
+    """Invented tanks in two feeds: group means after the run, the F test on r, and the table as CSV."""
+    from selenium.webdriver.common.by import By
+    from selenium.webdriver.common.keys import Keys
+
+    rng = np.random.default_rng(4)
+    days = np.arange(25)
+    lines = ["Day,Tank,Feed,Count"]
+    for tank, feed, r in (("F1", "fed", 0.9), ("F2", "fed", 0.85), ("F3", "fed", 0.95),
+                          ("L1", "lean", 0.5), ("L2", "lean", 0.55), ("L3", "lean", 0.45)):
+        counts = 200 / (1 + 49 * np.exp(-r * days)) * np.exp(rng.normal(0, 0.02, days.size))
+        lines += [f"{d},{tank},{feed},{c:.3f}" for d, c in zip(days, counts)]
+    path = tmp_path / "invented_tanks_by_feed.csv"
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    downloads = tmp_path / "downloads"
+    downloads.mkdir()
+    driver = make_driver(1280, 900)
+    driver.execute_cdp_cmd("Browser.setDownloadBehavior", {"behavior": "allow", "downloadPath": str(downloads)})
+    _open_file(driver, server_url, str(path))
+    _set_forms(driver, {"Discrete logistic"})
+    driver.find_element(By.CSS_SELECTOR, "#slot-series details summary").click()
+    driver.find_element(By.CSS_SELECTOR, "#series-group-mode input[value=column]").click()
+    driver.find_element(By.ID, "series-group-text").send_keys("Feed", Keys.ENTER)
+    wait(driver, lambda d: "2 group(s) of 6 series" in text(d, "series-group-message"))
+    _run_to_end(driver, 6)
+    wait(driver, lambda d: "Group means of logistic" in text(d, "batch-group-summary"))
+    summary = text(driver, "batch-group-summary")
+    assert "fed" in summary and "lean" in summary and "95% interval of the mean" in summary
+    driver.find_element(By.ID, "batch-ftest-run").click()
+    wait(driver, lambda d: "F(" in text(d, "batch-ftest-result"), timeout=60)
+    result = text(driver, "batch-ftest-result")
+    assert "the groups differ at the 5% level" in result and "fed: r =" in result
+    scroll_to(driver, "batch-tables")
+    shot(driver, artifacts, "series-06-groups-ftest")
+    driver.find_element(By.ID, "batch-table-button").click()
+    wait(driver, lambda d: [f for f in os.listdir(downloads) if f.endswith(".csv")])
+    (name,) = [f for f in os.listdir(downloads) if f.endswith(".csv")]
+    assert name == "invented_tanks_by_feed-every-series.csv"
+    table = (downloads / name).read_text(encoding="utf-8").splitlines()
+    assert table[0].startswith("series,group,form,status,message") and len(table) == 7

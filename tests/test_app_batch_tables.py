@@ -1,0 +1,110 @@
+"""The table, group means and F test shown after a run over every series (pure functions, no browser).
+
+References: group means, SDs and t intervals against numpy and scipy.stats.t.interval; the F test
+view against the engine's growthcore.batch.group_difference_test on the same series; the CSV read
+back with pandas. The data are invented: two tanks per feed, fed and lean, with different rates.
+"""
+
+from __future__ import annotations
+
+import base64
+import csv
+import io
+import os
+from typing import Any
+
+import numpy as np
+import pandas as pd
+import pytest
+from scipy import stats
+
+from app.callbacks import batch_tables as B
+from app.callbacks import series as S
+from app.callbacks.data import import_source
+from growthcore.batch import group_difference_test
+
+SETTINGS = {"models": ["logistic"], "terms": [], "method": "trajectory", "error": "additive", "k_mode": "held"}
+
+
+def _source(path: str) -> dict[str, Any]:
+    with open(path, "rb") as fh:
+        raw = fh.read()
+    return {"filename": os.path.basename(path), "b64": base64.b64encode(raw).decode("ascii"), "max_bytes": 10_000_000}
+
+
+def _apply(patch: Any) -> dict[str, Any]:
+    """The chunk a Patch adds (the renderer applies the same operation to the store)."""
+    (op,) = patch.to_plotly_json()["operations"]
+    return {op["location"][1]: op["params"]["value"]}
+
+
+def _tanks(tmp_path: Any) -> tuple[dict[str, Any], dict[str, Any]]:
+    """Six invented tanks, three per feed; the fed tanks grow faster (r 0.9 against 0.5)."""
+    rng = np.random.default_rng(11)
+    t = np.arange(25)
+    lines = ["Day,Tank,Count"]
+    for i, (tank, r) in enumerate([("F1", 0.9), ("F2", 0.85), ("F3", 0.95), ("L1", 0.5), ("L2", 0.55), ("L3", 0.45)]):
+        p = 200 / (1 + (200 / 4 - 1) * np.exp(-r * t)) * np.exp(rng.normal(0, 0.02, t.size))
+        lines += [f"{d},{tank},{v:.3f}" for d, v in zip(t, p)]
+    path = tmp_path / "invented_tanks.csv"
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    source = _source(str(path))
+    batch = S.read_all_series(source, import_source(source), None)
+    groups = {"key": batch["key"], "groups": {n: ("fed" if n.startswith("F") else "lean") for n in batch["names"]}}
+    return batch, groups
+
+
+def _merged(batch: dict[str, Any]) -> tuple[list[str], dict[str, Any]]:
+    job, fits, progress, *_ = S.start_run(SETTINGS, batch, None, now=0.0)
+    for n in range(1, int(job["chunks"]) + 1):
+        patch, progress, _ = S.run_tick(n, job, batch, None, progress, None, now=float(n))
+        fits["chunks"].update(_apply(patch))
+    return S.merged_fits(fits, job, batch)
+
+
+def test_table_has_one_row_per_series_and_form_with_every_constant(tmp_path: Any) -> None:
+    batch, groups = _tanks(tmp_path)
+    labels, merged = _merged(batch)
+    text = B.table_csv(batch, labels, merged, groups["groups"])
+    table = pd.read_csv(io.StringIO(text))
+    assert list(table["series"]) == batch["names"] and set(table["group"]) == {"fed", "lean"}
+    assert {"r", "K", "p0", "r_se", "aicc"} <= set(table.columns) and (table["status"] == "converged").all()
+    assert table.loc[table["series"] == "F1", "r"].item() == pytest.approx(merged[labels[0]]["F1"]["values"]["r"])
+    assert list(csv.reader(io.StringIO(text)))[0][:5] == list(B.LEAD)
+
+
+def test_group_means_and_intervals_match_numpy_and_scipy(tmp_path: Any) -> None:
+    batch, groups = _tanks(tmp_path)
+    labels, merged = _merged(batch)
+    rows = B.summary_rows(labels[0], merged, groups["groups"], batch["names"])
+    fed_r = next(r for r in rows if r["constant"] == "r" and r["group"] == "fed")
+    values = np.array([merged[labels[0]][n]["values"]["r"] for n in ("F1", "F2", "F3")])
+    assert fed_r["n"] == 3 and fed_r["failed"] == 0
+    assert fed_r["mean"] == pytest.approx(values.mean()) and fed_r["sd"] == pytest.approx(values.std(ddof=1))
+    low, high = stats.t.interval(0.95, 2, loc=values.mean(), scale=stats.sem(values))
+    assert fed_r["ci"] == pytest.approx((low, high))
+    assert {r["constant"] for r in rows} == {"r", "K"} and len(rows) == 4
+    view = str(B.summary_view(labels[0], merged, groups["groups"], batch["names"]))
+    assert "Group means of logistic (trajectory)" in view and "fed" in view
+    assert "Make replicate groups" in str(B.summary_view(labels[0], merged, {}, batch["names"]))
+
+
+def test_f_test_view_reports_the_engine_test(tmp_path: Any) -> None:
+    batch, groups = _tanks(tmp_path)
+    labels, merged = _merged(batch)
+    assert B.testable(labels[0]) == ["r", "K"] and B.testable("logistic-curve (trajectory)") == ["K", "r"]
+    view = str(B.ftest_view(batch, groups["groups"], labels[0], "r", merged))
+    series = [S.series_from_plain(d) for d in batch["series"]]
+    engine = group_difference_test(series, [groups["groups"][s.name] for s in series], "logistic", "r")
+    assert engine.status == "done" and engine.p_value < 0.05
+    assert f"F({engine.df_reduced - engine.df_full}, {engine.df_full}) = {engine.f:.4g}" in view
+    assert "the groups differ at the 5% level" in view
+    assert f"fed: r = {engine.full.value('r', 'fed'):.4g}" in view
+    one_group = {n: "all" for n in batch["names"]}
+    assert "at least two groups" in str(B.ftest_view(batch, one_group, labels[0], "r", merged))
+
+
+def test_labels_name_the_form_and_error_model() -> None:
+    assert B.model_of("theta-logistic (trajectory, log error)") == ("theta-logistic", "log")
+    assert B.model_of("ricker+c (increments)") == ("ricker+c", "additive")
+    assert B.constants_of(None) == [] and B.constants_of("no-such-form (increments)") == []
