@@ -186,28 +186,30 @@ def test_grid_pages_partial_runs_failed_marks_and_shared_scales(tmp_path: Any) -
         fits["chunks"].update(_apply(patch))
     labels, merged = S.merged_fits(fits, job, batch)
     fig, view = S.grid_figure(batch, labels, merged, labels[0], names, 0, "A2", running=True)
-    points = [t for t in fig["data"] if t["meta"] == "points"]
-    lines = [t for t in fig["data"] if t["meta"] == "fit"]
-    assert [t["name"] for t in points] == names[:96]
-    assert len(lines) == 63          # 64 fitted, A2 failed; wells 65-96 not fitted yet: data only
+    panels = fig["layout"]["meta"]["panels"]
+    assert [p["series"] for p in panels] == names[:96]
+    assert sum(p["fitted"] for p in panels) == 63   # 64 fitted, A2 failed; wells 65-96 not fitted yet: data only
     title = fig["layout"]["title"]["text"]
     assert "series 1–96 of 384" in title and "fitted so far: 64 of 384" in title
     failed = [a["text"] for a in fig["layout"]["annotations"] if "fit failed" in a["text"]]
     assert failed == ["A2 · fit failed"]
-    # every panel on one scale that holds every point of the page
-    lo = min(v for t in points for v in t["y"] if v is not None)
-    hi = max(v for t in points for v in t["y"] if v is not None)
-    ranges = {tuple(v["range"]) for k, v in fig["layout"].items() if k.startswith("yaxis")}
-    assert len(ranges) == 1
-    (y0, y1), = ranges
-    assert y0 < lo and y1 > hi
+    # every panel on one scale that holds every point of the page: the height within a panel is one
+    # straight-line function of the value, the same in every panel
+    points = fig["data"][1]
+    boxes = {q["series"]: q["box"] for q in panels}
+    values = np.array([c[2] for c in points["customdata"]])
+    heights = np.array([(y - boxes[c[0]][2]) / (boxes[c[0]][3] - boxes[c[0]][2])
+                        for c, y in zip(points["customdata"], points["y"])])
+    slope, intercept = np.polyfit(values, heights, 1)
+    assert np.max(np.abs(slope * values + intercept - heights)) < 1e-9
+    assert 0 < heights.min() and heights.max() < 1
     # the frame sits round the panel of A2 (the second panel)
     frame = fig["layout"]["shapes"][0]
-    assert frame["visible"] and frame["x0"] < fig["layout"]["xaxis2"]["domain"][0] < frame["x1"]
-    assert view["boxes"]["A2"] == [*fig["layout"]["xaxis2"]["domain"], *fig["layout"]["yaxis2"]["domain"]]
+    assert frame["visible"] and frame["x0"] < panels[1]["box"][0] < frame["x1"]
+    assert view["boxes"]["A2"] == panels[1]["box"]
     # page 2 starts at the 97th well; E7 (the 103rd) is past the fitted chunks, so not marked failed
     fig2, _ = S.grid_figure(batch, labels, merged, labels[0], names, 1, "A2")
-    assert [t["name"] for t in fig2["data"] if t["meta"] == "points"][0] == names[96]
+    assert fig2["layout"]["meta"]["panels"][0]["series"] == names[96]
     assert not any("fit failed" in a["text"] for a in fig2["layout"]["annotations"])
     assert fig2["layout"]["shapes"][0]["visible"] is False
     assert "320 not fitted" in fig2["layout"]["title"]["text"]

@@ -27,19 +27,28 @@ def batch():
 
 
 def test_overview_grid_is_valid_and_marks_failed_fits(batch) -> None:  # type: ignore[no-untyped-def]
-    fig = overview_grid(overview_panels(batch, "logistic-curve"), columns=4)
+    panels_in = overview_panels(batch, "logistic-curve")
+    fig = overview_grid(panels_in, columns=4)
     go.Figure(fig)  # plotly validates every property
-    points = [d for d in fig["data"] if d["meta"] == "points"]
-    fits = [d for d in fig["data"] if d["meta"] == "fit"]
-    assert len(points) == 11 and len(fits) == 10
+    assert [d["meta"] for d in fig["data"]] == ["frames", "points", "fit"]  # three traces, however many series
+    panels = fig["layout"]["meta"]["panels"]
+    assert [p["series"] for p in panels] == [p["series"] for p in panels_in]
+    assert sum(p["fitted"] for p in panels) == 10
     failed = [a for a in fig["layout"]["annotations"] if "fit failed" in a["text"]]
     assert len(failed) == 1 and failed[0]["text"].startswith("B1") and len(fig["layout"]["shapes"]) == 1
-    assert points[0]["customdata"][0] == "A1"
+    points = fig["data"][1]
+    assert points["customdata"][0][0] == "A1" and len(points["x"]) == sum(len(p["t"]) for p in panels_in)
+    # every observation lies in its own panel's box, the first and last at the box's ends in time
+    for (sid, t, _), x, y in zip(points["customdata"], points["x"], points["y"]):
+        x0, x1, y0, y1 = next(p["box"] for p in panels if p["series"] == sid)
+        assert x0 <= x <= x1 and y0 <= y <= y1
+    a1 = [x for (sid, _, _), x in zip(points["customdata"], points["x"]) if sid == "A1"]
+    assert a1 == sorted(a1) and panels[0]["box"][0] < a1[0] < a1[-1] < panels[0]["box"][1]
 
 
 def test_overview_grid_limits_panels(batch) -> None:  # type: ignore[no-untyped-def]
     fig = overview_grid(overview_panels(batch, "logistic-curve"), max_panels=4)
-    assert sum(d["meta"] == "points" for d in fig["data"]) == 4
+    assert len(fig["layout"]["meta"]["panels"]) == 4
     assert "first 4 of 11" in fig["layout"]["title"]["text"]
 
 
@@ -64,3 +73,16 @@ def test_plate_map_384_and_non_wells() -> None:
     assert len(fig["data"][0]["z"]) == 16 and len(fig["data"][0]["z"][0]) == 24
     with pytest.raises(ValueError, match="not plate wells"):
         plate_map({"ctrl": {"value": 1.0, "status": "converged"}}, quantity="r")
+
+
+def test_overview_grid_thins_long_series_but_keeps_every_excluded_point() -> None:
+    t = [float(i) for i in range(97)]
+    used = [i not in (3, 50) for i in range(97)]
+    panel = {"series": "A1", "t": t, "p": [1.0 + 0.01 * i for i in t], "used": used, "fit_t": t, "fit_p": t,
+             "status": "converged", "message": ""}
+    fig = overview_grid([panel, {**panel, "series": "A2", "t": t[:20], "p": t[:20], "used": [True] * 20}])
+    drawn = [c for c in fig["data"][1]["customdata"] if c[0] == "A1"]
+    times = [c[1] for c in drawn]
+    assert 48 <= len(drawn) <= 50 and {0.0, 3.0, 50.0, 96.0} <= set(times)
+    assert len([c for c in fig["data"][1]["customdata"] if c[0] == "A2"]) == 20
+    assert "at most 48 observations drawn per panel" in fig["layout"]["title"]["text"]

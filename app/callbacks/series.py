@@ -19,7 +19,7 @@ from dash.exceptions import PreventUpdate
 from app import ids
 from app.callbacks.data import DEFAULT_MAX_BYTES, decode_source
 from app.components.series import ALL_GROUPS
-from app.figures.batch import overview_grid, plate_map
+from app.figures.batch import overview_grid, padded_range, plate_map
 from app.state import fit_label
 from growthcore.batch import fit_batch, from_series, groups_from_column, groups_from_pattern, parse_well, plate_format
 from growthcore.batch.table import METRICS, row
@@ -324,13 +324,6 @@ def page_choice(n: int, current: int | None) -> tuple[list[dict[str, Any]], int,
     return options, value, pages > 1
 
 
-def _box(fig: Mapping[str, Any], i: int) -> list[float]:
-    suffix = "" if i == 0 else str(i + 1)
-    x0, x1 = fig["layout"][f"xaxis{suffix}"]["domain"]
-    y0, y1 = fig["layout"][f"yaxis{suffix}"]["domain"]
-    return [x0, x1, y0, y1]
-
-
 def highlight_shape(box: Sequence[float] | None) -> dict[str, Any]:
     """The frame around the series shown in the panels (invisible when it is not on this page)."""
     if box is None:
@@ -339,7 +332,7 @@ def highlight_shape(box: Sequence[float] | None) -> dict[str, Any]:
     x0, x1, y0, y1 = box
     pad = 0.004
     return {"type": "rect", "xref": "paper", "yref": "paper", "x0": x0 - pad, "x1": x1 + pad, "y0": y0 - pad,
-            "y1": y1 + 0.02, "line": {"width": 2.5, "color": "#0b5d8c"}, "fillcolor": "rgba(0,0,0,0)",
+            "y1": y1 + 0.012, "line": {"width": 2.5, "color": "#0b5d8c"}, "fillcolor": "rgba(0,0,0,0)",
             "visible": True, "layer": "above"}
 
 
@@ -371,25 +364,20 @@ def grid_figure(batch: Mapping[str, Any] | None, labels: Sequence[str], merged: 
             head += f" · fitted so far: {fitted} of {n_shown}" if running else f" · {n_shown - fitted} not fitted"
     unit = batch.get("value_unit") or ""
     columns = 12 if batch.get("plate") else 8
-    fig = overview_grid(panels, columns=min(columns, max(1, len(panels))), max_panels=PAGE, title=head)
+    scales = shared_scales(panels)
+    if scales is not None:
+        (t_lo, t_hi), (p_lo, p_hi) = scales[2:]
+        t_unit = f" {batch['time_unit']}" if batch.get("time_unit") else ""
+        head += f" · same scales in every panel: t {t_lo:.4g} to {t_hi:.4g}{t_unit}, value {p_lo:.4g} to {p_hi:.4g}"
+        head += f" {unit}" if unit else ""
+    fig = overview_grid(panels, columns=min(columns, max(1, len(panels))), max_panels=PAGE, title=head,
+                        scales=scales[:2] if scales is not None else None)
     if not page_ids:
         fig["layout"]["annotations"] = [{"text": "No series in this group.", "showarrow": False, "xref": "paper",
                                          "yref": "paper", "x": 0.5, "y": 0.5}]
-    scales = shared_scales(panels)
-    if scales is not None:
-        (t0, t1), (p0, p1), (t_lo, t_hi), (p_lo, p_hi) = scales
-        for i in range(len(page_ids)):
-            suffix = "" if i == 0 else str(i + 1)
-            fig["layout"][f"xaxis{suffix}"]["range"] = [t0, t1]
-            fig["layout"][f"yaxis{suffix}"]["range"] = [p0, p1]
-        t_unit = f" {batch['time_unit']}" if batch.get("time_unit") else ""
-        head += f" · same scales in every panel: t {t_lo:.4g} to {t_hi:.4g}{t_unit}, value {p_lo:.4g} to {p_hi:.4g}"
-        fig["layout"]["title"]["text"] = head
-    boxes = {sid: _box(fig, i) for i, sid in enumerate(page_ids)}
+    boxes = {panel["series"]: panel["box"] for panel in fig["layout"]["meta"]["panels"]}
     fig["layout"]["shapes"] = [highlight_shape(boxes.get(current or "")), *fig["layout"].get("shapes", [])]
     fig["layout"]["uirevision"] = batch["key"]
-    if unit:
-        fig["layout"]["title"]["text"] += f" {unit}"
     return fig, {"key": batch["key"], "boxes": boxes}
 
 
@@ -402,11 +390,7 @@ def shared_scales(panels: Sequence[Mapping[str, Any]]) -> tuple[tuple[float, flo
     ps = [v for p in panels for v in [*p["p"], *p.get("fit_p", [])] if v is not None and math.isfinite(v)]
     if not ts or not ps:
         return None
-    t0, t1 = min(ts), max(ts)
-    p0, p1 = min(ps), max(ps)
-    pad_t = 0.03 * (t1 - t0 or 1.0)
-    pad_p = 0.06 * (p1 - p0 or abs(p1) or 1.0)
-    return (t0 - pad_t, t1 + pad_t), (p0 - pad_p, p1 + pad_p), (t0, t1), (p0, p1)
+    return padded_range(ts, 0.03), padded_range(ps, 0.06), (min(ts), max(ts)), (min(ps), max(ps))
 
 
 def redraw_too_soon(view: Mapping[str, Any] | None, job: Mapping[str, Any] | None, *,
@@ -639,10 +623,12 @@ def register(app: Dash) -> None:
         Output(ids.GRID_PAGE, "disabled"), Output(ids.BATCH_FAILED, "children"),
         Input(ids.BATCH_SERIES, "data"), Input(ids.BATCH_FITS, "data"), Input(ids.BATCH_FORM, "value"),
         Input(ids.GRID_PAGE, "value"), Input(ids.BATCH_GROUPS, "data"), Input(ids.GROUP_FILTER, "value"),
-        State(ids.BATCH_JOB, "data"), State(ids.BATCH_PROGRESS, "data"), State(ids.BATCH_CANCEL, "data"),
+        # a stop redraws: the last chunks of a run may have been held back to spare redraws
+        Input(ids.BATCH_CANCEL, "data"),
+        State(ids.BATCH_JOB, "data"), State(ids.BATCH_PROGRESS, "data"),
         State(ids.DATA, "data"), State(ids.GRID_VIEW, "data"),
     )
-    def _grid(batch, fits, label, page, groups, group, job, progress, cancel, data, view):
+    def _grid(batch, fits, label, page, groups, group, cancel, job, progress, data, view):
         if not batch:
             raise PreventUpdate
         labels, merged = merged_fits(fits, job, batch)
