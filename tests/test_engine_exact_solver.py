@@ -22,6 +22,7 @@ from growthcore.fit.lm import solve_exact
 from growthcore.fit.sensitivity import _linear_recursion, path_jacobian
 from growthcore.fit.simulate import iterate, path_of
 from growthcore.models import get_form
+from growthcore.models.curves import CURVE_FORMS
 from growthcore.models.difference import DIFFERENCE_FORMS, with_constant
 
 NIST = json.loads((Path(__file__).parent / "reference" / "nist_strd.json").read_text(encoding="utf-8"))["datasets"]
@@ -76,6 +77,18 @@ def test_path_jacobian_matches_finite_differences_of_the_path(form):
         up = iterate(form, values["p0"] if name != "p0" else values["p0"] + h, {**values, name: values[name] + h}, 30)
         down = iterate(form, values["p0"] if name != "p0" else values["p0"] - h, {**values, name: values[name] - h}, 30)
         np.testing.assert_allclose(exact[:, j], (up - down) / (2 * h), rtol=1e-5, atol=1e-7, err_msg=f"{form.id}: {name}")
+
+
+@pytest.mark.parametrize("form", CURVE_FORMS, ids=lambda f: f.id)
+def test_curve_partials_match_central_differences(form):
+    t = np.linspace(0.0, 12.0, 30)
+    values = {n: {"K": 80.0, "r": 0.5, "p0": 3.0, "nu": 1.7}[n] for n in form.param_names}
+    partials = form.value_partials(t, values)
+    assert set(partials) == set(form.param_names)
+    for name, analytic in partials.items():
+        h = 1e-6 * abs(values[name])
+        numeric = (form.value(t, {**values, name: values[name] + h}) - form.value(t, {**values, name: values[name] - h})) / (2 * h)
+        assert np.max(np.abs(analytic - numeric)) <= 1e-8 * np.max(np.abs(numeric)), f"{form.id}: d/d{name}"
 
 
 def test_custom_terms_use_finite_differences_for_capacity():
@@ -219,6 +232,29 @@ def test_trajectory_fit_matches_scipy_least_squares(form_id, values, error):
     cov = np.linalg.inv(jac.T @ jac) * 2 * reference.cost / (series.p.size - len(names))
     for i, name in enumerate(names):
         assert result.parameter(name).se == pytest.approx(math.sqrt(cov[i, i]), rel=1e-4), name
+
+
+@pytest.mark.parametrize("form_id, values", [
+    ("logistic-curve", {"K": 100.0, "r": 0.6, "p0": 2.0}),
+    ("richards-curve", {"K": 100.0, "r": 0.6, "p0": 2.0, "nu": 2.5}),
+    ("gompertz-curve", {"K": 100.0, "r": 0.4, "p0": 2.0}),
+])
+def test_curve_fit_matches_scipy_curve_fit_on_irregular_times(form_id, values):
+    """The closed-form Jacobian path reaches scipy.optimize.curve_fit's optimum and standard errors."""
+    from scipy.optimize import curve_fit
+
+    form = get_form(form_id)
+    rng = np.random.default_rng(2)
+    t = np.sort(rng.uniform(0.0, 25.0, 40))
+    y = form.value(t, values) * np.exp(rng.normal(0.0, 0.03, t.size))
+    result = fit(Series(t, y), form_id, profile=False, time_origin=0.0)
+    assert result.success, result.message
+    names = form.param_names
+    model = lambda tt, *theta: form.value(tt, dict(zip(names, theta)))  # noqa: E731
+    ref, cov = curve_fit(model, t, y, p0=[values[n] * 1.2 for n in names], maxfev=20000, xtol=1e-14, ftol=1e-14)
+    for name, value, var in zip(names, ref, np.diag(cov)):
+        assert result.values[name] == pytest.approx(value, rel=1e-5), name
+        assert result.parameter(name).se == pytest.approx(math.sqrt(var), rel=1e-4), name
 
 
 def test_theta_logistic_path_through_negative_states_gives_nan_not_an_error():

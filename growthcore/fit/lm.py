@@ -76,7 +76,7 @@ def solve_exact(
             return _converged(x, last, jac, 2, nfev)
         out = evaluate(trial)
         nfev += 1
-        ratio = (sse - out[1]) / predicted if out is not None else -1.0
+        ratio = (sse - out[1]) / predicted if out is not None and predicted > 0.0 else -1.0
         if out is None or ratio < ACCEPT_RATIO:
             damping, growth = damping * growth, growth * 2.0
             continue

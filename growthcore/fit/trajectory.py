@@ -120,9 +120,38 @@ def curve_problem(t: Array, p: Array, form: CurveForm, *, model: str, error: str
         with np.errstate(all="ignore"):
             return np.broadcast_to(form.value(elapsed[:, None], values), (t.size, cols.shape[1]))
 
+    exact = _curve_evaluation(form, free, fixed, elapsed, p, error) if form.value_partials is not None else None
     problem = Problem(model, "trajectory", error, form, form.params, free, dict(fixed), predict, t, p,
-                      settings={"fixed": dict(fixed), "t_first": t_first, "time_origin": origin})
+                      settings={"fixed": dict(fixed), "t_first": t_first, "time_origin": origin}, exact=exact)
     return problem
+
+
+def _curve_evaluation(form: CurveForm, free: tuple[str, ...], fixed: Mapping[str, float], elapsed: Array,
+                      observed: Array, error: str) -> Evaluation:
+    """Residuals of one parameter vector and, on demand, the closed-form Jacobian of the curve."""
+    log = error == "log"
+    target = np.log(observed) if log else observed
+    # numpy scalars, not Python floats: a division by zero then gives inf (and a rejected step), not an error
+    base = {n: np.float64(v) for n, v in fixed.items()}
+
+    def evaluate(x: Sequence[float]) -> tuple[Array, float, Callable[[], Array], Array] | None:
+        values = dict(base)
+        values.update(zip(free, map(np.float64, x)))
+        predicted = np.broadcast_to(form.value(elapsed, values), elapsed.shape)
+        residuals = target - (np.log(predicted) if log else predicted)
+        sse = float(residuals @ residuals)
+        if not math.isfinite(sse):
+            return None
+
+        def jacobian() -> Array:
+            assert form.value_partials is not None
+            parts = form.value_partials(elapsed, values)
+            jac = np.array([np.broadcast_to(parts[n], elapsed.shape) for n in free]).T
+            return jac / predicted[:, None] if log else jac
+
+        return residuals, sse, jacobian, predicted
+
+    return evaluate
 
 
 def _fit_curve(t: Array, p: Array, form: CurveForm, *, model: str, error: str,

@@ -91,7 +91,8 @@ class CurveForm:
     """A closed-form growth curve p(t) in continuous time with p0 = p(0).
 
     ``rate`` is the right-hand side of the equivalent ODE dp/dt = F(p); derived quantities
-    (maximum rate, inflection, equilibria and their stability) come from it.
+    (maximum rate, inflection, equilibria and their stability) come from it. ``value_partials``
+    gives ∂p(t)/∂θ for every constant, for the exact Jacobian of trajectory fits.
     """
 
     id: str
@@ -101,6 +102,7 @@ class CurveForm:
     value: Callable[[Array, Values], Array]
     rate: StateFn
     rate_dp: StateFn
+    value_partials: Callable[[Array, Values], dict[str, Array]] | None = None
     needs_positive: bool = False
     notes: tuple[str, ...] = field(default_factory=tuple)
     kind: Literal["curve"] = "curve"

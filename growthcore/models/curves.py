@@ -10,12 +10,50 @@ from __future__ import annotations
 
 import numpy as np
 
-from growthcore.models.base import INF, CurveForm, ParamSpec
+from growthcore.models.base import INF, Array, CurveForm, ParamSpec, Values
 
 K = ParamSpec("K", 0.0, INF, "carrying capacity (upper asymptote)", "state")
 R = ParamSpec("r", 0.0, INF, "rate constant per unit time", "per time")
 P0 = ParamSpec("p0", 0.0, INF, "state at t = 0", "state")
 NU = ParamSpec("nu", 0.01, 50.0, "shape (1 = logistic, towards 0 = Gompertz)", "-")
+
+# ∂p(t)/∂θ in closed form (E = e^(−r·t) throughout).
+
+def _exponential_partials(t: Array, v: Values) -> dict[str, Array]:
+    grow = np.exp(v["r"] * t)
+    return {"p0": grow, "r": t * v["p0"] * grow}
+
+
+def _logistic_partials(t: Array, v: Values) -> dict[str, Array]:
+    k, p0 = v["K"], v["p0"]
+    e = np.exp(-v["r"] * t)
+    d2 = (1.0 + (k / p0 - 1.0) * e) ** 2
+    return {"K": (1.0 - e) / d2, "r": k * (k / p0 - 1.0) * t * e / d2, "p0": (k / p0) ** 2 * e / d2}
+
+
+def _gompertz_partials(t: Array, v: Values) -> dict[str, Array]:
+    k, p0 = v["K"], v["p0"]
+    e = np.exp(-v["r"] * t)
+    level = np.log(p0 / k)
+    p = k * np.exp(level * e)
+    return {"K": p / k * (1.0 - e), "r": -p * level * t * e, "p0": p * e / p0}
+
+
+def _richards_partials(t: Array, v: Values) -> dict[str, Array]:
+    k, p0, nu = v["K"], v["p0"], v["nu"]
+    e = np.exp(-v["r"] * t)
+    q = (k / p0) ** nu
+    b = 1.0 + (q - 1.0) * e
+    p = k / b ** (1.0 / nu)
+    # from ln p = ln K − ln(B)/ν with B = 1 + (q − 1)·E and q = (K/p0)^ν
+    return {"K": p * (1.0 - e) / (k * b), "r": p * (q - 1.0) * t * e / (nu * b), "p0": p * q * e / (p0 * b),
+            "nu": p * (np.log(b) / nu**2 - e * q * np.log(k / p0) / (nu * b))}
+
+
+def _monomolecular_partials(t: Array, v: Values) -> dict[str, Array]:
+    e = np.exp(-v["r"] * t)
+    return {"K": 1.0 - e, "r": (v["K"] - v["p0"]) * t * e, "p0": e}
+
 
 EXPONENTIAL_CURVE = CurveForm(
     id="exponential-curve",
@@ -25,6 +63,7 @@ EXPONENTIAL_CURVE = CurveForm(
     value=lambda t, v: v["p0"] * np.exp(v["r"] * t),
     rate=lambda p, v: v["r"] * p,
     rate_dp=lambda p, v: v["r"] + 0.0 * p,
+    value_partials=_exponential_partials,
 )
 
 LOGISTIC_CURVE = CurveForm(
@@ -35,6 +74,7 @@ LOGISTIC_CURVE = CurveForm(
     value=lambda t, v: v["K"] / (1.0 + (v["K"] / v["p0"] - 1.0) * np.exp(-v["r"] * t)),
     rate=lambda p, v: v["r"] * p * (1.0 - p / v["K"]),
     rate_dp=lambda p, v: v["r"] * (1.0 - 2.0 * p / v["K"]),
+    value_partials=_logistic_partials,
 )
 
 GOMPERTZ_CURVE = CurveForm(
@@ -45,6 +85,7 @@ GOMPERTZ_CURVE = CurveForm(
     value=lambda t, v: v["K"] * np.exp(np.log(v["p0"] / v["K"]) * np.exp(-v["r"] * t)),
     rate=lambda p, v: v["r"] * p * np.log(v["K"] / p),
     rate_dp=lambda p, v: v["r"] * (np.log(v["K"] / p) - 1.0),
+    value_partials=_gompertz_partials,
     needs_positive=True,
 )
 
@@ -57,6 +98,7 @@ RICHARDS_CURVE = CurveForm(
     / (1.0 + ((v["K"] / v["p0"]) ** v["nu"] - 1.0) * np.exp(-v["r"] * t)) ** (1.0 / v["nu"]),
     rate=lambda p, v: v["r"] / v["nu"] * p * (1.0 - (p / v["K"]) ** v["nu"]),
     rate_dp=lambda p, v: v["r"] / v["nu"] * (1.0 - (v["nu"] + 1.0) * (p / v["K"]) ** v["nu"]),
+    value_partials=_richards_partials,
     needs_positive=True,
 )
 
@@ -68,6 +110,7 @@ MONOMOLECULAR_CURVE = CurveForm(
     value=lambda t, v: v["K"] - (v["K"] - v["p0"]) * np.exp(-v["r"] * t),
     rate=lambda p, v: v["r"] * (v["K"] - p),
     rate_dp=lambda p, v: -v["r"] + 0.0 * p,
+    value_partials=_monomolecular_partials,
 )
 
 CURVE_FORMS: tuple[CurveForm, ...] = (
