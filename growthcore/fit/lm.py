@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import math
 from operator import mul
-from typing import Callable, Sequence
+from typing import Any, Callable, Sequence
 
 import numpy as np
 
@@ -42,10 +42,11 @@ def solve_exact(
 
     Converged when the fall of the sum of squares that the next Gauss–Newton step predicts is at
     most ``ftol`` of it, or when the step shrinks below ``xtol`` relative to x. In the first case
-    that last step is taken as well (kept if the sum of squares does not rise): near the optimum
-    Gauss–Newton converges quadratically, so it lands within about (ftol·n)·σ² of the minimum and
-    its Jacobian is not recomputed; the one returned belongs to a point a few 1e-5 standard errors
-    away, which changes standard errors in about the sixth digit.
+    that last step is taken as well (kept if the sum of squares does not rise). The step is then
+    below about sqrt(ftol·(n − k)) ≈ 1e-4 standard errors and, Gauss–Newton converging
+    quadratically there, lands on the minimum to the square of that; its Jacobian is not
+    recomputed, so the one returned belongs to a point that close, which moves standard errors in
+    about the sixth digit.
     """
     lo, hi = lower.tolist(), upper.tolist()
     x = [min(max(v, a), b) for v, a, b in zip(np.asarray(x0, dtype=float).tolist(), lo, hi)]
@@ -99,7 +100,7 @@ def _normal_equations(jac: Array, r: Array) -> tuple[list[list[float]], list[flo
     return a.tolist(), (jac.T @ r).tolist()
 
 
-def _last_step(evaluate: Evaluation, x: list[float], last: tuple, jac: Array, newton: list[float],
+def _last_step(evaluate: Evaluation, x: list[float], last: tuple[Any, ...], jac: Array, newton: list[float],
                lo: list[float], hi: list[float], nfev: int) -> NLSOutcome:
     """Converged at ``x``; take the final Gauss–Newton step if it keeps the sum of squares down."""
     final = [min(max(xi + si, l), h) for xi, si, l, h in zip(x, newton, lo, hi)]
@@ -151,7 +152,7 @@ def _quadratic(a: list[list[float]], s: list[float]) -> float:
     return sum(si * sum(map(mul, row, s)) for si, row in zip(s, a))
 
 
-def _converged(x: list[float], at_x: tuple, jac: Array, reason: int, nfev: int) -> NLSOutcome:
+def _converged(x: list[float], at_x: tuple[Any, ...], jac: Array, reason: int, nfev: int) -> NLSOutcome:
     """``at_x`` is the evaluation at x: (residuals, sse, Jacobian function, predicted states)."""
     return NLSOutcome(np.array(x), at_x[0], at_x[1], True, STOP_REASONS[reason], nfev, True, jac, at_x[3])
 

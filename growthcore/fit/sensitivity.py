@@ -52,9 +52,8 @@ def _linear_recursion(a: Array, b: Array, s0: Array) -> Array:
     if a.size == 0:
         return out
     products = a.cumprod()[:, None]
-    smallest = products.min()
-    size = products if smallest > 0.0 else np.abs(products)
-    if (smallest if smallest > 0.0 else size.min()) > SAFE_PRODUCT_LOW and size.max() < SAFE_PRODUCT_HIGH:
+    size = np.abs(products)
+    if size.min() > SAFE_PRODUCT_LOW and size.max() < SAFE_PRODUCT_HIGH:
         cumulative = (b / products).cumsum(axis=0)
         cumulative += s0
         np.multiply(products, cumulative, out=out[1:])

@@ -88,7 +88,8 @@ def _solve_one(problem: Problem, x0: Array, lower: Array, upper: Array) -> NLSOu
 
 
 def _near_bound(x: list[float], lower: list[float], upper: list[float]) -> bool:
-    return any(math.isfinite(b) and abs(v - b) <= 1e-7 * abs(b) for v, lo, hi in zip(x, lower, upper) for b in (lo, hi))
+    return any(math.isfinite(b) and abs(v - b) <= 1e-7 * abs(b)
+               for v, lo, hi in zip(x, lower, upper) for b in (lo, hi))
 
 
 def _good_enough(problem: Problem, outcome: NLSOutcome) -> bool:

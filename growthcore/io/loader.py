@@ -206,7 +206,8 @@ class _Builder:
                 key = _label(sid)
                 pv = quick[i] if quick is not None else self._value(cells[i], i, vcol, fmt, rownums, data_idx)
                 if pv is not None:
-                    by_id.setdefault(key, []).append(_Point(rownums[i], conv.values[i], pv, cells[i]))  # type: ignore[arg-type]
+                    point = _Point(rownums[i], conv.values[i], pv, cells[i])  # type: ignore[arg-type]
+                    by_id.setdefault(key, []).append(point)
                 else:
                     by_id.setdefault(key, [])
             groups = [(k, vcol, pts) for k, pts in by_id.items()]
