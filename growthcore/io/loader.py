@@ -178,7 +178,7 @@ class _Builder:
         self.notes.extend(layout.notes)
 
         tcol = layout.time
-        tcells = [_cell(r, tcol.index) for r in rows]
+        tcells = _column(rows, tcol.index)
         conv = convert_time_column(
             tcells, rownums, fmt, column=tcol.label, header_unit=tcol.unit or None, time_unit=time_unit
         )
@@ -194,7 +194,7 @@ class _Builder:
             scol = layout.series
             vcol = layout.values[0]
             by_id: dict[str, list[_Point]] = {}
-            cells = [_cell(r, vcol.index) for r in rows]
+            cells = _column(rows, vcol.index)
             quick = plain_number_column(cells) if fmt.decimal == "." else None
             for i, r in enumerate(rows):
                 if i in bad_time_rows:
@@ -214,7 +214,7 @@ class _Builder:
         else:
             times = conv.values
             for vcol in layout.values:
-                cells = [_cell(r, vcol.index) for r in rows]
+                cells = _column(rows, vcol.index)
                 quick = plain_number_column(cells) if fmt.decimal == "." else None
                 if quick is not None and not bad_time_rows:  # the clean case, without per-cell checks
                     pts = _Columns(rownums, times, quick, cells)  # type: ignore[arg-type]
@@ -429,6 +429,11 @@ class _Columns(NamedTuple):
     times: Sequence[float]
     values: Sequence[float]
     cells: Sequence[object]
+
+
+def _column(rows: Sequence[Sequence[object]], j: int) -> list[object]:
+    """Column ``j`` of every row (None where a row is short)."""
+    return [r[j] if j < len(r) else None for r in rows]
 
 
 def _cell(row: Sequence[object], j: int) -> object:

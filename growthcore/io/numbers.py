@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import math
 import re
 from dataclasses import dataclass
 from typing import Iterable, Sequence
@@ -76,10 +75,11 @@ def plain_number_column(cells: Sequence[object]) -> list[float] | None:
     """
     if not cells:
         return None
-    if all(type(c) is float or type(c) is int for c in cells):  # a workbook's saved numbers
-        numbers = [float(c) for c in cells]  # type: ignore[arg-type]
-        return numbers if all(math.isfinite(v) for v in numbers) else None
-    if not all(type(c) is str for c in cells):
+    kinds = set(map(type, cells))
+    if kinds <= {float, int}:  # a workbook's saved numbers
+        numbers = np.array(cells, dtype=float)
+        return numbers.tolist() if np.isfinite(numbers).all() else None
+    if kinds != {str}:
         return None
     texts: list[str] = cells  # type: ignore[assignment]
     if max(map(len, texts)) > 64 or not set("".join(texts)) <= _PLAIN_CHARS:
@@ -127,19 +127,22 @@ def detect_number_format(texts: Iterable[str], delimiter: str | None) -> NumberF
     ``1,250`` are ambiguous; they tip the balance to a comma only in files not delimited by commas
     and only when nothing else decides (``1.250`` alone keeps the point, the more common reading).
     """
+    cells = [s for s in (raw.strip() for raw in texts) if s and len(s) <= 64]
     comma = point = ambiguous = 0
-    for raw in texts:
-        s = raw.strip()
-        if not s or len(s) > 64:
+    for s in cells:
+        if "," not in s:  # without a comma a cell can only be point evidence: counted below if needed
             continue
         if _AMBIGUOUS_COMMA.fullmatch(s):
             ambiguous += 1
-        elif _AMBIGUOUS_POINT.fullmatch(s):
-            continue
         elif _STRONG_COMMA.fullmatch(s):
             comma += 1
         elif _STRONG_POINT.fullmatch(s):
             point += 1
+    plain = (s for s in cells if "," not in s and not _AMBIGUOUS_POINT.fullmatch(s) and _STRONG_POINT.fullmatch(s))
+    if comma:
+        point += sum(1 for _ in plain)
+    elif not point and next(plain, None) is not None:
+        point = 1  # one is enough to keep the point: no comma evidence to weigh it against
     if comma > point or (comma == point == 0 and ambiguous and delimiter not in (",", None)):
         decimal = ","
     else:

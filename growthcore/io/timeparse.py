@@ -14,7 +14,7 @@ import re
 from dataclasses import dataclass, field
 from typing import Callable, Sequence
 
-from growthcore.io.numbers import NumberFormat, is_missing, parse_number
+from growthcore.io.numbers import NumberFormat, is_missing, parse_number, plain_number_column
 
 #: Seconds in each time unit the import can convert to; ``yr`` is the Julian year of 365.25 d.
 UNIT_SECONDS: dict[str, float] = {
@@ -242,11 +242,15 @@ def convert_time_column(
     The column's kind is the one most of its cells have (numbers, clock times or dates); a cell
     of another kind is left out with a reason rather than guessed at.
     """
+    notes: list[str] = []
+    quick = plain_number_column(cells) if fmt.decimal == "." else None
+    if quick is not None:  # the common case, a column of plain numbers: no cell needs the rules below
+        unit, factor = _numeric_unit(header_unit, time_unit, column, notes)
+        return TimeColumn([v * factor for v in quick], [""] * len(quick), unit, "number", notes)
     texts = [c for c in cells if isinstance(c, str)]
     order = slash_date_order(texts)
     day_first = True if order is None else order
     parsed = [parse_time_cell(c, fmt, day_first) for c in cells]
-    notes: list[str] = []
     if order is None and any(isinstance(p, TimeCell) and p.kind in ("date", "naive") for p in parsed) and any(
         _DMY.fullmatch(t.strip()) for t in texts
     ):
