@@ -70,7 +70,9 @@ def overview_section() -> html.Section:
                      html.H3("Every series of the file", className="panel-title")], className="panel-head"),
         html.P("Each series is fitted on its own with the forms, method and error model chosen in the Model "
                "section; K is fitted by every form (a single K held for every series would not suit them). "
-               "Points left out by hand apply to the panels above only. Click a series to open it in the panels.",
+               "Points left out by hand apply to the panels above only. Click a series to open it in the panels. "
+               "With noisy readings the trajectory method follows each path more closely than increments, whose "
+               "one-step changes carry the noise of both readings.",
                className="panel-guide"),
         html.Div([
             html.Button("Fit every series", id=ids.BATCH_RUN, n_clicks=0, className="button", type="button"),
