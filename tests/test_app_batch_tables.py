@@ -108,3 +108,23 @@ def test_labels_name_the_form_and_error_model() -> None:
     assert B.model_of("theta-logistic (trajectory, log error)") == ("theta-logistic", "log")
     assert B.model_of("ricker+c (increments)") == ("ricker+c", "additive")
     assert B.constants_of(None) == [] and B.constants_of("no-such-form (increments)") == []
+
+
+def test_f_test_reply_for_many_series_points_to_the_command_line(monkeypatch: pytest.MonkeyPatch) -> None:
+    """The layout of the reply only (the engine's test is stubbed; its numbers are checked above)."""
+    from types import SimpleNamespace
+
+    full = SimpleNamespace(value=lambda constant, group: 1.0)
+    monkeypatch.setattr(B, "group_difference_test", lambda *a, **k: SimpleNamespace(
+        status="done", full=full, groups=("a", "b"), p_value=0.2, df_reduced=10, df_full=8, f=1.0,
+        sse_full=1.0, sse_reduced=1.1, message=""))
+    monkeypatch.setattr(B, "series_from_plain", lambda d: d)
+    names = [f"s{i}" for i in range(B.LARGE_TEST + 4)]
+    batch = {"names": names, "series": [{"name": n} for n in names]}
+    groups = {n: "ab"[i % 2] for i, n in enumerate(names)}
+    merged = {"logistic (trajectory)": {n: {"status": "converged"} for n in names}}
+    many = str(B.ftest_view(batch, groups, "logistic (trajectory)", "r", merged))
+    assert "no evidence that the groups differ" in many and "--test r" in many
+    few = str(B.ftest_view({"names": names[:10], "series": batch["series"][:10]}, groups, "logistic (trajectory)",
+                           "r", merged))
+    assert "--test r" not in few

@@ -23,6 +23,7 @@ from growthcore.io import csv_text
 from growthcore.models.catalogue import get_form
 
 LEAD = ("series", "group", "form", "status", "message")
+LARGE_TEST = 96  # series above which the F test's reply points to the command line as well
 
 
 def _groups_of(batch: Mapping[str, Any] | None, groups: Mapping[str, Any] | None) -> dict[str, str]:
@@ -135,6 +136,10 @@ def ftest_view(batch: Mapping[str, Any] | None, groups: Mapping[str, str], label
     verdict = ("the groups differ" if test.p_value < 0.05 else "no evidence that the groups differ") + " at the 5% level"
     notes = [html.P(f"Left out (in no group or their own fit failed): {', '.join(left[:10])}"
                     + (" ..." if len(left) > 10 else ""), className="hint")] if left else []
+    if len(chosen) > LARGE_TEST:
+        notes.append(html.P(f"For hundreds of series, growthcore batch FILE --model {model} --groups COL "
+                            f"--test {constant} --out RESULT.json makes the same test from the command line.",
+                            className="hint"))
     return html.Div([
         html.P([html.Strong(f"F({test.df_reduced - test.df_full}, {test.df_full}) = {test.f:.4g}, p = {test.p_value:.3g}: "),
                 verdict, "."]),
