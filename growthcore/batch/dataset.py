@@ -7,8 +7,9 @@ from dataclasses import dataclass, field
 from typing import Mapping, Sequence
 
 from growthcore.data import Series
-from growthcore.errors import GrowthcoreInputError, ImportFailure
+from growthcore.errors import GrowthcoreInputError
 from growthcore.io import ImportReport, load_bytes
+from growthcore.io.loader import read_file
 from growthcore.batch.groups import groups_from_column, groups_from_pattern, members
 
 
@@ -79,12 +80,7 @@ def load_batch(
     """Every series of a file, grouped by a condition column (``groups``) or an id ``pattern``."""
     if groups is not None and pattern is not None:
         raise GrowthcoreInputError("give either a condition column (--groups) or a pattern (--pattern), not both")
-    name = os.path.basename(os.fspath(path))
-    try:
-        with open(path, "rb") as fh:
-            data = fh.read()
-    except OSError as exc:
-        raise ImportFailure(f"{name}: cannot be read ({exc.strerror or exc})") from None
+    name, data = read_file(path)
     imported = load_bytes(data, name, sheet=sheet, time=time, value=value, series=series, time_unit=time_unit)
     names = [s.name for s in imported.series]
     notes: list[str] = []

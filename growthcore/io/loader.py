@@ -45,6 +45,15 @@ def load_file(
 
     Raises ImportFailure (one line, naming the file) when nothing usable can be read.
     """
+    name, data = read_file(path, max_bytes)
+    return load_bytes(
+        data, name, sheet=sheet, time=time, value=value, series=series, time_unit=time_unit,
+        average_duplicates=average_duplicates, max_bytes=max_bytes,
+    )
+
+
+def read_file(path: str | os.PathLike[str], max_bytes: int = DEFAULT_MAX_BYTES) -> tuple[str, bytes]:
+    """The file's name and bytes; ImportFailure (naming it) when it is missing, unreadable or too large."""
     name = os.path.basename(os.fspath(path))
     try:
         size = os.path.getsize(path)
@@ -53,13 +62,9 @@ def load_file(
     _check_size(size, name, max_bytes)
     try:
         with open(path, "rb") as fh:
-            data = fh.read(max_bytes + 1)
+            return name, fh.read(max_bytes + 1)
     except OSError as exc:
         raise ImportFailure(f"{name}: cannot be read ({exc.strerror or exc})") from None
-    return load_bytes(
-        data, name, sheet=sheet, time=time, value=value, series=series, time_unit=time_unit,
-        average_duplicates=average_duplicates, max_bytes=max_bytes,
-    )
 
 
 def load_bytes(
@@ -384,25 +389,8 @@ class _Builder:
             self.notes.append(f"series {sname!r} not read: only {len(merged)} usable point(s)")
             self.not_read.append((sname, f"only {len(merged)} usable point(s)"))
             return None
-        nonpos = tuple((g.row, g.t, g.p) for g in merged if g.p <= 0)
-        if nonpos:
-            self.notes.append(
-                f"series {sname!r}: {len(nonpos)} value(s) <= 0 kept (rows {_ranges([n[0] for n in nonpos])}); "
-                "terms with ln need p > 0"
-            )
-        s = Series(
-            t=np.array([g.t for g in merged]),
-            p=np.array([g.p for g in merged]),
-            name=sname,
-            time_unit=unit,
-            value_unit=vcol.unit,
-            time_column=tcol.label,
-            value_column=vcol.label,
-            rows=tuple(g.row for g in merged),
-        )
-        summary = SeriesSummary(sname, tcol.label, unit, vcol.label, vcol.unit, len(merged), nonpos, tuple(averaged))
-        return s, summary
-
+        return self._made(sname, vcol, tcol, unit, np.array([g.t for g in merged]), np.array([g.p for g in merged]),
+                          tuple(g.row for g in merged), tuple(averaged))
 
     def _clean_series(self, sname: str, vcol: Column, tcol: Column, unit: str,
                       cols: _Columns) -> tuple[Series, SeriesSummary] | None:
@@ -410,16 +398,20 @@ class _Builder:
         t, p = np.array(cols.times, dtype=float), np.array(cols.values, dtype=float)
         if t.size < MIN_POINTS or not (np.diff(t) > 0).all():
             return None  # the general path sorts, merges or refuses, and says so
-        low = np.flatnonzero(p <= 0)
-        nonpos = tuple((cols.rows[i], float(t[i]), float(p[i])) for i in low.tolist())
+        return self._made(sname, vcol, tcol, unit, t, p, tuple(cols.rows), ())
+
+    def _made(self, sname: str, vcol: Column, tcol: Column, unit: str, t: np.ndarray, p: np.ndarray,
+              rows: tuple[int, ...], averaged: tuple[tuple[int, float, int], ...]) -> tuple[Series, SeriesSummary]:
+        """The series and its summary, with a note on values <= 0."""
+        nonpos = tuple((rows[i], float(t[i]), float(p[i])) for i in np.flatnonzero(p <= 0).tolist())
         if nonpos:
             self.notes.append(
                 f"series {sname!r}: {len(nonpos)} value(s) <= 0 kept (rows {_ranges([n[0] for n in nonpos])}); "
                 "terms with ln need p > 0"
             )
         s = Series(t=t, p=p, name=sname, time_unit=unit, value_unit=vcol.unit, time_column=tcol.label,
-                   value_column=vcol.label, rows=tuple(cols.rows))
-        return s, SeriesSummary(sname, tcol.label, unit, vcol.label, vcol.unit, t.size, nonpos, ())
+                   value_column=vcol.label, rows=rows)
+        return s, SeriesSummary(sname, tcol.label, unit, vcol.label, vcol.unit, t.size, nonpos, averaged)
 
 
 class _Columns(NamedTuple):
