@@ -19,7 +19,7 @@ from dash.exceptions import PreventUpdate
 from app import ids
 from app.callbacks.data import DEFAULT_MAX_BYTES, decode_source
 from app.components.series import ALL_GROUPS
-from app.figures.batch import overview_grid, padded_range, plate_map
+from app.figures.batch import data_ranges, overview_grid, plate_map
 from app.state import fit_label
 from growthcore.batch import fit_batch, from_series, groups_from_column, groups_from_pattern, parse_well, plate_format
 from growthcore.batch.table import METRICS, row
@@ -364,14 +364,15 @@ def grid_figure(batch: Mapping[str, Any] | None, labels: Sequence[str], merged: 
             head += f" · fitted so far: {fitted} of {n_shown}" if running else f" · {n_shown - fitted} not fitted"
     unit = batch.get("value_unit") or ""
     columns = 12 if batch.get("plate") else 8
-    scales = shared_scales(panels)
+    # one time range and one value range for every panel, so that panels compare by eye
+    scales = data_ranges(panels)
     if scales is not None:
-        (t_lo, t_hi), (p_lo, p_hi) = scales[2:]
+        (t_lo, t_hi), (p_lo, p_hi) = scales[1]
         t_unit = f" {batch['time_unit']}" if batch.get("time_unit") else ""
         head += f" · same scales in every panel: t {t_lo:.4g} to {t_hi:.4g}{t_unit}, value {p_lo:.4g} to {p_hi:.4g}"
         head += f" {unit}" if unit else ""
     fig = overview_grid(panels, columns=min(columns, max(1, len(panels))), max_panels=PAGE, title=head,
-                        scales=scales[:2] if scales is not None else None)
+                        scales=scales[0] if scales is not None else None)
     if not page_ids:
         fig["layout"]["annotations"] = [{"text": "No series in this group.", "showarrow": False, "xref": "paper",
                                          "yref": "paper", "x": 0.5, "y": 0.5}]
@@ -379,18 +380,6 @@ def grid_figure(batch: Mapping[str, Any] | None, labels: Sequence[str], merged: 
     fig["layout"]["shapes"] = [highlight_shape(boxes.get(current or "")), *fig["layout"].get("shapes", [])]
     fig["layout"]["uirevision"] = batch["key"]
     return fig, {"key": batch["key"], "boxes": boxes}
-
-
-def shared_scales(panels: Sequence[Mapping[str, Any]]) -> tuple[tuple[float, float], ...] | None:
-    """One time range and one value range for every panel, so that panels compare by eye.
-
-    Returns the padded axis ranges (time, value) and the data ranges they enclose (time, value).
-    """
-    ts = [v for p in panels for v in p["t"] if v is not None and math.isfinite(v)]
-    ps = [v for p in panels for v in [*p["p"], *p.get("fit_p", [])] if v is not None and math.isfinite(v)]
-    if not ts or not ps:
-        return None
-    return padded_range(ts, 0.03), padded_range(ps, 0.06), (min(ts), max(ts)), (min(ps), max(ps))
 
 
 def redraw_too_soon(view: Mapping[str, Any] | None, job: Mapping[str, Any] | None, *,

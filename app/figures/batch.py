@@ -72,7 +72,7 @@ def overview_grid(panels: Sequence[Mapping[str, Any]], *, columns: int = 8, max_
         thinned = thinned or len(keep) < len(panel["t"])
         for k in keep:
             t, p, u = panel["t"][k], panel["p"][k], used[k]
-            if t is None or p is None or not (math.isfinite(t) and math.isfinite(p)):
+            if not (_finite(t) and _finite(p)):
                 continue
             points["x"].append(to_x(t))
             points["y"].append(to_y(p))
@@ -82,7 +82,7 @@ def overview_grid(panels: Sequence[Mapping[str, Any]], *, columns: int = 8, max_
         fitted = not failed and bool(panel.get("fit_t"))
         if fitted:
             for t, p in zip(panel["fit_t"], panel["fit_p"]):
-                ok = t is not None and p is not None and math.isfinite(t) and math.isfinite(p)
+                ok = _finite(t) and _finite(p)
                 fit_x.append(to_x(t) if ok else None)
                 fit_y.append(to_y(p) if ok else None)
                 fit_ids.append(sid)
@@ -131,22 +131,36 @@ def _placement(panel: Mapping[str, Any], box: Sequence[float],
                scales: Scales | None) -> tuple[Callable[[float], float], Callable[[float], float]]:
     """Maps from a panel's time and value to grid coordinates inside its box."""
     if scales is None:
-        ts = [v for v in panel["t"] if v is not None and math.isfinite(v)]
-        ps = [v for v in [*panel["p"], *(panel.get("fit_p") or [])] if v is not None and math.isfinite(v)]
-        scales = padded_range(ts, 0.03), padded_range(ps, 0.06)
+        ranges = data_ranges([panel])
+        scales = ranges[0] if ranges is not None else ((0.0, 1.0), (0.0, 1.0))
     (t0, t1), (p0, p1) = scales
     sx = (box[1] - box[0]) / ((t1 - t0) or 1.0)
     sy = (box[3] - box[2]) / ((p1 - p0) or 1.0)
     return (lambda t: box[0] + (t - t0) * sx), (lambda p: box[2] + (p - p0) * sy)
 
 
-def padded_range(values: Sequence[float], pad: float) -> tuple[float, float]:
-    """[min, max] of ``values`` widened by ``pad`` of their span on each side ((0, 1) when empty)."""
-    if not values:
-        return 0.0, 1.0
-    lo, hi = min(values), max(values)
+def data_ranges(panels: Sequence[Mapping[str, Any]]) -> tuple[Scales, Scales] | None:
+    """(padded, plain) time and value ranges of the panels' observations and fitted paths.
+
+    The padded ranges leave a margin of 3% of the span in time and 6% in value on each side;
+    None when the panels hold no finite time or value.
+    """
+    ts = [v for p in panels for v in p["t"] if _finite(v)]
+    ps = [v for p in panels for v in [*p["p"], *(p.get("fit_p") or [])] if _finite(v)]
+    if not ts or not ps:
+        return None
+    plain = (min(ts), max(ts)), (min(ps), max(ps))
+    return (_pad(plain[0], 0.03), _pad(plain[1], 0.06)), plain
+
+
+def _pad(span: tuple[float, float], pad: float) -> tuple[float, float]:
+    lo, hi = span
     margin = pad * ((hi - lo) or abs(hi) or 1.0)
     return lo - margin, hi + margin
+
+
+def _finite(v: float | None) -> bool:
+    return v is not None and math.isfinite(v)
 
 
 def plate_map(values: Mapping[str, Mapping[str, Any]], *, quantity: str, title: str = "") -> Figure:
