@@ -121,6 +121,11 @@ def fit_label(result: FitResult | Mapping[str, Any]) -> str:
     return f"{model} ({method}{extra})"
 
 
+def fit_label_parts(label: str) -> tuple[str, str]:
+    """(form id, error model) back from a :func:`fit_label` such as ``logistic (trajectory, log error)``."""
+    return label.split(" (", 1)[0], "log" if label.endswith(", log error)") else "additive"
+
+
 def fit_to_store(result: FitResult, series: Series, *, t_end: float | None = None) -> dict[str, Any]:
     """What the panels and the table need from one fit, as JSON-ready data."""
     out: dict[str, Any] = {

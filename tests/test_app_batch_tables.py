@@ -20,6 +20,7 @@ from scipy import stats
 
 from app.callbacks import batch_tables as B
 from app.callbacks import series as S
+from app.state import fit_label, fit_label_parts
 from app.callbacks.data import import_source
 from growthcore.batch import group_difference_test
 
@@ -105,8 +106,9 @@ def test_f_test_view_reports_the_engine_test(tmp_path: Any) -> None:
 
 
 def test_labels_name_the_form_and_error_model() -> None:
-    assert B.model_of("theta-logistic (trajectory, log error)") == ("theta-logistic", "log")
-    assert B.model_of("ricker+c (increments)") == ("ricker+c", "additive")
+    for model, method, error in (("theta-logistic", "trajectory", "log"), ("ricker+c", "increments", "additive"),
+                                 ("logistic-curve", "trajectory", "additive")):
+        assert fit_label_parts(fit_label({"model": model, "method": method, "error": error})) == (model, error)
     assert B.constants_of(None) == [] and B.constants_of("no-such-form (increments)") == []
 
 

@@ -16,6 +16,7 @@ from dash.exceptions import PreventUpdate
 
 from app import ids
 from app.callbacks.series import merged_fits, series_from_plain
+from app.state import fit_label_parts
 from growthcore.batch import group_difference_test
 from growthcore.batch.summary import summarise
 from growthcore.errors import GrowthcoreInputError
@@ -30,12 +31,6 @@ def _groups_of(batch: Mapping[str, Any] | None, groups: Mapping[str, Any] | None
     if not batch or not groups or groups.get("key") != batch.get("key"):
         return {}
     return dict(groups.get("groups", {}))
-
-
-def model_of(label: str) -> tuple[str, str]:
-    """(form id, error model) of a fitted-form label such as ``logistic (trajectory, log error)``."""
-    model = label.split(" (", 1)[0]
-    return model, "log" if label.endswith(", log error)") else "additive"
 
 
 def table_csv(batch: Mapping[str, Any], labels: Sequence[str], merged: Mapping[str, Mapping[str, Any]],
@@ -63,7 +58,7 @@ def constants_of(label: str | None) -> list[str]:
     if not label:
         return []
     try:
-        return list(get_form(model_of(label)[0]).param_names)
+        return list(get_form(fit_label_parts(label)[0]).param_names)
     except GrowthcoreInputError:
         return []
 
@@ -125,7 +120,7 @@ def ftest_view(batch: Mapping[str, Any] | None, groups: Mapping[str, str], label
         return html.Div("The F test needs at least two groups with converged fits.", className="message message-error")
     by_name = {d["name"]: d for d in batch["series"]}
     series = [series_from_plain(by_name[n]) for n in chosen]
-    model, error = model_of(label)
+    model, error = fit_label_parts(label)
     try:
         test = group_difference_test(series, [groups[n] for n in chosen], model, constant, error=error)
     except GrowthcoreInputError as exc:
