@@ -10,7 +10,7 @@ error) or ln p − ln p̂ (log, i.e. multiplicative error).
 from __future__ import annotations
 
 import math
-from typing import Callable, Iterable, Iterator, Mapping, Sequence
+from typing import Any, Callable, Iterable, Iterator, Mapping, Sequence
 
 import numpy as np
 
@@ -129,30 +129,21 @@ def curve_problem(t: Array, p: Array, form: CurveForm, *, model: str, error: str
 
 def _curve_evaluation(form: CurveForm, free: tuple[str, ...], fixed: Mapping[str, float], elapsed: Array,
                       observed: Array, error: str) -> Evaluation:
-    """Residuals of one parameter vector and, on demand, the closed-form Jacobian of the curve."""
-    log = error == "log"
-    target = np.log(observed) if log else observed
-    # numpy scalars, not Python floats: a division by zero then gives inf (and a rejected step), not an error
-    base = {n: np.float64(v) for n, v in fixed.items()}
+    """The curve's residuals and, on demand, its closed-form Jacobian."""
+    partials = form.value_partials
+    assert partials is not None
 
-    def evaluate(x: Sequence[float]) -> tuple[Array, float, Callable[[], Array], Array] | None:
-        values = dict(base)
-        values.update(zip(free, map(np.float64, x)))
-        predicted = np.broadcast_to(form.value(elapsed, values), elapsed.shape)
-        residuals = target - (np.log(predicted) if log else predicted)
-        sse = float(residuals @ residuals)
-        if not math.isfinite(sse):
-            return None
+    def at(values: dict[str, Any]) -> tuple[Array, Callable[[], Array]]:
+        # numpy scalars, not Python floats: a division by zero gives inf (a rejected step), not an error
+        v = {n: np.float64(x) for n, x in values.items()}
 
-        def jacobian() -> Array:
-            assert form.value_partials is not None
-            parts = form.value_partials(elapsed, values)
-            jac = np.array([np.broadcast_to(parts[n], elapsed.shape) for n in free]).T
-            return jac / predicted[:, None] if log else jac
+        def states_jacobian() -> Array:
+            parts = partials(elapsed, v)
+            return np.array([np.broadcast_to(parts[n], elapsed.shape) for n in free]).T
 
-        return residuals, sse, jacobian, predicted
+        return np.broadcast_to(form.value(elapsed, v), elapsed.shape), states_jacobian
 
-    return evaluate
+    return _evaluation(free, fixed, observed, error, at)
 
 
 def _fit_curve(t: Array, p: Array, form: CurveForm, *, model: str, error: str,
@@ -220,30 +211,44 @@ def _fit_difference(series: Series, form: DifferenceForm, *, model: str, error: 
 
 def _path_evaluation(form: DifferenceForm, free: tuple[str, ...], fixed: Mapping[str, float], steps: int,
                      offset: Array, observed: Array, error: str) -> Evaluation:
-    """Residuals of one parameter vector and, on demand, the exact Jacobian of the predictions.
+    """The path's residuals and, on demand, its Jacobian by forward sensitivities."""
+    whole = offset.size == steps + 1  # no gaps: the path itself is the prediction
 
-    Runs under the caller's ``np.errstate`` (:func:`growthcore.fit.fit` silences numpy warnings).
+    def at(values: dict[str, Any]) -> tuple[Array, Callable[[], Array]]:
+        path = path_of(form, values["p0"], values, steps)
+
+        def states_jacobian() -> Array:
+            sens = path_jacobian(form, values, free, path)
+            return sens if whole else sens[offset]
+
+        return (path if whole else path[offset]), states_jacobian
+
+    return _evaluation(free, fixed, observed, error, at)
+
+
+def _evaluation(free: tuple[str, ...], fixed: Mapping[str, float], observed: Array, error: str,
+                at: Callable[[dict[str, Any]], tuple[Array, Callable[[], Array]]]) -> Evaluation:
+    """An :data:`Evaluation` from ``at(values)`` = (predicted states, d states / d free constants).
+
+    Residuals and the Jacobian are on the error scale. Runs under the caller's ``np.errstate``
+    (:func:`growthcore.fit.fit` silences numpy warnings).
     """
     log = error == "log"
     target = np.log(observed) if log else observed
     base = dict(fixed)
-    whole = offset.size == steps + 1  # no gaps: the path itself is the prediction
 
     def evaluate(x: Sequence[float]) -> tuple[Array, float, Callable[[], Array], Array] | None:
         values = dict(base)
         values.update(zip(free, x))
-        path = path_of(form, values["p0"], values, steps)
-        predicted = path if whole else path[offset]
+        predicted, states_jacobian = at(values)
         residuals = target - (np.log(predicted) if log else predicted)
         sse = float(residuals @ residuals)
         if not math.isfinite(sse):
             return None
 
         def jacobian() -> Array:
-            sens = path_jacobian(form, values, free, path)
-            if not whole:
-                sens = sens[offset]
-            return sens / predicted[:, None] if log else sens
+            jac = states_jacobian()
+            return jac / predicted[:, None] if log else jac
 
         return residuals, sse, jacobian, predicted
 
