@@ -126,7 +126,7 @@ def build_result(
             value, var = free_values[spec.name]
             se = math.sqrt(var) if var >= 0 else math.nan  # NaN fails the comparison too
             ci = (value - tq * se, value + tq * se) if math.isfinite(se) and math.isfinite(tq) else None
-            at_bound = _at_bound(value, spec)
+            at_bound = is_at_bound(value, spec)
             if at_bound:
                 notes_out.append(f"{spec.name} = {value:.6g} is at its bound; its standard error is not reliable")
             estimates.append(
@@ -169,6 +169,7 @@ def build_result(
     )
 
 
-def _at_bound(value: float, spec: ParamSpec) -> bool:
+def is_at_bound(value: float, spec: ParamSpec) -> bool:
+    """Whether ``value`` sits on one of the bounds of ``spec`` (to 1e-7 relative)."""
     scale = max(abs(value), 1e-12)
     return any(math.isfinite(b) and abs(value - b) <= 1e-7 * max(scale, abs(b)) for b in (spec.lower, spec.upper))

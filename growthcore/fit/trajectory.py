@@ -18,7 +18,7 @@ from growthcore.data import Series
 from growthcore.fit.increments import consecutive_pairs, fit_increments
 from growthcore.fit.lm import Evaluation, solve_exact
 from growthcore.fit.nls import NLSOutcome, solve
-from growthcore.fit.problem import P0_DIFFERENCE, Problem, build_result
+from growthcore.fit.problem import P0_DIFFERENCE, Problem, build_result, is_at_bound
 from growthcore.fit.result import FitResult, Grid, failed
 from growthcore.fit.sensitivity import path_jacobian
 from growthcore.fit.simulate import iterate, path_of
@@ -82,14 +82,10 @@ def _solve_one(problem: Problem, x0: Array, lower: Array, upper: Array) -> NLSOu
     """The exact-Jacobian solver where the problem has one, MINPACK where it stops short or at a bound."""
     if problem.exact is not None:
         outcome = solve_exact(problem.exact, x0, lower, upper, max_nfev=100 * (x0.size + 1))
-        if outcome.success and not _near_bound(outcome.x.tolist(), lower.tolist(), upper.tolist()):
+        at_bound = any(is_at_bound(v, problem.spec(n)) for v, n in zip(outcome.x.tolist(), problem.free))
+        if outcome.success and not at_bound:
             return outcome
     return solve(problem.residuals, x0, lower, upper, scale=problem.scale)
-
-
-def _near_bound(x: list[float], lower: list[float], upper: list[float]) -> bool:
-    return any(math.isfinite(b) and abs(v - b) <= 1e-7 * abs(b)
-               for v, lo, hi in zip(x, lower, upper) for b in (lo, hi))
 
 
 def _good_enough(problem: Problem, outcome: NLSOutcome) -> bool:
