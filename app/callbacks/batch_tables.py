@@ -1,7 +1,7 @@
 """After a run over every series: the table as CSV, per-group summaries and the F test between groups.
 
-The numbers come from the engine (growthcore.batch.summary.summarise for the group means and their
-intervals, growthcore.batch.group_difference_test for the joint fits and the F test); this module
+The numbers come from the engine (growthcore.batch.summary.summarise_groups for the group means and
+their intervals, growthcore.batch.group_difference_test for the joint fits and the F test); this module
 only gathers the stored fits and lays the answers out.
 """
 
@@ -10,7 +10,6 @@ from __future__ import annotations
 import math
 from typing import Any, Mapping, Sequence
 
-import numpy as np
 from dash import Dash, Input, Output, State, dcc, html, no_update
 from dash.exceptions import PreventUpdate
 
@@ -18,7 +17,7 @@ from app import ids
 from app.callbacks.series import merged_fits, series_from_plain
 from app.state import fit_label_parts
 from growthcore.batch import group_difference_test
-from growthcore.batch.summary import summarise
+from growthcore.batch.summary import summarise_groups
 from growthcore.errors import GrowthcoreInputError
 from growthcore.io import csv_text
 from growthcore.models.catalogue import get_form
@@ -70,19 +69,16 @@ def testable(label: str | None) -> list[str]:
 
 def summary_rows(label: str, merged: Mapping[str, Mapping[str, Any]], groups: Mapping[str, str],
                  order: Sequence[str]) -> list[dict[str, Any]]:
-    """Per group and constant: converged fits, failed fits, mean, SD and the 95% interval of the mean."""
+    """Per constant and group: converged fits, failed fits, mean, SD and the 95% interval of the mean."""
     fits = merged.get(label, {})
-    labels = list(dict.fromkeys(groups[n] for n in order if n in groups))
-    out = []
-    for constant in constants_of(label):
-        for group in labels:
-            ids_ = [n for n in order if groups.get(n) == group and n in fits]
-            ok = [fits[n] for n in ids_ if fits[n].get("status") == "converged"]
-            values = np.array([e["values"].get(constant, math.nan) for e in ok], dtype=float)
-            mean, sd, _, ci = summarise(values)
-            out.append({"constant": constant, "group": group, "n": int(np.isfinite(values).sum()),
-                        "failed": len(ids_) - len(ok), "mean": mean, "sd": sd, "ci": ci})
-    return out
+    labels = dict.fromkeys(groups[n] for n in order if n in groups)
+    members = {g: [n for n in order if groups.get(n) == g] for g in labels}
+    values = {n: (e.get("values", {}) if e.get("status") == "converged" else None) for n, e in fits.items()}
+    constants = constants_of(label)
+    summaries = summarise_groups(fit_label_parts(label)[0], constants, members, values)
+    summaries.sort(key=lambda s: constants.index(s.parameter))  # constant by constant, groups in file order
+    return [{"constant": s.parameter, "group": s.group, "n": s.n, "failed": s.n_failed, "mean": s.mean, "sd": s.sd,
+             "ci": s.ci95} for s in summaries]
 
 
 def _fmt(x: float | None) -> str:

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, Mapping, Sequence
 
 import numpy as np
 
@@ -57,17 +57,31 @@ def group_summary(batch: BatchResult, model: str | None = None) -> list[GroupPar
     out: list[GroupParameterSummary] = []
     groups = batch.data.members()
     for m in (batch.models if model is None else (model,)):
-        fits = {f.series: f for f in batch.for_model(m)}
+        fits = {f.series: f.result for f in batch.for_model(m)}
         names: list[str] = []
-        for f in fits.values():
-            for p in f.result.parameters:
+        for r in fits.values():
+            for p in r.parameters:
                 if not p.fixed and p.name not in names:
                     names.append(p.name)
-        for label, ids in groups.items():
-            ok = [fits[i].result for i in ids if i in fits and fits[i].result.success]
-            n_failed = sum(1 for i in ids if i in fits and not fits[i].result.success)
-            for name in names:
-                vals = np.array([r.values[name] for r in ok if name in r.values], dtype=float)
-                mean, sd, se, ci = summarise(vals)
-                out.append(GroupParameterSummary(label, m, name, int(np.isfinite(vals).sum()), n_failed, mean, sd, se, ci))
+        values = {sid: (r.values if r.success else None) for sid, r in fits.items()}
+        out.extend(summarise_groups(m, names, groups, values))
+    return out
+
+
+def summarise_groups(model: str, constants: Sequence[str], members: Mapping[str, Sequence[str]],
+                     values: Mapping[str, Mapping[str, float] | None]) -> list[GroupParameterSummary]:
+    """Per group (in the order of ``members``) and constant, the summary of the converged fits.
+
+    ``values[id]`` holds a converged fit's constants and is None for a failed fit; a series absent
+    from ``values`` was not fitted and counts neither way.
+    """
+    out = []
+    for label, ids in members.items():
+        fitted = [i for i in ids if i in values]
+        ok = [values[i] for i in fitted if values[i] is not None]
+        for name in constants:
+            vals = np.array([v[name] for v in ok if v is not None and name in v], dtype=float)
+            mean, sd, se, ci = summarise(vals)
+            out.append(GroupParameterSummary(label, model, name, int(np.isfinite(vals).sum()), len(fitted) - len(ok),
+                                             mean, sd, se, ci))
     return out
