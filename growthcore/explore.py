@@ -22,6 +22,7 @@ from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.expr import parse_term
 from growthcore.fit import FitResult, fit
+from growthcore.fit.forms import fit_forms  # noqa: F401  (the app fits through it)
 from growthcore.fit.starts import capacity_guess
 from growthcore.models import get_form
 from growthcore.models.base import DifferenceForm, ModelForm
@@ -249,34 +250,6 @@ def form_uses_capacity(model: str, terms: Sequence[str] = ()) -> bool:
     """Whether the form has a carrying capacity K to hold at the estimate."""
     form: ModelForm = get_form(model, terms=terms)
     return "K" in form.param_names
-
-
-def fit_forms(
-    series: Series,
-    models: Sequence[str],
-    *,
-    method: str,
-    error: str = "additive",
-    capacity: float | None = None,
-    terms: Sequence[str] = (),
-    profile: bool = False,
-) -> list[FitResult]:
-    """Fit each form by ``method`` (``increments``, ``trajectory`` or ``both``).
-
-    ``capacity`` holds K at that estimate in every form that has K (others ignore it). With
-    ``both``, closed-form curves are fitted by the trajectory method only, as they have no change
-    per step. Bad choices raise ``GrowthcoreInputError``; numerical trouble is a failed result.
-    """
-    methods = ("increments", "trajectory") if method == "both" else (method,)
-    out: list[FitResult] = []
-    for model in models:
-        form = get_form(model, terms=terms)
-        k = capacity if capacity is not None and "K" in form.param_names else None
-        for m in methods:
-            if m == "increments" and len(methods) > 1 and form.kind == "curve":
-                continue
-            out.append(fit(series, form, method=m, error=error, capacity=k, terms=terms, profile=profile))
-    return out
 
 
 def capacity_from_fit(series: Series, models: Sequence[str], terms: Sequence[str] = ()) -> tuple[float | None, str]:

@@ -11,7 +11,8 @@ from growthcore.cli import fit_export, fit_uncertainty
 from growthcore.compare import compare, comparison_notes
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
-from growthcore.fit import ERROR_MODELS, FitResult, fit
+from growthcore.fit import ERROR_MODELS, FitResult
+from growthcore.fit.forms import fit_forms
 from growthcore.io import load_file
 from growthcore.record import DataSource, build_record
 
@@ -58,13 +59,9 @@ def pick_series(found: Sequence[Series], wanted: str | None, source: str) -> Ser
 
 def run_fits(series: Series, models: Sequence[str], methods: Sequence[str], *, error: str,
              capacity: float | None, terms: Sequence[str], profile: bool) -> list[FitResult]:
-    out = []
-    for model in models:
-        for method in methods:
-            if method == "increments" and len(methods) > 1 and model.endswith("-curve"):
-                continue  # "both" means each method that applies; curves have no increments fit
-            out.append(fit(series, model, method=method, error=error, capacity=capacity, terms=terms, profile=profile))
-    return out
+    """Every form by every method (``both`` skips the increments fit of curves), as the app fits them."""
+    method = "both" if len(methods) > 1 else methods[0]
+    return fit_forms(series, models, method=method, error=error, capacity=capacity, terms=terms, profile=profile)
 
 
 def summary_lines(fits: Sequence[FitResult]) -> list[str]:
