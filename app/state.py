@@ -150,7 +150,8 @@ def fit_to_store(result: FitResult, series: Series, *, t_end: float | None = Non
         observed=_list(result.observed),
         predicted=_list(result.predicted),
         residuals=_list(result.residuals),
-        profile_interval=[_num(v) for v in result.profile.interval] if result.profile is not None else None,
+        profile_interval=([_num(v) for v in (*result.profile.interval, *result.profile.interval_lr)]
+                          if result.profile is not None else None),
     )
     end = float(series.t[-1]) if t_end is None else float(t_end)
     try:

@@ -355,7 +355,8 @@ def fit_from_dict(d: Mapping[str, Any]) -> FitResult:
         profile=None if prof is None else CapacityProfile(
             np.array([float(v) for v in prof["K"]]), np.array([_nan(v) for v in prof["sse"]]),
             _nan(prof["threshold"]), (prof["interval"][0], prof["interval"][1]) if prof["interval"] else (None, None),
-            str(prof.get("message", ""))),
+            str(prof.get("message", "")), _nan(prof.get("threshold_lr")),
+            tuple(prof.get("interval_lr") or (None, None))),  # type: ignore[arg-type]
         notes=tuple(str(n) for n in d.get("notes", ())),
         grid=None if grid is None else Grid(float(grid["t0"]), float(grid["h"])),
         terms=terms if d["model"] == "custom" else (),

@@ -50,9 +50,12 @@ def parameter_lines(params: Mapping[str, Mapping[str, Any]], profile: Sequence[f
             out.append(html.Div(f"{name} bootstrap [{fmt(boot[name][0])}, {fmt(boot[name][1])}]",
                                 className="param param-profile"))
         if name == "K" and profile and not p.get("fixed"):
-            lo, hi = profile
-            out.append(html.Div(f"K profile interval [{fmt(lo)}, {fmt(hi) if hi is not None else 'open'}]",
-                                className="param param-profile"))
+            lo, hi = profile[0], profile[1]
+            text = f"K profile interval, F-calibrated cut [{fmt(lo)}, {fmt(hi) if hi is not None else 'open'}]"
+            if len(profile) == 4:
+                text += (f"; chi-square likelihood-ratio cut [{fmt(profile[2])}, "
+                         f"{fmt(profile[3]) if profile[3] is not None else 'open'}]")
+            out.append(html.Div(text, className="param param-profile"))
     return out
 
 

@@ -54,7 +54,10 @@ class ParameterEstimate:
 class CapacityProfile:
     """SSE with K fixed at each grid value and the other constants refitted.
 
-    The interval is {K : SSE(K) ≤ threshold}, threshold = SSE_min·(1 + F(0.95; 1, n − q)/(n − q)).
+    The interval is {K : SSE(K) ≤ threshold}, with the F-calibrated cut
+    threshold = SSE_min·(1 + F(0.95; 1, n − q)/(n − q)); ``interval_lr`` is the same set under the
+    chi-square likelihood-ratio cut ``threshold_lr`` = SSE_min·exp(χ²(0.95; 1)/n). The ends are
+    found by root-finding on the profile, not read off the grid.
     """
 
     k: Array
@@ -62,6 +65,9 @@ class CapacityProfile:
     threshold: float
     interval: tuple[float | None, float | None]
     message: str = ""
+    threshold_lr: float = math.nan
+    interval_lr: tuple[float | None, float | None] = (None, None)
+    cut: str = "F-calibrated"
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -69,6 +75,9 @@ class CapacityProfile:
             "sse": [_num(float(v)) for v in self.sse],
             "threshold": _num(self.threshold),
             "interval": [_num(self.interval[0]), _num(self.interval[1])],
+            "cut": self.cut,
+            "threshold_lr": _num(self.threshold_lr),
+            "interval_lr": [_num(self.interval_lr[0]), _num(self.interval_lr[1])],
             "message": self.message,
         }
 

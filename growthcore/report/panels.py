@@ -231,9 +231,13 @@ def profile_figure(record: Mapping[str, Any]) -> Figure | None:
             traces.append({"type": "scatter", "mode": "lines", "showlegend": False, "hoverinfo": "skip",
                            "x": [min(prof["K"]), max(prof["K"])], "y": [prof["threshold"]] * 2,
                            "line": {"color": colour, "width": 1, "dash": "dot"}})
+        if prof.get("threshold_lr") is not None:
+            traces.append({"type": "scatter", "mode": "lines", "showlegend": False, "hoverinfo": "skip",
+                           "x": [min(prof["K"]), max(prof["K"])], "y": [prof["threshold_lr"]] * 2,
+                           "line": {"color": colour, "width": 1, "dash": "dash"}})
     if not traces:
         return None
-    return {"data": traces, "layout": _layout("Profile of K: SSE with K fixed (dotted: 95% threshold)",
+    return {"data": traces, "layout": _layout("Profile of K: SSE with K fixed (dotted: F-calibrated 95% cut; dashed: chi-square likelihood-ratio cut)",
                                               "carrying capacity K", "SSE")}
 
 
