@@ -27,6 +27,7 @@ class ComparisonRow:
     sse: float | None
     rmse: float | None
     r2: float | None
+    r2_uncentered: float | None
     aicc: float | None
     delta_aicc: float | None
     weight: float | None
@@ -34,9 +35,37 @@ class ComparisonRow:
     systematic_misfit: bool | None
     warnings: tuple[str, ...]
     best: bool
+    group: str = ""
+    missing: dict[str, str] | None = None
 
     def to_dict(self) -> dict[str, Any]:
-        return dict(self.__dict__, warnings=list(self.warnings))
+        return dict(self.__dict__, warnings=list(self.warnings), missing=dict(self.missing or {}))
+
+
+#: ΔAICc values this close to zero (relative to the AICc) are round-off of equal criteria.
+TIE_RTOL = 1e-9
+
+
+def group_label(method: str, error: str, n: int) -> str:
+    """Words for a comparable group: fits of the same points on the same scale."""
+    return f"{method}, {error} error, n = {n}"
+
+
+def missing_reasons(f: FitResult) -> dict[str, str]:
+    """Why a figure of a converged fit is not shown ("–"), per metric key."""
+    m = f.metrics
+    if m is None:
+        return {}
+    out: dict[str, str] = {}
+    q = m.n_params + 1
+    if not math.isfinite(m.aicc):
+        out["aicc"] = (f"AICc needs n > k + 2 (k = {m.n_params} constants + the error variance): "
+                       f"n = {m.n} points" if m.n - q - 1 <= 0 else "AICc is not finite (a perfect fit)")
+    if not math.isfinite(m.r2):
+        out["r2"] = "R² of the states needs observations that vary"
+    if f.method != "increments":
+        out["r2_uncentered"] = "the uncentered R² belongs to the regression of Δp (increments fits)"
+    return out
 
 
 def _group(f: FitResult) -> tuple[str, str, int]:
@@ -61,9 +90,13 @@ def compare(fits: Sequence[FitResult]) -> list[ComparisonRow]:
         finite = [a for a in aiccs if math.isfinite(a)]
         low = min(finite) if finite else math.nan
         for i, a, w in zip(members, aiccs, weights):
-            deltas[i] = (_num(a - low), _num(w))
-            if finite and a == low:
-                best.add(i)
+            delta = a - low
+            if math.isfinite(delta) and abs(delta) <= TIE_RTOL * max(1.0, abs(low)):
+                delta = 0.0  # equal criteria up to round-off
+            deltas[i] = (_num(delta), _num(w))
+        tied = [i for i in members if deltas[i][0] == 0.0]
+        if tied:
+            best.add(tied[0])  # one best per comparable group; a tie is said in the warnings
     rows = []
     for i, f in enumerate(fits):
         m = f.metrics
@@ -81,13 +114,17 @@ def compare(fits: Sequence[FitResult]) -> list[ComparisonRow]:
                 sse=_num(m.sse) if m else None,
                 rmse=_num(m.rmse) if m else None,
                 r2=_num(m.r2) if m else None,
+                r2_uncentered=_num(m.r2_uncentered) if m and m.r2_uncentered is not None else None,
                 aicc=_num(m.aicc) if m else None,
                 delta_aicc=d,
                 weight=w,
                 bic=_num(m.bic) if m else None,
                 systematic_misfit=f.diagnostics.systematic if f.diagnostics else None,
-                warnings=f.notes + ((f.diagnostics.message,) if f.diagnostics and f.diagnostics.systematic else ()),
+                warnings=f.notes + ((f.diagnostics.message,) if f.diagnostics and f.diagnostics.systematic else ())
+                + _tie_note(i, fits, deltas, best),
                 best=i in best and len(groups.get(_group(f), [])) > 1,
+                group=group_label(*_group(f)) if f.success and m is not None else "",
+                missing=missing_reasons(f) if f.success else {},
             )
         )
     order = sorted(range(len(rows)), key=lambda i: (
@@ -95,11 +132,20 @@ def compare(fits: Sequence[FitResult]) -> list[ComparisonRow]:
     return [rows[i] for i in order]
 
 
+def _tie_note(i: int, fits: Sequence[FitResult], deltas: dict[int, tuple[float | None, float | None]],
+              best: set[int]) -> tuple[str, ...]:
+    if deltas.get(i, (None,))[0] != 0.0 or i in best:
+        return ()
+    first = next(j for j in best if _group(fits[j]) == _group(fits[i]))
+    return (f"ties with {fits[first].model} on AICc (ΔAICc = 0): the data cannot tell them apart",)
+
+
 def comparison_notes(fits: Sequence[FitResult]) -> list[str]:
     """Plain warnings about what the table can and cannot compare."""
-    groups = {_group(f) for f in fits if f.success}
+    groups = {_group(f) for f in fits if f.success and f.metrics is not None}
     notes = []
     if len(groups) > 1:
-        notes.append("these fits differ in method, error model or number of points: ΔAICc and weights are "
-                     "computed only within rows that share all three")
+        named = "; ".join(group_label(*g) for g in sorted(groups))
+        notes.append("these fits differ in method, error model or number of points: ΔAICc, weights and the best "
+                     f"AICc are computed only within rows that share all three ({named})")
     return notes

@@ -26,6 +26,9 @@ from growthcore.models.base import CurveForm, DifferenceForm, ModelForm
 
 Array = np.ndarray
 MAX_STEPS = 10_000
+#: The stability rules, stated with every equilibrium so that no table applies the wrong one.
+MAP_RULE = "map: stable when |f'(p*)| < 1"
+FLOW_RULE = "growth curve (dp/dt = F(p)): stable when F'(p*) < 0"
 
 
 def state_upper(values: Mapping[str, float], observed: Array) -> float:
@@ -69,10 +72,13 @@ def equilibria(form: ModelForm, values: Mapping[str, float], upper: float) -> li
         if isinstance(form, DifferenceForm):
             multiplier = 1.0 + slope
             stable = bool(math.isfinite(multiplier) and abs(multiplier) < 1.0)
+            out.append({"value": root, "multiplier": multiplier if math.isfinite(multiplier) else None,
+                        "stable": stable, "rule": MAP_RULE})
         else:
-            multiplier = slope
+            # a growth curve is the solution of dp/dt = F(p): its equilibria have a rate slope, not a multiplier
             stable = bool(math.isfinite(slope) and slope < 0.0)
-        out.append({"value": root, "multiplier": multiplier if math.isfinite(multiplier) else None, "stable": stable})
+            out.append({"value": root, "multiplier": None, "rate_slope": slope if math.isfinite(slope) else None,
+                        "stable": stable, "rule": FLOW_RULE})
     return out
 
 

@@ -33,7 +33,7 @@ CHUNK_MIN = 16          # series per tick at least ...
 CHUNK_TICKS = 12        # ... and about this many ticks for a large file
 PATH_POINTS = 120       # points kept of each fitted path (enough for a panel a few hundred pixels wide)
 GRID_REDRAW_S = 3.0     # while a run goes on, the grid (slow to draw in the browser) is redrawn at most this often
-PLATE_METRICS = ("rmse", "r2", "aicc", "bic", "durbin_watson", "runs_p")
+PLATE_METRICS = ("rmse", "r2", "r2_uncentered", "aicc", "bic", "durbin_watson", "runs_p")
 #: Shown instead of a fit for a series the current run has not reached; the figure builder draws
 #: such a panel with its data only.
 NOT_FITTED = {"status": "not fitted", "message": "", "fit_t": [], "fit_p": []}
@@ -400,8 +400,8 @@ def quantity_options(merged: Mapping[str, Mapping[str, Any]], label: str | None,
             if k not in names and k not in METRICS and k not in PLATE_METRICS and not k.endswith("_se"):
                 names.append(k)
     metric_names = [m for m in PLATE_METRICS if any(m in e.get("values", {}) for e in entries.values())]
-    labels = {"rmse": "RMSE", "r2": "R²", "aicc": "AICc", "bic": "BIC", "durbin_watson": "Durbin–Watson",
-              "runs_p": "runs test p"}
+    labels = {"rmse": "RMSE", "r2": "R² (states)", "r2_uncentered": "uncentered R² (Δp)", "aicc": "AICc", "bic": "BIC",
+              "durbin_watson": "Durbin–Watson", "runs_p": "runs test p"}
     options = [{"label": f"constant {n}", "value": n} for n in names]
     options += [{"label": labels[m], "value": m} for m in metric_names]
     values = [o["value"] for o in options]

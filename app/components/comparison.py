@@ -14,7 +14,8 @@ COLUMNS: tuple[tuple[str, str, str], ...] = (
     ("n", "n", "points in the fit"),
     ("sse", "SSE", "sum of squared residuals on the fitted scale"),
     ("rmse", "RMSE", "root mean squared residual"),
-    ("r2", "R²", "centered R² of the states"),
+    ("r2", "R² (states)", "centered R² of the states"),
+    ("r2_uncentered", "uncentered R² (Δp)", "uncentered R² of the regression of the change per step (increments fits)"),
     ("aicc", "AICc", "small-sample Akaike criterion"),
     ("delta_aicc", "ΔAICc", "AICc minus the lowest AICc among comparable fits"),
     ("weight", "Akaike weight", "relative support among comparable fits"),
@@ -57,6 +58,19 @@ def parameter_lines(params: Mapping[str, Mapping[str, Any]], profile: Sequence[f
                          f"{fmt(profile[3]) if profile[3] is not None else 'open'}]")
             out.append(html.Div(text, className="param param-profile"))
     return out
+
+
+def cell(row: Mapping[str, Any], key: str) -> html.Td:
+    """One number of the table; a "–" carries the reason it is missing (shown on hover and read aloud)."""
+    value = row.get(key)
+    digits = 3 if key == "weight" else 5 if key in ("aicc", "bic", "sse") else 4
+    reason = (row.get("missing") or {}).get(key)
+    if value is None and row.get("status") == "converged":
+        reason = reason or ("ΔAICc and weights need a finite AICc in a group of comparable fits"
+                            if key in ("delta_aicc", "weight") else "not defined for this fit")
+    if value is None and reason:
+        return html.Td(html.Abbr("–", title=reason), className="num", **{"aria-label": reason})
+    return html.Td(fmt(value, digits), className="num")
 
 
 def sort_rows(rows: Sequence[Mapping[str, Any]], sort: Mapping[str, Any] | None) -> list[Mapping[str, Any]]:
@@ -107,12 +121,13 @@ def comparison_table(rows: Sequence[Mapping[str, Any]], fits: Sequence[Mapping[s
         notes = [html.Div(r["message"], className="status-message")] if not converged else []
         notes += [html.Div(w, className="warning") for w in r.get("warnings", [])]
         body.append(html.Tr([
-            html.Td(html.Span("★ best AICc", className="best-badge") if r.get("best") else "", className="col-best"),
+            html.Td([html.Span("★ best AICc", className="best-badge"),
+                     html.Div(f"among {r.get('group')}", className="best-group")] if r.get("best") else "",
+                    className="col-best"),
             html.Th(label, scope="row", className="col-form"),
             html.Td(parameter_lines(r.get("parameters", {}), f.get("profile_interval"),
                                     (boot or {}).get((r["model"], r["method"], r["error"]))) if converged else "–"),
-            *[html.Td(fmt(r.get(k), 3 if k == "weight" else 5 if k in ("aicc", "bic", "sse") else 4),
-                      className="num") for k, _, _ in COLUMNS],
+            *[cell(r, k) for k, _, _ in COLUMNS],
             html.Td("systematic" if misfit else "none" if misfit is False else "–",
                     className="misfit-yes" if misfit else ""),
             html.Td([html.Div("converged" if converged else "failed",

@@ -139,16 +139,20 @@ def dynamics_section() -> html.Section:
 def equilibria_table(equilibria: Sequence[Mapping[str, Any]], unit: str) -> html.Table | html.P:
     if not equilibria:
         return html.P("No equilibrium in the range of the data and K.", className="muted")
-    head = html.Tr([html.Th(f"p* [{unit}]" if unit else "p*", scope="col"), html.Th("multiplier f'(p*)", scope="col"),
-                    html.Th("stability", scope="col")])
+    flow = any("rate_slope" in e for e in equilibria)
+    slope_head = "rate slope F'(p*)" if flow else "multiplier f'(p*)"
+    rule = equilibria[0].get("rule") or ("stable when F'(p*) < 0" if flow else "stable when |f'(p*)| < 1")
+    head = html.Tr([html.Th(f"p* [{unit}]" if unit else "p*", scope="col"), html.Th(slope_head, scope="col"),
+                    html.Th("stability", scope="col", title=rule)])
     rows = []
     for e in equilibria:
         stable = e.get("stable")
         word = "stable" if stable else "unstable" if stable is False else "–"
         rows.append(html.Tr([html.Td(fmt(e.get("value")), className="num"),
-                             html.Td(fmt(e.get("multiplier"), 3), className="num"),
+                             html.Td(fmt(e.get("rate_slope" if flow else "multiplier"), 3), className="num"),
                              html.Td(word, className="status-ok" if stable else "misfit-yes" if stable is False else "")]))
-    return html.Table([html.Thead(head), html.Tbody(rows)], className="comparison dyn-table", style=TABLE)
+    return html.Table([html.Caption(f"Stability rule: {rule}", className="muted"), html.Thead(head), html.Tbody(rows)],
+                      className="comparison dyn-table", style=TABLE)
 
 
 def _strong(v: float | None) -> bool:

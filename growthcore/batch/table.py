@@ -7,8 +7,9 @@ from typing import Any
 
 from growthcore.batch.runner import BatchResult, SeriesFit
 
-#: Metric columns, in order; all come from :class:`growthcore.stats.Metrics`.
-METRICS: tuple[str, ...] = ("n", "sse", "rmse", "r2", "r2_adjusted", "aic", "aicc", "bic")
+#: Metric columns, in order; all come from :class:`growthcore.stats.Metrics`. ``r2`` is the centered R² of
+#: the states; ``r2_uncentered`` the uncentered R² of the regression of Δp (increments fits only).
+METRICS: tuple[str, ...] = ("n", "sse", "rmse", "r2", "r2_adjusted", "r2_uncentered", "aic", "aicc", "bic")
 LEAD: tuple[str, ...] = ("series", "group", "model", "method", "error", "status", "message", "points_used")
 
 

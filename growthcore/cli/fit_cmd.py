@@ -8,7 +8,7 @@ import sys
 from typing import Sequence
 
 from growthcore.cli import fit_export, fit_uncertainty
-from growthcore.compare import compare, comparison_notes
+from growthcore.compare import ComparisonRow, compare, comparison_notes
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import ERROR_MODELS, FitResult
@@ -64,6 +64,26 @@ def run_fits(series: Series, models: Sequence[str], methods: Sequence[str], *, e
     return fit_forms(series, models, method=method, error=error, capacity=capacity, terms=terms, profile=profile)
 
 
+#: What each figure is called wherever it is printed.
+METRIC_NAMES = {"r2": "R² of the states", "r2_uncentered": "uncentered R² of Δp", "aicc": "AICc"}
+
+
+def metric_line(row: ComparisonRow) -> str:
+    """R² under its own name (the uncentered R² of the Δp regression first for an increments fit), RMSE, ΔAICc."""
+    def g(x: float | None, spec: str) -> str:
+        return format(x, spec) if x is not None else "–"
+
+    parts = []
+    if row.method == "increments":
+        parts.append(f"{METRIC_NAMES['r2_uncentered']} = {g(row.r2_uncentered, '.4f')}")
+    parts.append(f"{METRIC_NAMES['r2']} = {g(row.r2, '.4f')}")
+    parts.append(f"RMSE = {g(row.rmse, '.4g')}")
+    parts.append(f"AICc = {g(row.aicc, '.2f')}")
+    if row.delta_aicc is not None:
+        parts.append(f"ΔAICc = {row.delta_aicc:.2f}")
+    return ", ".join(parts)
+
+
 def summary_lines(fits: Sequence[FitResult]) -> list[str]:
     lines = []
     for row in compare(fits):
@@ -75,9 +95,11 @@ def summary_lines(fits: Sequence[FitResult]) -> list[str]:
             f"{n} = {d['value']:.6g}" + (f" ± {d['se']:.2g}" if d["se"] is not None else " (fixed)" if d["fixed"] else "")
             for n, d in row.parameters.items()
         )
-        extra = f"; ΔAICc = {row.delta_aicc:.2f}" if row.delta_aicc is not None else ""
-        r2 = f"{row.r2:.4f}" if row.r2 is not None else "n/a"
-        lines.append(f"{head}{' [best by AICc]' if row.best else ''}\n    {params}\n    R² = {r2}, RMSE = {row.rmse:.4g}{extra}")
+        lines.append(f"{head}{f' [best AICc among {row.group}]' if row.best else ''}\n    {params}\n"
+                     f"    {metric_line(row)}")
+        for key, why in (row.missing or {}).items():
+            if key != "r2_uncentered":
+                lines.append(f"    {METRIC_NAMES.get(key, key)} –: {why}")
         for w in row.warnings:
             lines.append(f"    note: {w}")
     return lines

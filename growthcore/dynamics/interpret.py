@@ -65,6 +65,10 @@ def describe(result: Any, lr: LongRun, equilibria: Sequence[Mapping[str, Any]],
                    "from the starting level.")
     if regimes is not None and regimes.shares:
         out.append(_interval_sentence(regimes, lr))
+    elif regimes is not None and regimes.interval and regimes.source == "interval grid":
+        lo, hi = regimes.interval
+        out.append(f"The 95% interval of {regimes.parameter} ({_g(lo)} to {_g(hi)}) lies outside the values the form "
+                   "allows: the long run over it is not assessed.")
     return out
 
 
@@ -86,6 +90,9 @@ def _interval_sentence(regimes: RegimeShares, lr: LongRun) -> str:
     own = regime_label(lr.kind, lr.period)
     span = (f" of {regimes.parameter} ({_g(regimes.interval[0])} to {_g(regimes.interval[1])})"
             if regimes.interval else f" of {regimes.parameter}")
+    if regimes.stepped:
+        span += (f", of which {_g(regimes.stepped[0])} to {_g(regimes.stepped[1])} lies within the form's "
+                 "allowed values and was stepped,")
     others = [(label, share) for label, share in regimes.shares.items() if label != own]
     unit = "of bootstrap refits" if regimes.source == "bootstrap" else "of the interval"
     if not others:

@@ -53,11 +53,14 @@ class RegimeShares:
     shares: Mapping[str, float]
     source: str  # "bootstrap" or "interval grid"
     count: int
+    #: The part of ``interval`` that was stepped when the interval reaches past the constant's bounds.
+    stepped: tuple[float, float] | None = None
 
     def to_dict(self) -> dict[str, Any]:
         return {"parameter": self.parameter,
                 "interval": list(self.interval) if self.interval else None,
-                "shares": dict(self.shares), "source": self.source, "count": self.count}
+                "shares": dict(self.shares), "source": self.source, "count": self.count,
+                "stepped": list(self.stepped) if self.stepped else None}
 
 
 def _shares(kinds: Array, periods: Array) -> dict[str, float]:
@@ -90,8 +93,12 @@ def regime_shares(result: FitResult, *, samples: Mapping[str, Array] | None = No
         return None
     spec = form.spec(rate)
     lo, hi = max(ci[0], spec.lower), min(ci[1], spec.upper)
+    table = (float(ci[0]), float(ci[1]))  # the interval as the tables show it, never clipped
+    if not lo < hi:
+        return RegimeShares(rate, table, {}, "interval grid", 0, None)
     grid = np.linspace(lo, hi, points)
     values[rate] = grid
     batch = classify(form, values, start, scale=state_scale(result))
-    return RegimeShares(rate, (float(lo), float(hi)), _shares(batch.kind, batch.period), "interval grid", points)
+    stepped = (float(lo), float(hi)) if (lo, hi) != table else None
+    return RegimeShares(rate, table, _shares(batch.kind, batch.period), "interval grid", points, stepped)
 

@@ -169,7 +169,14 @@ def build_result(
     )
 
 
+#: How close (relative) a constant must come to a bound to count as on it. The bounded solvers work in
+#: squashed coordinates that approach a bound without reaching it (Richards' ν on carData::USPop stops at
+#: 0.01000004 against the bound 0.01), so exact equality would miss estimates that sit on the bound.
+AT_BOUND_RTOL = 1e-4
+
+
 def is_at_bound(value: float, spec: ParamSpec) -> bool:
-    """Whether ``value`` sits on one of the bounds of ``spec`` (to 1e-7 relative)."""
+    """Whether ``value`` sits on one of the bounds of ``spec`` (to ``AT_BOUND_RTOL`` relative)."""
     scale = max(abs(value), 1e-12)
-    return any(math.isfinite(b) and abs(value - b) <= 1e-7 * max(scale, abs(b)) for b in (spec.lower, spec.upper))
+    return any(math.isfinite(b) and abs(value - b) <= AT_BOUND_RTOL * max(scale, abs(b))
+               for b in (spec.lower, spec.upper))

@@ -61,8 +61,10 @@ def _fit_details(f: Mapping[str, Any]) -> str:
     derived = f.get("derived") or {}
     rows = [[k.replace("_", " "), v] for k, v in derived.items() if not isinstance(v, (list, dict))]
     for e in derived.get("equilibria", []) or []:
-        rows.append([f"equilibrium {e['value']:.6g}", f"multiplier {_fmt(e.get('multiplier'))}, "
-                     f"{'stable' if e.get('stable') else 'unstable'}"])
+        slope = (f"rate slope F'(p*) {_fmt(e.get('rate_slope'))}" if "rate_slope" in e
+                 else f"multiplier {_fmt(e.get('multiplier'))}")
+        rows.append([f"equilibrium {e['value']:.6g}", f"{slope}, {'stable' if e.get('stable') else 'unstable'}"
+                     + (f" ({esc(e['rule'])})" if e.get("rule") else "")])
     if rows:
         parts.append(_table(["derived quantity", "value"], rows))
     diag = f.get("diagnostics")

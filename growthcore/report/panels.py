@@ -142,14 +142,16 @@ def comparison_columns(record: Mapping[str, Any]) -> tuple[list[str], list[list[
     """Header and columns of the comparison table (rows as the record orders them)."""
     rows = record.get("comparison", {}).get("rows") or [
         {"model": f["model"], "method": f["method"], "error": f["error"], "status": f["status"],
-         **{k: (f.get("metrics") or {}).get(k) for k in ("n", "n_params", "r2", "rmse", "aicc", "bic")}}
+         **{k: (f.get("metrics") or {}).get(k) for k in ("n", "n_params", "r2", "r2_uncentered", "rmse", "aicc", "bic")}}
         for f in record["fits"]]
-    header = ["form (method, error)", "n", "k", "R²", "RMSE", "AICc", "ΔAICc", "weight", "misfit"]
+    header = ["form (method, error)", "n", "k", "R² (states)", "uncentered R² (Δp)", "RMSE", "AICc", "ΔAICc", "weight",
+              "misfit"]
     cols = [
         [esc(label(r)) + (" ★" if r.get("best") else "") + ("" if r["status"] == "converged" else " – failed")
          for r in rows],
         [_fmt(r.get("n")) for r in rows], [_fmt(r.get("n_params")) for r in rows],
-        [_fmt(r.get("r2"), ".4f") for r in rows], [_fmt(r.get("rmse")) for r in rows],
+        [_fmt(r.get("r2"), ".4f") for r in rows], [_fmt(r.get("r2_uncentered"), ".4f") for r in rows],
+        [_fmt(r.get("rmse")) for r in rows],
         [_fmt(r.get("aicc"), ".2f") for r in rows], [_fmt(r.get("delta_aicc"), ".2f") for r in rows],
         [_fmt(r.get("weight"), ".3f") for r in rows],
         ["systematic" if r.get("systematic_misfit") else "–" if r.get("systematic_misfit") is None else "none"
@@ -158,7 +160,7 @@ def comparison_columns(record: Mapping[str, Any]) -> tuple[list[str], list[list[
     return header, cols
 
 
-COMPARISON_WIDTHS = [3.2, 0.6, 0.5, 0.9, 0.9, 1.0, 0.9, 0.9, 1.1]
+COMPARISON_WIDTHS = [3.2, 0.6, 0.5, 0.9, 1.1, 0.9, 1.0, 0.9, 0.9, 1.1]
 
 
 def key_constant_columns(record: Mapping[str, Any]) -> tuple[list[str], list[list[str]]]:
