@@ -140,7 +140,11 @@ def _difference_summary(result: FitResult, form: DifferenceForm, values: Mapping
 
 
 def _curve_summary(result: FitResult, form: CurveForm, values: Mapping[str, float], hi: float) -> dict[str, Any]:
-    p0 = float(values["p0"])
+    if "p0" in values:
+        p0 = float(values["p0"])
+    else:  # a curve without p0 starts from its own value at the first time
+        t_first = float(result.settings.get("t_first", result.time_origin))
+        p0 = float(form.value(np.array([t_first - result.time_origin]), values)[0])
     with np.errstate(all="ignore"):
         specific = float(form.rate(np.array([p0]), values)[0] / p0) if p0 > 0 else math.nan
     out: dict[str, Any] = {

@@ -82,7 +82,7 @@ def test_path_jacobian_matches_finite_differences_of_the_path(form):
 @pytest.mark.parametrize("form", CURVE_FORMS, ids=lambda f: f.id)
 def test_curve_partials_match_central_differences(form):
     t = np.linspace(0.0, 12.0, 30)
-    values = {n: {"K": 80.0, "r": 0.5, "p0": 3.0, "nu": 1.7}[n] for n in form.param_names}
+    values = {n: {"K": 80.0, "r": 0.5, "p0": 3.0, "nu": 1.7, "t_mid": 6.0}[n] for n in form.param_names}
     partials = form.value_partials(t, values)
     assert set(partials) == set(form.param_names)
     for name, analytic in partials.items():

@@ -23,8 +23,8 @@ from growthcore.data import Series
 from growthcore.fit.problem import P0_DIFFERENCE, Problem
 from growthcore.fit.result import Grid
 from growthcore.fit.simulate import iterate
-from growthcore.fit.trajectory import curve_problem
-from growthcore.fit.starts import _linearised, capacity_guess, curve_starts
+from growthcore.fit.trajectory import curve_origin, curve_problem
+from growthcore.fit.starts import _linearised, capacity_guess, curve_starts, mid_time
 from growthcore.models.base import CurveForm, DifferenceForm, ModelForm
 
 Array = np.ndarray
@@ -67,7 +67,7 @@ def prepare(series: Series, form: ModelForm, *, model: str, error: str,
 def _curve(series: Series, t: Array, p: Array, form: CurveForm, *, model: str, error: str,
            fixed: dict[str, float]) -> Prepared | None:
     problem = curve_problem(t, p, form, model=model, error=error, fixed=fixed,
-                            t_first=float(series.t[0]), origin=float(series.t[0]))
+                            t_first=float(series.t[0]), origin=curve_origin(form, series, None))
     if p.size <= len(problem.free):
         return None
     elapsed = t - problem.settings["time_origin"]
@@ -88,7 +88,7 @@ def first_curve_start(form: CurveForm, t: Array, p: Array) -> dict[str, float]:
     first = float(p[pos][0]) if np.any(pos) else max(pmax, 1.0) * 1e-2
     k0 = max(pmax, 1e-12) * 1.05
     r0, p0 = _linearised(form.id, t, p, k0, first)
-    start = {"K": k0, "r": r0, "p0": p0, "nu": 1.0}
+    start = {"K": k0, "r": r0, "p0": p0, "nu": 1.0, "t_mid": mid_time(k0, r0, p0)}
     return {n: start[n] for n in form.param_names if n in start}
 
 

@@ -49,9 +49,16 @@ def curve_starts(form: ModelForm, t: Array, p: Array) -> list[dict[str, float]]:
         k0 = max(pmax, 1e-12) * k_factor
         r0, p0 = _linearised(form.id, t, p, k0, first)
         for r_factor in (1.0, 0.3, 3.0):
-            start = {"K": k0, "r": r0 * r_factor, "p0": p0, "nu": 1.0}
+            start = {"K": k0, "r": r0 * r_factor, "p0": p0, "nu": 1.0, "t_mid": mid_time(k0, r0, p0)}
             out.append({n: start[n] for n in form.param_names if n in start})
     return out
+
+
+def mid_time(k0: float, r0: float, p0: float) -> float:
+    """The time at which a logistic through p0 at t = 0 with rate r0 reaches k0/2."""
+    with np.errstate(all="ignore"):
+        mid = math.log(k0 / p0 - 1.0) / r0 if k0 > p0 > 0 and r0 > 0 else 0.0
+    return float(mid) if math.isfinite(mid) else 0.0
 
 
 def _linearised(form_id: str, t: Array, p: Array, k0: float, first: float) -> tuple[float, float]:

@@ -53,9 +53,20 @@ def fit_trajectory(
                       f"{need}; row {series.row_of(j)} has p = {series.p[j]:g}{advice}", form=form)
     if isinstance(form, DifferenceForm):
         return _fit_difference(series, form, model=model, error=error, fixed=fixed, start=start, terms=terms)
-    origin = float(series.t[0]) if time_origin is None else float(time_origin)
+    origin = curve_origin(form, series, time_origin)
     return _fit_curve(t, p, form, model=model, error=error, fixed=fixed, start=start,
                       t_first=float(series.t[0]), origin=origin)
+
+
+def curve_origin(form: CurveForm, series: Series, time_origin: float | None) -> float:
+    """The time a curve's p0 refers to: the given one, else the first time; 0 for a curve without p0.
+
+    A curve without p0 (``logistic-mid-curve``) carries its own times (t_mid), which stay on the
+    series' clock.
+    """
+    if time_origin is not None:
+        return float(time_origin)
+    return float(series.t[0]) if "p0" in form.param_names else 0.0
 
 
 def _too_few(model: str, error: str, form: ModelForm, n: int, k: int) -> FitResult | None:

@@ -2,6 +2,10 @@
 
 Notes
 -----
+The inflection-time logistic p(t) = K / (1 + e^(−r·(t − t_mid))) is the logistic curve with p0 replaced
+by the time t_mid at which p = K/2; t_mid is on the series' own clock (no time origin), the form in
+which published mixed-effects examples let only K vary between replicates.
+
 The Richards curve is parameterised as p(t) = K / (1 + ((K/p0)^ν − 1)·e^(−r·t))^(1/ν), which solves
 dp/dt = (r/ν)·p·(1 − (p/K)^ν); ν = 1 gives the logistic curve and ν → 0 the Gompertz curve.
 """
@@ -9,12 +13,14 @@ dp/dt = (r/ν)·p·(1 − (p/K)^ν); ν = 1 gives the logistic curve and ν → 
 from __future__ import annotations
 
 import numpy as np
+from scipy.special import expit
 
 from growthcore.models.base import INF, Array, CurveForm, ParamSpec, Values
 
 K = ParamSpec("K", 0.0, INF, "carrying capacity (upper asymptote)", "state")
 R = ParamSpec("r", 0.0, INF, "rate constant per unit time", "per time")
 P0 = ParamSpec("p0", 0.0, INF, "state at t = 0", "state")
+T_MID = ParamSpec("t_mid", -INF, INF, "time of the inflection, where p = K/2", "time")
 NU = ParamSpec("nu", 0.01, 50.0, "shape (1 = logistic, towards 0 = Gompertz)", "-")
 
 # ∂p(t)/∂θ in closed form (E = e^(−r·t) throughout).
@@ -29,6 +35,18 @@ def _logistic_partials(t: Array, v: Values) -> dict[str, Array]:
     e = np.exp(-v["r"] * t)
     d2 = (1.0 + (k / p0 - 1.0) * e) ** 2
     return {"K": (1.0 - e) / d2, "r": k * (k / p0 - 1.0) * t * e / d2, "p0": (k / p0) ** 2 * e / d2}
+
+
+def _logistic_mid_value(t: Array, v: Values) -> Array:
+    # expit keeps e^(−r·(t − t_mid)) from overflowing far before the inflection
+    return v["K"] * expit(v["r"] * (t - v["t_mid"]))
+
+
+def _logistic_mid_partials(t: Array, v: Values) -> dict[str, Array]:
+    lag = t - v["t_mid"]
+    s = expit(v["r"] * lag)
+    slope = v["K"] * s * (1.0 - s)
+    return {"K": s, "r": slope * lag, "t_mid": -slope * v["r"]}
 
 
 def _gompertz_partials(t: Array, v: Values) -> dict[str, Array]:
@@ -77,6 +95,18 @@ LOGISTIC_CURVE = CurveForm(
     value_partials=_logistic_partials,
 )
 
+LOGISTIC_MID_CURVE = CurveForm(
+    id="logistic-mid-curve",
+    title="Logistic curve by its inflection time",
+    equation="p(t) = K / (1 + e^(−r·(t − t_mid)))",
+    params=(K, R, T_MID),
+    value=_logistic_mid_value,
+    rate=lambda p, v: v["r"] * p * (1.0 - p / v["K"]),
+    rate_dp=lambda p, v: v["r"] * (1.0 - 2.0 * p / v["K"]),
+    value_partials=_logistic_mid_partials,
+    notes=("t_mid is a time on the series' own clock, not measured from the first observation",),
+)
+
 GOMPERTZ_CURVE = CurveForm(
     id="gompertz-curve",
     title="Gompertz curve",
@@ -116,6 +146,7 @@ MONOMOLECULAR_CURVE = CurveForm(
 CURVE_FORMS: tuple[CurveForm, ...] = (
     EXPONENTIAL_CURVE,
     LOGISTIC_CURVE,
+    LOGISTIC_MID_CURVE,
     GOMPERTZ_CURVE,
     RICHARDS_CURVE,
     MONOMOLECULAR_CURVE,
