@@ -3,9 +3,10 @@
 The command line and the server read the same defaults; the server keeps its own copy in its
 configuration and checks every request against it, whatever the browser tab sends.
 
-The defaults are chosen so that whatever passes them makes a record well under the record size
-limit: a series of ``max_points`` points, with an import report whose lists are capped, writes
-about 20 MB of JSON.
+The defaults are chosen so that whatever passes them makes a record under the record size limit:
+each fit of a record lists a residual per point (about 170 bytes of indented JSON), so a record
+of ``max_fits`` fits of a ``max_points`` series, with an import report whose lists are capped,
+stays under ``max_record_bytes`` (tests/test_limits.py measures the bytes per point and fit).
 """
 
 from __future__ import annotations
@@ -27,7 +28,7 @@ class Limits:
     #: columns of one sheet
     max_columns: int = 4_096
     #: points of one series
-    max_points: int = 100_000
+    max_points: int = 50_000
     #: series of one file
     max_series: int = 5_000
     #: bootstrap resamples of one run
@@ -36,8 +37,10 @@ class Limits:
     max_forecast_steps: int = 10_000
     #: characters of a grouping pattern
     max_pattern: int = 200
+    #: fits in one record (forms x methods)
+    max_fits: int = 12
     #: bytes of a fit record
-    max_record_bytes: int = 64 * 1024 * 1024
+    max_record_bytes: int = 160 * 1024 * 1024
 
 
 DEFAULT = Limits()

@@ -22,13 +22,15 @@ from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import FitResult, fit
 from growthcore.fit.result import CapacityProfile, Grid, ParameterEstimate
 from growthcore.io.report import ImportReport
+from growthcore.limits import DEFAULT as DEFAULT_LIMITS
 from growthcore.models.catalogue import get_form
 from growthcore.record import FORMAT, DataSource, build_record, integrity_problem, seal
 from growthcore.schemas import available_versions, record_errors
 from growthcore.stats import Diagnostics, Metrics
 
-#: Records larger than this are refused before parsing (a record of 10⁵ points is about 20 MB).
-MAX_RECORD_BYTES = 64 * 1024 * 1024
+#: Records larger than this are refused before parsing; every input the import accepts makes a
+#: smaller record (see growthcore.limits).
+MAX_RECORD_BYTES = DEFAULT_LIMITS.max_record_bytes
 #: Relative tolerance for "the same number" when a record is recomputed. Optimiser stopping rules
 #: (not round-off alone) set how closely a refit can repeat, so this is looser than machine epsilon.
 RTOL = 1e-6
@@ -152,6 +154,9 @@ def series_from_record(record: Mapping[str, Any], *, name: str = "record") -> Se
     """The series of a checked record: points, units, columns, exclusions with their reasons."""
     data = record["data"]
     points = data["points"]
+    if len(points) > DEFAULT_LIMITS.max_points:
+        raise RecordError(name, [f"data.points holds {len(points):,} points, over the limit of "
+                                 f"{DEFAULT_LIMITS.max_points:,} points: refused"])
     t = np.array([float(pt["t"]) for pt in points])
     p = np.array([math.nan if pt["p"] is None else float(pt["p"]) for pt in points])
     excluded = {i: str(pt["reason"]) or "left out" for i, pt in enumerate(points)
@@ -179,6 +184,9 @@ def reopen(record: Mapping[str, Any], *, name: str = "record") -> Reopened:
     except (KeyError, TypeError, ValueError) as exc:
         raise RecordError(name, [f"data.import_report cannot be read: {exc}"]) from None
     source = DataSource(str(data["source"]), str(data["sha256"]), report, dict(data.get("extra", {})))
+    if len(record["fits"]) > DEFAULT_LIMITS.max_fits:
+        raise RecordError(name, [f"holds {len(record['fits'])} fits, over the limit of {DEFAULT_LIMITS.max_fits} "
+                                 "fits in one record: refused"])
     requests = tuple(dict(f["request"]) for f in record["fits"])
     return Reopened(record, series, source, import_report, dict(record.get("settings", {})), requests)
 

@@ -48,6 +48,18 @@ def main(argv: Sequence[str] | None = None) -> int:
     except (OSError, KeyboardInterrupt) as exc:
         print(f"growthcore {args.command}: {exc}", file=sys.stderr)
         return 1
+    except MemoryError:
+        print(f"growthcore {args.command}: out of memory; the input asks for more work than this machine can "
+              "hold (use a smaller file or fewer forms, resamples or steps)", file=sys.stderr)
+        return 1
+    except RecursionError:
+        print(f"growthcore {args.command}: the input is nested too deeply to be read", file=sys.stderr)
+        return 1
+    except Exception as exc:  # a defect, not bad input: still one line, never a traceback
+        first = (str(exc).splitlines() or [""])[0][:300]
+        print(f"growthcore {args.command}: internal error ({type(exc).__name__}: {first}); please report it "
+              "with the command that gave it", file=sys.stderr)
+        return 3
 
 
 if __name__ == "__main__":  # pragma: no cover

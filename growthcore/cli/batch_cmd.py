@@ -12,7 +12,7 @@ from growthcore.batch import fit_batch, group_summary, load_batch, rows
 from growthcore.batch.ftest import difference_test_for_batch
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit.result import ERROR_MODELS, METHODS
-from growthcore.io import write_csv
+from growthcore.io.writer import atomic_write_text, write_csv
 
 #: Failed rows listed on the terminal; the output file has all of them.
 MAX_LISTED = 20
@@ -100,8 +100,7 @@ def run(args: argparse.Namespace) -> int:
             if args.test:
                 doc["groups"]["tests"] = [difference_test_for_batch(batch, m, args.test).to_dict()
                                           for m in batch.models]
-        with open(out, "w", encoding="utf-8") as fh:
-            fh.write(json.dumps(doc, indent=2, allow_nan=False) + "\n")
+        atomic_write_text(out, json.dumps(doc, indent=2, allow_nan=False) + "\n")
     n_failed = sum(1 for r in body if r["status"] != "converged")
     print(f"{len(data.series)} series x {len(batch.models)} form(s): {len(body) - n_failed} converged, "
           f"{n_failed} failed, in {seconds:.2f} s ({batch.engine} engine)")

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
 import sys
 from typing import Sequence
 
@@ -14,6 +15,8 @@ from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import ERROR_MODELS, FitResult
 from growthcore.fit.forms import fit_forms
 from growthcore.io import load_file
+from growthcore.io.writer import atomic_write_text
+from growthcore.limits import DEFAULT as LIMITS
 from growthcore.record import DataSource, build_record
 
 METHOD_CHOICES = ("increments", "trajectory", "both")
@@ -57,9 +60,20 @@ def pick_series(found: Sequence[Series], wanted: str | None, source: str) -> Ser
     return found[0]
 
 
+def check_capacity(capacity: float | None) -> None:
+    """``--capacity`` must be a finite K above 0 (checked before any fit is run)."""
+    if capacity is not None and not (math.isfinite(capacity) and capacity > 0):
+        raise GrowthcoreInputError(f"--capacity must be a finite number above 0; got {capacity:g}")
+
+
 def run_fits(series: Series, models: Sequence[str], methods: Sequence[str], *, error: str,
              capacity: float | None, terms: Sequence[str], profile: bool) -> list[FitResult]:
     """Every form by every method (``both`` skips the increments fit of curves), as the app fits them."""
+    check_capacity(capacity)
+    if len(models) * len(methods) > LIMITS.max_fits:
+        raise GrowthcoreInputError(f"{len(models)} form(s) × {len(methods)} method(s) is "
+                                   f"{len(models) * len(methods)} fits, over the limit of {LIMITS.max_fits} "
+                                   "fits in one record: refused")
     method = "both" if len(methods) > 1 else methods[0]
     return fit_forms(series, models, method=method, error=error, capacity=capacity, terms=terms, profile=profile)
 
@@ -110,6 +124,7 @@ def run(args: argparse.Namespace) -> int:
         return fit_export.run_from_record(args)
     if not args.file:
         raise GrowthcoreInputError("give a data FILE, or --from-record RECORD.json to repeat the fits of a record")
+    check_capacity(args.capacity)
     imported = load_file(args.file, sheet=args.sheet, time=args.time, value=args.value,
                          series=args.series, time_unit=args.time_unit)
     series = pick_series(imported.series, args.series, args.file)
@@ -133,8 +148,7 @@ def run(args: argparse.Namespace) -> int:
         for line in summary_lines(fits):
             print(line, file=sys.stderr)
     else:
-        with open(args.out, "w", encoding="utf-8") as fh:
-            fh.write(text + "\n")
+        atomic_write_text(args.out, text + "\n")
         print(f"{series.name}: {int(series.used.sum())} points used of {len(series)}; {series.step().message}")
         for line in summary_lines(fits):
             print(line)

@@ -13,7 +13,9 @@ import sys
 from typing import Any, Mapping, Sequence
 
 from growthcore.data import Series
+from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import FitResult
+from growthcore.io.writer import atomic_write_text
 from growthcore.record import seal
 
 
@@ -105,6 +107,13 @@ def run_from_record(args: argparse.Namespace) -> int:
     check_artefacts_possible(args)
     later = [e for e in fit_cmd.EXTENSIONS if e.__name__ != __name__]
     ns = _recorded_args(args, record.get("settings", {}))
+    from growthcore.cli import fit_uncertainty
+
+    try:
+        fit_uncertainty.check(ns)  # the record's settings meet the same limits as the options, before any refit
+    except GrowthcoreInputError as exc:
+        print(f"growthcore fit: {args.from_record}: the record's settings: {exc}", file=sys.stderr)
+        return 1
 
     def extend(series: Series, fits: Sequence[FitResult], new: dict[str, Any]) -> None:
         for extension in later:
@@ -122,8 +131,7 @@ def run_from_record(args: argparse.Namespace) -> int:
     for where in result.not_recomputed:
         print(f"  not recomputed: {where}")
     if args.out != "-":
-        with open(args.out, "w", encoding="utf-8") as fh:
-            fh.write(json.dumps(result.record, indent=2, allow_nan=False) + "\n")
+        atomic_write_text(args.out, json.dumps(result.record, indent=2, allow_nan=False) + "\n")
         print(f"recomputed record written to {args.out}")
     write_artefacts(args, record)
     return 0 if result.reproduced else 1

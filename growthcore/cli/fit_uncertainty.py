@@ -8,6 +8,7 @@ with ``--forecast`` or ``--forecast-span`` the fit gains ``forecast`` points and
 from __future__ import annotations
 
 import argparse
+import math
 import sys
 from typing import Any, Sequence
 
@@ -15,6 +16,7 @@ from growthcore.data import Series
 from growthcore.dynamics import analyse
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import FitResult
+from growthcore.limits import DEFAULT as LIMITS
 from growthcore.uncertainty import (DEFAULT_RESAMPLES, DEFAULT_SEED, FORECAST_CAUTION, BootstrapResult, bootstrap,
                                     derived_intervals, forecast)
 
@@ -32,9 +34,22 @@ def add_options(p: argparse.ArgumentParser) -> None:
                    help="report the time to reach state P, with its interval (repeatable)")
 
 
-def _check(args: argparse.Namespace) -> None:
+def check(args: argparse.Namespace) -> None:
+    """Refuse options outside their range or over a limit, before any work (also for a record's settings)."""
+    for option, value in (("--bootstrap", args.bootstrap), ("--forecast", args.forecast), ("--seed", args.seed)):
+        if value is not None and (isinstance(value, bool) or not isinstance(value, int)):
+            raise GrowthcoreInputError(f"{option} must be a whole number; got {value!r}")
     if args.bootstrap is not None and args.bootstrap < 1:
         raise GrowthcoreInputError(f"--bootstrap needs a positive number of resamples; got {args.bootstrap}")
+    if args.bootstrap is not None and args.bootstrap > LIMITS.max_resamples:
+        raise GrowthcoreInputError(f"--bootstrap {args.bootstrap:,} is over the limit of {LIMITS.max_resamples:,} "
+                                   "resamples: refused")
+    if args.forecast is not None and args.forecast > LIMITS.max_forecast_steps:
+        raise GrowthcoreInputError(f"--forecast {args.forecast:,} is over the limit of {LIMITS.max_forecast_steps:,} "
+                                   "steps: refused")
+    if args.forecast_span is not None and not (isinstance(args.forecast_span, (int, float))
+                                               and math.isfinite(args.forecast_span)):
+        raise GrowthcoreInputError(f"--forecast-span must be a finite time span; got {args.forecast_span!r}")
     if args.forecast is not None and args.forecast_span is not None:
         raise GrowthcoreInputError("give --forecast STEPS or --forecast-span T, not both")
     if args.forecast is not None and args.forecast < 1:
@@ -78,7 +93,7 @@ def apply(args: argparse.Namespace, series: Series, fits: Sequence[FitResult], r
 
     The plain sentences go to standard error for the terminal unless ``quiet`` (the app shows them).
     """
-    _check(args)
+    check(args)
     lines: list[str] = []
     for result, out in zip(fits, record["fits"]):
         lines += _one(args, series, result, out)

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 from dataclasses import replace
 from typing import Mapping, Sequence
 
@@ -64,6 +66,8 @@ def fit(
     if capacity is not None:
         if "K" not in form.param_names:
             raise GrowthcoreInputError(f"{model_id} has no carrying capacity K to fix")
+        if not (math.isfinite(float(capacity)) and float(capacity) > 0):
+            raise GrowthcoreInputError(f"the carrying capacity K must be a finite number above 0; got {capacity!r}")
         fixed_all["K"] = float(capacity)
     allowed = set(form.param_names) | ({"p0"} if form.kind == "difference" and method == "trajectory" else set())
     unknown = sorted(set(fixed_all) - allowed)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
+import math
 import re
 from dataclasses import dataclass
 from typing import Sequence
@@ -69,8 +70,33 @@ def cell_kind(value: object, fmt: NumberFormat) -> str:
     return "text"
 
 
-def _is_data_row(kinds: Sequence[str]) -> bool:
-    return sum(k in ("number", "time") for k in kinds) >= 2
+def _is_data_row(kinds: Sequence[str], placeholders: int = 0) -> bool:
+    """Two numbers or times, or one beside a placeholder (``nan``, ``inf``, ``1e309``, ``NA``).
+
+    A series may start with placeholders; its first rows are data all the same, so the header
+    just above them must not be skipped.
+    """
+    real = sum(k in ("number", "time") for k in kinds)
+    return real >= 2 or (real >= 1 and real + placeholders >= 2)
+
+
+def is_placeholder(value: object) -> bool:
+    """A missing-value mark or a number no float holds: a cell of data that the value checks leave out."""
+    if value is None or isinstance(value, bool):
+        return False
+    if isinstance(value, float):
+        return not math.isfinite(value)
+    if not isinstance(value, str):
+        return False
+    text = value.strip()
+    if not text:
+        return False
+    if is_missing(text):
+        return True
+    try:
+        return not math.isfinite(float(text))
+    except ValueError:
+        return False
 
 
 @dataclass(frozen=True)
@@ -88,13 +114,15 @@ def find_header(rows: Sequence[Sequence[object]], fmt: NumberFormat) -> HeaderGu
     Rows above it (titles, comments, metadata) are skipped. A text-only row between the header
     and the data, of short cells, is taken as a row of units. None when no data row is found.
     """
-    kinds = [[cell_kind(v, fmt) for v in row] for row in rows[: HEADER_SEARCH_ROWS + 3]]
-    nonblank = [i for i, k in enumerate(kinds) if any(x != "blank" for x in k)]
+    top = rows[: HEADER_SEARCH_ROWS + 3]
+    kinds = [[cell_kind(v, fmt) for v in row] for row in top]
+    spare = [sum(is_placeholder(v) for v in row) for row in top]
+    nonblank = [i for i, k in enumerate(kinds) if any(x != "blank" for x in k) or spare[i]]
     for pos, i in enumerate(nonblank):
         if i >= HEADER_SEARCH_ROWS:
             break
         k = kinds[i]
-        if _is_data_row(k):
+        if _is_data_row(k, spare[i]):
             return HeaderGuess(None, None, i)
         filled = sum(x != "blank" for x in k)
         if filled < 2 or "text" not in k:
@@ -103,9 +131,9 @@ def find_header(rows: Sequence[Sequence[object]], fmt: NumberFormat) -> HeaderGu
         if not following:
             continue
         nxt = following[0]
-        if _is_data_row(kinds[nxt]):
+        if _is_data_row(kinds[nxt], spare[nxt]):
             return HeaderGuess(i, None, nxt)
-        if len(following) > 1 and _is_data_row(kinds[following[1]]) and _looks_like_units(rows[nxt], kinds[nxt]):
+        if len(following) > 1 and _is_data_row(kinds[following[1]], spare[following[1]]) and _looks_like_units(rows[nxt], kinds[nxt]):
             return HeaderGuess(i, nxt, following[1])
     return None
 

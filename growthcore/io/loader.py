@@ -23,10 +23,15 @@ from growthcore.io.table import Table
 from growthcore.io.textsheet import read_text_table
 from growthcore.io.timeparse import UNIT_SECONDS, convert_time_column, midnight_wraps
 from growthcore.io.xlsxsheet import read_xlsx_table
+from growthcore.limits import DEFAULT, Limits
 
 #: Fewest usable points a series needs for any fit.
 MIN_POINTS = 3
-DEFAULT_MAX_BYTES = 20_000_000
+DEFAULT_MAX_BYTES = DEFAULT.max_bytes
+#: Most left-out cells, notes and per-series rows listed in a report (the counts stay whole), so
+#: that the report of any accepted file fits in a record.
+MAX_LISTED = 10_000
+MAX_NOTES = 1_000
 TIME_UNITS = ("s", "min", "h", "d", "wk", "yr")
 
 
@@ -40,15 +45,17 @@ def load_file(
     time_unit: str | None = None,
     average_duplicates: bool = False,
     max_bytes: int = DEFAULT_MAX_BYTES,
+    limits: Limits = DEFAULT,
 ) -> ImportResult:
     """Read a CSV, TSV or XLSX file into series with a full import report.
 
-    Raises ImportFailure (one line, naming the file) when nothing usable can be read.
+    Raises ImportFailure (one line, naming the file) when nothing usable can be read, or when
+    the file is over a limit of ``limits`` (cells, columns, points, series).
     """
     name, data = read_file(path, max_bytes)
     return load_bytes(
         data, name, sheet=sheet, time=time, value=value, series=series, time_unit=time_unit,
-        average_duplicates=average_duplicates, max_bytes=max_bytes,
+        average_duplicates=average_duplicates, max_bytes=max_bytes, limits=limits,
     )
 
 
@@ -78,6 +85,7 @@ def load_bytes(
     time_unit: str | None = None,
     average_duplicates: bool = False,
     max_bytes: int = DEFAULT_MAX_BYTES,
+    limits: Limits = DEFAULT,
 ) -> ImportResult:
     """Read a file's bytes (an upload); ``filename`` picks the format and names it in messages."""
     name = os.path.basename(filename) or "upload"
@@ -86,16 +94,16 @@ def load_bytes(
     _check_size(len(data), name, max_bytes)
     kind = detect_format(data, name)
     if kind == "xlsx":
-        table = read_xlsx_table(data, name, sheet, max_unpacked=max(10 * max_bytes, 50_000_000))
+        table = read_xlsx_table(data, name, sheet, max_unpacked=max(10 * max_bytes, 50_000_000), limits=limits)
     else:
         text, encoding, notes = decode_text(data, name)
         if not text.strip():
             raise ImportFailure(f"{name}: the file holds no text (only blanks)")
-        table = read_text_table(text, name, encoding)
+        table = read_text_table(text, name, encoding, limits)
         table.notes[:0] = notes
         if sheet is not None:
             table.notes.append(f"--sheet {sheet!r} ignored: a text file has no sheets")
-    builder = _Builder(table, name, average_duplicates)
+    builder = _Builder(table, name, average_duplicates, limits)
     return builder.build(
         sha256=hashlib.sha256(data).hexdigest(), size=len(data), time=time, value=value,
         series=series, time_unit=time_unit,
@@ -127,7 +135,8 @@ class _Point:
 class _Builder:
     """Turns a table of cells into series, collecting everything the report must say."""
 
-    def __init__(self, table: Table, name: str, average_duplicates: bool) -> None:
+    def __init__(self, table: Table, name: str, average_duplicates: bool, limits: Limits = DEFAULT) -> None:
+        self.limits = limits
         self.table = table
         self.name = name
         self.average = average_duplicates
@@ -233,6 +242,11 @@ class _Builder:
                             pts.append(_Point(rownums[i], times[i], pv, cell))  # type: ignore[arg-type]
                 groups.append((vcol.name, vcol, pts))
 
+        if len(groups) > self.limits.max_series:
+            raise ImportFailure(
+                f"{self.name}: the file holds {len(groups):,} series, over the limit of {self.limits.max_series:,} "
+                "series: refused (split the file)"
+            )
         out_series: list[Series] = []
         summaries: list[SeriesSummary] = []
         for sname, vcol, pts in groups:
@@ -241,7 +255,7 @@ class _Builder:
                 out_series.append(made[0])
                 summaries.append(made[1])
         if not out_series:
-            counts = ", ".join(f"{g[0]!r}: {len(g[2])}" for g in groups[:5])
+            counts = ", ".join(f"{g[0]!r}: {_points(g[2])}" for g in groups[:5])
             first_bad = next((x for x in self.left_out if x.reason), None)
             why = f"; first left out: row {first_bad.row}, column {first_bad.column!r}: {first_bad.reason}" if first_bad else ""
             raise ImportFailure(
@@ -262,12 +276,25 @@ class _Builder:
             layout=layout.layout,
             rows_read=len(rows),
             series=tuple(summaries),
-            left_out=tuple(sorted(self.left_out, key=lambda x: x.row if x.row is not None else 0)),
-            notes=tuple(self.notes),
+            left_out=self._listed_left_out(),
+            notes=self._listed_notes(),
             columns=tuple(c.label for c in columns),
             not_read=tuple(self.not_read),
         )
         return ImportResult(series=tuple(out_series), report=report)
+
+    def _listed_left_out(self) -> tuple[LeftOut, ...]:
+        ordered = sorted(self.left_out, key=lambda x: x.row if x.row is not None else 0)
+        if len(ordered) > MAX_LISTED:
+            self.notes.append(f"{len(ordered):,} cells left out; the first {MAX_LISTED:,} are listed")
+            ordered = ordered[:MAX_LISTED]
+        return tuple(ordered)
+
+    def _listed_notes(self) -> tuple[str, ...]:
+        if len(self.notes) <= MAX_NOTES:
+            return tuple(self.notes)
+        more = len(self.notes) - MAX_NOTES + 1
+        return (*self.notes[: MAX_NOTES - 1], f"... and {more:,} more notes (the first {MAX_NOTES - 1:,} are listed)")
 
     def _unwrap_midnight(self, sname: str, tcol: Column, unit: str, pts: list[_Point]) -> None:
         """Clock times of day that pass midnight: a day is added from each crossing on."""
@@ -403,6 +430,11 @@ class _Builder:
     def _made(self, sname: str, vcol: Column, tcol: Column, unit: str, t: np.ndarray, p: np.ndarray,
               rows: tuple[int, ...], averaged: tuple[tuple[int, float, int], ...]) -> tuple[Series, SeriesSummary]:
         """The series and its summary, with a note on values <= 0."""
+        if t.size > self.limits.max_points:
+            raise ImportFailure(
+                f"{self.name}: series {sname!r} has {t.size:,} points, over the limit of {self.limits.max_points:,} "
+                "points: refused (thin or split the series)"
+            )
         nonpos = tuple((rows[i], float(t[i]), float(p[i])) for i in np.flatnonzero(p <= 0).tolist())
         if nonpos:
             self.notes.append(
@@ -411,7 +443,9 @@ class _Builder:
             )
         s = Series(t=t, p=p, name=sname, time_unit=unit, value_unit=vcol.unit, time_column=tcol.label,
                    value_column=vcol.label, rows=rows)
-        return s, SeriesSummary(sname, tcol.label, unit, vcol.label, vcol.unit, t.size, nonpos, averaged)
+        per_series = 20  # the note above gives the count and the row ranges
+        return s, SeriesSummary(sname, tcol.label, unit, vcol.label, vcol.unit, t.size, nonpos[:per_series],
+                                averaged[:per_series])
 
 
 class _Columns(NamedTuple):
@@ -421,6 +455,11 @@ class _Columns(NamedTuple):
     times: Sequence[float]
     values: Sequence[float]
     cells: Sequence[object]
+
+
+def _points(pts: list[_Point] | _Columns) -> int:
+    """Usable points of one series (a ``_Columns`` is a tuple of four columns, not of points)."""
+    return len(pts.rows) if isinstance(pts, _Columns) else len(pts)
 
 
 def _column(rows: Sequence[Sequence[object]], j: int) -> list[object]:

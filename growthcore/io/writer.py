@@ -1,13 +1,67 @@
-"""CSV that is safe to open in a spreadsheet program: no cell can start a formula."""
+"""Writing output files: atomically (a reader sees the old file or the whole new one, never a
+part), and CSV that is safe to open in a spreadsheet program (no cell can start a formula)."""
 
 from __future__ import annotations
 
+import contextlib
 import csv
 import io
 import math
 import os
 import re
-from typing import IO, Iterable, Sequence
+import tempfile
+from typing import IO, Any, Iterable, Iterator, Sequence
+
+
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
+
+@contextlib.contextmanager
+def atomic_writer(path: str | os.PathLike[str], mode: str = "w", *, encoding: str | None = "utf-8",
+                  newline: str | None = None) -> Iterator[IO[Any]]:
+    """A file object whose content replaces ``path`` only when the block ends without an error.
+
+    The content goes to a temporary file beside ``path`` (same folder, so the rename cannot cross
+    file systems), which is flushed and synced to disk, then renamed over ``path``; the folder is
+    synced so that the rename itself survives a crash. A failure (or a kill) before the rename
+    leaves ``path`` as it was; the temporary file is removed on a failure.
+    """
+    target = os.fspath(path)
+    folder = os.path.dirname(os.path.abspath(target))
+    binary = "b" in mode
+    fd, tmp = tempfile.mkstemp(dir=folder, prefix="." + os.path.basename(target) + ".", suffix=".part")
+    try:
+        os.fchmod(fd, 0o666 & ~_umask())  # the permissions a plain open() would give
+        with os.fdopen(fd, "wb" if binary else "w", **({} if binary else {"encoding": encoding, "newline": newline})) as fh:
+            yield fh
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, target)
+    except BaseException:
+        with contextlib.suppress(OSError):
+            os.unlink(tmp)
+        raise
+    with contextlib.suppress(OSError):  # not every platform can open a folder
+        dir_fd = os.open(folder, os.O_RDONLY)
+        try:
+            os.fsync(dir_fd)
+        finally:
+            os.close(dir_fd)
+
+
+def atomic_write_text(path: str | os.PathLike[str], text: str, *, encoding: str = "utf-8") -> None:
+    """Write ``text`` to ``path`` atomically (see :func:`atomic_writer`)."""
+    with atomic_writer(path, "w", encoding=encoding, newline="") as fh:
+        fh.write(text)
+
+
+def atomic_write_bytes(path: str | os.PathLike[str], data: bytes) -> None:
+    """Write ``data`` to ``path`` atomically (see :func:`atomic_writer`)."""
+    with atomic_writer(path, "wb") as fh:
+        fh.write(data)
 
 #: First characters that make a spreadsheet program read a cell as a formula or command.
 FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
@@ -45,9 +99,12 @@ def safe_csv_cell(value: object) -> str:
 
 
 def write_csv(path_or_buffer: str | os.PathLike[str] | IO[str], header: Sequence[object], rows: Iterable[Sequence[object]]) -> None:
-    """Write UTF-8 CSV (comma, ``\\n`` line ends) with every cell passed through ``safe_csv_cell``."""
+    """Write UTF-8 CSV (comma, ``\\n`` line ends) with every cell passed through ``safe_csv_cell``.
+
+    A path is written atomically: a reader never sees a table cut short.
+    """
     if isinstance(path_or_buffer, (str, os.PathLike)):
-        with open(path_or_buffer, "w", encoding="utf-8", newline="") as fh:
+        with atomic_writer(path_or_buffer, "w", encoding="utf-8", newline="") as fh:
             _write(fh, header, rows)
     else:
         _write(path_or_buffer, header, rows)

@@ -10,6 +10,7 @@ import os
 from pathlib import Path
 from typing import Any, Mapping
 
+from growthcore.io.writer import atomic_write_bytes, atomic_write_text
 from growthcore.report.tables import residual_csv_text, residual_table, write_residual_csv
 
 __all__ = ["residual_csv_text", "residual_table", "write_residual_csv", "write_html", "write_pngs"]
@@ -43,7 +44,7 @@ def write_pngs(record: Mapping[str, Any], directory: str | os.PathLike[str], *, 
     paths = []
     for name, png in zip(names, images):
         path = out_dir / f"{name}.png"
-        path.write_bytes(png)
+        atomic_write_bytes(path, png)
         paths.append(path)
     return paths
 
@@ -53,5 +54,5 @@ def write_html(record: Mapping[str, Any], path: str | os.PathLike[str]) -> Path:
     from growthcore.report.page import report_html
 
     out = Path(path)
-    out.write_text(report_html(record), encoding="utf-8")
+    atomic_write_text(out, report_html(record))
     return out

@@ -22,6 +22,7 @@ import numpy as np
 
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
+from growthcore.limits import DEFAULT as LIMITS
 from growthcore.fit.result import FitResult
 from growthcore.uncertainty.refit import RefitProblem, modified_residuals, refit_problem
 
@@ -177,6 +178,8 @@ def bootstrap(
     """
     if resamples < 1:
         raise GrowthcoreInputError(f"`resamples` must be at least 1; got {resamples}")
+    if resamples > LIMITS.max_resamples:
+        raise GrowthcoreInputError(f"{resamples:,} resamples, over the limit of {LIMITS.max_resamples:,}: refused")
     stop = resamples if stop is None else min(int(stop), resamples)
     if not 0 <= start <= stop:
         raise GrowthcoreInputError(f"`start` must lie in 0..{stop}; got {start}")

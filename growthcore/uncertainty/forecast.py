@@ -22,6 +22,7 @@ import numpy as np
 from growthcore.data import Series
 from growthcore.derived import _first_crossing
 from growthcore.errors import GrowthcoreInputError
+from growthcore.limits import DEFAULT as LIMITS
 from growthcore.fit.result import FitResult
 from growthcore.fit.simulate import iterate
 from growthcore.models.base import DifferenceForm
@@ -69,6 +70,13 @@ def _num(x: float) -> float | None:
     return float(x) if math.isfinite(x) else None
 
 
+def _check_steps(n: int, span: float | None) -> None:
+    limit = LIMITS.max_forecast_steps
+    if n > limit:
+        what = f"a span of {span:g} is {n:,} steps" if span is not None else f"{n:,} steps"
+        raise GrowthcoreInputError(f"a forecast of {what}, over the limit of {limit:,} steps: refused")
+
+
 def future_times(result: FitResult, *, steps: int | None, span: float | None) -> Array:
     """Grid steps past the last observation (difference forms), or evenly spaced times (curves)."""
     if (steps is None) == (span is None):
@@ -81,11 +89,13 @@ def future_times(result: FitResult, *, steps: int | None, span: float | None) ->
     if result.form is not None and result.form.kind == "difference":
         assert result.grid is not None
         h = result.grid.h
-        n = steps if steps is not None else int(math.floor(span / h + 1e-9))  # type: ignore[operator]
+        n = steps if steps is not None else int(min(math.floor(span / h + 1e-9), 2**62))  # type: ignore[operator]
         if n < 1:
             raise GrowthcoreInputError(f"a span of {span:g} is shorter than one step h = {h:g}")
+        _check_steps(n, span)
         return t_last + h * np.arange(1, n + 1)
     if steps is not None:
+        _check_steps(steps, None)
         dt = float(np.ptp(result.t)) / max(result.t.size - 1, 1) or 1.0
         return t_last + dt * np.arange(1, steps + 1)
     return t_last + np.linspace(span / CURVE_POINTS, span, CURVE_POINTS)  # type: ignore[operator]
