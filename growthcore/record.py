@@ -29,7 +29,7 @@ from growthcore.data import Series
 from growthcore.fit.result import FitResult
 
 FORMAT = "growthcore.fit-record"
-FORMAT_VERSION = 1
+FORMAT_VERSION = 2
 HASH_ALGORITHM = "sha256"
 #: How the integrity hash is computed; the name is stored in the record.
 CANONICAL_FORM = "json-sorted-compact-floats"

@@ -58,7 +58,7 @@ def test_fit_writes_a_record_with_the_named_keys(logistic_csv: Path, tmp_path: P
                  "--model", "logistic,logistic-curve", "--method", method, "--out", str(out)])
     assert code == 0, capsys.readouterr().err
     record = json.loads(out.read_text(encoding="utf-8"))
-    assert record["format"] == "growthcore.fit-record" and record["format_version"] == 1
+    assert record["format"] == "growthcore.fit-record" and record["format_version"] == 2
     assert {"name", "version"} <= set(record["software"])
     assert record["created"]
     data = record["data"]

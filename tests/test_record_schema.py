@@ -17,17 +17,17 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from growthcore.record import CANONICAL_FORM, canonical_json, content_hash, integrity_problem, seal
+from growthcore.record import CANONICAL_FORM, FORMAT_VERSION, canonical_json, content_hash, integrity_problem, seal
 from growthcore.schemas import available_versions, record_errors, record_schema, validation_errors
 from record_cases import record_cases
 
-SCHEMA = record_schema(1)
+SCHEMA = record_schema(FORMAT_VERSION)
 REFERENCE = jsonschema.Draft202012Validator(SCHEMA)
 
 
 def test_schema_is_valid_draft_2020_12() -> None:
     jsonschema.Draft202012Validator.check_schema(SCHEMA)
-    assert available_versions() == (1,)
+    assert available_versions() == (1, 2)
     assert "SHA-256" in SCHEMA["description"] and "sorted" in SCHEMA["description"]
 
 
@@ -35,7 +35,7 @@ def test_schema_is_valid_draft_2020_12() -> None:
 def test_every_record_validates(name: str) -> None:
     record = record_cases()[name]
     REFERENCE.validate(record)
-    assert record_errors(record, 1) == []
+    assert record_errors(record, FORMAT_VERSION) == []
     assert integrity_problem(record) is None
 
 
@@ -93,13 +93,13 @@ def test_validator_agrees_with_reference_on_mutations() -> None:
     (("fits", 0, "parameters", "r", "ci95"), [1.0, 2.0, 3.0], "at most 2"),
     (("data", "points", 0, "used"), "yes", "expected boolean"),
     (("data", "sha256"), "not-a-hash", "expected form"),
-    (("format_version",), 1.5, "must be 1"),
+    (("format_version",), 1.5, "must be 2"),
     (("fits", 0, "request", "fixed"), {"K": "big"}, "expected number"),
 ])
 def test_messages_name_the_place(path: tuple, value: Any, words: str) -> None:
     record = record_cases()["census-both-methods"]
     _set(record, path, value)
-    errors = record_errors(record, 1)
+    errors = record_errors(record, FORMAT_VERSION)
     assert errors and words in errors[0]
     assert errors[0].startswith("record." + str(path[0]))
     assert not REFERENCE.is_valid(record)
@@ -109,7 +109,7 @@ def test_missing_and_unexpected_members_are_named() -> None:
     record = record_cases()["census-both-methods"]
     del record["data"]["points"][2]["reason"]
     record["data"]["points"][3]["colour"] = "red"
-    errors = record_errors(record, 1)
+    errors = record_errors(record, FORMAT_VERSION)
     assert any("'reason' is missing" in e and "points[2]" in e for e in errors)
     assert any("unexpected member 'colour'" in e for e in errors)
 

@@ -73,7 +73,7 @@ def test_cli_writes_csv_and_html_and_a_sound_record(tmp_path: Path, capsys: pyte
                        "--out", str(out), "--csv", str(table), "--html", str(page)])
     assert status == 0
     record = load_record(out)  # checks the hash and the schema
-    assert record_errors(record, 1) == []
+    assert record_errors(record, record["format_version"]) == []
     assert table.read_text(encoding="utf-8").count("\n") == 1 + sum(len(f["residuals"]) for f in record["fits"])
     assert "HTML report written" in capsys.readouterr().out
     embedded = re.search(r'<script type="application/json" id="fit-record">(.*?)</script>',
