@@ -41,6 +41,8 @@ class Limits:
     max_fits: int = 12
     #: bytes of a fit record
     max_record_bytes: int = 160 * 1024 * 1024
+    #: series x points of the longest series in one mixed-effects fit (its arrays are padded to that)
+    max_population_cells: int = 1_000_000
 
 
 DEFAULT = Limits()

@@ -12,6 +12,7 @@ from growthcore.batch import fit_batch, group_summary, load_batch, rows
 from growthcore.batch.ftest import difference_test_for_batch
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit.result import ERROR_MODELS, METHODS
+from growthcore.cli.batch_population import population_options, population_section
 from growthcore.io.writer import atomic_write_text, write_csv
 
 #: Failed rows listed on the terminal; the output file has all of them.
@@ -39,6 +40,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("--workers", type=int, metavar="N", help="worker processes (default: all cores)")
     p.add_argument("--chunk-size", type=int, default=None, metavar="N", help="series per task (default 128)")
     p.add_argument("--out", required=True, metavar="PATH", help="results.csv or results.json")
+    population_options(p)
     p.set_defaults(func=run)
 
 
@@ -71,6 +73,8 @@ def run(args: argparse.Namespace) -> int:
         raise GrowthcoreInputError("--scheduler needs --engine dask")
     if args.test and not (args.groups or args.pattern):
         raise GrowthcoreInputError("--test needs replicate groups: give --groups COL or --pattern REGEX")
+    if args.random and kind != "json":
+        raise GrowthcoreInputError(f"--random writes a population object: --out must end in .json; got {out!r}")
     data = load_batch(args.file, sheet=args.sheet, time=args.time, value=args.value, series=args.series,
                       time_unit=args.time_unit, groups=args.groups, pattern=args.pattern)
     models = [m.strip() for m in args.model.split(",") if m.strip()]
@@ -100,6 +104,8 @@ def run(args: argparse.Namespace) -> int:
             if args.test:
                 doc["groups"]["tests"] = [difference_test_for_batch(batch, m, args.test).to_dict()
                                           for m in batch.models]
+        if args.random:
+            doc["population"] = population_section(args, data, models)
         atomic_write_text(out, json.dumps(doc, indent=2, allow_nan=False) + "\n")
     n_failed = sum(1 for r in body if r["status"] != "converged")
     print(f"{len(data.series)} series x {len(batch.models)} form(s): {len(body) - n_failed} converged, "
@@ -111,5 +117,11 @@ def run(args: argparse.Namespace) -> int:
         print(f"  {r['series']} / {r['model']}: {r['message']}")
     if len(failures) > MAX_LISTED:
         print(f"  ... and {len(failures) - MAX_LISTED} more (see the status column)")
+    if kind == "json" and args.random:
+        pop = doc["population"]
+        print(f"population ({pop['estimation']}, random {', '.join(pop['random'])}): {pop['status']}"
+              + (f", log-likelihood {pop['loglik']:.6g}" if pop["status"] == "converged" else f": {pop['message']}"))
     print(f"results written to {out}")
+    if kind == "json" and args.random and doc["population"]["status"] != "converged":
+        return 1
     return 0 if n_failed < len(body) else 1
