@@ -3,27 +3,35 @@
 from __future__ import annotations
 
 import base64
+import dataclasses
 import ipaddress
 import logging
 import os
+import socket
 import sys
 import threading
 import traceback
 import webbrowser
-from typing import Any
+from typing import Any, Iterable
 
 from dash import Dash, Input, Output, set_props
-from flask import Response
+from flask import Response, request
 
 from app import ids
 from app.callbacks import register_all
+from app.heavy import HeavyConfig, HeavyRunner
 from app.layout import build_layout
+from growthcore.limits import DEFAULT as DEFAULT_LIMITS
+from growthcore.limits import Limits
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 ROOT = os.path.dirname(HERE)
 ASSETS = os.path.join(ROOT, "assets")
 DEMO_FILE = os.path.join(ROOT, "sample_data", "algae_photobioreactor.csv")
 DEFAULT_MAX_UPLOAD = 10_000_000
+DEFAULT_THREADS = 8
+#: Host names a loopback server answers to (a page elsewhere cannot reach it by DNS rebinding).
+LOOPBACK_NAMES = ("127.0.0.1", "localhost", "::1")
 LOG = logging.getLogger("growthcore.app")
 
 INDEX = """<!DOCTYPE html>
@@ -55,11 +63,14 @@ def _report_failure(err: Exception) -> None:
 
 
 def create_app(data_path: str | None = None, *, max_upload_bytes: int = DEFAULT_MAX_UPLOAD,
-               demo: bool = True) -> Dash:
+               demo: bool = True, limits: Limits | None = None, heavy: HeavyConfig | None = None,
+               allowed_hosts: Iterable[str] = LOOPBACK_NAMES) -> Dash:
     """A new app; ``data_path`` is the file shown first (the invented demo data when None).
 
     Every app keeps its state in the browser (dcc.Store), so one server serves many tabs, each
-    with its own data.
+    with its own data. Every limit (``limits``, with ``max_upload_bytes`` as its byte limit) is
+    the server's own and checked on the server, whatever the tab sends; heavy jobs run as
+    ``heavy`` says (worker processes, a bound on how many at once, a time budget).
     """
     path = data_path or (DEMO_FILE if demo and os.path.exists(DEMO_FILE) else None)
     source = read_source(path, max_upload_bytes) if path else None
@@ -81,12 +92,78 @@ def create_app(data_path: str | None = None, *, max_upload_bytes: int = DEFAULT_
     # base64 inflates by 4/3, and the import request also carries the previous file and series
     app.server.config["MAX_CONTENT_LENGTH"] = 5 * max_upload_bytes + 2_000_000
     app.server.config["GROWTHCORE_MAX_UPLOAD"] = max_upload_bytes
+    app.server.config["GROWTHCORE_LIMITS"] = dataclasses.replace(limits or DEFAULT_LIMITS, max_bytes=max_upload_bytes)
+    app.server.config["GROWTHCORE_HEAVY"] = HeavyRunner(heavy)
+    app.server.config["GROWTHCORE_ALLOWED_HOSTS"] = frozenset(_host_key(h) for h in allowed_hosts)
     app.layout = build_layout(source, max_upload_bytes=max_upload_bytes)
     register_all(app)
     app.callback(Output(ids.ERROR_BANNER, "hidden", allow_duplicate=True), Input(ids.ERROR_DISMISS, "n_clicks"),
                  prevent_initial_call=True)(lambda _n: True)
     _error_pages(app)
+    _guard(app)
     return app
+
+
+def _host_key(host: str) -> str:
+    """A Host header or name without its port and brackets, in lower case."""
+    host = host.strip().lower()
+    if host.startswith("["):
+        return host[1:].split("]", 1)[0]
+    if host.count(":") == 1:
+        host = host.split(":", 1)[0]
+    return host.rstrip(".")
+
+
+def allowed_hosts_for(host: str) -> frozenset[str]:
+    """The names a server bound to ``host`` answers to: the loopback names, and ``host`` itself;
+    for a wildcard address, also this machine's names."""
+    names = set(LOOPBACK_NAMES)
+    if host in ("0.0.0.0", "::", ""):
+        names.update({socket.gethostname(), socket.getfqdn()})
+        try:
+            names.update(socket.gethostbyname_ex(socket.gethostname())[2])
+        except OSError:
+            pass
+    else:
+        names.add(host)
+    return frozenset(_host_key(n) for n in names if n)
+
+
+def security_policy(app: Dash) -> str:
+    """The Content-Security-Policy: scripts from this server only (and the framework's own inline
+    scripts, by hash), no plugins, no framing, requests only to this server."""
+    scripts = " ".join(["'self'", *app.csp_hashes()])
+    return ("default-src 'self'; "
+            f"script-src {scripts}; "
+            "style-src 'self' 'unsafe-inline'; "  # the components set style attributes
+            "img-src 'self' data: blob:; font-src 'self' data:; connect-src 'self'; "
+            "object-src 'none'; base-uri 'none'; form-action 'self'; frame-ancestors 'none'")
+
+
+def _guard(app: Dash) -> None:
+    """Host-header allow-list before every request; security headers on every answer."""
+    server = app.server
+    policy: dict[str, str] = {}
+
+    @server.before_request
+    def _check_host() -> Response | None:
+        allowed = server.config["GROWTHCORE_ALLOWED_HOSTS"]
+        if _host_key(request.host or "") not in allowed:
+            names = ", ".join(sorted(allowed))
+            return Response(f"growthcore: this server answers only to the host names {names}; the request named "
+                            f"{(request.host or '')[:80]!r}.", status=421, mimetype="text/plain")
+        return None
+
+    @server.after_request
+    def _headers(response: Response) -> Response:
+        if "csp" not in policy:
+            policy["csp"] = security_policy(app)  # after every callback (and inline script) is defined
+        response.headers["Content-Security-Policy"] = policy["csp"]
+        response.headers["X-Frame-Options"] = "DENY"
+        response.headers["X-Content-Type-Options"] = "nosniff"
+        response.headers["Referrer-Policy"] = "no-referrer"
+        response.headers["Cross-Origin-Opener-Policy"] = "same-origin"
+        return response
 
 
 def _error_pages(app: Dash) -> None:
@@ -123,9 +200,16 @@ def is_loopback(host: str) -> bool:
 
 
 def serve(app: Dash, *, host: str = "127.0.0.1", port: int = 8050, open_browser: bool = True,
-          threads: int = 4) -> None:
-    """Serve with waitress until interrupted; warn when the address is reachable from the network."""
+          threads: int = DEFAULT_THREADS) -> None:
+    """Serve with waitress until interrupted; warn when the address is reachable from the network.
+
+    The server answers only to the loopback names and ``host``; more threads than heavy-job
+    slots, so that light requests are answered while heavy jobs run.
+    """
     from waitress import serve as waitress_serve
+
+    app.server.config["GROWTHCORE_ALLOWED_HOSTS"] = allowed_hosts_for(host)
+    app.server.config["GROWTHCORE_HEAVY"].warm()
 
     url = f"http://{'127.0.0.1' if host in ('0.0.0.0', '::') else host}:{port}/"
     if not is_loopback(host):

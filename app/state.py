@@ -8,9 +8,11 @@ from typing import Any, Mapping, Sequence
 import numpy as np
 
 from growthcore.data import Series
+from growthcore.errors import GrowthcoreInputError
 from growthcore.explore import observation_index
 from growthcore.fit import FitResult
 from growthcore.io import ImportResult
+from growthcore.limits import DEFAULT as LIMITS
 
 USER_REASON = "excluded by the user"
 
@@ -57,8 +59,19 @@ def data_to_store(imported: ImportResult, series: Series, *, source: str) -> dic
     }
 
 
+def check_points(n: int, name: object) -> None:
+    """Refuse a series from the tab with more points than the import would ever have let through."""
+    if n > LIMITS.max_points:
+        raise GrowthcoreInputError(f"series {name!r} has {n:,} points, over the limit of {LIMITS.max_points:,} "
+                                   "points: refused")
+
+
 def series_from_store(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None = None) -> Series:
-    """The Series back from the store, with the user's exclusions when they belong to these data."""
+    """The Series back from the store, with the user's exclusions when they belong to these data.
+
+    The store comes from the tab: a series longer than the server's point limit is refused.
+    """
+    check_points(len(data["t"]), data.get("name", "series"))
     excluded: dict[int, str] = {}
     if exclusions and exclusions.get("key") == data.get("key"):
         excluded = {int(k): str(v) for k, v in exclusions.get("excluded", {}).items()}

@@ -15,6 +15,7 @@ from dash.exceptions import PreventUpdate
 
 from app import ids
 from app.callbacks.series import merged_fits, series_from_plain
+from app.heavy import direct, runner_of
 from app.state import fit_label_parts
 from growthcore.batch import group_difference_test
 from growthcore.batch.summary import summarise_groups
@@ -105,7 +106,7 @@ def summary_view(label: str | None, merged: Mapping[str, Mapping[str, Any]], gro
 
 
 def ftest_view(batch: Mapping[str, Any] | None, groups: Mapping[str, str], label: str | None,
-               constant: str | None, merged: Mapping[str, Mapping[str, Any]]) -> Any:
+               constant: str | None, merged: Mapping[str, Mapping[str, Any]], *, run: Any = direct) -> Any:
     """Joint fits with ``constant`` per group and shared, and the extra-sum-of-squares F test."""
     if not batch or not label or not constant:
         return html.Div("Choose a fitted form and a constant first.", className="message message-error")
@@ -118,7 +119,8 @@ def ftest_view(batch: Mapping[str, Any] | None, groups: Mapping[str, str], label
     series = [series_from_plain(by_name[n]) for n in chosen]
     model, error = fit_label_parts(label)
     try:
-        test = group_difference_test(series, [groups[n] for n in chosen], model, constant, error=error)
+        test = run("the F test", group_difference_test, series, [groups[n] for n in chosen], model, constant,
+                   error=error)
     except GrowthcoreInputError as exc:
         return html.Div(str(exc).splitlines()[0], className="message message-error")
     if test.status != "done" or test.full is None:
@@ -144,6 +146,8 @@ def ftest_view(batch: Mapping[str, Any] | None, groups: Mapping[str, str], label
 
 
 def register(app: Dash) -> None:
+    heavy_run = runner_of(app)
+
     @app.callback(
         Output(ids.BATCH_TABLES, "hidden"), Output(ids.GROUP_SUMMARY, "children"),
         Output(ids.FTEST_CONSTANT, "options"), Output(ids.FTEST_CONSTANT, "value"),
@@ -170,7 +174,7 @@ def register(app: Dash) -> None:
         if not clicks:
             raise PreventUpdate
         _, merged = merged_fits(fits, job, batch)
-        return ftest_view(batch, _groups_of(batch, groups), label, constant, merged)
+        return ftest_view(batch, _groups_of(batch, groups), label, constant, merged, run=heavy_run)
 
     @app.callback(
         Output(ids.BATCH_DOWNLOAD, "data"),

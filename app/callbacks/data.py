@@ -4,14 +4,18 @@ from __future__ import annotations
 
 import base64
 import binascii
+import dataclasses
 from typing import Any, Mapping
 
 from dash import Dash, Input, Output, State, ctx, html, no_update
 
 from app import ids
+from app.heavy import direct, runner_of
 from app.state import data_to_store
-from growthcore.errors import GrowthcoreInputError
+from growthcore.errors import GrowthcoreInputError, ImportFailure
 from growthcore.io import load_bytes
+from growthcore.limits import DEFAULT as DEFAULT_LIMITS
+from growthcore.limits import Limits
 
 DEFAULT_MAX_BYTES = 10_000_000
 
@@ -22,9 +26,23 @@ def source_from_upload(contents: str, filename: str, max_bytes: int = DEFAULT_MA
     return {"filename": filename or "upload", "b64": b64, "max_bytes": max_bytes}
 
 
-def decode_source(source: Mapping[str, Any]) -> bytes:
+def server_limits(app: Dash) -> Limits:
+    """The limits of this server (its configuration, never the tab's state)."""
+    return app.server.config.get("GROWTHCORE_LIMITS") or DEFAULT_LIMITS
+
+
+def decode_source(source: Mapping[str, Any], max_bytes: int | None = None) -> bytes:
+    """The bytes of a stored upload; refused before decoding when they would pass ``max_bytes``."""
+    b64 = source.get("b64") or ""
+    name = source.get("filename", "upload")
+    if not isinstance(b64, str):
+        raise GrowthcoreInputError(f"{name}: the upload arrived damaged (not base64 text); try again")
+    size = len(b64) * 3 // 4 - b64[-2:].count("=")
+    if max_bytes is not None and size > max_bytes:
+        raise ImportFailure(f"{name}: the file is {size:,} bytes, over the limit of {max_bytes:,} bytes; "
+                            "split it or raise the limit (growthcore serve --max-upload-mb)")
     try:
-        return base64.b64decode(source["b64"], validate=True)
+        return base64.b64decode(b64, validate=True)
     except (binascii.Error, ValueError):
         raise GrowthcoreInputError(f"{source.get('filename', 'upload')}: the upload arrived damaged "
                                    "(not valid base64); try again") from None
@@ -32,17 +50,20 @@ def decode_source(source: Mapping[str, Any]) -> bytes:
 
 def import_source(source: Mapping[str, Any], *, pick: str | None = None, time: str | None = None,
                   value: str | None = None, series_column: str | None = None, time_unit: str | None = None,
-                  sheet: str | None = None) -> dict[str, Any]:
+                  sheet: str | None = None, limits: Limits | None = None) -> dict[str, Any]:
     """Read ``source`` and return the store form of the chosen series (the first when ``pick`` is absent).
 
-    Raises ``GrowthcoreInputError`` (``ImportFailure``) with a one-line message naming the file.
+    ``limits`` are the server's (the byte limit included); a ``max_bytes`` in ``source`` is only
+    what the tab was told and is never trusted. Raises ``GrowthcoreInputError``
+    (``ImportFailure``) with a one-line message naming the file.
     """
-    raw = decode_source(source)
+    limits = limits or dataclasses.replace(DEFAULT_LIMITS, max_bytes=DEFAULT_MAX_BYTES)
+    raw = decode_source(source, limits.max_bytes)
     name = source.get("filename") or "upload"
     values = [v.strip() for v in value.split(",")] if value and "," in value else (value or None)
     imported = load_bytes(raw, name, sheet=sheet or None, time=time or None, value=values,
                           series=series_column or None, time_unit=time_unit or None,
-                          max_bytes=int(source.get("max_bytes", DEFAULT_MAX_BYTES)))
+                          max_bytes=limits.max_bytes, limits=limits)
     chosen = next((s for s in imported.series if s.name == pick), imported.series[0])
     return data_to_store(imported, chosen, source=name)
 
@@ -67,7 +88,8 @@ def failure_message(text: str, previous: Mapping[str, Any] | None) -> html.Div:
 def on_import(contents: str | None, _apply: int, pick: str | None, filename: str | None,
               source: Mapping[str, Any] | None, previous: Mapping[str, Any] | None, time: str | None,
               value: str | None, series_column: str | None, time_unit: str | None, sheet: str | None,
-              *, trigger: str | None, max_bytes: int = DEFAULT_MAX_BYTES) -> tuple[Any, ...]:
+              *, trigger: str | None, max_bytes: int = DEFAULT_MAX_BYTES, limits: Limits | None = None,
+              run: Any = direct) -> tuple[Any, ...]:
     """Outputs: source, data, message, summary, report, series options, series value, column list,
     and the five mapping fields (cleared for a new upload)."""
     new_upload = trigger == ids.UPLOAD and contents is not None
@@ -81,7 +103,8 @@ def on_import(contents: str | None, _apply: int, pick: str | None, filename: str
                 no_update, no_update, no_update, no_update, *clear)
     keep_pick = pick if trigger == ids.SERIES_PICK or (trigger == ids.MAP_APPLY and pick) else None
     try:
-        data = import_source(source, pick=keep_pick, **mapping)
+        limits = limits or dataclasses.replace(DEFAULT_LIMITS, max_bytes=max_bytes)
+        data = run("reading the file", import_source, source, pick=keep_pick, limits=limits, **mapping)
     except GrowthcoreInputError as exc:
         message = str(exc).splitlines()[0]
         return (no_update, no_update, failure_message(message, previous), no_update, no_update,
@@ -107,6 +130,8 @@ def refused_message(refused: Mapping[str, Any] | None, previous: Mapping[str, An
 
 def register(app: Dash) -> None:
     max_bytes = int(app.server.config.get("GROWTHCORE_MAX_UPLOAD", DEFAULT_MAX_BYTES))
+    limits = dataclasses.replace(server_limits(app), max_bytes=max_bytes)
+    run = runner_of(app)
 
     @app.callback(
         Output(ids.DATA_MESSAGE, "children", allow_duplicate=True),
@@ -132,4 +157,4 @@ def register(app: Dash) -> None:
         if ctx.triggered_id == ids.SERIES_PICK and pick == previous_pick:
             return (no_update,) * 13
         return on_import(contents, apply, pick, filename, source, previous, time, value, series_column,
-                         time_unit, sheet, trigger=ctx.triggered_id, max_bytes=max_bytes)
+                         time_unit, sheet, trigger=ctx.triggered_id, max_bytes=max_bytes, limits=limits, run=run)

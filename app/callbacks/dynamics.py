@@ -24,6 +24,8 @@ from app.components.dynamics import (DERIVED_ROWS, MAX_RESAMPLES, correlation_ta
                                      equilibria_table, fmt, intervals_table)
 from app.figures.common import fit_styles, message_figure, rate_unit
 from app.figures.dynamics import cobweb_figure, sweep_figure, with_forecast_band
+from app.callbacks.data import server_limits
+from app.heavy import direct, runner_of
 from app.state import series_from_store
 from growthcore.data import Series
 from growthcore.dynamics import analyse, cobweb, sweep
@@ -219,9 +221,17 @@ def next_chunk(chunk: int, took: float, requested: int) -> int:
     return int(min(cap, max(10, chunk * TARGET_SECONDS / max(took, 1e-3))))
 
 
+def bootstrap_chunk(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, fits_store: Mapping[str, Any],
+                    fit: Mapping[str, Any], resamples: int, seed: int, start: int, stop: int) -> BootstrapResult:
+    """Refits ``start`` .. ``stop − 1`` of a run (the heavy part of :func:`bootstrap_step`)."""
+    series, result = rebuild(data, exclusions, fits_store, fit)
+    return bootstrap(result, series=series, resamples=resamples, seed=seed, start=start, stop=stop)
+
+
 def bootstrap_step(boot: Mapping[str, Any] | None, done: Mapping[str, Any] | None, cancel_clicks: int | None,
                    fits_store: Mapping[str, Any] | None, data: Mapping[str, Any] | None,
-                   exclusions: Mapping[str, Any] | None) -> tuple[Any, Any, bool]:
+                   exclusions: Mapping[str, Any] | None, *, run: Any = direct,
+                   max_resamples: int = MAX_RESAMPLES) -> tuple[Any, Any, bool]:
     """One chunk of the run in ``boot``. Returns (boot store, done store, whether to ask for another chunk).
 
     A cancel click seen here (or a change of the fit) ends the run and keeps the refits done so far.
@@ -238,13 +248,18 @@ def bootstrap_step(boot: Mapping[str, Any] | None, done: Mapping[str, Any] | Non
                                                 f"stopped at {boot['done']} of {boot['requested']}; run it again."),
                 False)
     t0 = time.perf_counter()
+    # the run's numbers come back from the tab: checked against this server's limits every time
+    start, n, seed, chunk = (_as_int(boot.get(k)) for k in ("done", "requested", "seed", "chunk"))
+    if n is None or not 1 <= n <= max_resamples or start is None or not 0 <= start < n or seed is None \
+            or seed < 0 or chunk is None or not 1 <= chunk <= MAX_CHUNK:
+        return (*_finish(boot, done, "refused", f"This run asks for more than the server allows (at most "
+                                                f"{max_resamples:,} resamples, {MAX_CHUNK:,} per step): refused."),
+                False)
     try:
-        series, result = rebuild(data, exclusions, fits_store, fit)
+        part = run("the bootstrap step", bootstrap_chunk, data, exclusions, fits_store, fit, n, seed, start,
+                   start + chunk)
     except GrowthcoreInputError as exc:
         return (*_finish(boot, done, "failed", str(exc).splitlines()[0]), False)
-    start, n = int(boot["done"]), int(boot["requested"])
-    part = bootstrap(result, series=series, resamples=n, seed=int(boot["seed"]), start=start,
-                     stop=start + int(boot["chunk"]))
     if part.done == 0:
         return (*_finish(boot, done, "failed", f"Nothing to resample: {part.message}"), False)
     so_far = BootstrapResult.from_dict(boot["result"]).merge(part) if boot.get("result") else part
@@ -346,6 +361,8 @@ def compute_forecast(request: Mapping[str, Any], label: str | None, fits_store: 
                      data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
                      done: Mapping[str, Any] | None) -> dict[str, Any]:
     """The forecast store: the request, the fit it belongs to and the band (or the reason there is none)."""
+    if not request.get("error"):  # a stored request comes back from the tab: checked again here
+        request = forecast_request(request.get("mode"), request.get("amount"), request.get("bound"))
     out: dict[str, Any] = {"request": dict(request), "label": label}
     if request.get("error"):
         return {**out, "error": request["error"]}
@@ -416,6 +433,9 @@ function(fits, capacity) {
 
 
 def register(app: Dash) -> None:
+    limits = server_limits(app)
+    max_resamples = min(MAX_RESAMPLES, limits.max_resamples)
+    heavy_run = runner_of(app)
     app.clientside_callback(GATE_JS, Output(ids.DYN_GATE, "data"), Input(ids.FITS, "data"), Input(ids.CAPACITY, "data"))
 
     @app.callback(Output(ids.DYN_FIT, "options"), Output(ids.DYN_FIT, "value"),
@@ -449,7 +469,8 @@ def register(app: Dash) -> None:
         if trigger == ids.BOOT_RUN:
             new = start_run(run, cancel, resamples, seed, label, fits_store)
             return new, no_update, no_update, (ticks or 0) + 1 if new["state"] == "running" else no_update
-        boot_out, done_out, more = bootstrap_step(boot, done, cancel, fits_store, data, exclusions)
+        boot_out, done_out, more = bootstrap_step(boot, done, cancel, fits_store, data, exclusions, run=heavy_run,
+                                                  max_resamples=max_resamples)
         summary_out = no_update if done_out is no_update else summaries(done_out)
         return boot_out, done_out, summary_out, (ticks or 0) + 1 if more else (ticks or 0)
 

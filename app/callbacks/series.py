@@ -8,6 +8,7 @@ user can stop the run. Nothing is kept on the server between requests.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import time
 from typing import Any, Mapping, Sequence
@@ -17,16 +18,19 @@ from dash import Dash, Input, Output, Patch, State, ctx, html, no_update
 from dash.exceptions import PreventUpdate
 
 from app import ids
-from app.callbacks.data import DEFAULT_MAX_BYTES, decode_source
+from app.callbacks.data import DEFAULT_MAX_BYTES, decode_source, server_limits
+from app.heavy import direct, runner_of
 from app.components.series import ALL_GROUPS
 from app.figures.batch import data_ranges, overview_grid, plate_map
-from app.state import fit_label
+from app.state import check_points, fit_label
 from growthcore.batch import fit_batch, from_series, groups_from_column, groups_from_pattern, parse_well, plate_format
 from growthcore.batch.table import METRICS, row
 from growthcore.batch.views import overview_panels
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.io import load_bytes
+from growthcore.limits import DEFAULT as DEFAULT_LIMITS
+from growthcore.limits import Limits
 
 PAGE = 96               # panels per page of the overview grid
 CHUNK_MIN = 16          # series per tick at least ...
@@ -56,6 +60,7 @@ def series_to_plain(s: Series) -> dict[str, Any]:
 
 
 def series_from_plain(d: Mapping[str, Any]) -> Series:
+    check_points(len(d["t"]), d.get("name"))
     return Series(
         t=np.asarray(d["t"], dtype=float), p=np.asarray([math.nan if v is None else v for v in d["p"]], dtype=float),
         name=d["name"], time_unit=d.get("time_unit", ""), value_unit=d.get("value_unit", ""),
@@ -80,10 +85,12 @@ def batch_key(data: Mapping[str, Any], mapping: Mapping[str, Any]) -> str:
 def read_all_series(source: Mapping[str, Any] | None, data: Mapping[str, Any] | None,
                     previous: Mapping[str, Any] | None, *, time: str | None = None, value: str | None = None,
                     series_column: str | None = None, time_unit: str | None = None,
-                    sheet: str | None = None) -> dict[str, Any] | None:
+                    sheet: str | None = None, limits: Limits | None = None,
+                    run: Any = direct) -> dict[str, Any] | None:
     """Every series of the shown file as plain data, or None for a file of one series.
 
-    Raises PreventUpdate when ``previous`` already holds these series (a pick within the same file).
+    The file is read (as a heavy job, through ``run``) under the server's ``limits``. Raises
+    PreventUpdate when ``previous`` already holds these series (a pick within the same file).
     """
     if not source or not data or len(data.get("series_names", [])) < 2:
         if previous is None:
@@ -93,24 +100,28 @@ def read_all_series(source: Mapping[str, Any] | None, data: Mapping[str, Any] | 
     key = batch_key(data, mapping)
     if previous and previous.get("key") == key:
         raise PreventUpdate
-    imported = load_bytes(decode_source(source), source.get("filename") or "upload",
-                          max_bytes=int(source.get("max_bytes", DEFAULT_MAX_BYTES)), **mapping)
+    limits = limits or dataclasses.replace(DEFAULT_LIMITS, max_bytes=DEFAULT_MAX_BYTES)
+    return {"key": key, "source": data.get("source", ""), "mapping": mapping,
+            **run("reading every series", plain_series, source, mapping, limits)}
+
+
+def plain_series(source: Mapping[str, Any], mapping: Mapping[str, Any], limits: Limits) -> dict[str, Any]:
+    """Every series of ``source`` as plain data (the heavy part of :func:`read_all_series`)."""
+    imported = load_bytes(decode_source(source, limits.max_bytes), source.get("filename") or "upload",
+                          max_bytes=limits.max_bytes, limits=limits, **mapping)
     names = [s.name for s in imported.series]
     fmt = plate_format(names)
     first = imported.series[0]
-    return {
-        "key": key, "source": data.get("source", ""), "names": names,
-        "series": [series_to_plain(s) for s in imported.series],
-        "plate": list(fmt) if fmt else None,
-        "time_unit": first.time_unit, "value_unit": first.value_unit, "mapping": mapping,
-    }
+    return {"names": names, "series": [series_to_plain(s) for s in imported.series],
+            "plate": list(fmt) if fmt else None, "time_unit": first.time_unit, "value_unit": first.value_unit}
 
 
 # ---------------------------------------------------------------------------------------------
 # replicate groups
 
 def compute_groups(mode: str | None, text: str | None, batch: Mapping[str, Any] | None,
-                   source: Mapping[str, Any] | None) -> tuple[dict[str, Any] | None, Any, list[dict[str, Any]], str]:
+                   source: Mapping[str, Any] | None, *, limits: Limits = DEFAULT_LIMITS,
+                   run: Any = direct) -> tuple[dict[str, Any] | None, Any, list[dict[str, Any]], str]:
     """Outputs: the groups store, the message under the inputs, the group filter's options and value."""
     everything = [{"label": "all series", "value": ALL_GROUPS}]
     if not batch:
@@ -124,15 +135,15 @@ def compute_groups(mode: str | None, text: str | None, batch: Mapping[str, Any] 
         return {"key": batch["key"], "groups": {}}, hint, everything, ALL_GROUPS
     try:
         if mode == "pattern":
-            groups, notes = groups_from_pattern(names, text)
+            groups, notes = groups_from_pattern(names, text, max_length=limits.max_pattern)
         else:
             if not source:
                 raise GrowthcoreInputError("the file is no longer in this tab; load it again")
             m = batch.get("mapping", {})
             value = m.get("value") if isinstance(m.get("value"), str) else None
-            groups, notes = groups_from_column(decode_source(source), source.get("filename") or "upload", text,
-                                               sheet=m.get("sheet"), time=m.get("time"), value=value,
-                                               series=m.get("series"))
+            groups, notes = run("reading the condition column", groups_from_column,
+                                decode_source(source, limits.max_bytes), source.get("filename") or "upload", text,
+                                sheet=m.get("sheet"), time=m.get("time"), value=value, series=m.get("series"))
     except GrowthcoreInputError as exc:
         message = html.Div([html.Strong("Groups not made. "), str(exc).splitlines()[0]], className="message message-error")
         return {"key": batch["key"], "groups": {}}, message, everything, ALL_GROUPS
@@ -200,6 +211,13 @@ def fit_chunk(job: Mapping[str, Any], batch: Mapping[str, Any], groups: Mapping[
     status, message, the thinned fitted path and the values of every constant and metric.
     """
     size = int(job["chunk"])
+    # the job and the series come from the tab: bounded here by the server's own limits
+    if len(batch["series"]) > DEFAULT_LIMITS.max_series or not 1 <= size <= chunk_size(len(batch["series"])):
+        raise GrowthcoreInputError(f"a batch chunk of {size} of {len(batch['series'])} series is not one this server "
+                                   "makes: start the run again")
+    fits_asked = len(job["models"]) * len(job["methods"])
+    if fits_asked > DEFAULT_LIMITS.max_fits:
+        raise GrowthcoreInputError(f"{fits_asked} fits per series, over the limit of {DEFAULT_LIMITS.max_fits}: refused")
     chunk = [series_from_plain(d) for d in batch["series"][index * size:(index + 1) * size]]
     mapping = groups.get("groups", {}) if groups and groups.get("key") == batch.get("key") else {}
     data = from_series(chunk, groups={n: g for n, g in mapping.items()})
@@ -231,7 +249,7 @@ def fit_chunk(job: Mapping[str, Any], batch: Mapping[str, Any], groups: Mapping[
 
 def run_tick(n_intervals: int | None, job: Mapping[str, Any] | None, batch: Mapping[str, Any] | None,
              groups: Mapping[str, Any] | None, progress: Mapping[str, Any] | None,
-             cancel: Mapping[str, Any] | None, *, now: float | None = None) -> tuple[Any, Any, Any]:
+             cancel: Mapping[str, Any] | None, *, now: float | None = None, run: Any = direct) -> tuple[Any, Any, Any]:
     """One tick: fit the next chunk. Outputs: fits-store Patch, progress, tick max_intervals."""
     if not n_intervals or not job or not batch:
         raise PreventUpdate
@@ -246,7 +264,7 @@ def run_tick(n_intervals: int | None, job: Mapping[str, Any] | None, batch: Mapp
         base["error"] = "The file changed during the run; start it again for the new file."
         return no_update, base, no_update
     try:
-        out = fit_chunk(job, batch, groups, index)
+        out = run("the batch chunk", fit_chunk, job, batch, groups, index)
     except GrowthcoreInputError as exc:
         base["error"] = str(exc).splitlines()[0]
         return no_update, base, no_update
@@ -551,6 +569,9 @@ function(gridClick, plateClick) {
 
 
 def register(app: Dash) -> None:
+    limits = server_limits(app)
+    run = runner_of(app)
+
     @app.callback(
         Output(ids.BATCH_SERIES, "data"), Output(ids.PICKER_BOX, "hidden"), Output(ids.SERIES_OVERVIEW, "hidden"),
         Output(ids.PLATE_BOX, "hidden"),
@@ -561,7 +582,7 @@ def register(app: Dash) -> None:
     )
     def _read(data, source, previous, time_, value, series_column, time_unit, sheet):
         batch = read_all_series(source, data, previous, time=time_, value=value, series_column=series_column,
-                                time_unit=time_unit, sheet=sheet)
+                                time_unit=time_unit, sheet=sheet, limits=limits, run=run)
         return batch, batch is None, batch is None, not (batch and batch.get("plate"))
 
     app.callback(
@@ -569,7 +590,7 @@ def register(app: Dash) -> None:
         Output(ids.GROUP_FILTER, "value"),
         Input(ids.GROUP_MODE, "value"), Input(ids.GROUP_TEXT, "value"), Input(ids.BATCH_SERIES, "data"),
         State(ids.SOURCE, "data"),
-    )(compute_groups)
+    )(lambda mode, text, batch, source: compute_groups(mode, text, batch, source, limits=limits, run=run))
 
     @app.callback(
         Output(ids.BATCH_JOB, "data"), Output(ids.BATCH_FITS, "data"), Output(ids.BATCH_PROGRESS, "data"),
@@ -592,7 +613,7 @@ def register(app: Dash) -> None:
         prevent_initial_call=True,
     )
     def _tick(n, job, batch, groups, progress, cancel):
-        return run_tick(n, job, batch, groups, progress, cancel)
+        return run_tick(n, job, batch, groups, progress, cancel, run=run)
 
     app.callback(
         Output(ids.BATCH_CANCEL, "data"), Output(ids.BATCH_TICK, "disabled", allow_duplicate=True),
