@@ -1,0 +1,161 @@
+"""The server's own limits against forged tab state, its Host allow-list and security headers,
+and heavy jobs run in worker processes under a bound, a time budget and a memory cap.
+
+Outside references: the header names and values follow the W3C Content Security Policy Level 3
+recommendation (frame-ancestors, script-src with hash sources) and RFC 7034 (X-Frame-Options);
+``nosniff`` is from the WHATWG Fetch standard; status 421 (Misdirected Request) is RFC 9110
+section 15.5.20. The DNS-rebinding defence by Host-header check is common practice.
+"""
+
+from __future__ import annotations
+
+import base64
+import threading
+import time
+
+import pytest
+from app import ids
+from app.callbacks.data import import_source, on_import
+from app.callbacks.dynamics import bootstrap_step, compute_forecast
+from app.callbacks.series import compute_groups
+from app.heavy import HeavyConfig, HeavyRefused, HeavyRunner
+from app.server import allowed_hosts_for, create_app
+from growthcore.errors import ImportFailure
+from growthcore.limits import DEFAULT, Limits
+
+
+@pytest.fixture(scope="module")
+def app():
+    return create_app()
+
+
+def _b64(data: bytes) -> str:
+    return base64.b64encode(data).decode("ascii")
+
+
+def _culture(n: int = 24) -> bytes:
+    """Invented culture densities (tests only)."""
+    return ("Time (h),OD\n" + "".join(f"{i},{80 / (1 + 39 * 2.718281828 ** (-0.45 * i)):.6g}\n"
+                                      for i in range(n))).encode()
+
+
+# ----------------------------------------------------------------------------- headers and hosts
+
+def test_security_headers_on_every_answer(app) -> None:
+    client = app.server.test_client()
+    for path in ("/", "/_dash-layout", "/no-such-page"):
+        reply = client.get(path)
+        policy = reply.headers["Content-Security-Policy"]
+        assert "frame-ancestors 'none'" in policy and "object-src 'none'" in policy
+        assert "script-src 'self' 'sha256-" in policy  # the framework's inline scripts by hash, no 'unsafe-inline'
+        assert "'unsafe-inline'" not in policy.split("script-src", 1)[1].split(";", 1)[0]
+        assert reply.headers["X-Frame-Options"] == "DENY"
+        assert reply.headers["X-Content-Type-Options"] == "nosniff"
+
+
+def test_host_header_allow_list(app) -> None:
+    client = app.server.test_client()
+    for host in ("127.0.0.1:8050", "localhost:8050", "[::1]:8050", "LOCALHOST"):
+        assert client.get("/", headers={"Host": host}).status_code == 200, host
+    # a page elsewhere reaching the loopback port by DNS rebinding sends its own name
+    for host in ("evil.example:8050", "127.0.0.1.evil.example", "attacker.test"):
+        reply = client.get("/_dash-layout", headers={"Host": host})
+        assert reply.status_code == 421, host
+        assert b"answers only to the host names" in reply.data
+        assert b"algae_photobioreactor" not in reply.data  # the layout (with the --data file) is not sent
+
+
+def test_allowed_hosts_follow_the_serve_address() -> None:
+    assert allowed_hosts_for("127.0.0.1") == frozenset({"127.0.0.1", "localhost", "::1"})
+    assert "lab-box.local" in allowed_hosts_for("lab-box.local")
+    assert {"127.0.0.1", "localhost"} <= allowed_hosts_for("0.0.0.0")
+
+
+# ----------------------------------------------------------------------------- limits the tab cannot move
+
+def test_upload_byte_limit_is_the_servers_not_the_tabs() -> None:
+    """A forged store (an 18 MB file, the tab's max_bytes raised) is refused before decoding."""
+    forged = {"filename": "big.csv", "b64": _b64(b"0" * 18_000_000), "max_bytes": 10**10}
+    limits = Limits(max_bytes=10_000_000)
+    with pytest.raises(ImportFailure, match=r"18,000,000 bytes, over the limit of 10,000,000 bytes"):
+        import_source(forged, limits=limits)
+    out = on_import(None, 1, None, "big.csv", forged, None, None, None, None, None, None,
+                    trigger=ids.MAP_APPLY, limits=limits)
+    assert "over the limit of 10,000,000 bytes" in str(out[2])
+
+
+def _fit_store() -> tuple[dict, dict]:
+    from app.callbacks.fits import compute_fits
+
+    data = import_source({"filename": "c.csv", "b64": _b64(_culture())})
+    settings = {"models": ["logistic"], "methods": ["trajectory"], "method": "trajectory", "error": "additive",
+                "terms": []}
+    return data, compute_fits(data, None, settings, None)
+
+
+def test_forged_bootstrap_run_is_refused() -> None:
+    data, fits = _fit_store()
+    label = fits["fits"][0]["label"]
+    from app.callbacks.dynamics import fit_signature, find_fit
+
+    sig = fit_signature(fits, find_fit(fits, label))
+    for forged in ({"requested": 1_000_000, "chunk": 50}, {"requested": 100, "chunk": 10**7}):
+        boot = {"state": "running", "label": label, "done": 0, "seed": 1, "signature": sig, "result": None,
+                "elapsed": 0.0, "cancel_seen": 0, **forged}
+        started = time.monotonic()
+        out, _, more = bootstrap_step(boot, {}, 0, fits, data, None)
+        assert out["state"] == "refused" and "more than the server allows" in out["message"] and more is False
+        assert time.monotonic() - started < 5
+
+
+def test_forged_forecast_request_is_checked_again() -> None:
+    data, fits = _fit_store()
+    label = fits["fits"][0]["label"]
+    out = compute_forecast({"mode": "steps", "amount": 500_000_000, "bound": None}, label, fits, data, None, {})
+    assert "Steps ahead must be a whole number from 1 to 2000" in out["error"]
+
+
+def test_pattern_length_is_the_servers() -> None:
+    batch = {"key": "k", "names": ["a1", "a2"]}
+    _, message, _, _ = compute_groups("pattern", "(a)" * 100, batch, None, limits=Limits(max_pattern=50))
+    assert "over the limit of 50" in str(message)
+    store, _, options, _ = compute_groups("pattern", r"^(a+)+$", {"key": "k", "names": ["a" * 28 + "!", "aa"]}, None)
+    assert store["groups"] == {"aa": "aa"}
+
+
+# ----------------------------------------------------------------------------- heavy jobs
+
+def test_heavy_job_budget_and_memory_cap() -> None:
+    runner = HeavyRunner(HeavyConfig(budget_s=2.0, memory_bytes=2 * 1024**3))
+    assert runner.run("a sum", sum, [1, 2, 3]) == 6
+    started = time.monotonic()
+    with pytest.raises(HeavyRefused, match=r"longer than the time budget of 2 s and was stopped"):
+        runner.run("sleeping", time.sleep, 60)
+    assert time.monotonic() - started < 15
+    with pytest.raises(HeavyRefused, match=r"needed more than the 2 GB a job may use"):
+        runner.run("allocating", bytearray, 3 * 1024**3)
+    with pytest.raises(ImportFailure, match="over the limit"):  # input errors pass through as they are
+        runner.run("reading", import_source, {"filename": "w.csv", "b64": _b64(b"t,p\n" + b"1," * 5000)})
+
+
+def test_heavy_jobs_beyond_the_slots_wait_then_are_refused() -> None:
+    runner = HeavyRunner(HeavyConfig(slots=1, wait_s=0.5, processes=False))
+    started = threading.Event()
+
+    def hold() -> None:
+        started.set()
+        time.sleep(2)
+
+    worker = threading.Thread(target=runner.run, args=("holding", hold))
+    worker.start()
+    started.wait(5)
+    with pytest.raises(HeavyRefused, match=r"busy with 1 heavy job"):
+        runner.run("a second job", sum, [1])
+    worker.join()
+    assert runner.run("after", sum, [2]) == 2
+
+
+def test_defaults_meet_the_app_limits() -> None:
+    from app.components.dynamics import MAX_RESAMPLES
+
+    assert MAX_RESAMPLES <= DEFAULT.max_resamples  # the box's maximum is one the engine accepts
