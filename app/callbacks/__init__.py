@@ -10,12 +10,13 @@ from dash import Dash
 
 from app.callbacks import export as export_callbacks
 from app.callbacks import dynamics as dynamics_callbacks
+from app.callbacks import population as population_callbacks
 from app.callbacks import series as series_callbacks
 from app.callbacks import (batch_tables, capacity, comparison, data, exclusions, explore, fits, highlight, panels,
                            settings)
 
 MODULES = (data, settings, capacity, exclusions, explore, fits, panels, comparison, highlight, export_callbacks,
-           dynamics_callbacks, series_callbacks, batch_tables)
+           dynamics_callbacks, series_callbacks, batch_tables, population_callbacks)
 
 
 def register_all(app: Dash) -> None:

@@ -9,6 +9,7 @@ from dash import dcc, html
 
 from app import ids
 from app.components.panels import GRAPH_CONFIG
+from app.components.population import population_box
 
 GROUP_MODES = (
     ("none", "none"),
@@ -99,6 +100,7 @@ def overview_section() -> html.Section:
             dcc.Graph(id=ids.PLATE, config=GRAPH_CONFIG, className="batch-plate", figure={"data": [], "layout": {}}),
         ], id=ids.PLATE_BOX, hidden=True),
         tables_box(),
+        population_box(),
     ], id=ids.SERIES_OVERVIEW, className="panel batch-panel", hidden=True, **{"aria-label": "Every series"})
 
 

@@ -70,3 +70,55 @@ def series_curve(fit: PopulationFit, name: str, t: Array) -> Array:
         if s.name == name:
             return _value(form, np.asarray(t, dtype=float) - fit.time_origin, s.constants)
     raise GrowthcoreInputError(f"no series {name!r} in this population fit")
+
+
+def population_view(fit: PopulationFit, observed: Mapping[str, tuple[Array, Array]], *, points: int = 160
+                    ) -> dict[str, object]:
+    """Plain data for a picture of the fit: each condition's population curve and band on one time
+    grid, and each series' observations with its conditional curve.
+
+    ``observed`` maps series names to their (times, values) as shown (all points, used or not).
+    """
+    if not fit.success:
+        raise GrowthcoreInputError("the population fit did not converge: no curves to draw")
+    lows = [float(np.min(t)) for t, _ in observed.values() if len(t)]
+    highs = [float(np.max(t)) for t, _ in observed.values() if len(t)]
+    lo, hi = (min(lows), max(highs)) if lows else (0.0, 1.0)
+    grid = np.linspace(lo, hi if hi > lo else lo + 1.0, points)
+    groups = []
+    for g in fit.conditions or ("all",):
+        mid, low, high = population_band(fit, grid, g if fit.conditions else None)
+        groups.append({"group": g, "mid": _plain(mid), "lo": _plain(low), "hi": _plain(high)})
+    series = []
+    for s in fit.series:
+        t, p = observed.get(s.name, (np.array(s.t), np.full(len(s.t), math.nan)))
+        series.append({"name": s.name, "group": s.group, "t": _plain(np.asarray(t, dtype=float)),
+                       "p": _plain(np.asarray(p, dtype=float)), "curve_p": _plain(series_curve(fit, s.name, grid))})
+    return {"t": _plain(grid), "groups": groups, "series": series}
+
+
+def forest_rows(fit: PopulationFit, constant: str) -> dict[str, object]:
+    """Each series' separate-fit and conditional (shrunken) value of ``constant``, and the population's."""
+    if not fit.success:
+        raise GrowthcoreInputError("the population fit did not converge: nothing to compare")
+    if fit.series and constant not in fit.series[0].constants:
+        raise GrowthcoreInputError(f"{fit.model} has no constant {constant!r}")
+    rows = [{"name": s.name, "group": s.group,
+             "separate": None if s.separate is None else _finite(s.separate.get(constant)),
+             "conditional": _finite(s.constants[constant])} for s in fit.series]
+    populations = []
+    for g in fit.conditions or ("all",):
+        values = fit.population_constants(g if fit.conditions else None)
+        populations.append({"group": g, "value": _finite(values[constant])})
+    est = fit.fixed.get(constant)
+    ci = list(est.ci95) if est is not None and est.ci95 is not None else None
+    return {"constant": constant, "rows": rows, "population": populations,
+            "ci95": ci, "random": constant in fit.random}
+
+
+def _finite(x: float | None) -> float | None:
+    return float(x) if x is not None and math.isfinite(x) else None
+
+
+def _plain(a: Array) -> list[float | None]:
+    return [float(v) if math.isfinite(v) else None for v in np.asarray(a, dtype=float).tolist()]

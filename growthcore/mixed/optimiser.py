@@ -125,13 +125,14 @@ def lme_step(design: MixedDesign, wk: Working, theta: Array) -> tuple[Array, Lin
     else:
         bounds = [LOG_SD_BOUNDS] * q + [(None, None)] * (theta.size - q)
         found = minimize(objective, np.clip(theta, *LOG_SD_BOUNDS), method="L-BFGS-B", bounds=bounds,
-                         options={"ftol": 1e-15, "gtol": 1e-10, "maxiter": 500})
+                         options={"ftol": 1e-14, "gtol": 1e-8, "maxiter": 500})
         best = found.x if found.fun <= objective(theta) else theta
     return best, linear_fit(wk, relative_cov(best, q, design.covariance), design.n_obs, design.estimation)
 
 
-def lindstrom_bates(design: MixedDesign, beta: Array, theta: Array, *, max_iter: int = 100) -> Estimate:
-    """Alternate PNLS and LME steps until β and θ stop moving."""
+def lindstrom_bates(design: MixedDesign, beta: Array, theta: Array, *, max_iter: int = 100,
+                    tol: float = 1e-9) -> Estimate:
+    """Alternate PNLS and LME steps until β (relative) and θ move less than ``tol``."""
     q = len(design.random)
     b = np.zeros((design.n_series, q))
     scale = np.maximum(np.abs(beta), 1e-8)
@@ -148,7 +149,7 @@ def lindstrom_bates(design: MixedDesign, beta: Array, theta: Array, *, max_iter:
                             "the linearised mixed model is singular (too few series or points for the design)", False)
         moved = max(float(np.max(np.abs(beta_new - beta) / scale)), float(np.max(np.abs(theta_new - theta))))
         beta, theta = beta_new, theta_new
-        if moved < 1e-9 and ok:
+        if moved < tol and ok:
             return Estimate(beta, b, theta, fitted.sigma2, fitted.neg2ll, it, True,
                             f"Lindstrom–Bates alternation converged in {it} iterations", False)
     sigma2 = fitted.sigma2 if fitted is not None else math.nan

