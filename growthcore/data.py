@@ -10,23 +10,94 @@ import numpy as np
 
 from growthcore.errors import GrowthcoreInputError
 
-#: Relative tolerance on the step when deciding whether sampling is regular.
+#: Relative tolerance on the step when deciding whether sampling is regular (times written in full).
 STEP_TOLERANCE = 1e-6
+#: Most decimals taken as the precision times are written in; more means the times are exact binary values.
+MAX_WRITTEN_DECIMALS = 6
+#: A grid is never accepted with a misfit beyond this share of its step, whatever the written precision.
+MAX_STEP_SHARE = 0.05
 
 
 @dataclass(frozen=True)
 class StepInfo:
     """How the series is sampled.
 
-    ``regular`` is true when every gap between consecutive times is a whole multiple of ``h``
-    (within ``STEP_TOLERANCE``); ``index`` then gives each point's position on that grid, so a
-    missing row leaves a gap instead of breaking the grid.
+    ``regular`` is true when every time lies on a grid ``t0 + k·h`` within ``tolerance``; ``index``
+    then gives each point's position ``k`` on that grid, so a missing row leaves a gap instead of
+    breaking the grid, and replicates (repeated times) share a position. ``decimals`` is the
+    precision the times are written in (None when they are exact to the last binary digit).
     """
 
     regular: bool
     h: float | None
     index: np.ndarray | None
     message: str
+    tolerance: float | None = None
+    decimals: int | None = None
+
+    def to_dict(self) -> dict[str, object]:
+        return {"regular": self.regular, "h": self.h, "tolerance": self.tolerance, "decimals": self.decimals,
+                "message": self.message}
+
+
+def written_decimals(t: np.ndarray) -> int | None:
+    """Fewest decimals that reproduce every time, or None beyond ``MAX_WRITTEN_DECIMALS``.
+
+    Times read from a file written to three decimals (0.333, 0.667) give 3: their grid is only as
+    exact as that.
+    """
+    scale = np.max(np.abs(t)) if t.size else 0.0
+    for d in range(MAX_WRITTEN_DECIMALS + 1):
+        if np.all(np.abs(np.round(t, d) - t) <= 1e-9 * max(scale, 10.0 ** -d)):
+            return d
+    return None
+
+
+def detect_step(t: np.ndarray) -> StepInfo:
+    """The regular grid of sorted times ``t`` (ties allowed), to the precision they are written in.
+
+    Notes
+    -----
+    With distinct times u_0 < ... < u_m and smallest gap h_0, each time gets k_i = round((u_i - u_0)/h_0);
+    the grid t0 + k·h is then fitted by least squares and accepted when no time misses it by more
+    than the tolerance: one unit of the last written decimal (0.001 for times written to three
+    decimals), never more than ``MAX_STEP_SHARE`` of h, and at least ``STEP_TOLERANCE`` of the span.
+    """
+    u, inverse = np.unique(t, return_inverse=True)
+    if u.size < 2:
+        return StepInfo(False, None, None, "fewer than two distinct times: no step can be found")
+    diffs = np.diff(u)
+    h0 = float(np.min(diffs))
+    span = float(u[-1] - u[0])
+    decimals = written_decimals(u)
+    floor = STEP_TOLERANCE * max(span, h0)
+    tol = floor if decimals is None else max(floor, min(10.0 ** -decimals, MAX_STEP_SHARE * h0))
+    k = np.rint((u - u[0]) / h0)
+    h_ends = span / k[-1] if k[-1] > 0 else h0
+    exact = float(np.max(np.abs(u - (u[0] + k * h_ends))))
+    if exact <= floor:
+        h, misfit = float(h_ends), exact
+    else:  # rounded times: the grid that fits them best
+        slope, intercept = np.polyfit(k, u, 1)
+        h, misfit = float(slope), float(np.max(np.abs(u - (intercept + k * slope))))
+    if misfit <= tol and np.all(np.diff(k) >= 1):
+        gaps = int(np.sum(np.diff(k) > 1))
+        note = f"regular step h = {h:.6g}" + (f" with {gaps} gap(s)" if gaps else "")
+        if misfit > floor:
+            note += f" (times written to {decimals} decimal(s) lie on the grid within {tol:g})"
+        grid_index = k.astype(int)[inverse]
+        grid_index.setflags(write=False)  # shared by every caller of the cached step
+        return StepInfo(True, h, grid_index, note, tol, decimals)
+    return StepInfo(
+        False,
+        None,
+        None,
+        f"irregular sampling (steps from {h0:g} to {float(np.max(diffs)):g}, off a regular grid by up to "
+        f"{misfit:.3g} where {tol:.3g} is allowed): difference-equation forms need a regular grid; "
+        "the curve forms serve irregular times",
+        tol,
+        decimals,
+    )
 
 
 @dataclass(frozen=True)
@@ -59,10 +130,11 @@ class Series:
             bad = int(np.flatnonzero(~np.isfinite(t))[0])
             raise GrowthcoreInputError(f"`t` must be finite; got t[{bad}]={t[bad]}")
         diffs = np.diff(t)
-        if np.any(diffs <= 0):
-            i = int(np.flatnonzero(diffs <= 0)[0])
+        if np.any(diffs < 0):
+            i = int(np.flatnonzero(diffs < 0)[0])
             raise GrowthcoreInputError(
-                f"`t` must be strictly increasing; got t[{i + 1}]={t[i + 1]:g} after t[{i}]={t[i]:g}"
+                f"`t` must be non-decreasing (a repeated time is a replicate); got t[{i + 1}]={t[i + 1]:g} "
+                f"after t[{i}]={t[i]:g}"
             )
         for i in self.excluded:
             if not 0 <= int(i) < t.size:
@@ -116,30 +188,47 @@ class Series:
 
     @cached_property
     def _step(self) -> StepInfo:
+        return detect_step(self.t)
+
+    @cached_property
+    def replicate_times(self) -> int:
+        """How many times carry more than one point (replicates)."""
         if self.t.size < 2:
-            return StepInfo(False, None, None, "fewer than two times: no step can be found")
-        diffs = np.diff(self.t)
-        h = float(np.min(diffs))
-        span = float(self.t[-1] - self.t[0])
-        ratio = (self.t - self.t[0]) / h
-        index = np.rint(ratio)
-        if np.all(np.abs(ratio - index) * h <= STEP_TOLERANCE * max(span, h)):
-            gaps = int(np.sum(np.rint(diffs / h) > 1))
-            note = f"regular step h = {h:g}" + (f" with {gaps} gap(s)" if gaps else "")
-            grid_index = index.astype(int)
-            grid_index.setflags(write=False)  # shared by every caller of the cached step
-            return StepInfo(True, h, grid_index, note)
-        return StepInfo(
-            False,
-            None,
-            None,
-            f"irregular sampling (steps from {h:g} to {float(np.max(diffs)):g}): "
-            "difference-equation forms need a regular grid; the curve forms serve irregular times",
-        )
+            return 0
+        same = np.diff(self.t) == 0
+        return int(np.count_nonzero(same[1:] & ~same[:-1]) + int(same[0])) if same.size else 0
+
+    @property
+    def has_replicates(self) -> bool:
+        return self.replicate_times > 0
+
+    def means_per_time(self) -> "Series":
+        """One point per distinct time: the mean of the used replicates there.
+
+        A time whose every replicate is left out stays as one excluded point; rows are those of the
+        first replicate at each time.
+        """
+        if not self.has_replicates:
+            return self
+        u, first, inverse = np.unique(self.t, return_index=True, return_inverse=True)
+        used = self.used
+        counts = np.bincount(inverse, weights=used.astype(float), minlength=u.size)
+        sums = np.bincount(inverse, weights=np.where(used, self.p, 0.0), minlength=u.size)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            means = np.where(counts > 0, sums / np.where(counts > 0, counts, 1.0), np.nan)
+        excluded = {int(j): "every replicate at this time is left out" for j in np.flatnonzero(counts == 0)}
+        rows = tuple(self.rows[int(i)] for i in first) if self.rows is not None else None
+        return replace(self, t=u, p=means, excluded=excluded, rows=rows)
 
     @cached_property
     def consecutive(self) -> tuple[np.ndarray, np.ndarray, np.ndarray] | str:
-        """(positions i, p_i, p_{i+1}) for used points one grid step apart, or why there are none."""
+        """(positions i, p_i, p_{i+1}) for used points one grid step apart, or why there are none.
+
+        A series with replicates has one value a step only as the mean per time: its pairs are those
+        of :meth:`means_per_time`, and the positions refer to that series.
+        """
+        if self.has_replicates:
+            return self.means_per_time().consecutive
         step = self.step()
         if not step.regular or step.index is None:
             return step.message

@@ -13,7 +13,7 @@ the engine's increments fit at the given K.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Sequence
 
 import numpy as np
@@ -61,6 +61,8 @@ def change_table(series: Series) -> ChangeTable:
     Irregular sampling gives neighbouring observations instead, with a message saying that the
     increments method cannot use them.
     """
+    if series.has_replicates:
+        return _of_means(series)
     step = series.step()
     finite = np.isfinite(series.p)
     used = series.used
@@ -84,6 +86,15 @@ def change_table(series: Series) -> ChangeTable:
         h=step.h,
         message=message,
     )
+
+
+def _of_means(series: Series) -> ChangeTable:
+    """The change of the mean per time; ``index`` is each pair's first replicate in ``series``."""
+    table = change_table(series.means_per_time())
+    _, first = np.unique(series.t, return_index=True)
+    return replace(table, index=first[table.index],
+                   message=f"{table.message}; the change of the mean at each time "
+                           f"({series.replicate_times} time(s) with replicates)")
 
 
 @dataclass(frozen=True)

@@ -165,9 +165,65 @@ class Diagnostics:
     runs_p: float
     systematic: bool
     message: str
+    lack_of_fit: LackOfFit | None = None
+
+    def to_dict(self) -> dict[str, object]:
+        out = {k: (_finite_or_none(v) if isinstance(v, float) else v) for k, v in self.__dict__.items()
+               if k != "lack_of_fit"}
+        if self.lack_of_fit is not None:
+            out["lack_of_fit"] = self.lack_of_fit.to_dict()
+        return out
+
+
+@dataclass(frozen=True)
+class LackOfFit:
+    """The lack-of-fit F test: misfit of the mean function against the pure error of replicates."""
+
+    ss_pure_error: float
+    df_pure_error: int
+    ss_lack_of_fit: float
+    df_lack_of_fit: int
+    f: float
+    p: float
+    message: str
 
     def to_dict(self) -> dict[str, object]:
         return {k: (_finite_or_none(v) if isinstance(v, float) else v) for k, v in self.__dict__.items()}
+
+
+def lack_of_fit(t: Array, observed: Array, predicted: Array, n_params: int) -> LackOfFit | None:
+    """Lack-of-fit F test from replicates (points sharing a time), on the scale given.
+
+    Notes
+    -----
+    Draper & Smith, Applied Regression Analysis, ch. 2: with m distinct times, n points and k
+    constants, SS_pe = Σ_i Σ_j (y_ij − ȳ_i)² on n − m degrees of freedom and SS_lof = SSE − SS_pe
+    on m − k; F = (SS_lof/(m − k)) / (SS_pe/(n − m)). None without replicates or without m > k.
+    """
+    t = np.asarray(t, dtype=float)
+    y = np.asarray(observed, dtype=float)
+    e = y - np.asarray(predicted, dtype=float)
+    _, groups = np.unique(t, return_inverse=True)
+    m, n = int(groups.max()) + 1 if groups.size else 0, int(y.size)
+    df_pe, df_lof = n - m, m - n_params
+    if df_pe <= 0 or df_lof <= 0:
+        return None
+    counts = np.bincount(groups, minlength=m)
+    means = np.bincount(groups, weights=y, minlength=m) / counts
+    ss_pe = float(np.sum((y - means[groups]) ** 2))
+    ss_lof = max(float(e @ e) - ss_pe, 0.0)
+    if not (math.isfinite(ss_pe) and math.isfinite(ss_lof)):
+        return None
+    if ss_pe > 0:
+        f = (ss_lof / df_lof) / (ss_pe / df_pe)
+        p = float(special.fdtrc(df_lof, df_pe, f))
+    else:
+        f, p = math.inf, 0.0
+    if p < 0.05:
+        message = f"lack of fit: the curve misses the replicate means beyond their scatter (F = {f:.3g}, p = {p:.3g})"
+    else:
+        message = f"no lack of fit beyond the replicates' scatter (F = {f:.3g}, p = {p:.3g})"
+    return LackOfFit(ss_pe, df_pe, ss_lof, df_lof, f, p, message)
 
 
 #: Common practice (no single source): Durbin–Watson below 1 signals positive serial correlation,

@@ -11,6 +11,7 @@ are not linear in any constant (Ricker, Beverton–Holt) fit p_{n+1} on p_n by n
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 from typing import Mapping
 
 import numpy as np
@@ -40,7 +41,12 @@ def fit_increments(
     start: Mapping[str, float],
     terms: tuple[str, ...] = (),
 ) -> FitResult:
-    """Fit ``form`` to the change per step of ``series``."""
+    """Fit ``form`` to the change per step of ``series`` (of its mean per time where it has replicates)."""
+    if series.has_replicates:
+        result = fit_increments(series.means_per_time(), form, model=model, fixed=fixed, start=start, terms=terms)
+        note = (f"the increments method needs one value a step: it regresses the change of the mean at each time "
+                f"({series.replicate_times} time(s) with replicates, {len(series)} points in all)")
+        return replace(result, notes=(note, *result.notes))
     pairs = consecutive_pairs(series)
     if isinstance(pairs, str):
         return failed(model, "increments", "additive", pairs, form=form)

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import cached_property
 from typing import Callable, Mapping
 
@@ -13,7 +13,8 @@ from growthcore.fit.lm import Evaluation
 from growthcore.fit.nls import jacobian
 from growthcore.fit.result import FitResult, Grid, ParameterEstimate
 from growthcore.models.base import ModelForm, ParamSpec
-from growthcore.stats import correlation, covariance_and_condition, fit_metrics, residual_diagnostics, t_quantile
+from growthcore.stats import (correlation, covariance_and_condition, fit_metrics, lack_of_fit, residual_diagnostics,
+                              t_quantile)
 
 Array = np.ndarray
 P0_DIFFERENCE = ParamSpec("p0", 0.0, math.inf, "state at the first time of the grid", "state")
@@ -145,6 +146,11 @@ def build_result(
     if dof <= 0:
         notes_out.append("no residual degrees of freedom: no standard errors")
     metrics = fit_metrics(residuals, problem.observed, predicted, k, r2_uncentered=r2_uncentered)
+    t_points = problem.t if t_residual is None else t_residual
+    lof = lack_of_fit(t_points, problem._target[:, 0], problem.scaled(predicted), k) \
+        if t_points.size > 1 and bool(np.any(np.diff(t_points) == 0)) else None
+    if lof is not None:
+        notes_out.append(lof.message)
     corr = correlation(cov) if k and cov_finite else None
     settings = dict(problem.settings or {})
     return FitResult(
@@ -156,7 +162,7 @@ def build_result(
         form=problem.form,
         parameters=tuple(estimates),
         metrics=metrics,
-        diagnostics=residual_diagnostics(residuals),
+        diagnostics=replace(residual_diagnostics(residuals), lack_of_fit=lof),
         t=problem.t if t_residual is None else t_residual,
         observed=problem.observed,
         predicted=predicted,

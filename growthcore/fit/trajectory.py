@@ -219,7 +219,8 @@ def _fit_difference(series: Series, form: DifferenceForm, *, model: str, error: 
 def _path_evaluation(form: DifferenceForm, free: tuple[str, ...], fixed: Mapping[str, float], steps: int,
                      offset: Array, observed: Array, error: str) -> Evaluation:
     """The path's residuals and, on demand, its Jacobian by forward sensitivities."""
-    whole = offset.size == steps + 1  # no gaps: the path itself is the prediction
+    # no gaps and no replicates: the path itself is the prediction
+    whole = offset.size == steps + 1 and bool(np.all(np.diff(offset) == 1))
 
     def at(values: dict[str, Any]) -> tuple[Array, Callable[[], Array]]:
         path = path_of(form, values["p0"], values, steps)
