@@ -21,6 +21,7 @@ MAP_VALUE = "data-map-value"
 MAP_SERIES = "data-map-series"
 MAP_TIME_UNIT = "data-map-time-unit"
 MAP_SHEET = "data-map-sheet"
+MAP_REPLICATES = "map-replicates"
 MAP_APPLY = "data-map-apply"
 MAP_COLUMNS = "data-map-columns"   # datalist of known column names
 DATA_MESSAGE = "data-message"

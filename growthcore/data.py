@@ -16,6 +16,8 @@ STEP_TOLERANCE = 1e-6
 MAX_WRITTEN_DECIMALS = 6
 #: A grid is never accepted with a misfit beyond this share of its step, whatever the written precision.
 MAX_STEP_SHARE = 0.05
+#: More grid steps than this between the first and last time is no regular sampling a form can iterate.
+MAX_GRID_STEPS = 10_000_000
 
 
 @dataclass(frozen=True)
@@ -72,7 +74,12 @@ def detect_step(t: np.ndarray) -> StepInfo:
     decimals = written_decimals(u)
     floor = STEP_TOLERANCE * max(span, h0)
     tol = floor if decimals is None else max(floor, min(10.0 ** -decimals, MAX_STEP_SHARE * h0))
-    k = np.rint((u - u[0]) / h0)
+    with np.errstate(over="ignore", invalid="ignore"):
+        k = np.rint((u - u[0]) / h0)
+    if not np.isfinite(k[-1]) or k[-1] > MAX_GRID_STEPS:
+        return StepInfo(False, None, None, f"irregular sampling (steps from {h0:g} to {float(np.max(diffs)):g}): "
+                        "difference-equation forms need a regular grid; the curve forms serve irregular times",
+                        None, decimals)
     h_ends = span / k[-1] if k[-1] > 0 else h0
     exact = float(np.max(np.abs(u - (u[0] + k * h_ends))))
     if exact <= floor:

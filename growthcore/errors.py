@@ -20,3 +20,15 @@ class ExpressionError(GrowthcoreInputError):
 
 class ImportFailure(GrowthcoreInputError):
     """Nothing usable could be read from a file; the message names file, row and column."""
+
+
+class ChoiceNotFound(ImportFailure):
+    """A column or sheet asked for is not in the file; ``choice`` says which option named it
+    (``time``, ``values``, ``series`` or ``sheet``), so that a caller can drop that choice and read again."""
+
+    def __init__(self, message: str, choice: str) -> None:
+        super().__init__(message)
+        self.choice = choice
+
+    def __reduce__(self) -> tuple[type, tuple[str, str]]:  # crosses to and from worker processes
+        return (type(self), (str(self), self.choice))

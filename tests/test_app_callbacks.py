@@ -50,14 +50,30 @@ def test_demo_reads_with_units(demo: dict) -> None:
     json.dumps(demo)
 
 
-def test_upload_replaces_the_data_and_clears_the_mapping(demo: dict) -> None:
+def test_upload_replaces_the_data_and_keeps_the_choices_that_fit(demo: dict) -> None:
+    # "Time" was chosen for the file before; the new file has no such column, so that choice alone is
+    # dropped (its field cleared, the message says so) while the time unit chosen survives
     out = on_import(upload(CSV), 0, None, "invented_cover.csv", read_source(DEMO_FILE), demo, "Time", None, None,
-                    None, None, trigger=ids.UPLOAD)
+                    "d", None, trigger=ids.UPLOAD)
     source, data = out[0], out[1]
     assert source["filename"] == "invented_cover.csv"
-    assert data["source"] == "invented_cover.csv" and data["value_unit"] == "%"
+    assert data["source"] == "invented_cover.csv" and data["value_unit"] == "%" and data["time_unit"] == "d"
     assert out[6] == data["name"]
-    assert out[8:] == (None, None, None, None, None)
+    assert out[8] is None and all(v is no_update for v in out[9:14])
+    assert "Not in this file, so read as guessed: time column 'Time'" in str(out[2])
+    assert out[14] is None  # the upload's contents cleared: the same file dropped again is read again
+
+
+def test_a_failed_upload_becomes_the_file_the_choices_apply_to(demo: dict) -> None:
+    two_values = "Day,Cover (%),Height (cm)\n" + "\n".join(f"{d},{2 + d},{d * 0.5 + 1}" for d in range(8))
+    # the value column chosen for the file before is this file's time column: the read is refused
+    bad = on_import(upload(two_values), 0, None, "invented_two.csv", read_source(DEMO_FILE), demo, None,
+                    "Day", None, None, None, trigger=ids.UPLOAD)
+    assert bad[1] is no_update and bad[0]["filename"] == "invented_two.csv"
+    assert "read it again" in str(bad[2]) and "algae_photobioreactor.csv" in str(bad[2])
+    # the user corrects the value column and asks to read again: the new file is read, not the old one
+    again = on_import(None, 1, None, None, bad[0], demo, None, "Height", None, None, None, trigger=ids.MAP_APPLY)
+    assert again[1]["source"] == "invented_two.csv" and again[1]["value_column"] == "Height (cm)"
 
 
 def test_malformed_upload_keeps_the_previous_data_and_names_the_file(demo: dict) -> None:

@@ -117,9 +117,9 @@ def test_forged_forecast_request_is_checked_again() -> None:
 
 def test_pattern_length_is_the_servers() -> None:
     batch = {"key": "k", "names": ["a1", "a2"]}
-    _, message, _, _ = compute_groups("pattern", "(a)" * 100, batch, None, limits=Limits(max_pattern=50))
+    _, message, _, _ = compute_groups("pattern", "(a)" * 100, batch, limits=Limits(max_pattern=50))
     assert "over the limit of 50" in str(message)
-    store, _, options, _ = compute_groups("pattern", r"^(a+)+$", {"key": "k", "names": ["a" * 28 + "!", "aa"]}, None)
+    store, _, options, _ = compute_groups("pattern", r"^(a+)+$", {"key": "k", "names": ["a" * 28 + "!", "aa"]})
     assert store["groups"] == {"aa": "aa"}
 
 

@@ -241,10 +241,10 @@ def test_plate_map_values_notes_and_frame(tmp_path: Any) -> None:
 
 def test_groups_from_a_pattern_and_a_condition_column(tmp_path: Any) -> None:
     source, _, batch = _batch(WIDE)
-    store, message, options, value = S.compute_groups("pattern", r"^A([1-6])$", batch, source)
+    store, message, options, value = S.compute_groups("pattern", r"^A([1-6])$", batch)
     assert value == ALL_GROUPS and [o["value"] for o in options] == [ALL_GROUPS, "1", "2", "3", "4", "5", "6"]
     assert "A7" not in store["groups"] and "6 series do not match" in str(message)
-    _, bad, opts, _ = S.compute_groups("pattern", "([", batch, source)
+    _, bad, opts, _ = S.compute_groups("pattern", "([", batch)
     assert "Groups not made" in str(bad) and "not a valid regular expression" in str(bad) and len(opts) == 1
     # a long file with a condition column (invented)
     path = tmp_path / "invented_long.csv"
@@ -257,10 +257,10 @@ def test_groups_from_a_pattern_and_a_condition_column(tmp_path: Any) -> None:
     data = import_source(source)
     long_batch = S.read_all_series(source, data, None)
     assert long_batch["names"] == ["T1", "T2", "T3"] and long_batch["plate"] is None
-    store, _, options, _ = S.compute_groups("column", "Feed", long_batch, source)
+    store, _, options, _ = S.compute_groups("column", "Feed", long_batch)
     assert store["groups"] == {"T1": "low", "T2": "low", "T3": "high"}
     assert [o["label"] for o in options] == ["all series", "low (2)", "high (1)"]
-    _, missing, _, _ = S.compute_groups("column", "Diet", long_batch, source)
+    _, missing, _, _ = S.compute_groups("column", "Diet", long_batch)
     assert "Groups not made" in str(missing) and "Diet" in str(missing)
 
 

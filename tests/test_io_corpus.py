@@ -101,17 +101,25 @@ def _check_missing_marks(r: ImportResult) -> None:
     assert all(x.reason in ("missing-value mark", "blank value") for x in r.report.left_out)
 
 
+def _check_duplicates_kept_all(r: ImportResult) -> None:
+    # repeated times are replicates: every point kept by default, counted in the report
+    assert values(r) == ([0, 1, 1, 2], [1.0, 2.0, 3.0, 4.0])
+    assert (r.report.series[0].replicate_times, r.report.series[0].replicate_points) == (1, 2)
+    assert "2 replicate points at 1 repeated time(s): every point kept" in notes(r)
+    assert not r.report.left_out and r.report.replicates == "all"
+
+
 def _check_duplicates_kept_first(r: ImportResult) -> None:
     assert values(r) == ([0, 1, 2], [1.0, 2.0, 4.0])
     (row, col, reason), = left(r)
-    assert row == 4 and col == "N" and "duplicate time t = 1" in reason and "row 3" in reason
+    assert row == 4 and col == "N" and "replicate at t = 1" in reason and "row 3" in reason and "as chosen" in reason
 
 
 def _check_duplicates_averaged(r: ImportResult) -> None:
     # (2 + 3) / 2 = 2.5, from rows 3 and 4
     assert values(r) == ([0, 1, 2], [1.0, 2.5, 4.0])
     assert r.report.series[0].averaged == ((3, 1.0, 2),)
-    assert "2 values at t = 1 (rows 3, 4) averaged" in notes(r)
+    assert "averaged into one point at each time" in notes(r)
     assert not r.report.left_out
 
 
@@ -234,9 +242,11 @@ CASES = [
     Case("blank-rows", "blanks.csv", "t,N\n0,1\n\n1,2\n,\n\n2,3\n", _check_blank_rows),
     Case("non-numeric", "text.csv", "t,Count\n0,1\n1,lost\n2,3\n3,4\n", _check_non_numeric),
     Case("missing-marks", "na.csv", "t,N\n0,1\n1,NA\n2,\n3,4\n4,5\n", _check_missing_marks),
-    Case("duplicates", "dups.csv", "t,N\n0,1\n1,2\n1,3\n2,4\n", _check_duplicates_kept_first),
+    Case("duplicates", "dups.csv", "t,N\n0,1\n1,2\n1,3\n2,4\n", _check_duplicates_kept_all),
+    Case("duplicates-first", "dups.csv", "t,N\n0,1\n1,2\n1,3\n2,4\n", _check_duplicates_kept_first,
+         kwargs={"replicates": "first"}),
     Case("duplicates-averaged", "dups.csv", "t,N\n0,1\n1,2\n1,3\n2,4\n", _check_duplicates_averaged,
-         kwargs={"average_duplicates": True}),
+         kwargs={"replicates": "mean"}),
     Case("unsorted", "unsorted.csv", "t,N\n0,1\n2,3\n1,2\n3,4\n", _check_unsorted),
     Case("negative", "neg.csv", "t,OD\n0,0.5\n1,0\n2,-0.2\n3,0.9\n", _check_negative),
     Case("header-units", "units.csv", "Time (h),Dry weight (g/L),OD600 [-]\n0,1,0.1\n1,2,0.2\n2,3,0.3\n", _check_units),

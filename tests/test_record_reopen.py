@@ -119,7 +119,7 @@ def test_sealed_but_invalid_record_lists_its_problems() -> None:
 def test_points_out_of_order_are_refused_on_reopening() -> None:
     record = census_record()
     record["data"]["points"][1]["t"] = 1990.0
-    with pytest.raises(RecordError, match="strictly increasing"):
+    with pytest.raises(RecordError, match="must be non-decreasing"):
         reopen(parse_record(json.dumps(seal(record))), name="r.json")
 
 

@@ -12,7 +12,7 @@ from dash import Dash, Input, Output, State, ctx, html, no_update
 from app import ids
 from app.heavy import direct, runner_of
 from app.state import data_to_store
-from growthcore.errors import GrowthcoreInputError, ImportFailure
+from growthcore.errors import ChoiceNotFound, GrowthcoreInputError, ImportFailure
 from growthcore.io import load_bytes
 from growthcore.limits import DEFAULT as DEFAULT_LIMITS
 from growthcore.limits import Limits
@@ -48,74 +48,131 @@ def decode_source(source: Mapping[str, Any], max_bytes: int | None = None) -> by
                                    "(not valid base64); try again") from None
 
 
+#: The import choices of the mapping fields, in the order of their outputs.
+CHOICES = ("time", "value", "series_column", "time_unit", "sheet", "replicates")
+#: The field each ``ChoiceNotFound.choice`` comes from.
+_FIELD_OF = {"time": "time", "values": "value", "series": "series_column", "sheet": "sheet"}
+
+
 def import_source(source: Mapping[str, Any], *, pick: str | None = None, time: str | None = None,
                   value: str | None = None, series_column: str | None = None, time_unit: str | None = None,
-                  sheet: str | None = None, limits: Limits | None = None) -> dict[str, Any]:
+                  sheet: str | None = None, replicates: str | None = None, limits: Limits | None = None,
+                  keep_what_fits: bool = False) -> dict[str, Any]:
     """Read ``source`` and return the store form of the chosen series (the first when ``pick`` is absent).
 
     ``limits`` are the server's (the byte limit included); a ``max_bytes`` in ``source`` is only
-    what the tab was told and is never trusted. Raises ``GrowthcoreInputError``
-    (``ImportFailure``) with a one-line message naming the file.
+    what the tab was told and is never trusted. With ``keep_what_fits`` (a new file read with the
+    choices made for the one before), a column or sheet the new file lacks is dropped from the
+    choices instead of refusing the file; the store's ``dropped`` names each choice dropped.
+    Raises ``GrowthcoreInputError`` (``ImportFailure``) with a one-line message naming the file.
     """
     limits = limits or dataclasses.replace(DEFAULT_LIMITS, max_bytes=DEFAULT_MAX_BYTES)
     raw = decode_source(source, limits.max_bytes)
     name = source.get("filename") or "upload"
-    values = [v.strip() for v in value.split(",")] if value and "," in value else (value or None)
-    imported = load_bytes(raw, name, sheet=sheet or None, time=time or None, value=values,
-                          series=series_column or None, time_unit=time_unit or None,
-                          max_bytes=limits.max_bytes, limits=limits)
+    choices: dict[str, str | None] = {"time": time, "value": value, "series_column": series_column, "sheet": sheet}
+    dropped: list[str] = []
+    while True:
+        values = [v.strip() for v in choices["value"].split(",")] if choices["value"] and "," in choices["value"] \
+            else (choices["value"] or None)
+        try:
+            imported = load_bytes(raw, name, sheet=choices["sheet"] or None, time=choices["time"] or None,
+                                  value=values, series=choices["series_column"] or None,
+                                  time_unit=time_unit or None, replicates=replicates or "all",
+                                  max_bytes=limits.max_bytes, limits=limits)
+            break
+        except ChoiceNotFound as exc:
+            field = _FIELD_OF.get(exc.choice)
+            if not keep_what_fits or field is None or not choices.get(field):
+                raise
+            dropped.append(field)
+            choices[field] = None
     chosen = next((s for s in imported.series if s.name == pick), imported.series[0])
-    return data_to_store(imported, chosen, source=name)
+    data = data_to_store(imported, chosen, source=name)
+    data["dropped"] = dropped
+    # the choices this read used, so that reading every series of the file repeats them exactly
+    data["choices"] = {**choices, "time_unit": time_unit or None, "replicates": replicates or "all"}
+    return data
 
 
 def summary(data: Mapping[str, Any]) -> list[Any]:
     n = len(data["t"])
     rep = data["report"]
     left = len(rep.get("left_out", []))
-    return [
+    own = next((x for x in rep.get("series", []) if x.get("name") == data["name"]), {})
+    lines = [
         html.Div([html.Strong(data["source"]), f" — series “{data['name']}”"]),
         html.Div(f"{n} points; time “{data['time_column']}” [{data['time_unit'] or 'no unit'}], "
                  f"value “{data['value_column']}” [{data['value_unit'] or 'no unit'}]"),
-        html.Div(f"{data['step']}; {left} cell(s) left out at import (see the report)", className="muted"),
     ]
+    conditions = own.get("conditions") or {}
+    if conditions:
+        lines.append(html.Div("; ".join(f"{c} = {v}" for c, v in conditions.items()), className="muted"))
+    replicates = own.get("replicates") or {}
+    if replicates.get("times"):
+        lines.append(html.Div(f"replicates: {replicates['points']} points at {replicates['times']} repeated "
+                              "time(s), all fitted (increments use the mean at each time)"
+                              if rep.get("replicates", "all") == "all" else
+                              f"replicates at {replicates['times']} time(s): {rep.get('replicates')} kept",
+                              className="muted"))
+    lines.append(html.Div(f"{data['step']}; {left} cell(s) left out at import (see the report)", className="muted"))
+    return lines
 
 
-def failure_message(text: str, previous: Mapping[str, Any] | None) -> html.Div:
+def failure_message(text: str, previous: Mapping[str, Any] | None, *, retry: bool = False) -> html.Div:
     keep = f" The panels still show {previous['source']}." if previous else ""
-    return html.Div([html.Strong("Not read. "), text, keep], className="message message-error")
+    hint = (" Choose its columns under “Columns and units” and read it again, or drop the file once more."
+            if retry else "")
+    return html.Div([html.Strong("Not read. "), text, keep, hint], className="message message-error")
 
 
 def on_import(contents: str | None, _apply: int, pick: str | None, filename: str | None,
               source: Mapping[str, Any] | None, previous: Mapping[str, Any] | None, time: str | None,
               value: str | None, series_column: str | None, time_unit: str | None, sheet: str | None,
-              *, trigger: str | None, max_bytes: int = DEFAULT_MAX_BYTES, limits: Limits | None = None,
-              run: Any = direct) -> tuple[Any, ...]:
+              replicates: str | None = None, *, trigger: str | None, max_bytes: int = DEFAULT_MAX_BYTES,
+              limits: Limits | None = None, run: Any = direct) -> tuple[Any, ...]:
     """Outputs: source, data, message, summary, report, series options, series value, column list,
-    and the five mapping fields (cleared for a new upload)."""
+    the six mapping fields, and the upload's contents (cleared, so that the same file can be read again).
+
+    A new upload becomes the file the mapping fields apply to, even when it cannot be read, and is
+    read with the choices already made wherever the new file has those columns.
+    """
     new_upload = trigger == ids.UPLOAD and contents is not None
-    mapping = dict(time=time, value=value, series_column=series_column, time_unit=time_unit, sheet=sheet)
-    clear = (None, None, None, None, None) if new_upload else (no_update,) * 5
+    mapping = dict(time=time, value=value, series_column=series_column, time_unit=time_unit, sheet=sheet,
+                   replicates=replicates)
+    keep = (no_update,) * len(CHOICES)
+    reset = None if new_upload else no_update
     if new_upload:
         source = source_from_upload(contents, filename or "upload", max_bytes)
-        mapping = {k: None for k in mapping}
     if not source:
         return (no_update, no_update, html.Div("Drop a file to start.", className="message"), no_update,
-                no_update, no_update, no_update, no_update, *clear)
+                no_update, no_update, no_update, no_update, *keep, reset)
+    stored = source if new_upload else no_update
     keep_pick = pick if trigger == ids.SERIES_PICK or (trigger == ids.MAP_APPLY and pick) else None
     try:
         limits = limits or dataclasses.replace(DEFAULT_LIMITS, max_bytes=max_bytes)
-        data = run("reading the file", import_source, source, pick=keep_pick, limits=limits, **mapping)
+        data = run("reading the file", import_source, source, pick=keep_pick, limits=limits,
+                   keep_what_fits=new_upload, **mapping)
     except GrowthcoreInputError as exc:
         message = str(exc).splitlines()[0]
-        return (no_update, no_update, failure_message(message, previous), no_update, no_update,
-                no_update, no_update, no_update, *clear)
+        return (stored, no_update, failure_message(message, previous, retry=bool(new_upload or trigger == ids.MAP_APPLY)),
+                no_update, no_update, no_update, no_update, no_update, *keep, reset)
     names = data["series_names"]
     # every column of the file, so that the mapping fields can offer the ones the import did not pick
     columns = data["report"].get("columns") or sorted({data["time_column"], data["value_column"]})
-    ok = html.Div(f"Read {data['source']}: {len(names)} series.", className="message message-ok")
-    return (source if new_upload else no_update, data, ok, summary(data), data["report_text"],
+    cleared = tuple(None if c in data["dropped"] else no_update for c in CHOICES)
+    lines: list[Any] = [f"Read {data['source']}: {len(names)} series."]
+    if data["dropped"]:
+        shown = ", ".join(f"{_LABELS[c]} {mapping[c]!r}" for c in data["dropped"])
+        lines.append(f" Not in this file, so read as guessed: {shown}.")
+    ok = html.Div(lines, className="message message-ok")
+    return (stored, data, ok, summary(data), data["report_text"],
             [{"label": n, "value": n} for n in names], data["name"],
-            [html.Option(value=c) for c in columns], *clear)
+            [html.Option(value=c) for c in columns], *cleared, reset)
+
+
+#: How the mapping fields are named on the page, for messages.
+_LABELS = {"time": "time column", "value": "value column", "series_column": "series id column",
+           "time_unit": "time unit", "sheet": "worksheet", "replicates": "replicates"}
 
 
 def refused_message(refused: Mapping[str, Any] | None, previous: Mapping[str, Any] | None,
@@ -146,15 +203,20 @@ def register(app: Dash) -> None:
         Output(ids.DATA_SUMMARY, "children"), Output(ids.REPORT, "children"),
         Output(ids.SERIES_PICK, "options"), Output(ids.SERIES_PICK, "value"), Output(ids.MAP_COLUMNS, "children"),
         Output(ids.MAP_TIME, "value"), Output(ids.MAP_VALUE, "value"), Output(ids.MAP_SERIES, "value"),
-        Output(ids.MAP_TIME_UNIT, "value"), Output(ids.MAP_SHEET, "value"),
+        Output(ids.MAP_TIME_UNIT, "value"), Output(ids.MAP_SHEET, "value"), Output(ids.MAP_REPLICATES, "value"),
+        Output(ids.UPLOAD, "contents"),
         Input(ids.UPLOAD, "contents"), Input(ids.MAP_APPLY, "n_clicks"), Input(ids.SERIES_PICK, "value"),
         State(ids.UPLOAD, "filename"), State(ids.SOURCE, "data"), State(ids.DATA, "data"),
         State(ids.MAP_TIME, "value"), State(ids.MAP_VALUE, "value"), State(ids.MAP_SERIES, "value"),
-        State(ids.MAP_TIME_UNIT, "value"), State(ids.MAP_SHEET, "value"),
+        State(ids.MAP_TIME_UNIT, "value"), State(ids.MAP_SHEET, "value"), State(ids.MAP_REPLICATES, "value"),
     )
-    def _import(contents, apply, pick, filename, source, previous, time, value, series_column, time_unit, sheet):
+    def _import(contents, apply, pick, filename, source, previous, time, value, series_column, time_unit, sheet,
+                replicates):
         previous_pick = previous.get("name") if previous else None
         if ctx.triggered_id == ids.SERIES_PICK and pick == previous_pick:
-            return (no_update,) * 13
+            return (no_update,) * 15
+        if ctx.triggered_id == ids.UPLOAD and contents is None:
+            return (no_update,) * 15  # the contents cleared after the last read
         return on_import(contents, apply, pick, filename, source, previous, time, value, series_column,
-                         time_unit, sheet, trigger=ctx.triggered_id, max_bytes=max_bytes, limits=limits, run=run)
+                         time_unit, sheet, replicates, trigger=ctx.triggered_id, max_bytes=max_bytes, limits=limits,
+                         run=run)

@@ -23,12 +23,12 @@ from app.heavy import direct, runner_of
 from app.components.series import ALL_GROUPS
 from app.figures.batch import data_ranges, overview_grid, plate_map
 from app.state import check_points, fit_label
-from growthcore.batch import fit_batch, from_series, groups_from_column, groups_from_pattern, parse_well, plate_format
+from growthcore.batch import fit_batch, from_series, groups_from_conditions, groups_from_pattern, parse_well, plate_format
 from growthcore.batch.table import METRICS, row
 from growthcore.batch.views import overview_panels
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
-from growthcore.io import load_bytes
+from growthcore.io import ImportReport, load_bytes
 from growthcore.limits import DEFAULT as DEFAULT_LIMITS
 from growthcore.limits import Limits
 
@@ -70,11 +70,13 @@ def series_from_plain(d: Mapping[str, Any]) -> Series:
     )
 
 
-def _mapping(time: str | None, value: str | None, series_column: str | None, time_unit: str | None,
-             sheet: str | None) -> dict[str, Any]:
+def _mapping(choices: Mapping[str, Any]) -> dict[str, Any]:
+    """The import options of the choices the shown series was read with (see ``import_source``)."""
+    value = choices.get("value")
     values = [v.strip() for v in value.split(",")] if value and "," in value else (value or None)
-    return {"time": time or None, "value": values, "series": series_column or None, "time_unit": time_unit or None,
-            "sheet": sheet or None}
+    return {"time": choices.get("time") or None, "value": values, "series": choices.get("series_column") or None,
+            "time_unit": choices.get("time_unit") or None, "sheet": choices.get("sheet") or None,
+            "replicates": choices.get("replicates") or "all"}
 
 
 def batch_key(data: Mapping[str, Any], mapping: Mapping[str, Any]) -> str:
@@ -83,11 +85,9 @@ def batch_key(data: Mapping[str, Any], mapping: Mapping[str, Any]) -> str:
 
 
 def read_all_series(source: Mapping[str, Any] | None, data: Mapping[str, Any] | None,
-                    previous: Mapping[str, Any] | None, *, time: str | None = None, value: str | None = None,
-                    series_column: str | None = None, time_unit: str | None = None,
-                    sheet: str | None = None, limits: Limits | None = None,
+                    previous: Mapping[str, Any] | None, *, limits: Limits | None = None,
                     run: Any = direct) -> dict[str, Any] | None:
-    """Every series of the shown file as plain data, or None for a file of one series.
+    """Every series of the shown file, read with the same choices, as plain data; None for one series.
 
     The file is read (as a heavy job, through ``run``) under the server's ``limits``. Raises
     PreventUpdate when ``previous`` already holds these series (a pick within the same file).
@@ -96,7 +96,7 @@ def read_all_series(source: Mapping[str, Any] | None, data: Mapping[str, Any] | 
         if previous is None:
             raise PreventUpdate
         return None
-    mapping = _mapping(time, value, series_column, time_unit, sheet)
+    mapping = _mapping(data.get("choices") or {})
     key = batch_key(data, mapping)
     if previous and previous.get("key") == key:
         raise PreventUpdate
@@ -112,38 +112,39 @@ def plain_series(source: Mapping[str, Any], mapping: Mapping[str, Any], limits: 
     names = [s.name for s in imported.series]
     fmt = plate_format(names)
     first = imported.series[0]
+    report = imported.report
     return {"names": names, "series": [series_to_plain(s) for s in imported.series],
-            "plate": list(fmt) if fmt else None, "time_unit": first.time_unit, "value_unit": first.value_unit}
+            "plate": list(fmt) if fmt else None, "time_unit": first.time_unit, "value_unit": first.value_unit,
+            "report": report.to_dict(), "conditions": list(report.columns_with("condition") + report.columns_with("covariate"))}
 
 
 # ---------------------------------------------------------------------------------------------
 # replicate groups
 
-def compute_groups(mode: str | None, text: str | None, batch: Mapping[str, Any] | None,
-                   source: Mapping[str, Any] | None, *, limits: Limits = DEFAULT_LIMITS,
-                   run: Any = direct) -> tuple[dict[str, Any] | None, Any, list[dict[str, Any]], str]:
+def compute_groups(mode: str | None, text: str | None, batch: Mapping[str, Any] | None, *,
+                   limits: Limits = DEFAULT_LIMITS) -> tuple[dict[str, Any] | None, Any, list[dict[str, Any]], str]:
     """Outputs: the groups store, the message under the inputs, the group filter's options and value."""
     everything = [{"label": "all series", "value": ALL_GROUPS}]
     if not batch:
         return None, "", everything, ALL_GROUPS
     names = list(batch["names"])
     text = (text or "").strip()
+    conditions = list(batch.get("conditions") or [])
     if mode in (None, "none") or not text:
-        hint = "" if mode in (None, "none") else ("Type a regular expression; its first group (or the whole match) "
-                                                   "names the group." if mode == "pattern"
-                                                   else "Type the name of the column that holds the condition.")
+        if mode == "pattern":
+            hint = "Type a regular expression; its first group (or the whole match) names the group."
+        elif mode == "column":
+            hint = (f"Conditions of this file: {', '.join(conditions)}. Type one, or several separated by commas "
+                    "(groups such as 1988 × F)." if conditions else
+                    "This file has no condition column (a column constant within each series); group by a pattern.")
+        else:
+            hint = f"This file's series can be grouped by {', '.join(conditions)}." if conditions else ""
         return {"key": batch["key"], "groups": {}}, hint, everything, ALL_GROUPS
     try:
         if mode == "pattern":
             groups, notes = groups_from_pattern(names, text, max_length=limits.max_pattern)
         else:
-            if not source:
-                raise GrowthcoreInputError("the file is no longer in this tab; load it again")
-            m = batch.get("mapping", {})
-            value = m.get("value") if isinstance(m.get("value"), str) else None
-            groups, notes = run("reading the condition column", groups_from_column,
-                                decode_source(source, limits.max_bytes), source.get("filename") or "upload", text,
-                                sheet=m.get("sheet"), time=m.get("time"), value=value, series=m.get("series"))
+            groups, notes = groups_from_conditions(ImportReport.from_dict(batch["report"]), text)
     except GrowthcoreInputError as exc:
         message = html.Div([html.Strong("Groups not made. "), str(exc).splitlines()[0]], className="message message-error")
         return {"key": batch["key"], "groups": {}}, message, everything, ALL_GROUPS
@@ -576,21 +577,17 @@ def register(app: Dash) -> None:
         Output(ids.BATCH_SERIES, "data"), Output(ids.PICKER_BOX, "hidden"), Output(ids.SERIES_OVERVIEW, "hidden"),
         Output(ids.PLATE_BOX, "hidden"),
         Input(ids.DATA, "data"),
-        State(ids.SOURCE, "data"), State(ids.BATCH_SERIES, "data"), State(ids.MAP_TIME, "value"),
-        State(ids.MAP_VALUE, "value"), State(ids.MAP_SERIES, "value"), State(ids.MAP_TIME_UNIT, "value"),
-        State(ids.MAP_SHEET, "value"),
+        State(ids.SOURCE, "data"), State(ids.BATCH_SERIES, "data"),
     )
-    def _read(data, source, previous, time_, value, series_column, time_unit, sheet):
-        batch = read_all_series(source, data, previous, time=time_, value=value, series_column=series_column,
-                                time_unit=time_unit, sheet=sheet, limits=limits, run=run)
+    def _read(data, source, previous):
+        batch = read_all_series(source, data, previous, limits=limits, run=run)
         return batch, batch is None, batch is None, not (batch and batch.get("plate"))
 
     app.callback(
         Output(ids.BATCH_GROUPS, "data"), Output(ids.GROUP_MESSAGE, "children"), Output(ids.GROUP_FILTER, "options"),
         Output(ids.GROUP_FILTER, "value"),
         Input(ids.GROUP_MODE, "value"), Input(ids.GROUP_TEXT, "value"), Input(ids.BATCH_SERIES, "data"),
-        State(ids.SOURCE, "data"),
-    )(lambda mode, text, batch, source: compute_groups(mode, text, batch, source, limits=limits, run=run))
+    )(lambda mode, text, batch: compute_groups(mode, text, batch, limits=limits))
 
     @app.callback(
         Output(ids.BATCH_JOB, "data"), Output(ids.BATCH_FITS, "data"), Output(ids.BATCH_PROGRESS, "data"),

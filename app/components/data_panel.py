@@ -8,6 +8,13 @@ from app import ids
 from app.components.series import picker
 from growthcore.io.loader import TIME_UNITS
 
+#: The replicate rules as the page offers them.
+REPLICATE_CHOICES = (
+    ("all", "keep every point (increments use the mean at each time)"),
+    ("mean", "the mean at each time"),
+    ("first", "the first at each time only"),
+)
+
 
 def data_section(max_upload_bytes: int) -> html.Section:
     limit_mb = max_upload_bytes / 1_000_000
@@ -42,11 +49,14 @@ def data_section(max_upload_bytes: int) -> html.Section:
                                             placeholder="as guessed")),
             _field("Value column(s)", dcc.Input(id=ids.MAP_VALUE, type="text", list=ids.MAP_COLUMNS, debounce=True,
                                                 placeholder="as guessed")),
-            _field("Series id column", dcc.Input(id=ids.MAP_SERIES, type="text", list=ids.MAP_COLUMNS,
-                                                 debounce=True, placeholder="none or as guessed")),
-            _field("Unit of clock and date times", dcc.Dropdown(
+            _field("Series id column(s)", dcc.Input(id=ids.MAP_SERIES, type="text", list=ids.MAP_COLUMNS,
+                                                    debounce=True, placeholder="as read from the file (several: Plot, Year)")),
+            _field("Time unit (plain numbers, clock times, dates)", dcc.Dropdown(
                 id=ids.MAP_TIME_UNIT, options=[{"label": u, "value": u} for u in TIME_UNITS], value=None,
                 placeholder="as guessed", className="dropdown")),
+            _field("Repeated times within a series (replicates)", dcc.Dropdown(
+                id=ids.MAP_REPLICATES, options=[{"label": text, "value": rule} for rule, text in REPLICATE_CHOICES],
+                value="all", clearable=False, className="dropdown")),
             _field("Worksheet (XLSX)", dcc.Input(id=ids.MAP_SHEET, type="text", debounce=True,
                                                  placeholder="first with data")),
             html.Button("Read the file again with these choices", id=ids.MAP_APPLY, n_clicks=0,

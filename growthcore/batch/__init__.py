@@ -14,7 +14,7 @@ from __future__ import annotations
 
 from growthcore.batch.dataset import BatchData, from_series, load_batch
 from growthcore.batch.ftest import GroupDifferenceTest, difference_test_for_batch, group_difference_test
-from growthcore.batch.groups import groups_from_column, groups_from_pattern
+from growthcore.batch.groups import groups_from_conditions, groups_from_pattern
 from growthcore.batch.plate import parse_well, plate_format, well_name
 from growthcore.batch.pooled import JointFit, joint_fit, pooled_fit
 from growthcore.batch.runner import DEFAULT_CHUNK, ENGINES, BatchResult, SeriesFit, fit_batch
@@ -24,6 +24,6 @@ from growthcore.batch.table import rows
 __all__ = [
     "BatchData", "BatchResult", "DEFAULT_CHUNK", "ENGINES", "GroupDifferenceTest", "GroupParameterSummary",
     "JointFit", "SeriesFit", "difference_test_for_batch", "fit_batch", "from_series", "group_difference_test",
-    "group_summary", "groups_from_column", "groups_from_pattern", "joint_fit", "load_batch", "parse_well",
+    "group_summary", "groups_from_conditions", "groups_from_pattern", "joint_fit", "load_batch", "parse_well",
     "plate_format", "pooled_fit", "rows", "well_name",
 ]

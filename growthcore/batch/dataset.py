@@ -10,7 +10,7 @@ from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.io import ImportReport, load_bytes
 from growthcore.io.loader import read_file
-from growthcore.batch.groups import groups_from_column, groups_from_pattern, members
+from growthcore.batch.groups import condition_columns, groups_from_conditions, groups_from_pattern, members
 
 
 
@@ -72,16 +72,18 @@ def load_batch(
     sheet: str | None = None,
     time: str | None = None,
     value: str | Sequence[str] | None = None,
-    series: str | None = None,
+    series: str | Sequence[str] | None = None,
     time_unit: str | None = None,
-    groups: str | None = None,
+    replicates: str = "all",
+    groups: str | Sequence[str] | None = None,
     pattern: str | None = None,
 ) -> BatchData:
-    """Every series of a file, grouped by a condition column (``groups``) or an id ``pattern``."""
+    """Every series of a file, grouped by condition columns (``groups``, one or more) or an id ``pattern``."""
     if groups is not None and pattern is not None:
-        raise GrowthcoreInputError("give either a condition column (--groups) or a pattern (--pattern), not both")
+        raise GrowthcoreInputError("group the series either by condition columns or by a pattern on their names, not both")
     name, data = read_file(path)
-    imported = load_bytes(data, name, sheet=sheet, time=time, value=value, series=series, time_unit=time_unit)
+    imported = load_bytes(data, name, sheet=sheet, time=time, value=value, series=series, time_unit=time_unit,
+                          replicates=replicates)
     names = [s.name for s in imported.series]
     notes: list[str] = []
     mapping: dict[str, str] = {}
@@ -89,11 +91,11 @@ def load_batch(
         mapping, extra = groups_from_pattern(names, pattern)
         notes.extend(extra)
     elif groups is not None:
-        single = value if isinstance(value, str) or value is None else None
-        mapping, extra = groups_from_column(data, name, groups, sheet=sheet, time=time, value=single, series=series)
+        mapping, extra = groups_from_conditions(imported.report, groups)
         notes.extend(extra)
         loose = [n for n in names if n not in mapping]
         if loose:
-            notes.append(f"{len(loose)} series have no value in column {groups!r} and are in no group: "
+            notes.append(f"{len(loose)} series have no value in {', '.join(map(repr, condition_columns(groups)))} "
+                         "and are in no group: "
                          + ", ".join(loose[:10]) + (" ..." if len(loose) > 10 else ""))
     return BatchData(imported.series, mapping, name, imported.report, imported.report.not_read, tuple(notes))

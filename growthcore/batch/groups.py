@@ -1,18 +1,12 @@
-"""Replicate groups: from a condition column of the file, or from a pattern on the series ids."""
+"""Replicate groups: from condition columns of the file, or from a pattern on the series ids."""
 
 from __future__ import annotations
 
 from typing import Mapping, Sequence
 
 from growthcore.batch.pattern import MAX_PATTERN, compile_pattern
-from growthcore.errors import GrowthcoreInputError, ImportFailure
-from growthcore.io.headers import find_header, make_columns
-from growthcore.io.layout import choose_layout, find_column, profile_columns
-from growthcore.io.numbers import NumberFormat, detect_number_format, is_missing, thousands_separator
-from growthcore.io.sniff import decode_text, detect_format
-from growthcore.io.table import Table
-from growthcore.io.textsheet import read_text_table
-from growthcore.io.xlsxsheet import read_xlsx_table
+from growthcore.errors import GrowthcoreInputError
+from growthcore.io.report import ImportReport
 
 
 def groups_from_pattern(names: Sequence[str], pattern: str, *,
@@ -45,78 +39,47 @@ def groups_from_pattern(names: Sequence[str], pattern: str, *,
     notes = ()
     if missed:
         shown = ", ".join(missed[:10]) + (" ..." if len(missed) > 10 else "")
-        notes = (f"{len(missed)} series do not match --pattern {pattern!r} and are in no group: {shown}",)
+        notes = (f"{len(missed)} series do not match the pattern {pattern!r} and are in no group: {shown}",)
     return out, notes
 
 
-def _table(data: bytes, filename: str, sheet: str | None) -> Table:
-    if detect_format(data, filename) == "xlsx":
-        return read_xlsx_table(data, filename, sheet, max_unpacked=max(10 * len(data), 50_000_000))
-    text, encoding, _ = decode_text(data, filename)
-    return read_text_table(text, filename, encoding)
+def condition_columns(wanted: str | Sequence[str]) -> tuple[str, ...]:
+    """``"Year,Variety"`` or ``["Year", "Variety"]`` -> ``("Year", "Variety")``."""
+    parts = wanted.split(",") if isinstance(wanted, str) else list(wanted)
+    return tuple(p.strip() for p in parts if p.strip())
 
 
-def groups_from_column(
-    data: bytes,
-    filename: str,
-    column: str,
-    *,
-    sheet: str | None = None,
-    time: str | None = None,
-    value: str | None = None,
-    series: str | None = None,
-) -> tuple[dict[str, str], tuple[str, ...]]:
-    """Group label of each series id from a condition column of a long-layout file.
+def groups_from_conditions(report: ImportReport, wanted: str | Sequence[str]) -> tuple[dict[str, str], tuple[str, ...]]:
+    """Group label of each series from one or more of its condition columns (``1988 × F``).
 
-    The series column is the one the import chooses with the same options. A series whose rows
-    name two different conditions is an error that names the rows.
+    The conditions are the columns the import found constant within every series of a long file;
+    a column that varies within a series cannot group series, and the error names the conditions.
     """
-    table = _table(data, filename, sheet)
-    strings = [c for r in table.rows[:5000] for c in r if isinstance(c, str)]
-    fmt = detect_number_format(strings, table.delimiter if table.format == "csv" else None)
-    fmt = NumberFormat(fmt.decimal, thousands_separator(strings, fmt))
-    guess = find_header(table.rows, fmt)
-    if guess is None:
-        raise ImportFailure(f"{filename}: no header row found, so no condition column {column!r}")
-    columns, _ = make_columns(table.rows, guess, table.width)
-    start = guess.data_start
-    rows = [r for r in table.rows[start:] if any(c is not None for c in r)]
-    numbers = [table.row_numbers[i] for i in range(start, len(table.rows)) if any(c is not None for c in table.rows[i])]
-    cond = find_column(columns, column, "groups", filename)
-    layout = choose_layout(profile_columns(columns, rows, fmt), filename, time=time, value=value, series=series)
-    if layout.series is None:
-        raise GrowthcoreInputError(
-            f"{filename}: --groups needs a long layout with a series column; this file has one column per "
-            "series (wide layout): group the columns with --pattern instead")
-    if layout.series.index == cond.index:
-        raise GrowthcoreInputError(
-            f"{filename}: column {cond.label!r} is read as the series ids; name the column of series ids "
-            "with --series so that it can serve as the condition")
+    columns = condition_columns(wanted)
+    if not columns:
+        raise GrowthcoreInputError("name at least one condition column to group the series by")
+    offered = report.columns_with("condition") + report.columns_with("covariate")
+    lower = {c.lower(): c for c in offered}
+    chosen = []
+    for col in columns:
+        match = lower.get(col.lower())
+        if match is None:
+            if not report.columns_with("id"):
+                raise GrowthcoreInputError(
+                    f"{report.source}: grouping by a column needs a long file with a series id column; this file "
+                    "has one column per series (wide layout): group the series by a pattern on their names instead")
+            where = f"the conditions are {', '.join(repr(c) for c in offered)}" if offered else "the file has no conditions"
+            known = {c.lower() for c in (*report.columns, *(r.column for r in report.roles))}
+            what = "is not a condition (a column constant within every series)" if col.lower() in known else \
+                "is not in the file"
+            raise GrowthcoreInputError(f"{report.source}: no column {col!r} to group by: it {what}; {where}")
+        chosen.append(match)
     out: dict[str, str] = {}
-    first_row: dict[str, int] = {}
-    for row, number in zip(rows, numbers):
-        sid = row[layout.series.index] if layout.series.index < len(row) else None
-        label = row[cond.index] if cond.index < len(row) else None
-        if sid is None or label is None or is_missing(str(label)):
-            continue
-        key = _text(sid)
-        text = _text(label)
-        if key in out and out[key] != text:
-            raise GrowthcoreInputError(
-                f"{filename}: series {key!r} has condition {out[key]!r} at row {first_row[key]} and "
-                f"{text!r} at row {number} (column {cond.label!r}); a series must have one condition")
-        if key not in out:
-            out[key], first_row[key] = text, number
+    for s in report.series:
+        found = dict(s.conditions)
+        if all(c in found for c in chosen):
+            out[s.name] = " × ".join(found[c] for c in chosen)
     return out, ()
-
-
-def _text(cell: object) -> str:
-    """A cell as the import names series (same rule), so that ids match."""
-    if isinstance(cell, float) and cell.is_integer():
-        return str(int(cell))
-    if hasattr(cell, "isoformat"):
-        return cell.isoformat()  # type: ignore[union-attr]
-    return str(cell).strip()
 
 
 def members(groups: Mapping[str, str], names: Sequence[str]) -> dict[str, list[str]]:

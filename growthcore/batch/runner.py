@@ -65,7 +65,7 @@ class BatchResult:
 
 def _check(models: Sequence[str], method: str, error: str, engine: str, terms: Sequence[str]) -> dict[str, ModelForm]:
     if not models:
-        raise GrowthcoreInputError("give at least one model form (--model ID[,ID...])")
+        raise GrowthcoreInputError("give at least one model form id")
     if method not in METHODS:
         raise GrowthcoreInputError(f"`method` must be one of {', '.join(METHODS)}; got {method!r}")
     if error not in ERROR_MODELS:

@@ -10,6 +10,7 @@ from typing import IO, Any
 
 from growthcore.batch import fit_batch, group_summary, load_batch, rows
 from growthcore.batch.ftest import difference_test_for_batch
+from growthcore.cli.import_options import add_replicates_option
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit.result import ERROR_MODELS, METHODS
 from growthcore.cli.batch_population import population_options, population_section
@@ -25,13 +26,15 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("--sheet", help="worksheet name (XLSX; default: the first with data)")
     p.add_argument("--time", help="time column (default: guessed)")
     p.add_argument("--value", help="value column (default: guessed)")
-    p.add_argument("--series", help="series id column of a long layout (default: guessed)")
+    p.add_argument("--series", metavar="COL[,COL]", help="id column(s) of a long file (default: read from the content)")
+    add_replicates_option(p)
     p.add_argument("--time-unit", choices=("min", "h", "d", "yr"), help="unit for clock and calendar times")
     p.add_argument("--model", required=True, help="form id(s), comma separated (see `growthcore models`)")
     p.add_argument("--method", choices=METHODS, default="trajectory")
     p.add_argument("--error", choices=ERROR_MODELS, default="additive", help="error model of the trajectory method")
     where = p.add_mutually_exclusive_group()
-    where.add_argument("--groups", metavar="COL", help="condition column that puts series in replicate groups")
+    where.add_argument("--groups", metavar="COL[,COL]",
+                       help="condition column(s) that put series in replicate groups (Year,Variety)")
     where.add_argument("--pattern", metavar="REGEX",
                        help="regular expression on the series ids; its first group (or (?P<group>...)) is the group")
     p.add_argument("--test", metavar="PARAM", help="F test of whether the groups differ in this constant (JSON output)")
@@ -76,7 +79,7 @@ def run(args: argparse.Namespace) -> int:
     if args.random and kind != "json":
         raise GrowthcoreInputError(f"--random writes a population object: --out must end in .json; got {out!r}")
     data = load_batch(args.file, sheet=args.sheet, time=args.time, value=args.value, series=args.series,
-                      time_unit=args.time_unit, groups=args.groups, pattern=args.pattern)
+                      time_unit=args.time_unit, replicates=args.replicates, groups=args.groups, pattern=args.pattern)
     models = [m.strip() for m in args.model.split(",") if m.strip()]
     extra: dict[str, Any] = {}
     if args.chunk_size is not None:

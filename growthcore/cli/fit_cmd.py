@@ -9,12 +9,13 @@ import sys
 from typing import Sequence
 
 from growthcore.cli import fit_export, fit_uncertainty
+from growthcore.cli.import_options import add_replicates_option
 from growthcore.compare import ComparisonRow, compare, comparison_notes
 from growthcore.data import Series
-from growthcore.errors import GrowthcoreInputError
+from growthcore.errors import ChoiceNotFound, GrowthcoreInputError
 from growthcore.fit import ERROR_MODELS, FitResult
 from growthcore.fit.forms import fit_forms
-from growthcore.io import load_file
+from growthcore.io import ImportResult, load_file
 from growthcore.io.writer import atomic_write_text
 from growthcore.limits import DEFAULT as LIMITS
 from growthcore.record import DataSource, build_record
@@ -30,7 +31,8 @@ def add_data_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--sheet", help="worksheet name (XLSX; default: the first with data)")
     p.add_argument("--time", help="time column (default: guessed)")
     p.add_argument("--value", help="value column (default: guessed)")
-    p.add_argument("--series", help="series id column (long layout) or the series to use")
+    p.add_argument("--series", help="the series to use by name, or the id column(s) of a long file (default: the first series)")
+    add_replicates_option(p)
     p.add_argument("--time-unit", choices=("min", "h", "d", "yr"), help="unit for clock and calendar times")
 
 
@@ -47,6 +49,19 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     for extension in EXTENSIONS:
         extension.add_options(p)
     p.set_defaults(func=run)
+
+
+def _load(args: argparse.Namespace) -> tuple[ImportResult, str | None]:
+    """The file read, and the series to pick: ``--series`` names id column(s) or else one series."""
+    options = dict(sheet=args.sheet, time=args.time, value=args.value, time_unit=args.time_unit,
+                   replicates=args.replicates)
+    if args.series:
+        try:
+            return load_file(args.file, series=args.series, **options), None
+        except ChoiceNotFound as exc:
+            if exc.choice != "series":
+                raise
+    return load_file(args.file, **options), args.series
 
 
 def pick_series(found: Sequence[Series], wanted: str | None, source: str) -> Series:
@@ -125,9 +140,8 @@ def run(args: argparse.Namespace) -> int:
     if not args.file:
         raise GrowthcoreInputError("give a data FILE, or --from-record RECORD.json to repeat the fits of a record")
     check_capacity(args.capacity)
-    imported = load_file(args.file, sheet=args.sheet, time=args.time, value=args.value,
-                         series=args.series, time_unit=args.time_unit)
-    series = pick_series(imported.series, args.series, args.file)
+    imported, wanted = _load(args)
+    series = pick_series(imported.series, wanted, args.file)
     models = [m.strip() for m in args.model.split(",") if m.strip()]
     methods = ("increments", "trajectory") if args.method == "both" else (args.method,)
     fits = run_fits(series, models, methods, error=args.error, capacity=args.capacity, terms=args.term,

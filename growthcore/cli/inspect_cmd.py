@@ -6,6 +6,7 @@ import argparse
 import json
 import sys
 
+from growthcore.cli.import_options import add_replicates_option
 from growthcore.io import load_file
 from growthcore.io.loader import TIME_UNITS
 
@@ -25,11 +26,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
     parser.add_argument("--time", metavar="COL", help="time column: header, name without unit, or 1-based position")
     parser.add_argument("--value", metavar="COL", action="append",
                         help="value column (repeat for several; default: every numeric column)")
-    parser.add_argument("--series", metavar="COL", help="column naming the series in a long layout")
+    parser.add_argument("--series", metavar="COL[,COL]", help="id column(s) naming the series of a long file (default: read from the content)")
     parser.add_argument("--time-unit", metavar="U", choices=TIME_UNITS,
                         help=f"unit for elapsed time: {', '.join(TIME_UNITS)}")
-    parser.add_argument("--average-duplicates", action="store_true",
-                        help="average repeated values at one time instead of keeping the first")
+    add_replicates_option(parser)
     parser.add_argument("--max-bytes", type=int, default=20_000_000, metavar="N",
                         help="refuse files larger than N bytes (default 20000000)")
     parser.add_argument("--json", action="store_true", help="print the report as JSON")
@@ -45,7 +45,7 @@ def run(args: argparse.Namespace) -> int:
         value=values[0] if values and len(values) == 1 else values,
         series=args.series,
         time_unit=args.time_unit,
-        average_duplicates=args.average_duplicates,
+        replicates=args.replicates,
         max_bytes=args.max_bytes,
     )
     if args.json:

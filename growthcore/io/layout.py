@@ -1,4 +1,4 @@
-"""Which column is time, which hold values, and whether a column names the series."""
+"""Which column is the time, which name the series, which hold conditions and which hold values."""
 
 from __future__ import annotations
 
@@ -6,9 +6,12 @@ import re
 from dataclasses import dataclass
 from typing import Sequence
 
-from growthcore.errors import ImportFailure
+from growthcore.errors import ChoiceNotFound, ImportFailure
 from growthcore.io.headers import Column, cell_kind
 from growthcore.io.numbers import NumberFormat
+from growthcore.io.report import ColumnRole
+from growthcore.io.roles import (Codes, Grouping, best_grouping, constant_within, encode, grouping, is_row_number,
+                                whole_numbers)
 
 _TIME_WORDS = re.compile(
     r"^(t|time|times|elapsed|elapsed time|date|datetime|date time|date/time|timestamp|"
@@ -90,68 +93,145 @@ def find_column(columns: Sequence[Column], wanted: str, role: str, filename: str
     if key.isdigit() and 1 <= int(key) <= len(columns):
         return columns[int(key) - 1]
     names = ", ".join(repr(c.label) for c in columns)
-    raise ImportFailure(f"{filename}: no column {wanted!r} for the {role}; the columns are {names}")
+    raise ChoiceNotFound(f"{filename}: no column {wanted!r} for the {role}; the columns are {names}", role)
 
 
 @dataclass(frozen=True)
 class Layout:
-    """The chosen roles; ``layout`` is ``long`` or ``wide``."""
+    """The chosen roles; ``layout`` is ``long`` (one value column, with or without ids) or ``wide``.
+
+    ``measurements`` lists every column that varies within the series (the values among them);
+    ``conditions`` and ``covariates`` stay constant within every series; ``empty`` holds no value.
+    """
 
     time: Column
     values: tuple[Column, ...]
-    series: Column | None
+    ids: tuple[Column, ...]
     layout: str
     notes: tuple[str, ...]
+    conditions: tuple[Column, ...] = ()
+    covariates: tuple[Column, ...] = ()
+    measurements: tuple[Column, ...] = ()
+    empty: tuple[Column, ...] = ()
+    roles: tuple[ColumnRole, ...] = ()
+
+
+def _named_ids(columns: Sequence[Column], wanted: str | Sequence[str], filename: str) -> tuple[Column, ...]:
+    names = [w.strip() for w in wanted.split(",")] if isinstance(wanted, str) else list(wanted)
+    try:
+        return tuple(find_column(columns, w, "series", filename) for w in names if w)
+    except ImportFailure:
+        if isinstance(wanted, str) and "," in wanted:  # a header that itself holds a comma
+            return (find_column(columns, wanted, "series", filename),)
+        raise
 
 
 def choose_layout(
     profiles: Sequence[ColumnProfile],
+    rows: Sequence[Sequence[object]],
+    fmt: NumberFormat,
     filename: str,
     *,
     time: str | None,
     value: str | Sequence[str] | None,
-    series: str | None,
+    series: str | Sequence[str] | None,
 ) -> Layout:
-    """Guess (or take from the caller) the time, value and series columns."""
+    """Guess (or take from the caller) the time, id, condition and value columns from the content."""
     columns = [p.column for p in profiles]
-    by_index = {p.column.index: p for p in profiles}
     used = [p for p in profiles if p.filled]
-    notes: list[str] = []
+    n = len(rows)
+    cache: dict[int, Codes] = {}
 
+    def codes(c: Column) -> Codes:
+        if c.index not in cache:
+            cache[c.index] = encode(c, (r[c.index] if c.index < len(r) else None for r in rows))
+        return cache[c.index]
+
+    row_numbers = {p.column.index for p in used
+                   if p.numeric and p.distinct == min(p.filled, PROFILE_ROWS) and p.filled == n
+                   and not _TIME_WORDS.match(p.column.name)
+                   and is_row_number(codes(p.column), n, fmt, headed=any(c.header.strip() for c in columns))}
+    given_ids = _named_ids(columns, series, filename) if series is not None else None
+
+    def id_candidates(time_col: Column) -> list[Codes]:
+        out = []
+        for p in used:
+            c = p.column
+            if c.index == time_col.index or c.index in row_numbers or p.distinct < 2:
+                continue
+            text_like = p.text >= 0.9 * p.filled
+            if not (text_like or (p.numeric and p.distinct <= max(1, p.filled // 2))):
+                continue
+            k = codes(c)
+            if k.distinct < 2 or k.distinct > max(1, k.filled // 2):
+                continue
+            if text_like or whole_numbers(k, fmt):
+                out.append((0 if _SERIES_WORDS.match(c.name) else 1 if text_like else 2, c.index, k))
+        return [k for *_, k in sorted(out, key=lambda x: (x[0], x[1]))]
+
+    def grouping_for(time_col: Column) -> Grouping:
+        if given_ids is not None:
+            return grouping(tuple(codes(c) for c in given_ids), codes(time_col), n)
+        return best_grouping(codes(time_col), id_candidates(time_col), n, min_times=2)
+
+    notes: list[str] = []
     if time is not None:
         time_col = find_column(columns, time, "time", filename)
+        split = grouping_for(time_col)
+        time_reason = "chosen"
     else:
-        named = [p for p in used if _TIME_WORDS.match(p.column.name) and p.timelike]
+        named = [p for p in used if _TIME_WORDS.match(p.column.name) and p.timelike and p.column.index not in row_numbers]
         clocks = [p for p in used if p.time and p.time >= 0.5 * p.filled]
-        numeric = [p for p in used if p.timelike]
-        pick = (named or clocks or numeric or [None])[0]
-        if pick is None:
-            raise ImportFailure(
-                f"{filename}: no column of numbers, clock times or dates found for the time"
-            )
-        time_col = pick.column
-        how = "by its header" if named else "as the first column of clock times or dates" if clocks else "as the first numeric column"
-        notes.append(f"time column {time_col.label!r} chosen {how}")
+        numeric = [p for p in used if p.timelike and p.column.index not in row_numbers]
+        last_resort = [p for p in used if p.timelike]
+        tiers = [(named, "its header names a time"), (clocks, "it holds clock times or dates"),
+                 (numeric, "it is the numeric column that runs through each series"),
+                 (last_resort, "it is the only numeric column")]
+        tier, why = next(((t, w) for t, w in tiers if t), ([], ""))
+        if not tier:
+            raise ImportFailure(f"{filename}: no column of numbers, clock times or dates found for the time")
+        best: tuple[tuple[float, ...], ColumnProfile, Grouping] | None = None
+        for rank, p in enumerate(tier[:6]):
+            g = grouping_for(p.column)
+            score = (float(g.unique), g.median_times, -rank)
+            if best is None or score > best[0]:
+                best = (score, p, g)
+            if rank == 0 and g.unique and not g.ids:
+                break  # times that never repeat: a single series or a wide file
+        assert best is not None
+        time_col, split = best[1].column, best[2]
+        time_reason = why + ("" if len(tier) == 1 or not split.ids else ", and each time occurs once within a series")
+        notes.append(f"time column {time_col.label!r} chosen: {time_reason}")
+    ids = given_ids if given_ids is not None else tuple(k.column for k in split.ids)
+    id_reason = "chosen" if given_ids is not None else (
+        f"its values repeat over the times; within each of its {split.series} series every time occurs once"
+        if split.unique else
+        f"its values repeat over the times ({split.series} series); times repeat within a series: replicates")
+    if ids:
+        label = " and ".join(repr(c.label) for c in ids)
+        notes.append(f"{label} {'name' if len(ids) > 1 else 'names'} the series ({split.series} series); "
+                     "another id column can be chosen")
+    groups = split.groups
+    taken = {time_col.index} | {c.index for c in ids}
 
-    series_col: Column | None = None
-    if series is not None:
-        series_col = find_column(columns, series, "series", filename)
-    elif value is None or isinstance(value, str):
-        for p in used:
-            if p.column.index == time_col.index:
-                continue
-            # A named id column may hold numbers (replicate 1, 2, 3) but its values must repeat.
-            by_name = bool(_SERIES_WORDS.match(p.column.name)) and p.distinct <= max(1, p.filled // 2)
-            by_content = p.text >= 0.9 * p.filled and 1 <= p.distinct_text <= max(1, p.filled // 2)
-            if by_name or by_content:
-                series_col = p.column
-                notes.append(
-                    f"column {p.column.label!r} names the series ({p.distinct} distinct); "
-                    "choose another with --series"
-                )
-                break
+    conditions: list[Column] = []
+    covariates: list[Column] = []
+    measurements: list[Column] = []
+    unused: list[tuple[Column, str]] = []
+    for p in used:
+        c = p.column
+        if c.index in taken or c.index in row_numbers:
+            continue
+        text_like = p.text >= p.filled / 2
+        if ids and constant_within(codes(c), groups):
+            (conditions if text_like or whole_numbers(codes(c), fmt) else covariates).append(c)
+        elif not ids and text_like and codes(c).distinct == 1:
+            conditions.append(c)
+        elif p.numeric:
+            measurements.append(c)
+        else:
+            unused.append((c, "text that varies within a series" if ids else "text"))
 
-    taken = {time_col.index} | ({series_col.index} if series_col is not None else set())
     if value is not None:
         wanted = [value] if isinstance(value, str) else list(value)
         values = [find_column(columns, v, "values", filename) for v in wanted]
@@ -159,28 +239,49 @@ def choose_layout(
             if v.index in taken:
                 raise ImportFailure(f"{filename}: column {v.label!r} cannot be both the time (or series) and a value")
     else:
-        values = [p.column for p in used if p.column.index not in taken and p.numeric]
+        values = list(measurements)
         if not values:
             raise ImportFailure(
                 f"{filename}: no numeric value column found besides the time column {time_col.label!r}"
+                + (f" and the id column(s) {', '.join(repr(c.label) for c in ids)}" if ids else "")
             )
-    if series_col is not None and len(values) > 1:
-        notes.append(
-            f"long layout with a series column: value column {values[0].label!r} used; "
-            f"not used: {', '.join(repr(v.label) for v in values[1:])} (choose with --value)"
-        )
-        values = values[:1]
-    chosen = {time_col.index} | {v.index for v in values} | ({series_col.index} if series_col else set())
-    for p in used:
-        if p.column.index not in chosen:
-            kind = "text" if p.text >= p.filled / 2 else "numbers"
-            notes.append(f"column {p.column.label!r} ({kind}) is not used")
-    layout = "wide" if len(values) > 1 else "long"
+        if ids and len(values) > 1:
+            notes.append(
+                f"{len(values)} measurement columns ({', '.join(repr(v.label) for v in values)}): "
+                f"{values[0].label!r} read; another can be chosen as the value column"
+            )
+            values = values[:1]
+    chosen = {v.index for v in values}
+    if conditions or covariates:
+        kinds = [f"{c.label!r} (condition)" for c in conditions] + [f"{c.label!r} (covariate)" for c in covariates]
+        notes.append(f"constant within each series: {', '.join(kinds)}")
+    for c, why in unused:
+        notes.append(f"column {c.label!r} ({why}) is not used")
+    for i in sorted(row_numbers - chosen - {time_col.index}):
+        notes.append(f"column {columns[i].label!r} numbers the rows and is not used")
+    layout = "wide" if len(values) > 1 and not ids else "long"
     if layout == "wide":
-        notes.append(
-            f"wide layout: {len(values)} value columns read as separate series "
-            "(choose one with --value)"
-        )
-    if not by_index[time_col.index].filled:
+        notes.append(f"wide layout: {len(values)} value columns read as separate series")
+    if not next(p for p in profiles if p.column.index == time_col.index).filled:
         raise ImportFailure(f"{filename}: the time column {time_col.label!r} is empty")
-    return Layout(time_col, tuple(values), series_col, layout, tuple(notes))
+    empty = tuple(p.column for p in profiles if not p.filled and p.column.index not in taken | chosen)
+
+    roles: list[ColumnRole] = [ColumnRole(time_col.label, "time", time_reason)]
+    roles += [ColumnRole(c.label, "id", id_reason) for c in ids]
+    roles += [ColumnRole(c.label, "condition", f"constant within every series ({codes(c).distinct} value(s))")
+              for c in conditions]
+    roles += [ColumnRole(c.label, "covariate", "a number constant within every series") for c in covariates]
+    roles += [ColumnRole(v.label, "value", "chosen" if value is not None else
+                         "varies within the series" + (": the first such column" if ids and len(measurements) > 1 else ""))
+              for v in values]
+    roles += [ColumnRole(c.label, "measurement", "varies within the series; can be chosen as the value column")
+              for c in measurements if c.index not in chosen]
+    roles += [ColumnRole(columns[i].label, "row-number", "whole numbers, once each: the rows' numbers")
+              for i in sorted(row_numbers - chosen - {time_col.index})]
+    roles += [ColumnRole(c.label, "unused", why) for c, why in unused]
+    roles += [ColumnRole(c.label, "empty", "no values") for c in empty]
+    order = {c.index: i for i, c in enumerate(columns)}
+    by_label = {c.label: order[c.index] for c in columns}
+    roles.sort(key=lambda r: by_label.get(r.column, 0))
+    return Layout(time_col, tuple(values), tuple(ids), layout, tuple(notes), tuple(conditions), tuple(covariates),
+                  tuple(measurements), empty, tuple(roles))

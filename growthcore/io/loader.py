@@ -2,22 +2,22 @@
 
 from __future__ import annotations
 
-import math
-
 import hashlib
+import math
 import os
 from dataclasses import dataclass
-from typing import NamedTuple, Sequence
+from typing import Callable, NamedTuple, Sequence
 
 import numpy as np
 
 from growthcore.data import Series
 from growthcore.errors import ImportFailure
 from growthcore.io.headers import Column, find_header, make_columns
-from growthcore.io.layout import choose_layout, profile_columns
+from growthcore.io.layout import Layout, choose_layout, profile_columns
 from growthcore.io.numbers import (NumberFormat, detect_number_format, is_missing, parse_number, parse_plain_number,
                                    plain_number_column, thousands_separator)
-from growthcore.io.report import ImportReport, ImportResult, LeftOut, SeriesSummary
+from growthcore.io.report import REPLICATE_RULES, ImportReport, ImportResult, LeftOut, SeriesSummary
+from growthcore.io.roles import cell_key
 from growthcore.io.sniff import decode_text, detect_format
 from growthcore.io.table import Table
 from growthcore.io.textsheet import read_text_table
@@ -43,19 +43,22 @@ def load_file(
     value: str | Sequence[str] | None = None,
     series: str | None = None,
     time_unit: str | None = None,
-    average_duplicates: bool = False,
+    replicates: str = "all",
     max_bytes: int = DEFAULT_MAX_BYTES,
     limits: Limits = DEFAULT,
 ) -> ImportResult:
     """Read a CSV, TSV or XLSX file into series with a full import report.
 
+    ``series`` names the id column(s) of a long file (comma separated, or a sequence); by default
+    every column's role is read from the content. ``replicates`` says how repeated times within a
+    series are read: ``all`` (every point, the default), ``mean`` or ``first``.
     Raises ImportFailure (one line, naming the file) when nothing usable can be read, or when
     the file is over a limit of ``limits`` (cells, columns, points, series).
     """
     name, data = read_file(path, max_bytes)
     return load_bytes(
         data, name, sheet=sheet, time=time, value=value, series=series, time_unit=time_unit,
-        average_duplicates=average_duplicates, max_bytes=max_bytes, limits=limits,
+        replicates=replicates, max_bytes=max_bytes, limits=limits,
     )
 
 
@@ -81,9 +84,9 @@ def load_bytes(
     sheet: str | None = None,
     time: str | None = None,
     value: str | Sequence[str] | None = None,
-    series: str | None = None,
+    series: str | Sequence[str] | None = None,
     time_unit: str | None = None,
-    average_duplicates: bool = False,
+    replicates: str = "all",
     max_bytes: int = DEFAULT_MAX_BYTES,
     limits: Limits = DEFAULT,
 ) -> ImportResult:
@@ -91,6 +94,8 @@ def load_bytes(
     name = os.path.basename(filename) or "upload"
     if time_unit is not None and time_unit not in TIME_UNITS:
         raise ImportFailure(f"{name}: time unit must be one of {', '.join(TIME_UNITS)}; got {time_unit!r}")
+    if replicates not in REPLICATE_RULES:
+        raise ImportFailure(f"{name}: replicates must be one of {', '.join(REPLICATE_RULES)}; got {replicates!r}")
     _check_size(len(data), name, max_bytes)
     kind = detect_format(data, name)
     if kind == "xlsx":
@@ -102,8 +107,8 @@ def load_bytes(
         table = read_text_table(text, name, encoding, limits)
         table.notes[:0] = notes
         if sheet is not None:
-            table.notes.append(f"--sheet {sheet!r} ignored: a text file has no sheets")
-    builder = _Builder(table, name, average_duplicates, limits)
+            table.notes.append(f"sheet {sheet!r} ignored: a text file has no sheets")
+    builder = _Builder(table, name, replicates, limits)
     return builder.build(
         sha256=hashlib.sha256(data).hexdigest(), size=len(data), time=time, value=value,
         series=series, time_unit=time_unit,
@@ -135,11 +140,11 @@ class _Point:
 class _Builder:
     """Turns a table of cells into series, collecting everything the report must say."""
 
-    def __init__(self, table: Table, name: str, average_duplicates: bool, limits: Limits = DEFAULT) -> None:
+    def __init__(self, table: Table, name: str, replicates: str, limits: Limits = DEFAULT) -> None:
         self.limits = limits
         self.table = table
         self.name = name
-        self.average = average_duplicates
+        self.replicates = replicates
         self.left_out: list[LeftOut] = []
         self.notes: list[str] = list(table.notes)
         self.not_read: list[tuple[str, str]] = []
@@ -151,7 +156,7 @@ class _Builder:
         size: int,
         time: str | None,
         value: str | Sequence[str] | None,
-        series: str | None,
+        series: str | Sequence[str] | None,
         time_unit: str | None,
     ) -> ImportResult:
         t = self.table
@@ -188,7 +193,7 @@ class _Builder:
         rows = [t.rows[i] for i in data_idx]
         rownums = [t.row_numbers[i] for i in data_idx]
         profiles = profile_columns(columns, rows, fmt)
-        layout = choose_layout(profiles, self.name, time=time, value=value, series=series)
+        layout = choose_layout(profiles, rows, fmt, self.name, time=time, value=value, series=series)
         self.notes.extend(layout.notes)
 
         tcol = layout.time
@@ -203,29 +208,16 @@ class _Builder:
                 bad_time_rows.add(i)
                 self._leave_out(rownums[i], tcol, tcells[i], why, data_idx[i])
 
-        groups: list[tuple[str, Column, list[_Point] | _Columns]] = []
-        if layout.series is not None:
-            scol = layout.series
-            vcol = layout.values[0]
-            by_id: dict[str, list[_Point]] = {}
-            cells = _column(rows, vcol.index)
-            quick = plain_number_column(cells) if fmt.decimal == "." else None
-            for i, r in enumerate(rows):
-                if i in bad_time_rows:
-                    continue
-                sid = _cell(r, scol.index)
-                if sid is None or is_missing(str(sid)):
-                    self._leave_out(rownums[i], scol, sid, "blank series name", data_idx[i])
-                    continue
-                key = _label(sid)
-                pv = quick[i] if quick is not None else self._value(cells[i], i, vcol, fmt, rownums, data_idx)
-                if pv is not None:
-                    point = _Point(rownums[i], conv.values[i], pv, cells[i])  # type: ignore[arg-type]
-                    by_id.setdefault(key, []).append(point)
-                else:
-                    by_id.setdefault(key, [])
-            groups = [(k, vcol, pts) for k, pts in by_id.items()]
+        groups: list[tuple[str, Column, list[_Point] | _Columns, tuple[tuple[str, str], ...]]] = []
+        if layout.ids:
+            conditions = self._conditions(layout, rows, lambda r: self._id_of(layout, r))
+            for vcol in layout.values:
+                named = self._by_id(layout, vcol, rows, rownums, data_idx, conv.values, bad_time_rows, fmt)
+                for key, pts in named.items():
+                    sname = key if len(layout.values) == 1 else f"{key} · {vcol.label}"
+                    groups.append((sname, vcol, pts, conditions.get(key, ())))
         else:
+            shared = self._conditions(layout, rows, lambda r: "").get("", ())
             times = conv.values
             for vcol in layout.values:
                 cells = _column(rows, vcol.index)
@@ -240,7 +232,10 @@ class _Builder:
                         pv = quick[i] if quick is not None else self._value(cell, i, vcol, fmt, rownums, data_idx)
                         if pv is not None:
                             pts.append(_Point(rownums[i], times[i], pv, cell))  # type: ignore[arg-type]
-                groups.append((vcol.name, vcol, pts))
+                groups.append((vcol.name, vcol, pts, shared))
+            for c in layout.empty:
+                self.not_read.append((c.name, f"column {c.label!r} holds no values"))
+                self.notes.append(f"series {c.name!r} not read: column {c.label!r} holds no values")
 
         if len(groups) > self.limits.max_series:
             raise ImportFailure(
@@ -249,8 +244,8 @@ class _Builder:
             )
         out_series: list[Series] = []
         summaries: list[SeriesSummary] = []
-        for sname, vcol, pts in groups:
-            made = self._series(sname, vcol, tcol, conv.unit, pts, clock=conv.kind == "duration")
+        for sname, vcol, pts, conds in groups:
+            made = self._series(sname, vcol, tcol, conv.unit, pts, clock=conv.kind == "duration", conditions=conds)
             if made is not None:
                 out_series.append(made[0])
                 summaries.append(made[1])
@@ -280,6 +275,8 @@ class _Builder:
             notes=self._listed_notes(),
             columns=tuple(c.label for c in columns),
             not_read=tuple(self.not_read),
+            roles=layout.roles,
+            replicates=self.replicates,
         )
         return ImportResult(series=tuple(out_series), report=report)
 
@@ -295,6 +292,58 @@ class _Builder:
             return tuple(self.notes)
         more = len(self.notes) - MAX_NOTES + 1
         return (*self.notes[: MAX_NOTES - 1], f"... and {more:,} more notes (the first {MAX_NOTES - 1:,} are listed)")
+
+    def _id_of(self, layout: Layout, row: Sequence[object]) -> str | None:
+        """The series name of a row of a long file (ids joined by " · "), None where an id is blank."""
+        keys = [cell_key(_cell(row, c.index)) for c in layout.ids]
+        if any(k is None for k in keys):
+            return None
+        return " · ".join(keys)  # type: ignore[arg-type]
+
+    def _by_id(self, layout: Layout, vcol: Column, rows: Sequence[Sequence[object]], rownums: Sequence[int],
+               data_idx: Sequence[int], times: Sequence[float | None], bad_time_rows: set[int],
+               fmt: NumberFormat) -> dict[str, list[_Point]]:
+        """The points of one value column of a long file, by series id, in file order."""
+        by_id: dict[str, list[_Point]] = {}
+        written: dict[str, set[str]] = {}
+        cells = _column(rows, vcol.index)
+        quick = plain_number_column(cells) if fmt.decimal == "." else None
+        for i, r in enumerate(rows):
+            if i in bad_time_rows:
+                continue
+            key = self._id_of(layout, r)
+            if key is None:
+                blank = next(c for c in layout.ids if cell_key(_cell(r, c.index)) is None)
+                self._leave_out(rownums[i], blank, _cell(r, blank.index), "blank series id", data_idx[i])
+                continue
+            if len(layout.ids) == 1:
+                written.setdefault(key, set()).add(str(_cell(r, layout.ids[0].index)))
+            pv = quick[i] if quick is not None else self._value(cells[i], i, vcol, fmt, rownums, data_idx)
+            points = by_id.setdefault(key, [])
+            if pv is not None:
+                points.append(_Point(rownums[i], times[i], pv, cells[i]))  # type: ignore[arg-type]
+        for key, forms in written.items():
+            if len(forms) > 1:
+                shown = ", ".join(repr(f) for f in sorted(forms))
+                self.notes.append(f"series ids {shown} differ only in surrounding spaces: read as one series {key!r}")
+        return by_id
+
+    def _conditions(self, layout: Layout, rows: Sequence[Sequence[object]],
+                    series_of: Callable[[Sequence[object]], str | None]) -> dict[str, tuple[tuple[str, str], ...]]:
+        """Each series' conditions and covariates (constant within it), by series name."""
+        kept = (*layout.conditions, *layout.covariates)
+        out: dict[str, dict[str, str]] = {}
+        for r in rows:
+            name = series_of(r)
+            if name is None:
+                continue
+            found = out.setdefault(name, {})
+            for c in kept:
+                if c.label not in found:
+                    key = cell_key(_cell(r, c.index))
+                    if key is not None:
+                        found[c.label] = key
+        return {name: tuple((c.label, found[c.label]) for c in kept if c.label in found) for name, found in out.items()}
 
     def _unwrap_midnight(self, sname: str, tcol: Column, unit: str, pts: list[_Point]) -> None:
         """Clock times of day that pass midnight: a day is added from each crossing on."""
@@ -358,10 +407,11 @@ class _Builder:
         return x
 
     def _series(
-        self, sname: str, vcol: Column, tcol: Column, unit: str, pts: list[_Point] | _Columns, *, clock: bool = False
+        self, sname: str, vcol: Column, tcol: Column, unit: str, pts: list[_Point] | _Columns, *, clock: bool = False,
+        conditions: tuple[tuple[str, str], ...] = (),
     ) -> tuple[Series, SeriesSummary] | None:
         if isinstance(pts, _Columns):
-            quick = self._clean_series(sname, vcol, tcol, unit, pts)
+            quick = self._clean_series(sname, vcol, tcol, unit, pts, conditions)
             if quick is not None:
                 return quick
             pts = [_Point(n, t, v, c) for n, t, v, c in zip(pts.rows, pts.times, pts.values, pts.cells)]
@@ -377,58 +427,65 @@ class _Builder:
             pts = [pts[j] for j in order]
         merged: list[_Point] = []
         averaged: list[tuple[int, float, int]] = []
+        replicate_times = replicate_points = 0
         j = 0
         while j < len(pts):
             k = j
             while k + 1 < len(pts) and pts[k + 1].t == pts[j].t:
                 k += 1
             group = pts[j : k + 1]
-            if len(group) > 1 and self.average:
+            j = k + 1
+            if len(group) == 1:
+                merged.append(group[0])
+                continue
+            replicate_times += 1
+            replicate_points += len(group)
+            if self.replicates == "mean":
                 mean = float(np.mean([g.p for g in group]))
                 merged.append(_Point(group[0].row, group[0].t, mean))
                 averaged.append((group[0].row, group[0].t, len(group)))
-                self.notes.append(
-                    f"series {sname!r}: {len(group)} values at t = {group[0].t:g} (rows "
-                    f"{', '.join(str(g.row) for g in group)}) averaged into one point"
-                )
-            else:
+            elif self.replicates == "first":
                 merged.append(group[0])
                 for g in group[1:]:
                     self.left_out.append(
-                        LeftOut(
-                            g.row, vcol.label, g.raw or _num(g.p),
-                            f"duplicate time t = {g.t:g} in series {sname!r} (first at row {group[0].row}); "
-                            "ask for averaging to combine repeated values",
-                        )
+                        LeftOut(g.row, vcol.label, g.raw or _num(g.p),
+                                f"replicate at t = {g.t:g} in series {sname!r}: only the first (row {group[0].row}) "
+                                "is kept, as chosen")
                     )
-                if len(group) > 1:
-                    self.notes.append(
-                        f"series {sname!r}: {len(group)} values at t = {group[0].t:g} (rows "
-                        f"{', '.join(str(g.row) for g in group)}): the first kept"
-                    )
-            j = k + 1
-        if len(merged) < MIN_POINTS:
+            else:
+                merged.extend(group)
+        if replicate_times:
+            what = {"all": "every point kept", "mean": "averaged into one point at each time",
+                    "first": "the first kept at each time, the others listed as left out"}[self.replicates]
+            self.notes.append(f"series {sname!r}: {replicate_points} replicate points at {replicate_times} "
+                              f"repeated time(s): {what}")
+        n_times = len({g.t for g in merged})
+        if n_times < MIN_POINTS:
+            what = f"{len(merged)} usable point(s)" + (f" at {n_times} distinct time(s)" if n_times < len(merged) else "")
             for g in merged:
                 self.left_out.append(
                     LeftOut(g.row, vcol.label, g.raw or _num(g.p),
-                            f"series {sname!r} has only {len(merged)} usable point(s); at least {MIN_POINTS} are needed")
+                            f"series {sname!r} has only {what}; at least {MIN_POINTS} times are needed")
                 )
-            self.notes.append(f"series {sname!r} not read: only {len(merged)} usable point(s)")
-            self.not_read.append((sname, f"only {len(merged)} usable point(s)"))
+            self.notes.append(f"series {sname!r} not read: only {what}")
+            self.not_read.append((sname, f"only {what}"))
             return None
         return self._made(sname, vcol, tcol, unit, np.array([g.t for g in merged]), np.array([g.p for g in merged]),
-                          tuple(g.row for g in merged), tuple(averaged))
+                          tuple(g.row for g in merged), tuple(averaged), conditions=conditions,
+                          replicates=(replicate_times, replicate_points))
 
-    def _clean_series(self, sname: str, vcol: Column, tcol: Column, unit: str,
-                      cols: _Columns) -> tuple[Series, SeriesSummary] | None:
+    def _clean_series(self, sname: str, vcol: Column, tcol: Column, unit: str, cols: _Columns,
+                      conditions: tuple[tuple[str, str], ...]) -> tuple[Series, SeriesSummary] | None:
         """A column with every value plain and times strictly increasing, straight from arrays."""
         t, p = np.array(cols.times, dtype=float), np.array(cols.values, dtype=float)
         if t.size < MIN_POINTS or not (np.diff(t) > 0).all():
             return None  # the general path sorts, merges or refuses, and says so
-        return self._made(sname, vcol, tcol, unit, t, p, tuple(cols.rows), ())
+        return self._made(sname, vcol, tcol, unit, t, p, tuple(cols.rows), (), conditions=conditions)
 
     def _made(self, sname: str, vcol: Column, tcol: Column, unit: str, t: np.ndarray, p: np.ndarray,
-              rows: tuple[int, ...], averaged: tuple[tuple[int, float, int], ...]) -> tuple[Series, SeriesSummary]:
+              rows: tuple[int, ...], averaged: tuple[tuple[int, float, int], ...], *,
+              conditions: tuple[tuple[str, str], ...] = (),
+              replicates: tuple[int, int] = (0, 0)) -> tuple[Series, SeriesSummary]:
         """The series and its summary, with a note on values <= 0."""
         if t.size > self.limits.max_points:
             raise ImportFailure(
@@ -445,7 +502,7 @@ class _Builder:
                    value_column=vcol.label, rows=rows)
         per_series = 20  # the note above gives the count and the row ranges
         return s, SeriesSummary(sname, tcol.label, unit, vcol.label, vcol.unit, t.size, nonpos[:per_series],
-                                averaged[:per_series])
+                                averaged[:per_series], conditions, replicates[0], replicates[1], s.step().to_dict())
 
 
 class _Columns(NamedTuple):

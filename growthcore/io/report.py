@@ -24,6 +24,23 @@ class LeftOut:
 
 
 @dataclass(frozen=True)
+class ColumnRole:
+    """What one column was taken for, and why: time, id, condition, covariate, value, measurement
+    (another value column to choose), row-number, unused or empty."""
+
+    column: str
+    role: str
+    reason: str
+
+    def to_dict(self) -> dict[str, str]:
+        return {"column": self.column, "role": self.role, "reason": self.reason}
+
+
+#: How repeated times within a series (replicates) are read: every point, their mean, or the first.
+REPLICATE_RULES = ("all", "mean", "first")
+
+
+@dataclass(frozen=True)
 class SeriesSummary:
     """What one series is made of; ``nonpositive`` lists (row, t, value) of points with p <= 0."""
 
@@ -35,6 +52,10 @@ class SeriesSummary:
     points_used: int
     nonpositive: tuple[tuple[int, float, float], ...] = ()
     averaged: tuple[tuple[int, float, int], ...] = ()
+    conditions: tuple[tuple[str, str], ...] = ()  # (column, value) of conditions and covariates
+    replicate_times: int = 0  # times with more than one point, as read
+    replicate_points: int = 0  # points at those times, as read
+    step: Mapping[str, Any] | None = None  # the regular step found, its tolerance and precision
 
     def to_dict(self) -> dict[str, Any]:
         return {
@@ -44,6 +65,9 @@ class SeriesSummary:
             "points_used": self.points_used,
             "nonpositive": [{"row": r, "t": t, "value": v} for r, t, v in self.nonpositive],
             "averaged": [{"row": r, "t": t, "count": n} for r, t, n in self.averaged],
+            "conditions": {c: v for c, v in self.conditions},
+            "replicates": {"times": self.replicate_times, "points": self.replicate_points},
+            "step": dict(self.step) if self.step is not None else None,
         }
 
     @classmethod
@@ -57,6 +81,10 @@ class SeriesSummary:
             points_used=int(d["points_used"]),
             nonpositive=tuple((int(x["row"]), float(x["t"]), float(x["value"])) for x in d.get("nonpositive", [])),
             averaged=tuple((int(x["row"]), float(x["t"]), int(x["count"])) for x in d.get("averaged", [])),
+            conditions=tuple((str(c), str(v)) for c, v in dict(d.get("conditions") or {}).items()),
+            replicate_times=int(dict(d.get("replicates") or {}).get("times", 0)),
+            replicate_points=int(dict(d.get("replicates") or {}).get("points", 0)),
+            step=d.get("step"),
         )
 
 
@@ -81,6 +109,12 @@ class ImportReport:
     notes: tuple[str, ...]
     columns: tuple[str, ...] = ()  # every column of the table, in file order, as labelled
     not_read: tuple[tuple[str, str], ...] = ()  # (series, reason) for series found but not read
+    roles: tuple[ColumnRole, ...] = ()  # what every column was taken for, and why
+    replicates: str = "all"  # the rule for repeated times within a series (REPLICATE_RULES)
+
+    def columns_with(self, role: str) -> tuple[str, ...]:
+        """The columns taken for ``role`` (``id``, ``condition``, ``value``...), in file order."""
+        return tuple(r.column for r in self.roles if r.role == role)
 
     def to_dict(self) -> dict[str, Any]:
         """Plain JSON-ready data; the keys are part of the fit record's format."""
@@ -102,6 +136,9 @@ class ImportReport:
             "notes": list(self.notes),
             "columns": list(self.columns),
             "not_read": [{"series": name, "reason": why} for name, why in self.not_read],
+            "roles": [r.to_dict() for r in self.roles],
+            "taken": {role: list(self.columns_with(role)) for role in ("time", "id", "condition", "covariate", "value")},
+            "replicates": self.replicates,
         }
 
     @classmethod
@@ -125,6 +162,8 @@ class ImportReport:
             notes=tuple(str(n) for n in d["notes"]),
             columns=tuple(str(c) for c in d.get("columns", [])),
             not_read=tuple((str(x["series"]), str(x["reason"])) for x in d.get("not_read", [])),
+            roles=tuple(ColumnRole(str(x["column"]), str(x["role"]), str(x["reason"])) for x in d.get("roles", [])),
+            replicates=str(d.get("replicates", "all")),
         )
 
     def to_text(self, max_left_out: int = 50) -> str:
@@ -143,7 +182,12 @@ class ImportReport:
         lines.append(f"  header row  {self.header_row if self.header_row is not None else 'none (columns named by position)'}")
         lines.append(f"  layout      {self.layout}")
         lines.append(f"  rows read   {self.rows_read}")
-        if self.columns:
+        if self.roles:
+            lines.append(f"Columns ({len(self.roles)}):")
+            width = max(len(repr(r.column)) for r in self.roles)
+            for r in self.roles:
+                lines.append(f"  {r.column!r:<{width}}  {r.role:<11}  {r.reason}")
+        elif self.columns:
             lines.append(f"Columns ({len(self.columns)}): " + ", ".join(repr(c) for c in self.columns))
         lines.append(f"Series ({len(self.series)}):")
         for s in self.series:
@@ -157,8 +201,12 @@ class ImportReport:
                 rows = ", ".join(str(r) for r, _, _ in s.nonpositive[:10])
                 more = " ..." if len(s.nonpositive) > 10 else ""
                 lines.append(f"    {len(s.nonpositive)} value(s) <= 0 (rows {rows}{more}): terms with ln need p > 0")
-            if s.averaged:
-                lines.append(f"    {len(s.averaged)} time(s) with repeated values averaged")
+            if s.conditions:
+                lines.append("    " + ", ".join(f"{c} = {v}" for c, v in s.conditions))
+            if s.replicate_times:
+                rule = {"all": "every point kept", "mean": "averaged into one point each",
+                        "first": "the first point kept at each"}[self.replicates if self.replicates in REPLICATE_RULES else "all"]
+                lines.append(f"    replicates: {s.replicate_points} points at {s.replicate_times} time(s), {rule}")
         for name, why in self.not_read:
             lines.append(f"  {name}: not read ({why})")
         lines.append(f"Left out ({len(self.left_out)}):")

@@ -377,7 +377,7 @@ def _numeric_unit(
             notes.append(f"time unit {header_unit!r} from the header of column {column!r} kept as written")
             return header_unit, 1.0
         notes.append(
-            f"column {column!r} gives no time unit: times are plain numbers (choose one with --time-unit)"
+            f"column {column!r} gives no time unit: times are plain numbers (a time unit can be chosen for them)"
         )
         return "", 1.0
     if known and known != time_unit:

@@ -7,7 +7,7 @@ import warnings
 import zipfile
 from typing import Any
 
-from growthcore.errors import ImportFailure
+from growthcore.errors import ChoiceNotFound, ImportFailure
 from growthcore.io.table import Table
 from growthcore.limits import DEFAULT, Limits
 
@@ -173,7 +173,7 @@ def _read(book: Any, data: bytes, filename: str, sheet: str | None, limits: Limi
         )
         if chosen is None:
             names = ", ".join(repr(s.title) for s in sheets)
-            raise ImportFailure(f"{filename}: no sheet named {sheet!r}; the sheets are {names}")
+            raise ChoiceNotFound(f"{filename}: no sheet named {sheet!r}; the sheets are {names}", "sheet")
     else:
         chosen = next((s for s in sheets if _has_data(book, s, filename, limits)), None)
         if chosen is None:
