@@ -56,15 +56,28 @@ def row(fit: SeriesFit, params: list[str], used: int | None = None) -> dict[str,
 
 
 def rows(batch: BatchResult) -> tuple[list[str], list[dict[str, Any]]]:
-    """Header and rows; series the import left out get one failed row per form."""
+    """Header and rows; series the import left out get one failed row per form.
+
+    The conditions and covariates of a long file (constant within each series) follow the group, so
+    that the table can be analysed by them directly.
+    """
     params = parameter_names(batch)
     used = {s.name: int(s.used.sum()) for s in batch.data.series}
-    body = [row(f, params, used.get(f.series)) for f in batch.fits]
+    report = batch.data.report
+    conditions = list(report.columns_with("condition") + report.columns_with("covariate")) if report else []
+    of_series = {s.name: dict(s.conditions) for s in report.series} if report else {}
+    body = []
+    for f in batch.fits:
+        r = row(f, params, used.get(f.series))
+        own = of_series.get(f.series, {})
+        body.append({**{k: r[k] for k in LEAD[:2]}, **{c: own.get(c) for c in conditions},
+                     **{k: v for k, v in r.items() if k not in LEAD[:2]}})
     for name, why in batch.data.not_read:
         for model in batch.models:
             empty = {k: None for k in body[0]} if body else {}
             body.append({**empty, "series": name, "group": batch.data.group_of(name), "model": model,
                          "method": batch.method, "error": batch.error, "status": "failed",
                          "message": f"not read from the file: {why}", "notes": "", "solver": "none"})
-    header = [*LEAD, *[c for n in params for c in (n, f"{n}_se")], *METRICS, "durbin_watson", "runs_p", "notes", "solver"]
+    header = [*LEAD[:2], *conditions, *LEAD[2:], *[c for n in params for c in (n, f"{n}_se")], *METRICS,
+              "durbin_watson", "runs_p", "notes", "solver"]
     return header, body

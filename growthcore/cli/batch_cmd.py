@@ -96,7 +96,8 @@ def run(args: argparse.Namespace) -> int:
             "source": data.source,
             "import": data.report.to_dict() if data.report is not None else None,
             "settings": {"models": list(batch.models), "method": batch.method, "error": batch.error,
-                         "engine": batch.engine, "groups": args.groups, "pattern": args.pattern},
+                         "engine": batch.engine, "groups": args.groups, "pattern": args.pattern,
+                         "replicates": args.replicates},
             "notes": list(data.notes),
             "columns": header,
             "rows": body,
@@ -111,7 +112,8 @@ def run(args: argparse.Namespace) -> int:
             doc["population"] = population_section(args, data, models)
         atomic_write_text(out, json.dumps(doc, indent=2, allow_nan=False) + "\n")
     n_failed = sum(1 for r in body if r["status"] != "converged")
-    print(f"{len(data.series)} series x {len(batch.models)} form(s): {len(body) - n_failed} converged, "
+    unread = f" (and {len(data.not_read)} not read)" if data.not_read else ""
+    print(f"{len(data.series)} series{unread} x {len(batch.models)} form(s): {len(body) - n_failed} converged, "
           f"{n_failed} failed, in {seconds:.2f} s ({batch.engine} engine)")
     for note in data.notes:
         print(f"note: {note}")

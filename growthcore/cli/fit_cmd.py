@@ -151,7 +151,7 @@ def run(args: argparse.Namespace) -> int:
         series, fits,
         source=DataSource(report.get("source", args.file), report.get("sha256", ""), report),
         settings={"models": models, "methods": list(methods), "error": args.error, "capacity": args.capacity,
-                  "terms": list(args.term), "profile": not args.no_profile},
+                  "terms": list(args.term), "profile": not args.no_profile, "replicates": args.replicates},
     )
     record["comparison"] = {"rows": [r.to_dict() for r in compare(fits)], "notes": comparison_notes(fits)}
     for extension in EXTENSIONS:
