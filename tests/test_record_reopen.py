@@ -17,7 +17,7 @@ from growthcore.record import FORMAT_VERSION, build_record, seal
 from growthcore.reopen import (RecordError, differences, fits_from_record, load_record, parse_record, recompute,
                                reopen)
 from growthcore.schemas import record_errors
-from record_cases import FIXTURES, SAMPLES, census_record, record_cases
+from tests.record_cases import FIXTURES, SAMPLES, census_record, record_cases
 
 FIXTURE = FIXTURES / "fit-record-v1.json"
 VOLATILE = ("created", "software", "integrity")

@@ -19,7 +19,7 @@ from hypothesis import strategies as st
 
 from growthcore.record import CANONICAL_FORM, FORMAT_VERSION, canonical_json, content_hash, integrity_problem, seal
 from growthcore.schemas import available_versions, record_errors, record_schema, validation_errors
-from record_cases import record_cases
+from tests.record_cases import record_cases
 
 SCHEMA = record_schema(FORMAT_VERSION)
 REFERENCE = jsonschema.Draft202012Validator(SCHEMA)

@@ -20,7 +20,7 @@ from growthcore.report.images import NO_BROWSER, ImageExportError, find_browser,
 from growthcore.report.page import report_html
 from growthcore.report.panels import panel_figures, summary_sheet
 from growthcore.schemas import record_errors
-from record_cases import FIXTURES, SAMPLES, record_cases
+from tests.record_cases import FIXTURES, SAMPLES, record_cases
 
 FIXTURE = FIXTURES / "fit-record-v1.json"
 needs_browser = pytest.mark.skipif(find_browser() is None, reason="no Chromium for kaleido")

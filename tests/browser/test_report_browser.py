@@ -11,7 +11,7 @@ import pytest
 
 from growthcore.reopen import load_record
 from growthcore.report import write_html
-from record_cases import FIXTURES
+from tests.record_cases import FIXTURES
 from tests.browser.page import wait
 
 #: No name resolves and no proxy answers: any fetch the page tried would fail.
