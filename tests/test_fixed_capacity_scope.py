@@ -6,7 +6,7 @@ import json
 
 import numpy as np
 import pytest
-from open_data import as_csv, uspop
+from tests.open_data import as_csv, uspop
 
 from app.callbacks.fits import session_fits
 from growthcore.cli import main

@@ -14,7 +14,7 @@ from dataclasses import replace
 
 import numpy as np
 import pytest
-from open_data import as_csv, loblolly, lynx, uspop
+from tests.open_data import as_csv, loblolly, lynx, uspop
 
 from app.components.comparison import COLUMNS, comparison_table
 from app.components.dynamics import equilibria_table

@@ -12,7 +12,7 @@ import math
 
 import numpy as np
 import pytest
-from open_data import uspop
+from tests.open_data import uspop
 from scipy import optimize, stats
 
 from growthcore.fit import fit

@@ -96,8 +96,9 @@ def session_record(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None
     report = data.get("report") or {}
     source = DataSource(str(report.get("source", data.get("source", ""))), str(data.get("sha256", "")),
                         dict(report) if report else None)
-    record = build_record(series, fits, source=source, settings=record_settings(settings, capacity, models),
-                          created=created)
+    run = {**record_settings(settings, capacity, models),
+           "replicates": report.get("replicates", (data.get("choices") or {}).get("replicates", "all"))}
+    record = build_record(series, fits, source=source, settings=run, created=created)
     record["comparison"] = {"rows": [r.to_dict() for r in compare(fits)], "notes": comparison_notes(fits)}
     fit_uncertainty.apply(later_steps(forecast_store, boot_done), series, fits, record, quiet=True)
     return seal(record)
