@@ -28,7 +28,7 @@ class Limits:
     #: columns of one sheet
     max_columns: int = 4_096
     #: points of one series
-    max_points: int = 50_000
+    max_points: int = 20_000
     #: series of one file
     max_series: int = 5_000
     #: bootstrap resamples of one run
@@ -37,8 +37,9 @@ class Limits:
     max_forecast_steps: int = 10_000
     #: characters of a grouping pattern
     max_pattern: int = 200
-    #: fits in one record (forms x methods)
-    max_fits: int = 12
+    #: fits in one record (forms x methods; every form of the app, with and without +c, by both
+    #: methods, is 36)
+    max_fits: int = 40
     #: bytes of a fit record
     max_record_bytes: int = 160 * 1024 * 1024
     #: series x points of the longest series in one mixed-effects fit (its arrays are padded to that)

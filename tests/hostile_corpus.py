@@ -217,7 +217,7 @@ CASES: tuple[Case, ...] = (
     Case("5 M blank rows", _blank_rows, 1, r"over the limit of 2,000,000 cells", 10, BASE_MB + 150),
     Case("100 000 columns", _many_columns, 1, r"over the limit of 4,096 columns", 10, BASE_MB + 150),
     Case("1.6 M rows under the byte limit", _long_file, 1, r"over the limit of 2,000,000 cells", 10, BASE_MB + 150),
-    Case("a series of 60 000 points", _long_series, 1, r"60,000 points, over the limit of 50,000 points", 30),
+    Case("a series of 60 000 points", _long_series, 1, r"60,000 points, over the limit of 20,000 points", 30),
     Case("dimension bomb: one cell at ZZ200000", _dimension_bomb, 0, r"points", 10, BASE_MB + 100,
          note="read: the stray cell costs one cell, not 140 M"),
     Case("a cell in column XFD", _far_column, 1, r"column 16,384 .*over the limit of 4,096 columns", 10),
@@ -237,7 +237,7 @@ CASES: tuple[Case, ...] = (
          _forged_record(lambda r: r["settings"].update(forecast_steps=500_000_000), "steps.json"), 1,
          r"over the limit of 10,000 steps", 20),
     Case("re-hashed record of 400 000 points", _forged_record(_many_points, "points.json"), 1,
-         r"400,000 points, over the limit of 50,000 points", 60, BASE_MB + 900,
+         r"400,000 points, over the limit of 20,000 points", 60, BASE_MB + 900,
          note="the 40 MB record is parsed (and refused) under the record size limit"),
 )
 

@@ -159,3 +159,20 @@ def test_defaults_meet_the_app_limits() -> None:
     from app.components.dynamics import MAX_RESAMPLES
 
     assert MAX_RESAMPLES <= DEFAULT.max_resamples  # the box's maximum is one the engine accepts
+
+
+def test_the_app_reopens_every_record_the_command_line_reopens(app) -> None:
+    from app.callbacks.export import MAX_RECORD_UPLOAD
+
+    assert MAX_RECORD_UPLOAD * 3 // 4 >= DEFAULT.max_record_bytes  # base64 carries 3 bytes in 4 characters
+    assert app.server.config["MAX_CONTENT_LENGTH"] > MAX_RECORD_UPLOAD
+
+
+def test_forged_settings_cannot_ask_for_unbounded_fits() -> None:
+    from app.callbacks.fits import compute_fits
+    from growthcore.errors import GrowthcoreInputError
+
+    data = import_source({"filename": "c.csv", "b64": _b64(_culture())})
+    settings = {"models": ["logistic"] * 1000, "method": "both", "error": "additive", "terms": []}
+    with pytest.raises(GrowthcoreInputError, match=r"over the limit of 40 fits"):
+        compute_fits(data, None, settings, None)

@@ -227,9 +227,9 @@ def test_cli_options_over_limits_refused_before_work(tmp_path: Path, capsys) -> 
     assert "over the limit of 10,000 resamples" in capsys.readouterr().err
     assert main(["fit", str(data), "--forecast", "500000000"]) == 1
     assert "over the limit of 10,000 steps" in capsys.readouterr().err
-    wide = ",".join(["logistic", "ricker", "gompertz", "beverton-holt", "geometric", "allee", "theta-logistic"])
+    wide = ",".join(["logistic", "ricker", "gompertz"] * 7)
     assert main(["fit", str(data), "--model", wide, "--method", "both"]) == 1
-    assert "over the limit of 12 fits" in capsys.readouterr().err
+    assert "over the limit of 40 fits" in capsys.readouterr().err
 
 
 def _record(tmp_path: Path) -> dict:
@@ -265,7 +265,7 @@ def test_rehashed_record_with_too_many_points(tmp_path: Path, capsys) -> None:
     forged.write_text(json.dumps(seal(record)), encoding="utf-8")
     capsys.readouterr()
     assert main(["fit", "--from-record", str(forged)]) == 1
-    assert "over the limit of 50,000 points" in capsys.readouterr().err
+    assert "over the limit of 20,000 points" in capsys.readouterr().err
 
 
 def test_every_accepted_input_makes_a_readable_record(tmp_path: Path) -> None:

@@ -19,6 +19,7 @@ from typing import Any, Mapping, Sequence
 from dash import ClientsideFunction, Dash, Input, Output, State, html, no_update
 
 from app import ids
+from app.heavy import runner_of
 from app.callbacks.data import summary
 from app.callbacks.fits import held_capacity, session_fits
 from app.callbacks.settings import expand_forms
@@ -33,14 +34,16 @@ from growthcore.reopen import RecordError, parse_record, reopen
 from growthcore.report.images import PANEL_SIZES, SHEET_SIZES
 from growthcore.report.panels import panel_figures, summary_sheet
 from growthcore.report.page import report_html
+from growthcore.limits import DEFAULT as LIMITS
 from growthcore.report.tables import residual_csv_text
 
 #: The dashboard's exploration panels have no counterpart in the record; the browser saves them
 #: as drawn, at the panel size.
 LIVE_PANELS = ((ids.G_CHANGE, "change-against-state"), (ids.G_CANDIDATE, "change-against-candidate-terms"))
 SHEET = "summary-sheet"
-#: A record upload is refused beyond this size (base64 text), before decoding.
-MAX_RECORD_UPLOAD = 90_000_000
+#: A record upload is refused beyond this size (base64 text), before decoding: the record size
+#: limit of ``growthcore fit --from-record``, which every accepted input stays under.
+MAX_RECORD_UPLOAD = 4 * (LIMITS.max_record_bytes // 3 + 1)
 
 
 # --------------------------------------------------------------------------------------------
@@ -275,7 +278,7 @@ def refusal(exc: RecordError) -> html.Div:
     return html.Div(body, className="message message-error record-refused")
 
 
-def on_record_upload(contents: str | None, filename: str | None) -> tuple[Any, ...]:
+def on_record_upload(contents: str | None, filename: str | None, *, run: Any = None) -> tuple[Any, ...]:
     """Outputs: source, data, exclusions, data summary, report text, series options, series value,
     the six model controls, the pending K, the data message and the record message."""
     keep = (no_update,) * 15
@@ -283,7 +286,8 @@ def on_record_upload(contents: str | None, filename: str | None) -> tuple[Any, .
         return (*keep, no_update)
     name = filename or "record.json"
     try:
-        record = parse_record(decode_upload(contents, name), name=name)
+        raw = decode_upload(contents, name)
+        record = run("reading the record", parse_record, raw, name=name) if run else parse_record(raw, name=name)
         data, exclusions = stores_from_record(record, name=name)
         controls = controls_from_record(record)
     except RecordError as exc:
@@ -337,7 +341,7 @@ def register(app: Dash) -> None:
         Output(ids.RECORD_MESSAGE, "children"),
         Input(ids.RECORD_UPLOAD, "contents"), State(ids.RECORD_UPLOAD, "filename"),
         prevent_initial_call=True,
-    )(on_record_upload)
+    )(lambda contents, filename: on_record_upload(contents, filename, run=runner_of(app)))
     # K of a reopened record, once the capacity callback has set up the controls for the new data
     app.clientside_callback(
         ClientsideFunction(namespace="growthcore_export", function_name="capacity"),

@@ -15,6 +15,7 @@ from growthcore.errors import GrowthcoreInputError
 from growthcore.data import Series
 from growthcore.explore import fit_forms
 from growthcore.fit import FitResult
+from growthcore.limits import DEFAULT as LIMITS
 
 
 def needs_refit_on_drag(settings: Mapping[str, Any]) -> bool:
@@ -55,6 +56,10 @@ def compute_fits(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] |
     """The fits store: plain fits, comparison rows and notes, for the given data and choices."""
     if data is None or settings is None:
         return None
+    models, methods = settings.get("models") or [], 2 if settings.get("method") == "both" else 1
+    if len(models) * methods > LIMITS.max_fits:  # the settings come from the tab: bounded here
+        raise GrowthcoreInputError(f"{len(models)} forms by {methods} method(s) is over the limit of "
+                                   f"{LIMITS.max_fits} fits: refused")
     series, fits, notes = session_fits(data, exclusions, settings, capacity)
     k = held_capacity(settings, capacity)
     rows = compare(fits)

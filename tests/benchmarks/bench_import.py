@@ -2,8 +2,8 @@
 
     python tests/benchmarks/bench_import.py [--rows N] [--repeats N]
 
-An invented plate-reader export (a time column and 23 wells of plain numbers, about 10.7 MB at the
-default 50 000 rows, the most points a series may have) read by growthcore's import, which also detects the layout, parses and
+An invented plate-reader export (a time column and 23 wells of plain numbers, about 4.3 MB at the
+default 20 000 rows, the most points a series may have) read by growthcore's import, which also detects the layout, parses and
 checks every cell, and writes the report, against pandas.read_csv, which only parses. For
 information: the ratio says what the checks cost; a 12 MB file should import in a few seconds.
 """
@@ -34,7 +34,7 @@ def invented_export(path: str, rows: int) -> None:
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--rows", type=int, default=50_000)
+    parser.add_argument("--rows", type=int, default=20_000)
     parser.add_argument("--repeats", type=int, default=3)
     args = parser.parse_args()
     with tempfile.TemporaryDirectory() as folder:

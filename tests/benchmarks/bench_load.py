@@ -56,8 +56,8 @@ def _light_callback(deps: list[dict]) -> dict:
             "changedPropIds": ["app-error-dismiss.n_clicks"], "state": []}
 
 
-def invented_upload(rows: int = 50_000, columns: int = 36) -> tuple[str, int]:
-    """A data URL of an invented plate export: a time column and 35 wells of plain numbers."""
+def invented_upload(rows: int = 20_000, columns: int = 90) -> tuple[str, int]:
+    """A data URL of an invented plate export: a time column and 89 wells of plain numbers."""
     lines = ["hours," + ",".join(f"well_{j}" for j in range(1, columns))]
     for i in range(rows):
         lines.append(f"{i * 0.01:.2f}," + ",".join(f"{1 + ((i * 7 + j * 13) % 97) / 100:.2f}" for j in range(1, columns)))
