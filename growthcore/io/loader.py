@@ -305,7 +305,8 @@ class _Builder:
                fmt: NumberFormat) -> dict[str, list[_Point]]:
         """The points of one value column of a long file, by series id, in file order."""
         by_id: dict[str, list[_Point]] = {}
-        written: dict[str, set[str]] = {}
+        padded: dict[str, list[int]] = {}  # rows where an id was written with spaces around it
+        plain: set[str] = set()
         cells = _column(rows, vcol.index)
         quick = plain_number_column(cells) if fmt.decimal == "." else None
         for i, r in enumerate(rows):
@@ -316,16 +317,18 @@ class _Builder:
                 blank = next(c for c in layout.ids if cell_key(_cell(r, c.index)) is None)
                 self._leave_out(rownums[i], blank, _cell(r, blank.index), "blank series id", data_idx[i])
                 continue
-            if len(layout.ids) == 1:
-                written.setdefault(key, set()).add(str(_cell(r, layout.ids[0].index)))
+            if any((data_idx[i], c.index) in self.table.padded for c in layout.ids):
+                padded.setdefault(key, []).append(rownums[i])
+            else:
+                plain.add(key)
             pv = quick[i] if quick is not None else self._value(cells[i], i, vcol, fmt, rownums, data_idx)
             points = by_id.setdefault(key, [])
             if pv is not None:
                 points.append(_Point(rownums[i], times[i], pv, cells[i]))  # type: ignore[arg-type]
-        for key, forms in written.items():
-            if len(forms) > 1:
-                shown = ", ".join(repr(f) for f in sorted(forms))
-                self.notes.append(f"series ids {shown} differ only in surrounding spaces: read as one series {key!r}")
+        for key, where in padded.items():
+            if key in plain:
+                self.notes.append(f"series id {key!r} is written with surrounding spaces in row(s) {_ranges(where)} "
+                                  "and without them elsewhere: read as one series")
         return by_id
 
     def _conditions(self, layout: Layout, rows: Sequence[Sequence[object]],
