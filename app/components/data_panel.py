@@ -50,7 +50,7 @@ def data_section(max_upload_bytes: int) -> html.Section:
             _field("Value column(s)", dcc.Input(id=ids.MAP_VALUE, type="text", list=ids.MAP_COLUMNS, debounce=True,
                                                 placeholder="as guessed")),
             _field("Series id column(s)", dcc.Input(id=ids.MAP_SERIES, type="text", list=ids.MAP_COLUMNS,
-                                                    debounce=True, placeholder="as read from the file (several: Plot, Year)")),
+                                                    debounce=True, placeholder="read from the file")),
             _field("Time unit (plain numbers, clock times, dates)", dcc.Dropdown(
                 id=ids.MAP_TIME_UNIT, options=[{"label": u, "value": u} for u in TIME_UNITS], value=None,
                 placeholder="as guessed", className="dropdown")),
