@@ -62,6 +62,9 @@ CHANGE_AXIS = "panel-change-axis"
 CANDIDATE_SUMMARY = "panel-candidate-summary"
 MISFIT_FLAG = "panel-misfit-flag"
 TRAJECTORY_NOTE = "panel-trajectory-note"
+FORM_KEY = "panel-form-key"          # the one key of the chosen forms, beside the panels
+STATE_SCALE = "panel-state-scale"    # linear or log scale for every axis of the state p
+PATH_FROM = "panel-path-from"        # increments fits: draw the iterated map from the first/last observation
 
 # Comparison
 COMPARISON = "comparison-table"

@@ -15,6 +15,9 @@ from growthcore.io import ImportResult
 from growthcore.limits import DEFAULT as LIMITS
 
 USER_REASON = "excluded by the user"
+#: Grid steps an increments fit's map is iterated past the last observation when asked to start there
+#: (the forecast panel's default reach).
+STEPS_AHEAD = 10
 
 
 def _num(x: float | None) -> float | None:
@@ -172,6 +175,12 @@ def fit_to_store(result: FitResult, series: Series, *, t_end: float | None = Non
         out["path"] = {"t": _list(path_t), "p": _list(path_p)}
     except (ValueError, ArithmeticError):
         out["path"] = None
+    if result.method == "increments" and result.grid is not None and len(result.t):
+        try:
+            ahead_t, ahead_p = result.iterated_path("last", float(result.t[-1]) + STEPS_AHEAD * result.grid.h)
+            out["path_last"] = {"t": _list(ahead_t), "p": _list(ahead_p)}
+        except (ValueError, ArithmeticError, GrowthcoreInputError):
+            out["path_last"] = None
     return out
 
 

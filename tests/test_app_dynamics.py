@@ -147,7 +147,7 @@ def test_two_cycle_said_in_words() -> None:
 def test_curve_form_has_no_cobweb(demo: dict, k_demo: float) -> None:
     store = compute_fits(demo, None, _settings("trajectory", ["logistic-curve"]), k_demo)
     out = dy.dynamics_view(store, store["fits"][0]["label"], k_demo, demo, None, {}, None)
-    assert "closed-form curve" in json.dumps(out[2]["layout"]["annotations"])
+    assert "closed-form curve" in out[2]["layout"]["meta"]["message"]
     assert "steady level" in _text(out[0])
 
 

@@ -75,24 +75,41 @@ def test_candidate_figure_without_candidates_says_why(data: dict) -> None:
     fig = candidate_figure([{"label": "g", "status": "failed", "message": "set a positive K", "g": []}],
                            labels_of(data))
     validate(fig)
-    assert "set a positive K" in fig["layout"]["annotations"][0]["text"]
+    assert "set a positive K" in fig["layout"]["meta"]["message"]
 
 
-def test_trajectory_figure_draws_paths_and_an_editable_k_line(data: dict, series: Series, fits: list[dict]) -> None:
+def test_trajectory_figure_draws_each_fit_as_what_it_fits_and_a_k_handle(data: dict, series: Series,
+                                                                         fits: list[dict]) -> None:
     fig = trajectory_figure(data, list(series.used), fits, 20.0, labels_of(data))
     validate(fig)
-    shape = fig["layout"]["shapes"][0]
-    assert shape["editable"] and shape["y0"] == shape["y1"] == 20.0
+    line, handle = fig["layout"]["shapes"][:2]
+    # the line itself takes no clicks (points on it stay clickable); only the handle in the margin moves
+    assert not line.get("editable") and line["y0"] == line["y1"] == 20.0
+    assert handle["editable"] and handle["yanchor"] == 20.0 and handle["xref"] == "paper"
+    assert handle["xsizemode"] == "pixel" and handle["xanchor"] == 1 and handle["x0"] > 0
     names = [t["name"] for t in fig["data"]]
-    assert "logistic (increments)" in names and "logistic-curve (trajectory)" in names and "observed" in names
+    assert "logistic (increments): one step ahead" in names and "logistic-curve (trajectory)" in names
+    assert "observed" in names
+    inc = next(f for f in fits if f["method"] == "increments" and f["status"] == "converged")
+    ahead = next(t for t in fig["data"] if t["name"] == f"{inc['label']}: one step ahead")
+    assert ahead["mode"] == "markers" and ahead["x"] == inc["t"] and ahead["y"] == inc["predicted"]
+    assert not any("iterated" in t["name"] for t in fig["data"])
+    first = trajectory_figure(data, list(series.used), fits, 20.0, labels_of(data), path_from="first")
+    path = next(t for t in first["data"] if t["name"] == f"{inc['label']}: iterated from the first observation")
+    assert path["x"] == inc["path"]["t"] and path["y"] == inc["path"]["p"]
+    last = trajectory_figure(data, list(series.used), fits, 20.0, labels_of(data), path_from="last")
+    path = next(t for t in last["data"] if t["name"] == f"{inc['label']}: iterated from the last observation")
+    # it starts at the last observation the fit used, where a forecast starts too
+    assert path["x"][0] == inc["t"][-1] and path["y"][0] == inc["observed"][-1]
     obs = next(t for t in fig["data"] if t["name"] == "observed")
     assert obs["marker"]["symbol"][4] == "circle-open" and obs["marker"]["symbol"][3] == "circle"
     assert obs["customdata"][4] == [4, 6]
 
 
-def test_capacity_from_relayout_reads_the_dragged_line() -> None:
-    assert capacity_from_relayout({"shapes[0].y0": 12.0, "shapes[0].y1": 14.0}) == 13.0
-    assert capacity_from_relayout({"shapes[0].y0": 12.5}) == 12.5
+def test_capacity_from_relayout_reads_the_dragged_handle() -> None:
+    assert capacity_from_relayout({"shapes[1].yanchor": 12.5, "shapes[1].xanchor": 1.1}) == 12.5
+    assert capacity_from_relayout({"shapes": [{}, {"yanchor": 7.0}]}) == 7.0
+    assert capacity_from_relayout({"shapes[0].y0": 12.5}) is None
     assert capacity_from_relayout({"xaxis.range[0]": 1}) is None
     assert capacity_from_relayout(None) is None
 
@@ -122,7 +139,7 @@ def test_panels_without_fits_say_so(data: dict) -> None:
     for build in (residual_time_figure, residual_fitted_figure, observed_predicted_figure):
         fig = build(failed, labels_of(data))
         validate(fig)
-        assert "no converged fit" in fig["layout"]["annotations"][0]["text"]
+        assert "No converged fit" in fig["layout"]["meta"]["message"]
     validate(message_figure("nothing"))
 
 

@@ -409,7 +409,7 @@ def band_on_trajectory(figure: Mapping[str, Any], store: Mapping[str, Any] | Non
     fits = fits_store.get("fits", [])
     for k, f in enumerate(fits):
         if f.get("label") == store.get("label") and fit_signature(fits_store, f) == store.get("signature"):
-            colour = fit_styles(fits)[k]["colour"]
+            colour = fit_styles(fits, (fits_store.get("settings") or {}).get("models"))[k]["colour"]
             return with_forecast_band(figure, store["points"], colour=colour, name=f"forecast: {f['label']}",
                                       level=store.get("level", 0.95), last_observed=store.get("last_observed"))
     return figure

@@ -64,7 +64,8 @@ def style_order(settings: Mapping[str, Any]) -> dict[str, int]:
 
 
 def explore_panels(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
-                   settings: Mapping[str, Any] | None, capacity: float | None, axis: str = "state") -> tuple[Any, ...]:
+                   settings: Mapping[str, Any] | None, capacity: float | None, axis: str = "state",
+                   scale: str | None = None) -> tuple[Any, ...]:
     """Outputs: the change figure, the candidate figure and the slope/R² readout."""
     if data is None or settings is None:
         blank = message_figure("loading the data…")
@@ -72,7 +73,7 @@ def explore_panels(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any]
     series = series_from_store(data, exclusions)
     table = change_table(series)
     labels = labels_of(data, h=table.h)
-    fig1 = change_figure(change_to_store(table), labels, against=axis)
+    fig1 = change_figure(change_to_store(table), labels, against=axis, scale=scale)
     try:
         cands, notes = candidates_for(settings.get("models", []), settings.get("terms", []))
     except GrowthcoreInputError as exc:
@@ -81,7 +82,7 @@ def explore_panels(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any]
     order = style_order(settings)
     for c in fitted:
         c["style"] = order.get(c["model"], len(order))
-    fig2 = candidate_figure(fitted, labels)
+    fig2 = candidate_figure(fitted, labels, both=settings.get("method") == "both", notes=notes)
     return fig1, fig2, candidate_readout(fitted, notes, capacity, data.get("value_unit", ""))
 
 
@@ -90,10 +91,11 @@ def register(app: Dash) -> None:
         Output(ids.G_CHANGE, "figure"), Output(ids.G_CANDIDATE, "figure"), Output(ids.CANDIDATE_SUMMARY, "children"),
         Input(ids.DATA, "data"), Input(ids.EXCLUSIONS, "data"), Input(ids.SETTINGS, "data"),
         Input(ids.CAPACITY, "data"), Input(ids.K_SLIDER, "drag_value"), Input(ids.CHANGE_AXIS, "value"),
+        Input(ids.STATE_SCALE, "value"),
     )
-    def _explore(data, exclusions, settings, capacity, drag, axis):
+    def _explore(data, exclusions, settings, capacity, drag, axis, scale):
         k = drag if ctx.triggered_id == ids.K_SLIDER and drag else capacity
-        return explore_panels(data, exclusions, settings, k, axis)
+        return explore_panels(data, exclusions, settings, k, axis, scale)
 
 
 __all__ = ["Candidate", "explore_panels", "labels_of"]

@@ -1,4 +1,4 @@
-"""Panels 3 to 5 drawn from the fits store: trajectory, residuals, observed against predicted."""
+"""Panels 3 to 5 drawn from the fits store: trajectory, residuals, observed against predicted, and the key."""
 
 from __future__ import annotations
 
@@ -8,10 +8,11 @@ from dash import Dash, Input, Output, State, html
 
 from app import ids
 from app.callbacks.explore import labels_of
-from app.figures.common import message_figure
+from app.components.form_key import form_key_view
+from app.figures.common import form_key, message_figure
 from app.figures.residuals import observed_predicted_figure, residual_fitted_figure, residual_time_figure
-from app.figures.trajectory import trajectory_figure
-from app.state import series_from_store
+from app.figures.trajectory import PATH_NAMES, trajectory_figure
+from app.state import STEPS_AHEAD, series_from_store
 
 
 def misfit_flag(fits: list[Mapping[str, Any]]) -> list[Any]:
@@ -25,27 +26,42 @@ def misfit_flag(fits: list[Mapping[str, Any]]) -> list[Any]:
                                 for f in flagged)], className="flag flag-warn")]
 
 
+def trajectory_note(fits: list[Mapping[str, Any]], path_from: str | None) -> str:
+    """What panel 3 shows of the increments fits, and how the chosen iterated path starts."""
+    if not any(f.get("method") == "increments" and f.get("status") == "converged" for f in fits):
+        return ""
+    note = ("Increments fits are drawn as what they fit: each observation predicted one step ahead from the one "
+            "before (markers). ")
+    if path_from == "first":
+        note += f"Lines: the same map {PATH_NAMES['first']}, fed its own output; it may drift from the data. "
+    elif path_from == "last":
+        note += f"Lines: the same map {PATH_NAMES['last']}, {STEPS_AHEAD} steps on, where the forecast starts. "
+    return note
+
+
 def draw_panels(fits_store: Mapping[str, Any] | None, capacity: float | None, data: Mapping[str, Any] | None,
-                exclusions: Mapping[str, Any] | None) -> tuple[Any, ...]:
-    """Outputs: trajectory, residuals against time and fitted, observed against predicted, flag, note."""
+                exclusions: Mapping[str, Any] | None, scale: str | None = None,
+                path_from: str | None = None) -> tuple[Any, ...]:
+    """Outputs: trajectory, residuals against time and fitted, observed against predicted, flag, note, key."""
     if data is None:
         blank = message_figure("loading the data…")
-        return blank, blank, blank, blank, [], ""
+        return blank, blank, blank, blank, [], "", []
     series = series_from_store(data, exclusions)
     current = fits_store if fits_store and fits_store.get("key") == data["key"] else None
     fits = current["fits"] if current else []
+    models = (current.get("settings") or {}).get("models") if current else None
     labels = labels_of(data)
-    traj = trajectory_figure(data, [bool(u) for u in series.used], fits, capacity, labels)
-    note = ""
-    if any(f.get("method") == "increments" and f.get("status") == "converged" for f in fits):
-        note = ("Increments fits are drawn as their map iterated from the first observation; their residuals "
-                "are one step ahead. ")
+    traj = trajectory_figure(data, [bool(u) for u in series.used], fits, capacity, labels, models=models,
+                             scale=scale, path_from=path_from or "none")
+    note = trajectory_note(fits, path_from)
     if current and current.get("capacity") is not None and capacity is not None \
             and abs(current["capacity"] - capacity) > 1e-12 * max(abs(capacity), 1.0):
         note += (f"The fits are for K = {current['capacity']:.4g}; they are refitted at K = {capacity:.4g} "
                 "when you release the slider.")
-    return (traj, residual_time_figure(fits, labels), residual_fitted_figure(fits, labels),
-            observed_predicted_figure(fits, labels), misfit_flag(fits), note)
+    key = form_key_view(form_key(fits, models), capacity=capacity is not None)
+    return (traj, residual_time_figure(fits, labels, models=models),
+            residual_fitted_figure(fits, labels, models=models, scale=scale),
+            observed_predicted_figure(fits, labels, models=models, scale=scale), misfit_flag(fits), note, key)
 
 
 def with_forecast(outputs: tuple[Any, ...], forecast: Mapping[str, Any] | None,
@@ -60,7 +76,9 @@ def register(app: Dash) -> None:
     app.callback(
         Output(ids.G_TRAJECTORY, "figure"), Output(ids.G_RESID_TIME, "figure"), Output(ids.G_RESID_FITTED, "figure"),
         Output(ids.G_OBS_PRED, "figure"), Output(ids.MISFIT_FLAG, "children"), Output(ids.TRAJECTORY_NOTE, "children"),
+        Output(ids.FORM_KEY, "children"),
         Input(ids.FITS, "data"), Input(ids.CAPACITY, "data"), Input(ids.FORECAST, "data"),
+        Input(ids.STATE_SCALE, "value"), Input(ids.PATH_FROM, "value"),
         State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"),
-    )(lambda fits_store, capacity, fc, data, exclusions: with_forecast(
-        draw_panels(fits_store, capacity, data, exclusions), fc, fits_store))
+    )(lambda fits_store, capacity, fc, scale, path_from, data, exclusions: with_forecast(
+        draw_panels(fits_store, capacity, data, exclusions, scale, path_from), fc, fits_store))

@@ -30,8 +30,25 @@ def _card(number: int, title: str, guide: str, body: list[Any], extra_class: str
     ], className=f"panel {extra_class}".strip(), **{"aria-label": title})
 
 
+def view_bar() -> html.Div:
+    """The one key of the chosen forms and the scale of the state axes, above the panels."""
+    return html.Div([
+        html.Div([html.Span("Key", className="key-title"),
+                  html.Div(id=ids.FORM_KEY, className="form-key", role="list")], className="key-box",
+                 **{"aria-label": "Key of the chosen forms"}),
+        html.Div([
+            html.Span("State axes", className="key-title"),
+            dcc.RadioItems(id=ids.STATE_SCALE, options=[{"label": "linear", "value": "linear"},
+                                                        {"label": "log", "value": "log"}],
+                           value="linear", inline=True, className="axis-toggle", inputClassName="check",
+                           labelClassName="check-label"),
+        ], className="scale-box", role="group", **{"aria-label": "Scale of the state axes"}),
+    ], className="view-bar")
+
+
 def panels_section() -> html.Section:
     return html.Section([
+        view_bar(),
         _card(1, "Change against state",
               "Change per unit time over each step, against the state at its start.",
               [dcc.RadioItems(id=ids.CHANGE_AXIS, options=[{"label": "against state p", "value": "state"},
@@ -44,8 +61,17 @@ def panels_section() -> html.Section:
               [_graph(ids.G_CANDIDATE), html.Div(id=ids.CANDIDATE_SUMMARY, className="readout",
                                                  role="status", **{"aria-live": "polite"})]),
         _card(3, "Trajectory",
-              "Observations and every fitted path; drag the dashed K line to change the estimate.",
-              [_graph(ids.G_TRAJECTORY, 320, edits={"shapePosition": True}),
+              "Observations and every fit as it fits them; drag the handle at the right end of the dashed "
+              "K line to change the estimate.",
+              [html.Div([
+                  html.Label("Increments fits:", htmlFor=ids.PATH_FROM, className="inline-label"),
+                  dcc.Dropdown(id=ids.PATH_FROM, options=[
+                      {"label": "one step ahead only", "value": "none"},
+                      {"label": "+ map iterated from the first observation", "value": "first"},
+                      {"label": "+ map iterated from the last observation", "value": "last"}],
+                      value="none", clearable=False, searchable=False, className="path-pick")],
+                  className="path-row"),
+               _graph(ids.G_TRAJECTORY, 320),
                html.Div(id=ids.TRAJECTORY_NOTE, className="hint")]),
         _card(4, "Observed against predicted",
               "Points on the dotted 1:1 line are predicted exactly; increments predict one step ahead.",

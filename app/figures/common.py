@@ -40,12 +40,39 @@ def base_layout(x_title: str, y_title: str, *, uirevision: str | None = None, ti
         "margin": {"l": 8, "r": 34, "t": 30 if title else 10, "b": 8},
         "modebar": {"orientation": "v", "bgcolor": "rgba(255,255,255,0.8)", "color": theme.MUTED,
                     "activecolor": theme.INK},
-        "legend": {"orientation": "h", "yanchor": "bottom", "y": 1.0, "x": 0.0, "font": {"size": 11},
-                   "bgcolor": "rgba(255,255,255,0.7)"},
         "hovermode": "closest",
         "uirevision": uirevision,
-        "showlegend": True,
+        # The forms' key is one list beside the panels (and outside the plot in an export), never
+        # a legend inside each small panel, where it took the room of the plot.
+        "showlegend": False,
     }
+
+
+#: Where an exported figure keeps its key: right of the plot area, top-aligned.
+EXPORT_LEGEND: dict[str, Any] = {"orientation": "v", "x": 1.02, "xanchor": "left", "y": 1.0, "yanchor": "top",
+                                 "font": {"size": 11}, "bgcolor": "rgba(0,0,0,0)", "tracegroupgap": 2}
+
+
+def state_axis(axis: dict[str, Any], scale: str | None) -> dict[str, Any]:
+    """An axis of the state p on a linear or log scale (``scale`` is 'log' or anything else)."""
+    if scale == "log":
+        axis.update(type="log")
+        title = axis.get("title") or {}
+        if isinstance(title, dict) and title.get("text") and "log scale" not in title["text"]:
+            title["text"] = f"{title['text']}, log scale"
+    return axis
+
+
+def non_positive_note(values: Sequence[float | None], scale: str | None) -> list[dict[str, Any]]:
+    """An annotation counting the values a log axis cannot show, or nothing."""
+    if scale != "log":
+        return []
+    hidden = sum(1 for v in values if v is not None and v <= 0)
+    if not hidden:
+        return []
+    return [{"text": f"{hidden} value{'s' if hidden != 1 else ''} ≤ 0 not shown on the log scale",
+             "xref": "paper", "yref": "paper", "x": 1.0, "y": 0.0, "xanchor": "right", "yanchor": "bottom",
+             "showarrow": False, "font": {"size": 11, "color": theme.MUTED}, "bgcolor": "rgba(255,255,255,0.8)"}]
 
 
 def observation_trace(x: Sequence[float | None], y: Sequence[float | None], index: Sequence[int],
@@ -81,34 +108,75 @@ def highlight_trace() -> dict[str, Any]:
 SYMBOLS = ("circle", "square", "diamond", "triangle-up", "cross", "x")
 
 
-def fit_styles(fits: Sequence[Mapping[str, Any]]) -> list[dict[str, str]]:
+def form_order(fits: Sequence[Mapping[str, Any]], models: Sequence[str] | None = None) -> list[str]:
+    """The forms in the order that gives each its colour: the chosen forms, then any other fitted."""
+    order = list(dict.fromkeys(models or []))
+    for f in fits:
+        if f["model"] not in order:
+            order.append(f["model"])
+    return order
+
+
+def form_style(k: int, method: str, both: bool) -> dict[str, str]:
+    """Colour, dash and marker of the k-th form fitted by ``method``; ``both`` when both methods show."""
+    colour, dash = theme.form_style(k)
+    if both:
+        dash = "solid" if method == "trajectory" else "dot"
+    symbol = SYMBOLS[k % len(SYMBOLS)] + ("-open" if both and method == "increments" else "")
+    return {"colour": colour, "dash": dash, "symbol": symbol}
+
+
+def fit_styles(fits: Sequence[Mapping[str, Any]], models: Sequence[str] | None = None) -> list[dict[str, str]]:
     """Colour, dash and marker of each fit: one colour per form in every panel; when both methods
-    are shown, the dash tells them apart (solid: trajectory, dotted: increments)."""
-    models: list[str] = []
-    for f in fits:
-        if f["model"] not in models:
-            models.append(f["model"])
+    are shown, the dash tells them apart (solid: trajectory, dotted: increments).
+
+    ``models`` (the chosen forms, in order) fixes the colours, so that a form keeps its colour when
+    another form cannot be fitted; without it the order of ``fits`` decides.
+    """
+    order = form_order(fits, models)
     both = len({f["method"] for f in fits}) > 1
-    out = []
-    for f in fits:
-        k = models.index(f["model"])
-        colour, dash = theme.form_style(k)
-        if both:
-            dash = "solid" if f["method"] == "trajectory" else "dot"
-        symbol = SYMBOLS[k % len(SYMBOLS)] + ("-open" if both and f["method"] == "increments" else "")
-        out.append({"colour": colour, "dash": dash, "symbol": symbol})
-    return out
+    return [form_style(order.index(f["model"]), f["method"], both) for f in fits]
 
 
-def message_figure(text: str) -> Figure:
-    """A blank panel that says why it is blank."""
+def form_key(fits: Sequence[Mapping[str, Any]], models: Sequence[str] | None = None) -> list[dict[str, Any]]:
+    """One entry per fit for the key beside the panels: label, style and whether it is drawn."""
+    return [{"label": f["label"], "model": f["model"], "method": f["method"], **style,
+             "drawn": f.get("status") == "converged", "status": f.get("status", "")}
+            for f, style in zip(fits, fit_styles(fits, models))]
+
+
+def points_marker(style: Mapping[str, str], size: float = 6) -> dict[str, Any]:
+    """The marker of a form's points: filled with a dark rim, or open in the form's colour."""
+    open_ = style["symbol"].endswith("-open")
+    return {"size": size, "color": style["colour"], "symbol": style["symbol"],
+            "line": {"width": 1.5 if open_ else 0.5, "color": style["colour"] if open_ else theme.INK}}
+
+
+def wrap(text: str, width: int = 50) -> str:
+    """Plotly annotations do not wrap: break ``text`` into lines of at most ``width`` characters."""
+    lines: list[str] = []
+    for paragraph in text.split("\n"):
+        line = ""
+        for word in paragraph.split():
+            if line and len(line) + 1 + len(word) > width:
+                lines.append(line)
+                line = word
+            else:
+                line = f"{line} {word}" if line else word
+        lines.append(line)
+    return "<br>".join(lines)
+
+
+def message_figure(text: str, *, width: int = 50) -> Figure:
+    """A blank panel that says why it is blank (and what to do), wrapped to fit a narrow panel."""
     layout = base_layout("", "")
     layout["xaxis"].update(visible=False)
     layout["yaxis"].update(visible=False)
     layout["annotations"] = [{
-        "text": text, "xref": "paper", "yref": "paper", "x": 0.5, "y": 0.5, "showarrow": False,
-        "font": {"size": 13, "color": theme.MUTED},
+        "text": wrap(text, width), "xref": "paper", "yref": "paper", "x": 0.5, "y": 0.5, "showarrow": False,
+        "font": {"size": 13, "color": theme.MUTED}, "align": "center",
     }]
+    layout["meta"] = {"message": text}
     layout["showlegend"] = False
     return {"data": [], "layout": layout}
 

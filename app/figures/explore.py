@@ -5,7 +5,13 @@ from __future__ import annotations
 from typing import Any, Mapping, Sequence
 
 from app import theme
-from app.figures.common import Figure, axis_title, base_layout, highlight_trace, message_figure, observation_trace, rate_unit
+from app.figures.common import (Figure, axis_title, base_layout, form_style, highlight_trace, message_figure,
+                                non_positive_note, observation_trace, points_marker, rate_unit, state_axis)
+
+#: What panel 2 says when no chosen form has a single rate term to regress on.
+NO_CANDIDATE = ("This panel regresses the change per step on one rate term, and no chosen form has one{why}. "
+                "To use it, choose a difference form with a rate term (geometric, discrete logistic, discrete "
+                "Gompertz, theta-logistic, Allee) or write your own custom rate terms.")
 
 
 def _row_of(labels: Mapping[str, Any], i: int) -> int:
@@ -13,11 +19,13 @@ def _row_of(labels: Mapping[str, Any], i: int) -> int:
     return int(rows[i]) if rows else i + 1
 
 
-def change_figure(change: Mapping[str, Any], labels: Mapping[str, Any], *, against: str = "state") -> Figure:
+def change_figure(change: Mapping[str, Any], labels: Mapping[str, Any], *, against: str = "state",
+                  scale: str | None = None) -> Figure:
     """Δp per unit time at the start of each step, against the state p (or against time t).
 
     ``change`` holds lists ``index, t, p, rate, used`` (one entry per pair of observations one step
-    apart, from :func:`growthcore.explore.change_table`) and ``message``.
+    apart, from :func:`growthcore.explore.change_table`) and ``message``. ``scale`` 'log' puts the
+    state axis on a log scale.
     """
     if not change.get("index"):
         return message_figure("no pairs of observations one step apart: " + change.get("message", ""))
@@ -29,7 +37,9 @@ def change_figure(change: Mapping[str, Any], labels: Mapping[str, Any], *, again
         x, x_title, xh = change["p"], axis_title(f"{qty} at the start of the step", vu), f"p = %{{x:.4g}} {vu}"
     layout = base_layout(x_title, y_title, uirevision=labels.get("uirevision"))
     layout["shapes"] = [_zero_line()]
-    layout["showlegend"] = False
+    if against != "time":
+        state_axis(layout["xaxis"], scale)
+        layout["annotations"] = non_positive_note(change["p"], scale)
     rows = [_row_of(labels, i) for i in change["index"]]
     hover = f"{xh}<br>Δp/Δt = %{{y:.4g}} {rate_unit(vu, tu)}<br>row %{{customdata[1]}}"
     trace = observation_trace(x, change["rate"], change["index"], rows, change["used"], name="change per step",
@@ -37,17 +47,31 @@ def change_figure(change: Mapping[str, Any], labels: Mapping[str, Any], *, again
     return {"data": [trace, highlight_trace()], "layout": layout}
 
 
-def candidate_figure(candidates: Sequence[Mapping[str, Any]], labels: Mapping[str, Any]) -> Figure:
+def candidate_figure(candidates: Sequence[Mapping[str, Any]], labels: Mapping[str, Any], *, both: bool = False,
+                     notes: Sequence[str] = ()) -> Figure:
     """Δp per step against each candidate term g(p; K), with its fitted line through the origin.
 
     Each candidate holds ``label, status, message, index, g, dp, fitted, slope, r2_uncentered`` as
     computed by :func:`growthcore.explore.candidate_fit`, and optionally ``style``: the position of its
-    form among the fits, so that a form has one colour in every panel.
+    form among the chosen forms, so that a form has one colour and marker in every panel (``both``:
+    both methods are shown, and this panel is the increments method's). ``notes`` say why forms have
+    no candidate; the blank panel repeats them and says what to do.
     """
     shown = [c for c in candidates if c.get("status") == "converged" and c.get("g")]
     if not shown:
-        reasons = "; ".join(f"{c['label']}: {c['message']}" for c in candidates) or "choose a form with a rate term"
-        return message_figure(reasons)
+        if candidates:
+            return message_figure("No candidate term could be fitted: " + "; ".join(
+                f"g = {c['label']}: {c['message']}" for c in candidates) + ".")
+        curves = [n.split(":", 1)[0] for n in notes if "closed-form curve" in n]
+        other = [n.split(":", 1)[0] for n in notes if "closed-form curve" not in n]
+        why = ""
+        if curves:
+            why = f" (closed-form curves such as {', '.join(curves[:2])} have no change per step"
+            why += f"; {', '.join(other[:2])} {'is' if len(other) == 1 else 'are'} not a multiple of one term)" \
+                if other else ")"
+        elif other:
+            why = f" ({', '.join(other[:3])} {'is' if len(other) == 1 else 'are'} not a multiple of one term)"
+        return message_figure(NO_CANDIDATE.format(why=why))
     vu = labels.get("value_unit", "")
     h = labels.get("h")
     tu = labels.get("time_unit", "")
@@ -57,12 +81,13 @@ def candidate_figure(candidates: Sequence[Mapping[str, Any]], labels: Mapping[st
     layout["shapes"] = [_zero_line()]
     data = []
     for k, c in enumerate(shown):
-        colour, dash = theme.form_style(int(c.get("style", k)))
+        style = form_style(int(c.get("style", k)), "increments", both)
+        colour, dash = style["colour"], style["dash"]
         rows = [_row_of(labels, i) for i in c["index"]]
         used = [True] * len(c["index"])
         trace = observation_trace(c["g"], c["dp"], c["index"], rows, used, name=f"g = {c['label']}",
                                   hover=f"g = %{{x:.4g}}<br>Δp = %{{y:.4g}} {vu}<br>row %{{customdata[1]}}")
-        trace["marker"].update(color=colour, symbol="circle", line={"width": 0.6, "color": theme.INK}, size=6)
+        trace["marker"] = points_marker(style)
         trace["legendgroup"] = c["label"]
         trace["showlegend"] = False
         data.append(trace)

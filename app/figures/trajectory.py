@@ -1,75 +1,113 @@
-"""Panel 3: observations over time, every fitted form's path, and the draggable capacity line."""
+"""Panel 3: observations over time, every fitted form, and the capacity line K with its drag handle."""
 
 from __future__ import annotations
 
 from typing import Any, Mapping, Sequence
 
 from app import theme
-from app.figures.common import (Figure, axis_title, base_layout, fit_styles, highlight_trace, observation_trace,
-                                rows_or_positions)
+from app.figures.common import (Figure, axis_title, base_layout, fit_styles, highlight_trace, non_positive_note,
+                                observation_trace, points_marker, rows_or_positions, state_axis)
 
-#: Position of the capacity line in ``layout.shapes``; the drag callback reads ``shapes[0].y0``.
-CAPACITY_SHAPE = 0
+#: ``layout.shapes``: the K line, then its drag handle; the drag callback reads the handle.
+CAPACITY_LINE = 0
+CAPACITY_SHAPE = 1
+#: The handle sits in the right margin, outside the plot area, so it never covers a point.
+HANDLE_PX = (5, 23)
+RIGHT_MARGIN = 62
+#: How an increments fit's map may be drawn beside its one-step-ahead predictions.
+PATH_CHOICES = ("none", "first", "last")
+PATH_NAMES = {"first": "iterated from the first observation", "last": "iterated from the last observation"}
 
 
 def trajectory_figure(data: Mapping[str, Any], used: Sequence[bool], fits: Sequence[Mapping[str, Any]],
-                      capacity: float | None, labels: Mapping[str, Any]) -> Figure:
-    """Observations (open circles when excluded), fitted paths, and K as a horizontal line.
+                      capacity: float | None, labels: Mapping[str, Any], *, models: Sequence[str] | None = None,
+                      scale: str | None = None, path_from: str = "none", editable: bool = True) -> Figure:
+    """Observations (open circles when excluded), each fit as what it fits, and K as a line.
 
-    ``fits`` are the plain fits of :func:`app.state.fit_to_store`; a difference form's path is the
-    map iterated on its grid (from the fitted p0, or from the first observation for the increments
-    method), a curve's is the closed form.
+    ``fits`` are the plain fits of :func:`app.state.fit_to_store`. A trajectory fit is drawn as its
+    path (a difference form's map iterated on its grid, or the closed-form curve). An increments fit
+    predicts each observation from the one before, so it is drawn as those one-step-ahead predictions;
+    ``path_from`` ('first' or 'last') adds its map iterated from the first observation or from the
+    last one onward, labelled as such. ``scale`` 'log' puts the state axis on a log scale.
+    ``editable`` False leaves out the drag handle (exported figures).
     """
+    if path_from not in PATH_CHOICES:
+        path_from = "none"
     qty, vu, tu = labels["quantity"], labels.get("value_unit", ""), labels.get("time_unit", "")
     layout = base_layout(axis_title("Time", tu), axis_title(qty, vu), uirevision=labels.get("uirevision"))
+    state_axis(layout["yaxis"], scale)
     n = len(data["t"])
     rows = rows_or_positions(data.get("rows"), n)
     obs = observation_trace(data["t"], data["p"], list(range(n)), rows, used, name="observed",
                             hover=f"t = %{{x:.4g}} {tu}<br>p = %{{y:.4g}} {vu}<br>row %{{customdata[1]}}"
                                   "<br>click to exclude or restore")
     traces: list[dict[str, Any]] = []
-    styles = fit_styles(fits)
+    styles = fit_styles(fits, models)
     for k, f in enumerate(fits):
-        if f.get("status") != "converged" or not f.get("path"):
+        if f.get("status") != "converged":
             continue
-        colour, dash = styles[k]["colour"], styles[k]["dash"]
-        difference = not f["model"].endswith("-curve")
-        note = " — simulated from the first observation" if f["method"] == "increments" else ""
-        traces.append({
-            "type": "scatter", "mode": "lines+markers" if difference else "lines",
-            "x": f["path"]["t"], "y": f["path"]["p"], "name": f["label"],
-            "line": {"color": colour, "dash": dash, "width": 2, "shape": "linear"},
-            "marker": {"size": 3, "color": colour},
-            "hovertemplate": f"{f['label']}{note}<br>t = %{{x:.4g}} {tu}<br>p̂ = %{{y:.4g}} {vu}<extra></extra>",
-        })
+        style = styles[k]
+        if f["method"] == "increments" and f.get("predicted"):
+            traces.append({
+                "type": "scatter", "mode": "markers", "x": f["t"], "y": f["predicted"],
+                "name": f"{f['label']}: one step ahead", "marker": points_marker(style, 7),
+                "hovertemplate": f"{f['label']}<br>one step ahead from the observation before<br>"
+                                 f"t = %{{x:.4g}} {tu}<br>p̂ = %{{y:.4g}} {vu}<extra></extra>",
+            })
+            path = f.get("path") if path_from == "first" else f.get("path_last") if path_from == "last" else None
+            if path:
+                traces.append(_line(f, style, path, f"{f['label']}: {PATH_NAMES[path_from]}", tu, vu, width=1.5))
+        elif f.get("path"):
+            traces.append(_line(f, style, f["path"], f["label"], tu, vu, width=2))
     layout["shapes"] = []
     if capacity is not None:
         layout["shapes"].append(capacity_shape(capacity, vu))
+        if editable:
+            layout["shapes"].append(capacity_handle(capacity))
+            layout["margin"] = dict(layout["margin"], r=RIGHT_MARGIN)
+    layout["annotations"] = non_positive_note(data["p"], scale)
     return {"data": [*traces, obs, highlight_trace()], "layout": layout}
 
 
+def _line(f: Mapping[str, Any], style: Mapping[str, str], path: Mapping[str, Any], name: str, tu: str, vu: str,
+          *, width: float) -> dict[str, Any]:
+    difference = not f["model"].endswith("-curve")
+    return {
+        "type": "scatter", "mode": "lines+markers" if difference else "lines", "x": path["t"], "y": path["p"],
+        "name": name, "line": {"color": style["colour"], "dash": style["dash"], "width": width, "shape": "linear"},
+        "marker": {"size": 3, "color": style["colour"]},
+        "hovertemplate": f"{name}<br>t = %{{x:.4g}} {tu}<br>p̂ = %{{y:.4g}} {vu}<extra></extra>",
+    }
+
+
 def capacity_shape(capacity: float, unit: str) -> dict[str, Any]:
-    """The horizontal K line; editable so that dragging it reports a new ``y0`` through relayoutData."""
+    """The horizontal K line. It takes no pointer events: points on it stay clickable."""
     return {
         "type": "line", "xref": "paper", "x0": 0, "x1": 1, "yref": "y", "y0": capacity, "y1": capacity,
-        "line": {"color": theme.CAPACITY, "width": 3, "dash": "dash"},
-        "editable": True,
-        "label": {"text": f"K estimate = {capacity:.4g} {unit} — drag to move",
-                  "textposition": "start", "xanchor": "left", "yanchor": "top", "font": {"color": theme.CAPACITY, "size": 12}},
+        "line": {"color": theme.CAPACITY, "width": 2.5, "dash": "dash"}, "layer": "below",
+        "label": {"text": f"K = {capacity:.4g} {unit}", "textposition": "start", "xanchor": "left",
+                  "yanchor": "top", "font": {"color": theme.CAPACITY, "size": 12}},
+    }
+
+
+def capacity_handle(capacity: float) -> dict[str, Any]:
+    """A small tab at the K line's right end, in the margin; dragging it reports a new ``yanchor``."""
+    return {
+        "type": "rect", "editable": True, "xref": "paper", "xsizemode": "pixel", "xanchor": 1,
+        "x0": HANDLE_PX[0], "x1": HANDLE_PX[1], "yref": "y", "ysizemode": "pixel", "yanchor": capacity,
+        "y0": -8, "y1": 8, "fillcolor": theme.CAPACITY, "opacity": 0.9,
+        "line": {"color": theme.CAPACITY, "width": 1}, "name": "drag to move K",
     }
 
 
 def capacity_from_relayout(relayout: Mapping[str, Any] | None) -> float | None:
-    """The new K from a drag of the capacity line, or None when the event is about something else."""
+    """The new K from a drag of the K handle, or None when the event is about something else."""
     if not relayout:
         return None
-    keys = [f"shapes[{CAPACITY_SHAPE}].y0", f"shapes[{CAPACITY_SHAPE}].y1"]
-    values = [float(relayout[k]) for k in keys if k in relayout and relayout[k] is not None]
-    if not values:
-        shapes = relayout.get("shapes")
-        if isinstance(shapes, list) and len(shapes) > CAPACITY_SHAPE:
-            s = shapes[CAPACITY_SHAPE]
-            values = [float(s[k]) for k in ("y0", "y1") if k in s]
-    if not values:
-        return None
-    return max(values) if len(values) == 1 else sum(values) / len(values)
+    key = f"shapes[{CAPACITY_SHAPE}].yanchor"
+    if relayout.get(key) is not None:
+        return float(relayout[key])
+    shapes = relayout.get("shapes")
+    if isinstance(shapes, list) and len(shapes) > CAPACITY_SHAPE and shapes[CAPACITY_SHAPE].get("yanchor") is not None:
+        return float(shapes[CAPACITY_SHAPE]["yanchor"])
+    return None

@@ -180,6 +180,26 @@ class FitResult:
             t = np.linspace(min(self.time_origin, t0), t_end, points)
         return t, self.predict(t)
 
+    def iterated_path(self, start: str, t_end: float) -> tuple[Array, Array]:
+        """A difference form's map iterated on its grid from the first or the last fitted observation.
+
+        ``start`` is ``"first"`` (from the fit's starting level at the first grid time, as
+        :meth:`path` draws it) or ``"last"`` (from the last observation the fit used, forward to
+        ``t_end``). An increments fit predicts one step ahead from each observed state; this is what
+        the same map does when fed its own output instead.
+        """
+        if start not in ("first", "last"):
+            raise GrowthcoreInputError(f"start must be 'first' or 'last'; got {start!r}")
+        if not self.success or self.form is None:
+            raise GrowthcoreInputError(f"the {self.model} fit did not converge: nothing to iterate")
+        if self.form.kind != "difference" or self.grid is None:
+            raise GrowthcoreInputError(f"{self.model} is a closed-form curve: it has no map to iterate")
+        if start == "first":
+            return self.path(t_end)
+        t_last, p_last = float(self.t[-1]), float(self.observed[-1])
+        steps = max(int(math.floor((t_end - t_last) / self.grid.h + 1e-9)), 0)
+        return t_last + self.grid.h * np.arange(steps + 1), iterate(self.form, p_last, self.values, steps)
+
     def to_dict(self) -> dict[str, Any]:
         """The fit as plain JSON-ready data, for the record."""
         out: dict[str, Any] = {
