@@ -17,20 +17,24 @@
     return typeof customdata === "number" ? customdata : null;
   }
 
+  /* One highlight trace per y axis (a residual panel with two error scales has two): each rings
+     the points of its own axis. */
   function ring(gd, index) {
     if (!gd || !gd.data || !window.Plotly) { return; }
-    var target = -1, xs = [], ys = [];
+    var targets = [], xs = [], ys = [];
     gd.data.forEach(function (trace, k) {
-      if (trace.meta === "highlight") { target = k; return; }
-      if (trace.meta !== "points" || index === null || !trace.customdata) { return; }
-      for (var i = 0; i < trace.customdata.length; i++) {
-        if (indexOf(trace.customdata[i]) === index) { xs.push(trace.x[i]); ys.push(trace.y[i]); }
-      }
+      if (trace.meta !== "highlight") { return; }
+      var axis = trace.yaxis || "y", tx = [], ty = [];
+      gd.data.forEach(function (pts) {
+        if (pts.meta !== "points" || index === null || !pts.customdata || (pts.yaxis || "y") !== axis) { return; }
+        for (var i = 0; i < pts.customdata.length; i++) {
+          if (indexOf(pts.customdata[i]) === index) { tx.push(pts.x[i]); ty.push(pts.y[i]); }
+        }
+      });
+      if ((trace.x || []).length === 0 && tx.length === 0) { return; }
+      targets.push(k); xs.push(tx); ys.push(ty);
     });
-    if (target < 0) { return; }
-    var current = gd.data[target];
-    if ((current.x || []).length === 0 && xs.length === 0) { return; }
-    window.Plotly.restyle(gd, {x: [xs], y: [ys]}, [target]);
+    if (targets.length) { window.Plotly.restyle(gd, {x: xs, y: ys}, targets); }
   }
 
   window.dash_clientside = Object.assign({}, window.dash_clientside, {

@@ -111,7 +111,7 @@ def test_capacity_initial_then_input_then_drag(demo: dict, settings: dict) -> No
     assert k0 == slider and low == 0 and high > max(demo["p"])
     typed = update_capacity(ids.K_INPUT, 3.5, None, None, demo, settings, None, k0)
     assert typed[0] == 3.5 and typed[1] is no_update and typed[2] == 3.5
-    dragged = update_capacity(ids.G_TRAJECTORY, None, None, {"shapes[1].yanchor": 3.91},
+    dragged = update_capacity(ids.G_TRAJECTORY, None, None, {"shapes[0].yanchor": 3.91},
                               demo, settings, None, 3.5)
     assert dragged[0] == 3.91 and dragged[1] == 3.91
     zoom = update_capacity(ids.G_TRAJECTORY, None, None, {"xaxis.range[0]": 3}, demo, settings, None, 3.5)
@@ -180,7 +180,7 @@ def test_explore_panels_show_the_engine_slope(demo: dict, settings: dict) -> Non
 def test_panels_and_table_from_the_store(demo: dict, settings: dict) -> None:
     store = compute_fits(demo, None, settings, 4.2)
     traj, rt, rf, op, flag, note, key = draw_panels(store, 4.2, demo, None)
-    assert traj["layout"]["shapes"][0]["y0"] == 4.2 and "refitted" not in note and "one step ahead" in note
+    assert traj["layout"]["shapes"][0]["yanchor"] == 4.2 and "refitted" not in note and "one step ahead" in note
     assert "first observation" in draw_panels(store, 4.2, demo, None, path_from="first")[5]
     # the key lists every chosen form once, in the order the forms were chosen
     assert [li.children[1] for li in key[0].children[2:-1]] == [f"{m} (increments)" for m in settings["models"]]

@@ -82,9 +82,12 @@ def test_trajectory_figure_draws_each_fit_as_what_it_fits_and_a_k_handle(data: d
                                                                          fits: list[dict]) -> None:
     fig = trajectory_figure(data, list(series.used), fits, 20.0, labels_of(data))
     validate(fig)
-    line, handle = fig["layout"]["shapes"][:2]
-    # the line itself takes no clicks (points on it stay clickable); only the handle in the margin moves
-    assert not line.get("editable") and line["y0"] == line["y1"] == 20.0
+    # the line is a trace, which takes no clicks (points on it stay clickable); only the handle in the
+    # margin is a shape, and the only one, so dragging never starts on the plot
+    line = next(t for t in fig["data"] if t.get("meta") == "capacity")
+    assert line["y"] == [20.0, 20.0] and line["hoverinfo"] == "skip"
+    assert line["x"][0] == min(data["t"]) and line["x"][1] >= max(data["t"])
+    (handle,) = fig["layout"]["shapes"]
     assert handle["editable"] and handle["yanchor"] == 20.0 and handle["xref"] == "paper"
     assert handle["xsizemode"] == "pixel" and handle["xanchor"] == 1 and handle["x0"] > 0
     names = [t["name"] for t in fig["data"]]
@@ -107,9 +110,9 @@ def test_trajectory_figure_draws_each_fit_as_what_it_fits_and_a_k_handle(data: d
 
 
 def test_capacity_from_relayout_reads_the_dragged_handle() -> None:
-    assert capacity_from_relayout({"shapes[1].yanchor": 12.5, "shapes[1].xanchor": 1.1}) == 12.5
-    assert capacity_from_relayout({"shapes": [{}, {"yanchor": 7.0}]}) == 7.0
-    assert capacity_from_relayout({"shapes[0].y0": 12.5}) is None
+    assert capacity_from_relayout({"shapes[0].yanchor": 12.5, "shapes[1].xanchor": 1.1}) == 12.5
+    assert capacity_from_relayout({"shapes": [{"yanchor": 7.0}]}) == 7.0
+    assert capacity_from_relayout({"shapes[1].y0": 12.5}) is None
     assert capacity_from_relayout({"xaxis.range[0]": 1}) is None
     assert capacity_from_relayout(None) is None
 

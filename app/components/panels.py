@@ -71,7 +71,7 @@ def panels_section() -> html.Section:
                       {"label": "+ map iterated from the last observation", "value": "last"}],
                       value="none", clearable=False, searchable=False, className="path-pick")],
                   className="path-row"),
-               _graph(ids.G_TRAJECTORY, 320),
+               _graph(ids.G_TRAJECTORY, 320, edits={"shapePosition": True}),
                html.Div(id=ids.TRAJECTORY_NOTE, className="hint")]),
         _card(4, "Observed against predicted",
               "Points on the dotted 1:1 line are predicted exactly; increments predict one step ahead.",

@@ -2,15 +2,17 @@
 
 from __future__ import annotations
 
+import math
 from typing import Any, Mapping, Sequence
 
 from app import theme
 from app.figures.common import (Figure, axis_title, base_layout, fit_styles, highlight_trace, non_positive_note,
                                 observation_trace, points_marker, rows_or_positions, state_axis)
 
-#: ``layout.shapes``: the K line, then its drag handle; the drag callback reads the handle.
-CAPACITY_LINE = 0
-CAPACITY_SHAPE = 1
+#: ``layout.shapes``: the K line's drag handle comes first; the drag callback reads it. The line is a
+#: trace: a shape on a graph whose shapes can be dragged takes every click along it.
+CAPACITY_SHAPE = 0
+CAPACITY_TRACE = "capacity"   # meta of the K line trace
 #: The handle sits in the right margin, outside the plot area, so it never covers a point.
 HANDLE_PX = (5, 23)
 RIGHT_MARGIN = 62
@@ -48,11 +50,14 @@ def trajectory_figure(data: Mapping[str, Any], used: Sequence[bool], fits: Seque
             continue
         style = styles[k]
         if f["method"] == "increments" and f.get("predicted"):
+            # customdata names the predicted observation, so a click here excludes that observation
             traces.append({
                 "type": "scatter", "mode": "markers", "x": f["t"], "y": f["predicted"],
                 "name": f"{f['label']}: one step ahead", "marker": points_marker(style, 7),
+                "customdata": [[int(i), rows[int(i)]] for i in f.get("index", [])],
                 "hovertemplate": f"{f['label']}<br>one step ahead from the observation before<br>"
-                                 f"t = %{{x:.4g}} {tu}<br>p̂ = %{{y:.4g}} {vu}<extra></extra>",
+                                 f"t = %{{x:.4g}} {tu}<br>p̂ = %{{y:.4g}} {vu}<br>row %{{customdata[1]}}"
+                                 "<br>click to exclude or restore<extra></extra>",
             })
             path = f.get("path") if path_from == "first" else f.get("path_last") if path_from == "last" else None
             if path:
@@ -61,11 +66,13 @@ def trajectory_figure(data: Mapping[str, Any], used: Sequence[bool], fits: Seque
             traces.append(_line(f, style, f["path"], f["label"], tu, vu, width=2))
     layout["shapes"] = []
     if capacity is not None:
-        layout["shapes"].append(capacity_shape(capacity, vu))
+        xs = [v for t in (data["t"], *(tr["x"] for tr in traces)) for v in t if v is not None]
+        traces.insert(0, capacity_trace(capacity, (min(xs), max(xs)) if xs else (0.0, 1.0)))
+        layout["annotations"] = [capacity_label(capacity, vu, scale)]
         if editable:
             layout["shapes"].append(capacity_handle(capacity))
             layout["margin"] = dict(layout["margin"], r=RIGHT_MARGIN)
-    layout["annotations"] = non_positive_note(data["p"], scale)
+    layout["annotations"] = [*layout.get("annotations", []), *non_positive_note(data["p"], scale)]
     return {"data": [*traces, obs, highlight_trace()], "layout": layout}
 
 
@@ -80,14 +87,19 @@ def _line(f: Mapping[str, Any], style: Mapping[str, str], path: Mapping[str, Any
     }
 
 
-def capacity_shape(capacity: float, unit: str) -> dict[str, Any]:
-    """The horizontal K line. It takes no pointer events: points on it stay clickable."""
-    return {
-        "type": "line", "xref": "paper", "x0": 0, "x1": 1, "yref": "y", "y0": capacity, "y1": capacity,
-        "line": {"color": theme.CAPACITY, "width": 2.5, "dash": "dash"}, "layer": "below",
-        "label": {"text": f"K = {capacity:.4g} {unit}", "textposition": "start", "xanchor": "left",
-                  "yanchor": "top", "font": {"color": theme.CAPACITY, "size": 12}},
-    }
+def capacity_trace(capacity: float, x_range: tuple[float, float]) -> dict[str, Any]:
+    """The horizontal K line across the drawn times; it takes no hover and no clicks."""
+    return {"type": "scatter", "mode": "lines", "x": list(x_range), "y": [capacity, capacity], "name": "K estimate",
+            "meta": CAPACITY_TRACE, "hoverinfo": "skip",
+            "line": {"color": theme.CAPACITY, "width": 2.5, "dash": "dash"}}
+
+
+def capacity_label(capacity: float, unit: str, scale: str | None = None) -> dict[str, Any]:
+    """'K = 4.1 g/L' just under the line at its left end (on a log axis plotly places it by log10 K)."""
+    y = math.log10(capacity) if scale == "log" and capacity > 0 else capacity
+    return {"text": f"K = {capacity:.4g} {unit}".strip(), "xref": "paper", "x": 0.0, "xanchor": "left",
+            "yref": "y", "y": y, "yanchor": "top", "showarrow": False,
+            "font": {"color": theme.CAPACITY, "size": 12}, "bgcolor": "rgba(255,255,255,0.7)"}
 
 
 def capacity_handle(capacity: float) -> dict[str, Any]:
@@ -95,7 +107,7 @@ def capacity_handle(capacity: float) -> dict[str, Any]:
     return {
         "type": "rect", "editable": True, "xref": "paper", "xsizemode": "pixel", "xanchor": 1,
         "x0": HANDLE_PX[0], "x1": HANDLE_PX[1], "yref": "y", "ysizemode": "pixel", "yanchor": capacity,
-        "y0": -8, "y1": 8, "fillcolor": theme.CAPACITY, "opacity": 0.9,
+        "y0": -8, "y1": 8, "fillcolor": theme.CAPACITY, "opacity": 0.9, "layer": "above",
         "line": {"color": theme.CAPACITY, "width": 1}, "name": "drag to move K",
     }
 

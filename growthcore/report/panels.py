@@ -266,7 +266,7 @@ def app_panels(record: Mapping[str, Any], fits: Sequence[FitResult]) -> dict[str
     stored = [fit_to_store(f, series) for f in fits]
     capacity = (record.get("settings") or {}).get("capacity")
     figures = {
-        "data": trajectory_figure(plain, [bool(u) for u in series.used], stored, capacity, labels),
+        "data": trajectory_figure(plain, [bool(u) for u in series.used], stored, capacity, labels, editable=False),
         "residuals": residual_time_figure(stored, labels),
         "residuals-fitted": residual_fitted_figure(stored, labels),
         "observed-predicted": observed_predicted_figure(stored, labels),
@@ -277,7 +277,9 @@ def app_panels(record: Mapping[str, Any], fits: Sequence[FitResult]) -> dict[str
 
 
 def _for_export(fig: Figure, title: str) -> None:
-    """Drop what only makes sense under a pointer (the hover highlight, the draggable K line)."""
+    """Drop what only makes sense under a pointer (the hover highlight, the K handle); add the key."""
+    from app.figures.common import EXPORT_LEGEND
+
     fig["data"] = [t for t in fig["data"] if t.get("meta") != "highlight"]
     layout = fig["layout"]
     # A family name with a digit must be quoted in CSS, or the browser drops the whole list
@@ -287,9 +289,10 @@ def _for_export(fig: Figure, title: str) -> None:
             f'"{n.strip()}"' if " " in n.strip() and not n.strip().startswith('"') else n.strip() for n in family.split(","))
     layout["title"] = {"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 14}}
     layout["margin"] = dict(layout.get("margin") or {}, t=60)
-    for shape in layout.get("shapes") or []:
-        if shape.pop("editable", False) and "label" in shape:
-            shape["label"]["text"] = shape["label"]["text"].replace(" — drag to move", "")
+    # a figure on its own needs its key: beside the plot area, never over the plot or the title
+    layout["showlegend"] = bool(fig["data"])
+    layout["legend"] = dict(EXPORT_LEGEND)
+    layout["shapes"] = [s for s in layout.get("shapes") or [] if not s.get("editable")]
 
 
 def panel_figures(record: Mapping[str, Any]) -> dict[str, Figure]:

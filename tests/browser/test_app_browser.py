@@ -105,15 +105,15 @@ def test_upload_switch_forms_and_change_k(server_url: str, make_driver: Any, art
     wait_idle(driver)
     shot(driver, artifacts, "04-k-by-input")
 
-    # change K by dragging the dashed line on the trajectory panel
+    # change K by dragging the handle at the right end of the dashed K line
     from selenium.webdriver.common.action_chains import ActionChains
 
     scroll_to(driver, "panel-trajectory")
     plot = driver.find_element(By.CSS_SELECTOR, "#panel-trajectory .js-plotly-plot")
     dx, dy = driver.execute_script(
-        "var gd = arguments[0], L = gd._fullLayout, r = gd.getBoundingClientRect();"
-        "var y = L.yaxis._offset + L.yaxis.l2p(L.shapes[0].y0), x = L.xaxis._offset + L.xaxis._length * 0.5;"
-        "return [x - r.width / 2, y - r.height / 2];", plot)
+        "var gd = arguments[0], r = gd.getBoundingClientRect();"
+        "var h = gd.querySelectorAll('.shape-group[data-index=\"0\"] path'), b = h[h.length - 1].getBoundingClientRect();"
+        "return [b.left + b.width / 2 - r.left - r.width / 2, b.top + b.height / 2 - r.top - r.height / 2];", plot)
     ActionChains(driver).move_to_element_with_offset(plot, int(dx), int(dy)).pause(0.3).click_and_hold() \
         .move_by_offset(0, 10).move_by_offset(0, 30).pause(0.2).release().perform()
     wait(driver, lambda d: d.find_element(By.ID, "model-k-input").get_attribute("value") not in ("90", ""))
