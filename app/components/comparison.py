@@ -38,15 +38,19 @@ def parameter_lines(params: Mapping[str, Mapping[str, Any]], profile: Sequence[f
     for name, p in params.items():
         value = fmt(p.get("value"))
         if p.get("fixed"):
-            text = f"{name} = {value} (held)"
+            parts = [f"{name} = {value}", "(held)"]
         elif p.get("ci95") and None not in p["ci95"]:
             lo, hi = p["ci95"]
-            text = f"{name} = {value}  [{fmt(lo)}, {fmt(hi)}]"
+            parts = [f"{name} = {value}", f"[{fmt(lo)}, {fmt(hi)}]"]
         else:
-            text = f"{name} = {value}  [no interval]"
+            parts = [f"{name} = {value}", "[no interval]"]
         if p.get("at_bound"):
-            text += " at bound"
-        out.append(html.Div(text, className="param"))
+            parts.append("at bound")
+        # a narrow table breaks a line between the value and its interval, never inside either
+        pieces: list[Any] = []
+        for piece in parts:
+            pieces += [" ", html.Span(piece, className="nowrap")] if pieces else [html.Span(piece, className="nowrap")]
+        out.append(html.Div(pieces, className="param"))
         if boot and not p.get("fixed") and boot.get(name):
             out.append(html.Div(f"{name} bootstrap [{fmt(boot[name][0])}, {fmt(boot[name][1])}]",
                                 className="param param-profile"))
