@@ -99,16 +99,19 @@
     if (!spec || !spec.images) { return nu; }
     if (!window.Plotly) { return "PNG export needs plotly.js, which has not loaded in this page."; }
     var jobs = spec.images.concat(spec.live || []);
-    var saved = [];
+    var saved = [], missed = [];
     var chain = Promise.resolve();
     jobs.forEach(function (job) {
       chain = chain.then(function () { return draw(job); }).then(function (bytes) {
-        if (bytes) { save(bytes, job.filename); saved.push(job.filename); }
+        if (bytes) { save(bytes, job.filename); saved.push(job.filename); } else { missed.push(job.filename); }
         return pause(150);  // a moment between files, so the browser takes each download
       });
     });
     chain.then(function () {
-      report(saved.length + " PNG images (" + spec.size + ") saved: " + saved.join(", ") + ".", false);
+      // the count said here is the count announced: every announced file, or the ones missing by name
+      var text = saved.length + " of " + jobs.length + " PNG images (" + spec.size + ") saved: " + saved.join(", ") + ".";
+      if (missed.length) { text += " Not drawn: " + missed.join(", ") + "."; }
+      report(text, missed.length > 0);
     }).catch(function (err) {
       report("PNG export stopped after " + saved.length + " images: " + (err && err.message ? err.message : err), true);
     });

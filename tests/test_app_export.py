@@ -100,7 +100,7 @@ def test_exported_record_validates_and_reads_back() -> None:
     stores = _session(["logistic", "ricker"], excluded=(5,))
     out = _export(*stores, forms=["logistic", "ricker"])
     text = out[0]["content"]
-    assert out[0]["filename"] == "Dry-weight-fit-record.json"
+    assert out[0]["filename"] == "algae_photobioreactor-Dry-weight-logistic_ricker-fit-record.json"
     record = json.loads(text)
     # the reference implementation of JSON Schema, not our own validator
     errors = list(jsonschema.Draft202012Validator(record_schema(record["format_version"])).iter_errors(record))
@@ -244,17 +244,56 @@ def test_html_report_holds_the_figures_and_the_record() -> None:
 @pytest.mark.parametrize("size", list(PANEL_SIZES))
 def test_image_jobs_have_the_preset_sizes(size: str) -> None:
     stores = _session(["logistic", "ricker"])
-    jobs = _export(*stores, forms=["logistic", "ricker"], what=["images"], size=size)[3]
-    panels = [j for j in jobs["images"] if not j["filename"].endswith("summary-sheet.png")]
-    sheet = [j for j in jobs["images"] if j["filename"].endswith("summary-sheet.png")]
-    assert len(sheet) == 1 and len(panels) >= 6 and len(jobs["live"]) == 2
+    out = _export(*stores, forms=["logistic", "ricker"], what=["images"], size=size)
+    jobs = out[3]
+    panels = [j for j in jobs["images"] if "summary-sheet" not in j["filename"]]
+    sheet = [j for j in jobs["images"] if "summary-sheet" in j["filename"]]
+    assert len(sheet) >= 1 and len(panels) >= 8
+    for live in ("change-against-state.png", "change-against-candidate-terms.png"):
+        assert sum(j["filename"].endswith(live) for j in panels) == 1, live
     want = PANEL_SIZES[size]
-    for job in panels + jobs["live"]:
+    for job in panels:
         assert job["pixels"] == [round(want.width * want.scale), round(want.height * want.scale)]
         assert job["dpi"] == want.dpi
+        assert job["figure"]["data"], job["filename"]  # nothing blank is announced
     assert sheet[0]["pixels"] == list(SHEET_SIZES[size].pixels)
-    assert {j["graph"] for j in jobs["live"]} == {ids.G_CHANGE, ids.G_CANDIDATE}
+    # the message announces exactly the files the browser is given to draw
+    assert f"{len(jobs['images'])} PNG images ({size}) follow" in str(out[4])
     json.dumps(jobs)  # the store must be plain JSON
+
+
+def test_exports_of_two_files_never_share_a_name() -> None:
+    stores = _session(["logistic"])
+    record = ex.session_record(*stores, forms=["logistic"])
+    other = json.loads(json.dumps(record))
+    other["data"]["source"] = "census_counts.xlsx"
+    assert ex.export_stem(record, ["logistic"]) == "algae_photobioreactor-Dry-weight-logistic"
+    assert ex.export_stem(other, ["logistic"]) == "census_counts-Dry-weight-logistic"
+    many = ["logistic", "gompertz", "ricker", "beverton-holt", "theta-logistic", "geometric"]
+    assert ex.export_stem(record, many) == "algae_photobioreactor-Dry-weight-logistic_gompertz_and-4-more"
+
+
+def test_a_panel_with_nothing_to_show_is_neither_drawn_nor_announced() -> None:
+    """Only closed-form curves: panel 2 has no candidate term, so no PNG of it is made or counted."""
+    stores = _session(["logistic-curve"], method="trajectory")
+    out = _export(*stores, forms=["logistic-curve"], what=["images"])
+    names = [j["filename"] for j in out[3]["images"]]
+    assert not any(n.endswith("change-against-candidate-terms.png") for n in names)
+    assert any(n.endswith("change-against-state.png") for n in names)
+    assert f"{len(names)} PNG images (screen) follow" in str(out[4])
+
+
+def test_exports_follow_the_screen_view() -> None:
+    """The log scale and the iterated path chosen on screen are kept in the exported figures."""
+    stores = _session(["logistic", "gompertz"])
+    out = ex.on_export(1, *stores, ["logistic", "gompertz"], ["images", "report"], "screen", None, None, "log",
+                       "last", "state", created=CREATED)
+    figs = {j["filename"].split("-logistic_gompertz-")[1]: j["figure"] for j in out[3]["images"]}
+    assert figs["data.png"]["layout"]["yaxis"]["type"] == "log"
+    assert figs["observed-predicted.png"]["layout"]["xaxis"]["type"] == "log"
+    assert figs["change-against-state.png"]["layout"]["xaxis"]["type"] == "log"
+    assert any("iterated from the last" in t.get("name", "") for t in figs["data.png"]["data"])
+    assert '"type": "log"' in out[2]["content"] or '"type":"log"' in out[2]["content"]
 
 
 def test_print_sheet_is_an_a4_page_at_300_dpi() -> None:

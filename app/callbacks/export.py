@@ -32,15 +32,18 @@ from growthcore.io.report import ImportResult
 from growthcore.record import DataSource, build_record, seal
 from growthcore.reopen import RecordError, parse_record, reopen
 from growthcore.report.images import PANEL_SIZES, SHEET_SIZES
-from growthcore.report.panels import panel_figures, summary_sheet
+from growthcore.report.panels import export_view, panel_figures, summary_sheets
 from growthcore.report.page import report_html
 from growthcore.limits import DEFAULT as LIMITS
 from growthcore.report.tables import residual_csv_text
 
-#: The dashboard's exploration panels have no counterpart in the record; the browser saves them
-#: as drawn, at the panel size.
-LIVE_PANELS = ((ids.G_CHANGE, "change-against-state"), (ids.G_CANDIDATE, "change-against-candidate-terms"))
+#: The dashboard's exploration panels have no counterpart in the record; they are drawn from the
+#: session as the screen shows them (a panel with nothing to show is left out, and not announced).
+LIVE_PANELS = ((ids.G_CHANGE, "change-against-state", "Change per unit time against the state"),
+               (ids.G_CANDIDATE, "change-against-candidate-terms", "Change per step against candidate terms"))
 SHEET = "summary-sheet"
+#: Longest run of form ids in a file name; beyond it the name counts the remaining forms.
+FORMS_IN_NAME = 40
 #: A record upload is refused beyond this size (base64 text), before decoding: the record size
 #: limit of ``growthcore fit --from-record``, which every accepted input stays under.
 MAX_RECORD_UPLOAD = 4 * (LIMITS.max_record_bytes // 3 + 1)
@@ -117,8 +120,48 @@ def file_stem(name: str) -> str:
     return stem[:60] or "series"
 
 
-def image_jobs(record: Mapping[str, Any], size: str, stem: str) -> dict[str, Any]:
-    """What the browser draws: each record panel and the sheet with its size, then the live panels."""
+def export_stem(record: Mapping[str, Any], forms: Sequence[str]) -> str:
+    """'algae_photobioreactor-Dry-weight-logistic_gompertz': source file, series and forms.
+
+    Two files' exports never share a name, nor do two series of one file; many forms are counted
+    ('logistic_gompertz_and-4-more') so that the name stays short.
+    """
+    data = record.get("data") or {}
+    source = str(data.get("source") or "data").replace("\\", "/").rsplit("/", 1)[-1]
+    source = source.rsplit(".", 1)[0] if "." in source.strip(".") else source
+    names = [file_stem(m) for m in forms]
+    joined = "_".join(names)
+    if len(joined) > FORMS_IN_NAME and len(names) > 2:
+        joined = f"{names[0]}_{names[1]}_and-{len(names) - 2}-more"
+    return "-".join(file_stem(part) for part in (source, str(data.get("name", "series")), joined))
+
+
+def view_options(scale: str | None = None, path_from: str | None = None, change_axis: str | None = None
+                 ) -> dict[str, Any]:
+    """How the screen draws the panels (state-axis scale, increments paths, panel 1's x axis): exports follow."""
+    return {"scale": "log" if scale == "log" else "linear",
+            "path_from": path_from if path_from in ("first", "last") else "none",
+            "change_axis": "time" if change_axis == "time" else "state"}
+
+
+def live_figures(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, settings: Mapping[str, Any],
+                 capacity: float | None, view: Mapping[str, Any]) -> dict[str, Any]:
+    """Panels 1 and 2 as the screen draws them, titled for a file; a panel with nothing to show is left out."""
+    from app.callbacks.explore import explore_panels
+
+    change, candidate, _readout = explore_panels(data, exclusions, settings, capacity, view["change_axis"],
+                                                 view["scale"])
+    out = {}
+    for (_graph, name, title), fig in zip(LIVE_PANELS, (change, candidate)):
+        if fig.get("data"):
+            out[name] = export_view(fig, title)
+    return out
+
+
+def image_jobs(record: Mapping[str, Any], size: str, stem: str, *, view: Mapping[str, Any] | None = None,
+               live: Mapping[str, Any] | None = None) -> dict[str, Any]:
+    """Every PNG the browser draws, each with its figure and size: the record's panels, the summary
+    sheet (and its continuation pages) and the live panels. The count announced is ``len(images)``."""
     if size not in PANEL_SIZES:
         raise GrowthcoreInputError(f"image size must be one of {', '.join(PANEL_SIZES)}; got {size!r}")
     panel, sheet = PANEL_SIZES[size], SHEET_SIZES[size]
@@ -127,12 +170,11 @@ def image_jobs(record: Mapping[str, Any], size: str, stem: str) -> dict[str, Any
         return {"filename": f"{stem}-{name}.png", "figure": fig, "width": s.width, "height": s.height,
                 "scale": s.scale, "dpi": s.dpi, "pixels": list(s.pixels)}
 
-    jobs = [job(name, fig, panel) for name, fig in panel_figures(record).items()]
-    jobs.append(job(SHEET, summary_sheet(record, landscape=sheet.width > sheet.height), sheet))
-    live = [dict(job(name, None, panel), graph=graph) for graph, name in LIVE_PANELS]
-    for j in live:
-        j.pop("figure")
-    return {"size": size, "images": jobs, "live": live}
+    jobs = [job(name, fig, panel) for name, fig in panel_figures(record, view=view).items()]
+    pages = summary_sheets(record, width=sheet.width, height=sheet.height, view=view)
+    jobs += [job(SHEET if k == 0 else f"{SHEET}-{k + 1}", fig, sheet) for k, fig in enumerate(pages)]
+    jobs += [job(name, fig, panel) for name, fig in (live or {}).items()]
+    return {"size": size, "images": jobs}
 
 
 def record_text(record: Mapping[str, Any]) -> str:
@@ -143,9 +185,12 @@ def record_text(record: Mapping[str, Any]) -> str:
 def on_export(n_clicks: int | None, data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
               settings: Mapping[str, Any] | None, capacity: float | None, forms: Sequence[str] | None,
               what: Sequence[str] | None, size: str | None, forecast_store: Mapping[str, Any] | None = None,
-              boot_done: Mapping[str, Any] | None = None, *,
-              created: _dt.datetime | None = None) -> tuple[Any, ...]:
-    """Outputs: record download, CSV download, HTML download, image jobs for the browser, message."""
+              boot_done: Mapping[str, Any] | None = None, scale: str | None = None, path_from: str | None = None,
+              change_axis: str | None = None, *, created: _dt.datetime | None = None) -> tuple[Any, ...]:
+    """Outputs: record download, CSV download, HTML download, image jobs for the browser, message.
+
+    ``scale``, ``path_from`` and ``change_axis`` are the panels' view controls: figures follow them.
+    """
     nothing = (no_update,) * 4
     if not n_clicks:
         return (*nothing, no_update)
@@ -160,8 +205,12 @@ def on_export(n_clicks: int | None, data: Mapping[str, Any] | None, exclusions: 
     try:
         record = session_record(data, exclusions, settings, capacity, forms=chosen, created=created,
                                 forecast_store=forecast_store, boot_done=boot_done)
-        stem = file_stem(str(record["data"].get("name", "series")))
-        images = image_jobs(record, size or "screen", stem) if "images" in what else no_update
+        stem = export_stem(record, chosen)
+        view = dict(view_options(scale, path_from, change_axis), models=list(settings.get("models", [])))
+        images = no_update
+        if "images" in what:
+            live = live_figures(data, exclusions, settings, capacity, view)
+            images = image_jobs(record, size or "screen", stem, view=view, live=live)
     except GrowthcoreInputError as exc:
         return (*nothing, _message(f"Not exported: {str(exc).splitlines()[0]}", error=True))
     files = []
@@ -173,13 +222,14 @@ def on_export(n_clicks: int | None, data: Mapping[str, Any] | None, exclusions: 
         csv = {"content": residual_csv_text(record), "filename": f"{stem}-residuals.csv", "type": "text/csv"}
         files.append(csv["filename"])
     if "report" in what:
-        page = {"content": report_html(record), "filename": f"{stem}-report.html", "type": "text/html"}
+        page = {"content": report_html(record, view=view), "filename": f"{stem}-report.html", "type": "text/html"}
         files.append(page["filename"])
     n_fits = len(record["fits"])
     head = f"Exported {n_fits} fit{'s' if n_fits != 1 else ''} of {len(chosen)} form{'s' if len(chosen) != 1 else ''}"
     tail = f": {', '.join(files)}" if files else ""
     if images is not no_update:
-        tail += ("; " if files else ": ") + f"{len(images['images']) + len(images['live'])} PNG images ({size}) follow"
+        n_png = len(images["images"])
+        tail += ("; " if files else ": ") + f"{n_png} PNG image{'s' if n_png != 1 else ''} ({size}) follow"
     digest = record["integrity"]["value"][:12]
     return (rec, csv, page, images, _message(f"{head}{tail}. Record SHA-256 {digest}…"))
 
@@ -323,6 +373,7 @@ def register(app: Dash) -> None:
         State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"), State(ids.SETTINGS, "data"),
         State(ids.CAPACITY, "data"), State(ids.EXPORT_FORMS, "value"), State(ids.EXPORT_WHAT, "value"),
         State(ids.EXPORT_SIZE, "value"), State(ids.FORECAST, "data"), State(ids.BOOT_DONE, "data"),
+        State(ids.STATE_SCALE, "value"), State(ids.PATH_FROM, "value"), State(ids.CHANGE_AXIS, "value"),
         prevent_initial_call=True, running=[(Output(ids.EXPORT_BUTTON, "disabled"), True, False)],
     )(on_export)
     app.clientside_callback(

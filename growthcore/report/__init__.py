@@ -28,16 +28,17 @@ def write_pngs(record: Mapping[str, Any], directory: str | os.PathLike[str], *, 
     """
     from growthcore.errors import GrowthcoreInputError
     from growthcore.report.images import PANEL_SIZES, SHEET_SIZES, custom_size, render_pngs
-    from growthcore.report.panels import panel_figures, summary_sheet
+    from growthcore.report.panels import panel_figures, summary_sheets
 
     if size not in PANEL_SIZES:
         raise GrowthcoreInputError(f"image size must be one of {', '.join(PANEL_SIZES)}; got {size!r}")
     panel_size = custom_size(PANEL_SIZES[size], width=width, height=height, scale=scale)
     sheet_size = custom_size(SHEET_SIZES[size], scale=scale)
     figures = panel_figures(record)
-    names = [*figures, SHEET_NAME]
-    figs = [*figures.values(), summary_sheet(record, landscape=sheet_size.width > sheet_size.height)]
-    sizes = [panel_size] * len(figures) + [sheet_size]
+    pages = summary_sheets(record, width=sheet_size.width, height=sheet_size.height)
+    names = [*figures, *(SHEET_NAME if k == 0 else f"{SHEET_NAME}-{k + 1}" for k in range(len(pages)))]
+    figs = [*figures.values(), *pages]
+    sizes = [panel_size] * len(figures) + [sheet_size] * len(pages)
     images = render_pngs(figs, sizes)
     out_dir = Path(directory)
     out_dir.mkdir(parents=True, exist_ok=True)

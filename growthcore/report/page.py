@@ -95,13 +95,15 @@ def _import_section(data: Mapping[str, Any]) -> str:
     return "\n".join(out)
 
 
-def report_html(record: Mapping[str, Any], *, plotlyjs: str | None = None) -> str:
-    """The whole report page as text. ``plotlyjs`` replaces the bundled plotly.js (for tests)."""
+def report_html(record: Mapping[str, Any], *, plotlyjs: str | None = None,
+                view: Mapping[str, Any] | None = None) -> str:
+    """The whole report page as text. ``plotlyjs`` replaces the bundled plotly.js (for tests);
+    ``view`` draws the figures as the screen does (see :func:`growthcore.report.panels.app_panels`)."""
     if plotlyjs is None:
         from plotly.offline import get_plotlyjs
 
         plotlyjs = get_plotlyjs()
-    figures = panel_figures(record)
+    figures = panel_figures(record, view=view)
     data = record["data"]
     config = {"displaylogo": False, "responsive": True}
     divs, calls = {}, []

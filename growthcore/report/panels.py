@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import html
 import math
+import re
 from typing import Any, Mapping, Sequence
 
 import numpy as np
@@ -219,16 +220,22 @@ def parameter_figure(record: Mapping[str, Any]) -> Figure:
                   [2.6, 0.8, 1.0, 0.8, 1.6, 0.9])
 
 
-def profile_figure(record: Mapping[str, Any]) -> Figure | None:
+def profile_figure(record: Mapping[str, Any], view: Mapping[str, Any] | None = None) -> Figure | None:
     """SSE against a fixed K for each fit that profiled K, with its threshold; None when none did."""
     traces = []
+    try:  # each form in the app's colour and dash, as in every other panel
+        from app.figures.common import fit_styles
+
+        styles = [(st["colour"], st["dash"]) for st in fit_styles(record["fits"], _models(record, view))]
+    except ImportError:
+        styles = [(COLOURS[i % 6], DASHES[i % 6]) for i in range(len(record["fits"]))]
     for i, f in enumerate(record["fits"]):
         prof = f.get("capacity_profile")
         if not prof:
             continue
-        colour = COLOURS[i % 6]
+        colour, dash = styles[i]
         traces.append({"type": "scatter", "mode": "lines", "name": esc(label(f)), "x": prof["K"], "y": prof["sse"],
-                       "line": {"color": colour, "dash": DASHES[i % 6]}})
+                       "line": {"color": colour, "dash": dash}})
         if prof.get("threshold") is not None:
             traces.append({"type": "scatter", "mode": "lines", "showlegend": False, "hoverinfo": "skip",
                            "x": [min(prof["K"]), max(prof["K"])], "y": [prof["threshold"]] * 2,
@@ -243,10 +250,19 @@ def profile_figure(record: Mapping[str, Any]) -> Figure | None:
                                               "carrying capacity K", "SSE")}
 
 
-def app_panels(record: Mapping[str, Any], fits: Sequence[FitResult]) -> dict[str, Figure] | None:
+def _models(record: Mapping[str, Any], view: Mapping[str, Any] | None) -> list[str] | None:
+    """The order that gives each form its colour: the screen's chosen forms when known, else the record's."""
+    return list((view or {}).get("models") or (record.get("settings") or {}).get("models") or []) or None
+
+
+def app_panels(record: Mapping[str, Any], fits: Sequence[FitResult],
+               view: Mapping[str, Any] | None = None) -> dict[str, Figure] | None:
     """The dashboard's own plot panels for the record, so that exported figures match the app.
 
-    None when the app's figure builders are not importable (an engine-only install).
+    ``view`` holds the screen's choices: ``scale`` ('log' or 'linear' state axes), ``path_from``
+    (how increments fits' maps are drawn) and ``models`` (the chosen forms, whose order fixes each
+    form's colour and marker). None when the app's figure builders are not importable (an
+    engine-only install).
     """
     try:
         from app.figures.residuals import observed_predicted_figure, residual_fitted_figure, residual_time_figure
@@ -256,6 +272,7 @@ def app_panels(record: Mapping[str, Any], fits: Sequence[FitResult]) -> dict[str
         return None
     from growthcore.reopen import series_from_record
 
+    view = view or {}
     series = series_from_record(record)
     data = record["data"]
     rows = [int(p["row"]) for p in data["points"]] if all("row" in p for p in data["points"]) else None
@@ -265,22 +282,32 @@ def app_panels(record: Mapping[str, Any], fits: Sequence[FitResult]) -> dict[str
               "uirevision": None, "h": None}
     stored = [fit_to_store(f, series) for f in fits]
     capacity = (record.get("settings") or {}).get("capacity")
+    models, scale = _models(record, view), view.get("scale")
     figures = {
-        "data": trajectory_figure(plain, [bool(u) for u in series.used], stored, capacity, labels, editable=False),
-        "residuals": residual_time_figure(stored, labels),
-        "residuals-fitted": residual_fitted_figure(stored, labels),
-        "observed-predicted": observed_predicted_figure(stored, labels),
+        "data": trajectory_figure(plain, [bool(u) for u in series.used], stored, capacity, labels, models=models,
+                                  scale=scale, path_from=view.get("path_from", "none"), editable=False),
+        "residuals": residual_time_figure(stored, labels, models=models),
+        "residuals-fitted": residual_fitted_figure(stored, labels, models=models, scale=scale),
+        "observed-predicted": observed_predicted_figure(stored, labels, models=models, scale=scale),
     }
     for name, fig in figures.items():
-        _for_export(fig, TITLES[name])
+        export_view(fig, TITLES[name])
     return figures
 
 
-def _for_export(fig: Figure, title: str) -> None:
-    """Drop what only makes sense under a pointer (the hover highlight, the K handle); add the key."""
-    from app.figures.common import EXPORT_LEGEND
+#: Characters per line of a legend entry in an exported figure (longer names wrap).
+LEGEND_CHARS = 26
+
+
+def export_view(fig: Figure, title: str) -> Figure:
+    """An app figure made fit for a file, in place: no hover ring or K handle, a title, and the key
+    beside the plot area (never over the plot or the title), with long names wrapped."""
+    from app.figures.common import EXPORT_LEGEND, wrap
 
     fig["data"] = [t for t in fig["data"] if t.get("meta") != "highlight"]
+    for t in fig["data"]:
+        if t.get("name"):
+            t["name"] = wrap(str(t["name"]), LEGEND_CHARS)
     layout = fig["layout"]
     # A family name with a digit must be quoted in CSS, or the browser drops the whole list
     family = (layout.get("font") or {}).get("family")
@@ -289,21 +316,21 @@ def _for_export(fig: Figure, title: str) -> None:
             f'"{n.strip()}"' if " " in n.strip() and not n.strip().startswith('"') else n.strip() for n in family.split(","))
     layout["title"] = {"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 14}}
     layout["margin"] = dict(layout.get("margin") or {}, t=60)
-    # a figure on its own needs its key: beside the plot area, never over the plot or the title
-    layout["showlegend"] = bool(fig["data"])
+    layout["showlegend"] = any(t.get("showlegend", True) for t in fig["data"])
     layout["legend"] = dict(EXPORT_LEGEND)
     layout["shapes"] = [s for s in layout.get("shapes") or [] if not s.get("editable")]
+    return fig
 
 
-def panel_figures(record: Mapping[str, Any]) -> dict[str, Figure]:
-    """Every panel of the record by name (see ``PANEL_NAMES``)."""
+def panel_figures(record: Mapping[str, Any], *, view: Mapping[str, Any] | None = None) -> dict[str, Figure]:
+    """Every panel of the record by name (see ``PANEL_NAMES``), drawn as ``view`` says (see :func:`app_panels`)."""
     fits = fits_from_record(record)
-    out = app_panels(record, fits) or {"data": data_figure(record, fits), "residuals": residual_figure(record)}
+    out = app_panels(record, fits, view) or {"data": data_figure(record, fits), "residuals": residual_figure(record)}
     out.update({
         "comparison": comparison_figure(record),
         "parameters": parameter_figure(record),
     })
-    prof = profile_figure(record)
+    prof = profile_figure(record, view)
     if prof is not None:
         out["profile"] = prof
     return out
@@ -314,57 +341,199 @@ def _moved(traces: list[dict[str, Any]], axis: str, *, legend: bool = True) -> l
     return [dict(t, xaxis=f"x{n}", yaxis=f"y{n}", showlegend=legend and t.get("showlegend", True)) for t in traces]
 
 
-def sheet_heading(record: Mapping[str, Any]) -> str:
+def sheet_heading(record: Mapping[str, Any], *, page: tuple[int, int] | None = None) -> str:
     data = record["data"]
     sha = data.get("sha256") or ""
     src = f"{esc(data.get('source') or 'data entered directly')}" + (f" (SHA-256 {sha[:12]}…)" if sha else "")
     sw = record.get("software", {})
-    return (f"<b>{esc(data.get('name', 'series'))}</b>: fit summary<br>"
+    of = f" (page {page[0]} of {page[1]})" if page else ""
+    return (f"<b>{esc(data.get('name', 'series'))}</b>: fit summary{of}<br>"
             f"<span style='font-size:11px'>source {src}; {sum(p['used'] for p in data['points'])} of "
             f"{len(data['points'])} points used; written {esc(record.get('created', ''))} by "
             f"{esc(sw.get('name', 'growthcore'))} {esc(sw.get('version', ''))}</span>")
 
 
-def summary_sheet(record: Mapping[str, Any], *, landscape: bool = False) -> Figure:
-    """One page: data with fitted forms, residuals, the comparison table and the constants.
+#: Default page sizes in CSS pixels (the screen presets of growthcore.report.images).
+PORTRAIT, LANDSCAPE = (1200, 1550), (1280, 720)
+_PAGE_MARGIN = {"l": 60, "r": 30, "t": 90, "b": 30}
+_HEADING_PX = 24   # a table's heading line above it
+_CELL_FONT, _HEAD_FONT = 11, 12
 
-    Portrait stacks the four parts; landscape puts the plots on the left and the tables on the right.
+
+def _plain_text(text: str) -> str:
+    return re.sub(r"<[^>]+>", "", text.replace("<br>", "\n"))
+
+
+def _row_heights(header: Sequence[str], cols: Sequence[Sequence[str]], widths: Sequence[float],
+                 width_px: float) -> tuple[float, list[float]]:
+    """Header and row heights in pixels of a plotly table ``width_px`` wide, wrapping included.
+
+    Conservative: a character is taken as 0.62 of the font size wide (Helvetica and Arial average
+    about 0.5), so a table given these heights is never cut.
     """
+    total = sum(widths)
+    col_px = [width_px * w / total for w in widths]
+
+    def lines(text: str, px: float, font: int) -> int:
+        per_line = max(int((px - 12) / (0.62 * font)), 1)
+        return sum(max(math.ceil(len(part) / per_line), 1) for part in _plain_text(text).split("\n"))
+
+    head = max(lines(h, px, _HEAD_FONT) for h, px in zip(header, col_px)) * 16 + 10
+    n_rows = len(cols[0]) if cols else 0
+    rows = [max(22.0, max(lines(str(c[i]), px, _CELL_FONT) for c, px in zip(cols, col_px)) * 15 + 8)
+            for i in range(n_rows)]
+    return float(head), rows
+
+
+def _fitting(rows: Sequence[float], room: float) -> int:
+    """How many of ``rows`` fit in ``room`` pixels."""
+    used, n = 0.0, 0
+    for h in rows:
+        if used + h > room:
+            break
+        used, n = used + h, n + 1
+    return n
+
+
+def _table_trace(header: Sequence[str], cols: Sequence[Sequence[str]], widths: Sequence[float],
+                 domain: Mapping[str, Sequence[float]]) -> dict[str, Any]:
+    trace = _table(list(header), [list(c) for c in cols], "", widths)["data"][0]
+    return dict(trace, domain={"x": list(domain["x"]), "y": list(domain["y"])})
+
+
+def _heading(text: str, x: float, y: float) -> dict[str, Any]:
+    return {"text": f"<b>{text}</b>", "xref": "paper", "yref": "paper", "x": x, "y": y, "xanchor": "left",
+            "yanchor": "bottom", "showarrow": False, "font": {"size": 12}}
+
+
+def _sheet_tables(record: Mapping[str, Any]) -> list[tuple[str, list[str], list[list[str]], list[float]]]:
+    comp_header, comp_cols = comparison_columns(record)
+    par_header, par_cols = key_constant_columns(record)
+    return [("Comparison of fitted forms (★ best by AICc)", comp_header, comp_cols, COMPARISON_WIDTHS),
+            ("Constants with 95% intervals", par_header, par_cols, [1.3, 3.0])]
+
+
+def summary_sheets(record: Mapping[str, Any], *, width: int | None = None, height: int | None = None,
+                   landscape: bool | None = None, view: Mapping[str, Any] | None = None) -> list[Figure]:
+    """The summary sheet of ``width`` × ``height`` CSS pixels: data with fitted forms, residuals, the
+    comparison and the constants; table rows that do not fit go on continuation pages, so every
+    row of every table is printed. Returns one figure per page.
+
+    Portrait stacks the parts; landscape puts the plots on the left and the tables on the right.
+    The key of the forms stands beside the data plot, outside both plot areas.
+    """
+    if landscape is None:
+        landscape = bool(width and height and width > height)
+    w, h = (width, height) if width and height else (LANDSCAPE if landscape else PORTRAIT)
+    pw, ph = w - _PAGE_MARGIN["l"] - _PAGE_MARGIN["r"], h - _PAGE_MARGIN["t"] - _PAGE_MARGIN["b"]
     fits = fits_from_record(record)
-    app_figs = app_panels(record, fits)
+    app_figs = app_panels(record, fits, view)
     data_fig = app_figs["data"] if app_figs else data_figure(record, fits)
     res_fig = app_figs["residuals"] if app_figs else residual_figure(record)
-    comp = comparison_figure(record)["data"][0]
-    pars = _table(*key_constant_columns(record), "", [1.3, 3.0])["data"][0]
     if landscape:
-        d_dom, r_dom = ([0.0, 0.55], [0.42, 0.9]), ([0.0, 0.55], [0.0, 0.3])
-        c_dom, p_dom = ([0.6, 1.0], [0.5, 0.9]), ([0.6, 1.0], [0.0, 0.45])
+        plot_x, key_x = [0.0, 0.36], 0.38
+        d_dom, r_dom = (plot_x, [0.42, 0.9]), (plot_x, [0.0, 0.3])
+        regions = [([0.6, 1.0], [0.5, 0.9]), ([0.6, 1.0], [0.0, 0.42])]
     else:
         # Gaps leave room for each plot's axis title above the next part's heading.
-        d_dom, r_dom = ([0.0, 1.0], [0.67, 0.97]), ([0.0, 1.0], [0.44, 0.6])
-        c_dom, p_dom = ([0.0, 1.0], [0.24, 0.37]), ([0.0, 1.0], [0.0, 0.2])
+        plot_x, key_x = [0.0, 0.7], 0.72
+        d_dom, r_dom = (plot_x, [0.67, 0.97]), (plot_x, [0.44, 0.6])
+        regions = [([0.0, 1.0], [0.22, 0.37]), ([0.0, 1.0], [0.0, 0.17])]
     layout = _layout(sheet_heading(record), "", "")
     layout["title"].update(y=0.985, yanchor="top", yref="container", x=0.015, xref="container", font={"size": 15},
                            pad={"t": 4})
-    layout["margin"] = {"l": 60, "r": 30, "t": 90, "b": 30}
+    layout["margin"] = dict(_PAGE_MARGIN)
     for fig in (data_fig, res_fig):
         fig["layout"].pop("title", None)
     layout["xaxis"] = dict(data_fig["layout"]["xaxis"], domain=d_dom[0], anchor="y")
     layout["yaxis"] = dict(data_fig["layout"]["yaxis"], domain=d_dom[1], anchor="x")
     layout["xaxis2"] = dict(res_fig["layout"]["xaxis"], domain=r_dom[0], anchor="y2")
     layout["yaxis2"] = dict(res_fig["layout"]["yaxis"], domain=r_dom[1], anchor="x2")
-    layout["legend"] = {"x": d_dom[0][1], "xanchor": "right", "y": d_dom[1][0] + 0.01, "yanchor": "bottom",
-                        "font": {"size": 10}, "bgcolor": "rgba(255,255,255,0.8)", "bordercolor": GRID, "borderwidth": 1}
+    if "yaxis2" in res_fig["layout"]:  # two residual scales: the second keeps its own axis
+        top, low = res_fig["layout"]["yaxis"], res_fig["layout"]["yaxis2"]
+        span = r_dom[1][1] - r_dom[1][0]
+        layout["yaxis2"] = dict(top, domain=[r_dom[1][0] + 0.56 * span, r_dom[1][1]], anchor="x2")
+        layout["yaxis3"] = dict(low, domain=[r_dom[1][0], r_dom[1][0] + 0.44 * span], anchor="x2")
+        layout["xaxis2"]["anchor"] = "y3"
+    layout["legend"] = {"x": key_x, "xanchor": "left", "y": d_dom[1][1], "yanchor": "top", "orientation": "v",
+                        "font": {"size": 10}, "bgcolor": "rgba(0,0,0,0)", "tracegroupgap": 2}
+    layout["showlegend"] = True
     layout["shapes"] = [
-        *(dict(s, xref="x domain", yref="y") for s in data_fig["layout"].get("shapes") or []),
-        *(dict(s, xref="x2 domain", yref="y2", x0=0, x1=1) for s in res_fig["layout"].get("shapes") or []),
+        *(dict(s, xref="x domain" if s.get("xref") == "paper" else s.get("xref", "x"), yref="y")
+          for s in data_fig["layout"].get("shapes") or []),
+        *(dict(s, xref="x2 domain", yref="y3" if s.get("yref") == "y2" else "y2", x0=0, x1=1)
+          for s in res_fig["layout"].get("shapes") or []),
     ]
     layout["annotations"] = [
-        {"text": f"<b>{t}</b>", "xref": "paper", "yref": "paper", "x": dom[0][0], "y": dom[1][1] + 0.003,
-         "xanchor": "left", "yanchor": "bottom", "showarrow": False, "font": {"size": 12}}
-        for t, dom in (("Residuals", r_dom), ("Comparison of fitted forms (★ best by AICc)", c_dom),
-                       ("Constants with 95% intervals", p_dom), ("Observations and fitted forms", d_dom))
+        *({**a, "xref": "x domain" if a.get("xref") == "paper" else a.get("xref", "x"),
+           "yref": "y domain" if a.get("yref") == "paper" else a.get("yref", "y")}
+          for a in data_fig["layout"].get("annotations") or []),
+        _heading("Observations and fitted forms", d_dom[0][0], d_dom[1][1] + 0.003),
+        _heading("Residuals", r_dom[0][0], r_dom[1][1] + 0.003),
     ]
-    tables = [dict(comp, domain={"x": c_dom[0], "y": c_dom[1]}), dict(pars, domain={"x": p_dom[0], "y": p_dom[1]})]
-    traces = _moved(data_fig["data"], "x") + _moved(res_fig["data"], "x2", legend=False) + tables
-    return {"data": traces, "layout": layout}
+    res_traces = [dict(t, xaxis="x2", yaxis="y3" if t.get("yaxis") == "y2" else "y2", showlegend=False)
+                  for t in res_fig["data"]]
+    traces = _moved(data_fig["data"], "x") + res_traces
+    pages: list[Figure] = [{"data": traces, "layout": layout}]
+    leftovers: list[tuple[str, list[str], list[list[str]], list[float]]] = []
+    continued_headings: list[dict[str, Any]] = []
+    for (title, header, cols, widths), (x_dom, y_dom) in zip(_sheet_tables(record), regions):
+        head_px, rows_px = _row_heights(header, cols, widths, (x_dom[1] - x_dom[0]) * pw)
+        room = (y_dom[1] - y_dom[0]) * ph - head_px
+        n = _fitting(rows_px, room)
+        rest = [c[n:] for c in cols]
+        shown_y = [y_dom[1] - (head_px + sum(rows_px[:n]) + 2) / ph, y_dom[1]]
+        traces.append(_table_trace(header, [c[:n] for c in cols], widths, {"x": x_dom, "y": shown_y}))
+        heading = _heading(title, x_dom[0], y_dom[1] + 0.003)
+        layout["annotations"].append(heading)
+        if rest and rest[0]:
+            leftovers.append((title, header, rest, widths))
+            continued_headings.append(heading)
+    pages += _continuation_pages(record, leftovers, w, h)
+    for heading in continued_headings:
+        heading["text"] = heading["text"].replace("</b>", " (continued on the next page)</b>")
+    if len(pages) > 1:
+        for k, page in enumerate(pages):
+            page["layout"]["title"]["text"] = sheet_heading(record, page=(k + 1, len(pages)))
+    return pages
+
+
+def _continuation_pages(record: Mapping[str, Any], blocks: list[tuple[str, list[str], list[list[str]], list[float]]],
+                        w: int, h: int) -> list[Figure]:
+    """Pages holding the table rows that did not fit on the first page, each table under its heading."""
+    margin = dict(_PAGE_MARGIN, t=80)
+    pw, ph = w - margin["l"] - margin["r"], h - margin["t"] - margin["b"]
+    pages: list[Figure] = []
+    page: Figure | None = None
+    top = 0.0
+    for title, header, cols, widths in blocks:
+        head_px, rows_px = _row_heights(header, cols, widths, pw)
+        start = 0
+        while start < len(rows_px):
+            room = ph - top - _HEADING_PX - head_px
+            n = _fitting(rows_px[start:], room)
+            if n == 0 and page is not None and top > 0:
+                page, top = None, 0.0  # the next page
+                continue
+            n = max(n, 1)
+            if page is None:
+                layout = _layout("", "", "")
+                layout.pop("xaxis"), layout.pop("yaxis")
+                layout["title"].update(y=0.985, yanchor="top", yref="container", x=0.015, xref="container",
+                                       font={"size": 15}, pad={"t": 4})
+                layout.update(margin=margin, annotations=[], showlegend=False)
+                page = {"data": [], "layout": layout}
+                pages.append(page)
+            y1 = 1.0 - (top + _HEADING_PX) / ph
+            y0 = y1 - (head_px + sum(rows_px[start:start + n]) + 2) / ph
+            page["data"].append(_table_trace(header, [c[start:start + n] for c in cols], widths,
+                                             {"x": [0.0, 1.0], "y": [max(y0, 0.0), y1]}))
+            page["layout"]["annotations"].append(_heading(f"{title} (continued)", 0.0, y1 + 0.002))
+            top += _HEADING_PX + head_px + sum(rows_px[start:start + n]) + 16
+            start += n
+    return pages
+
+
+def summary_sheet(record: Mapping[str, Any], *, landscape: bool = False) -> Figure:
+    """The first page of :func:`summary_sheets` at the default page size."""
+    return summary_sheets(record, landscape=landscape)[0]
