@@ -188,7 +188,7 @@ def test_panels_and_table_from_the_store(demo: dict, settings: dict) -> None:
     assert "refitted" in stale
     table, _ = draw_comparison(store, None)
     text = str(table)
-    assert "★ best AICc" in text and "K = 4.2 (held)" in text
+    assert "★ best AICc" in text and "'K = 4.2', className='nowrap'), ' ', Span(children='(held)'" in text
 
 
 def test_sorting_cycles_and_keeps_missing_values_last() -> None:

@@ -292,7 +292,7 @@ def test_exports_follow_the_screen_view() -> None:
     assert figs["data.png"]["layout"]["yaxis"]["type"] == "log"
     assert figs["observed-predicted.png"]["layout"]["xaxis"]["type"] == "log"
     assert figs["change-against-state.png"]["layout"]["xaxis"]["type"] == "log"
-    assert any("iterated from the last" in t.get("name", "") for t in figs["data.png"]["data"])
+    assert any("iterated from the last" in t.get("hovertemplate", "") for t in figs["data.png"]["data"])
     assert '"type": "log"' in out[2]["content"] or '"type":"log"' in out[2]["content"]
 
 

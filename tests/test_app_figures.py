@@ -91,17 +91,19 @@ def test_trajectory_figure_draws_each_fit_as_what_it_fits_and_a_k_handle(data: d
     assert handle["editable"] and handle["yanchor"] == 20.0 and handle["xref"] == "paper"
     assert handle["xsizemode"] == "pixel" and handle["xanchor"] == 1 and handle["x0"] > 0
     names = [t["name"] for t in fig["data"]]
-    assert "logistic (increments): one step ahead" in names and "logistic-curve (trajectory)" in names
+    assert "logistic (increments), one step ahead" in names and "logistic-curve (trajectory)" in names
     assert "observed" in names
     inc = next(f for f in fits if f["method"] == "increments" and f["status"] == "converged")
-    ahead = next(t for t in fig["data"] if t["name"] == f"{inc['label']}: one step ahead")
+    ahead = next(t for t in fig["data"] if t["name"] == f"{inc['label']}, one step ahead")
     assert ahead["mode"] == "markers" and ahead["x"] == inc["t"] and ahead["y"] == inc["predicted"]
     assert not any("iterated" in t["name"] for t in fig["data"])
     first = trajectory_figure(data, list(series.used), fits, 20.0, labels_of(data), path_from="first")
-    path = next(t for t in first["data"] if t["name"] == f"{inc['label']}: iterated from the first observation")
+    path = next(t for t in first["data"] if t["name"] == f"{inc['label']}, iterated map")
+    assert "iterated from the first observation" in path["hovertemplate"]
     assert path["x"] == inc["path"]["t"] and path["y"] == inc["path"]["p"]
     last = trajectory_figure(data, list(series.used), fits, 20.0, labels_of(data), path_from="last")
-    path = next(t for t in last["data"] if t["name"] == f"{inc['label']}: iterated from the last observation")
+    path = next(t for t in last["data"] if t["name"] == f"{inc['label']}, iterated map")
+    assert "iterated from the last observation" in path["hovertemplate"]
     # it starts at the last observation the fit used, where a forecast starts too
     assert path["x"][0] == inc["t"][-1] and path["y"][0] == inc["observed"][-1]
     obs = next(t for t in fig["data"] if t["name"] == "observed")

@@ -78,6 +78,9 @@ def register(app: Dash) -> None:
     )
     def _capacity(k_input, k_slider, relayout, data, _clicks, settings, exclusions, current):
         trigger = ctx.triggered_id
+        if f"{ids.DATA}.data" in ctx.triggered_prop_ids:
+            # new data arriving with a plot's relayout event in one call must still set the first guess
+            trigger = ids.DATA
         if trigger == ids.K_FROM_FIT and not _clicks:
             trigger = "none"
         return update_capacity(trigger, k_input, k_slider, relayout, data, settings, exclusions, current)

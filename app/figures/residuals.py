@@ -34,6 +34,10 @@ def residual_axis_title(scale: str, unit: str) -> str:
     return axis_title("Residual p − p̂", unit)
 
 
+def short_residual_title(scale: str, unit: str) -> str:
+    return "ln p − ln p̂" if scale == LOG_SCALE else (f"p − p̂ [{unit}]" if unit else "p − p̂")
+
+
 def _points(style: Mapping[str, str], f: Mapping[str, Any], x: Sequence[float | None],
             y: Sequence[float | None], labels: Mapping[str, Any], hover: str) -> dict[str, Any]:
     rows = labels.get("rows")
@@ -63,9 +67,10 @@ def _residual_figure(fits: Sequence[Mapping[str, Any]], labels: Mapping[str, Any
         # two residual scales: p − p̂ above, ln p − ln p̂ below, one shared time (or fitted) axis
         axis_of[scales[1]] = "y2"
         layout["yaxis"].update(domain=[0.56, 1.0])
+        # short titles: two long rotated titles on half-height axes would run into each other
         layout["yaxis2"] = {**layout["yaxis"], "domain": [0.0, 0.44], "anchor": "x",
-                            "title": {"text": residual_axis_title(scales[1], vu), "font": {"size": 12}}}
-        layout["yaxis"]["title"] = {"text": residual_axis_title(scales[0], vu), "font": {"size": 12}}
+                            "title": {"text": short_residual_title(scales[1], vu), "font": {"size": 12}}}
+        layout["yaxis"]["title"] = {"text": short_residual_title(scales[0], vu), "font": {"size": 12}}
         layout["xaxis"]["anchor"] = "y2"
     layout["shapes"] = [_zero_line(axis_of[s]) for s in scales]
     styles = fit_styles(fits, models)

@@ -291,12 +291,16 @@ def app_panels(record: Mapping[str, Any], fits: Sequence[FitResult],
         "observed-predicted": observed_predicted_figure(stored, labels, models=models, scale=scale),
     }
     for name, fig in figures.items():
-        export_view(fig, TITLES[name])
+        title = TITLES[name]
+        if name == "data" and view.get("path_from") in ("first", "last") and any(
+                f.method == "increments" and f.success for f in fits):
+            title += f" (increments: markers one step ahead; lines the map iterated from the {view['path_from']} observation)"
+        export_view(fig, title)
     return figures
 
 
 #: Characters per line of a legend entry in an exported figure (longer names wrap).
-LEGEND_CHARS = 26
+LEGEND_CHARS = 44
 
 
 def export_view(fig: Figure, title: str) -> Figure:
