@@ -170,7 +170,8 @@ def image_jobs(record: Mapping[str, Any], size: str, stem: str, *, view: Mapping
         return {"filename": f"{stem}-{name}.png", "figure": fig, "width": s.width, "height": s.height,
                 "scale": s.scale, "dpi": s.dpi, "pixels": list(s.pixels)}
 
-    jobs = [job(name, fig, panel) for name, fig in panel_figures(record, view=view).items()]
+    jobs = [job(name, fig, panel) for name, fig in panel_figures(record, view=view,
+                                                                 size=(panel.width, panel.height)).items()]
     pages = summary_sheets(record, width=sheet.width, height=sheet.height, view=view)
     jobs += [job(SHEET if k == 0 else f"{SHEET}-{k + 1}", fig, sheet) for k, fig in enumerate(pages)]
     jobs += [job(name, fig, panel) for name, fig in (live or {}).items()]

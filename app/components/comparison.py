@@ -41,7 +41,7 @@ def parameter_lines(params: Mapping[str, Mapping[str, Any]], profile: Sequence[f
             parts = [f"{name} = {value}", "(held)"]
         elif p.get("ci95") and None not in p["ci95"]:
             lo, hi = p["ci95"]
-            parts = [f"{name} = {value}", f"[{fmt(lo)}, {fmt(hi)}]"]
+            parts = [f"{name} = {value}", f"[{fmt(lo)},", f"{fmt(hi)}]"]
         else:
             parts = [f"{name} = {value}", "[no interval]"]
         if p.get("at_bound"):

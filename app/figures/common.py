@@ -50,7 +50,8 @@ def base_layout(x_title: str, y_title: str, *, uirevision: str | None = None, ti
 
 #: Where an exported figure keeps its key: right of the plot area, top-aligned.
 EXPORT_LEGEND: dict[str, Any] = {"orientation": "v", "x": 1.02, "xanchor": "left", "y": 1.0, "yanchor": "top",
-                                 "font": {"size": 11}, "bgcolor": "rgba(0,0,0,0)", "tracegroupgap": 2}
+                                 "font": {"size": 10}, "bgcolor": "rgba(0,0,0,0)", "tracegroupgap": 0,
+                                 "itemsizing": "constant"}
 
 
 def state_axis(axis: dict[str, Any], scale: str | None) -> dict[str, Any]:

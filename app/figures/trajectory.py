@@ -53,7 +53,7 @@ def trajectory_figure(data: Mapping[str, Any], used: Sequence[bool], fits: Seque
             # customdata names the predicted observation, so a click here excludes that observation
             traces.append({
                 "type": "scatter", "mode": "markers", "x": f["t"], "y": f["predicted"],
-                "name": f"{f['label']}, one step ahead", "marker": points_marker(style, 7),
+                "name": f"{f['label']}, one step ahead", "marker": points_marker(style, 7), "legendgroup": f["label"],
                 "customdata": [[int(i), rows[int(i)]] for i in f.get("index", [])],
                 "hovertemplate": f"{f['label']}<br>one step ahead from the observation before<br>"
                                  f"t = %{{x:.4g}} {tu}<br>p̂ = %{{y:.4g}} {vu}<br>row %{{customdata[1]}}"
@@ -64,6 +64,8 @@ def trajectory_figure(data: Mapping[str, Any], used: Sequence[bool], fits: Seque
                 trace = _line(f, style, path, f"{f['label']}, iterated map", tu, vu, width=1.5)
                 trace["hovertemplate"] = trace["hovertemplate"].replace(
                     "iterated map<br>", f"map {PATH_NAMES[path_from]}<br>", 1)
+                # in a figure's own key the form's marker stands for both; the title says what lines are
+                trace.update(legendgroup=f["label"], showlegend=False)
                 traces.append(trace)
         elif f.get("path"):
             traces.append(_line(f, style, f["path"], f["label"], tu, vu, width=2))

@@ -34,7 +34,7 @@ def write_pngs(record: Mapping[str, Any], directory: str | os.PathLike[str], *, 
         raise GrowthcoreInputError(f"image size must be one of {', '.join(PANEL_SIZES)}; got {size!r}")
     panel_size = custom_size(PANEL_SIZES[size], width=width, height=height, scale=scale)
     sheet_size = custom_size(SHEET_SIZES[size], scale=scale)
-    figures = panel_figures(record)
+    figures = panel_figures(record, size=(panel_size.width, panel_size.height))
     pages = summary_sheets(record, width=sheet_size.width, height=sheet_size.height)
     names = [*figures, *(SHEET_NAME if k == 0 else f"{SHEET_NAME}-{k + 1}" for k in range(len(pages)))]
     figs = [*figures.values(), *pages]

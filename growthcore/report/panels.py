@@ -161,7 +161,7 @@ def comparison_columns(record: Mapping[str, Any]) -> tuple[list[str], list[list[
     return header, cols
 
 
-COMPARISON_WIDTHS = [3.2, 0.6, 0.5, 0.9, 1.1, 0.9, 1.0, 0.9, 0.9, 1.1]
+COMPARISON_WIDTHS = [2.9, 0.5, 0.5, 0.9, 1.4, 0.9, 1.0, 0.9, 0.9, 1.1]
 
 
 def key_constant_columns(record: Mapping[str, Any]) -> tuple[list[str], list[list[str]]]:
@@ -208,16 +208,38 @@ def _table(header: list[str], cols: list[list[str]], title: str, widths: Sequenc
     }
 
 
+COMPARISON_TITLE = "Comparison of fitted forms (★ best by AICc within comparable fits)"
+PARAMETER_TITLE = "Constants with standard errors and 95% intervals"
+PARAMETER_WIDTHS = [2.6, 0.8, 1.0, 0.8, 1.6, 0.9]
+
+
 def comparison_figure(record: Mapping[str, Any]) -> Figure:
     """The side-by-side table; ★ marks the best form by AICc among comparable fits."""
-    return _table(*comparison_columns(record), "Comparison of fitted forms (★ best by AICc within comparable fits)",
-                  COMPARISON_WIDTHS)
+    return _table(*comparison_columns(record), COMPARISON_TITLE, COMPARISON_WIDTHS)
 
 
 def parameter_figure(record: Mapping[str, Any]) -> Figure:
     """Each constant with its standard error and t-based 95% interval."""
-    return _table(*parameter_columns(record), "Constants with standard errors and 95% intervals",
-                  [2.6, 0.8, 1.0, 0.8, 1.6, 0.9])
+    return _table(*parameter_columns(record), PARAMETER_TITLE, PARAMETER_WIDTHS)
+
+
+def table_pages(name: str, header: list[str], cols: list[list[str]], widths: Sequence[float], title: str,
+                size: tuple[int, int]) -> dict[str, Figure]:
+    """A table as one or more figures of ``size``, each with as many whole rows as it holds."""
+    w, h = size
+    head_px, rows_px = _row_heights(header, cols, widths, w - 40)
+    room = h - 70 - head_px  # the margins of _table
+    spans, start = [], 0
+    while start < len(rows_px):
+        n = max(_fitting(rows_px[start:], room), 1)
+        spans.append((start, start + n))
+        start += n
+    spans = spans or [(0, 0)]
+    out = {}
+    for k, (a, b) in enumerate(spans):
+        label = f"{title} (page {k + 1} of {len(spans)})" if len(spans) > 1 else title
+        out[name if k == 0 else f"{name}-{k + 1}"] = _table(header, [c[a:b] for c in cols], label, widths)
+    return out
 
 
 def profile_figure(record: Mapping[str, Any], view: Mapping[str, Any] | None = None) -> Figure | None:
@@ -294,7 +316,8 @@ def app_panels(record: Mapping[str, Any], fits: Sequence[FitResult],
         title = TITLES[name]
         if name == "data" and view.get("path_from") in ("first", "last") and any(
                 f.method == "increments" and f.success for f in fits):
-            title += f" (increments: markers one step ahead; lines the map iterated from the {view['path_from']} observation)"
+            title += ("<br><span style='font-size:11px'>increments fits: markers one step ahead; lines their map "
+                      f"iterated from the {view['path_from']} observation</span>")
         export_view(fig, title)
     return figures
 
@@ -326,14 +349,20 @@ def export_view(fig: Figure, title: str) -> Figure:
     return fig
 
 
-def panel_figures(record: Mapping[str, Any], *, view: Mapping[str, Any] | None = None) -> dict[str, Figure]:
-    """Every panel of the record by name (see ``PANEL_NAMES``), drawn as ``view`` says (see :func:`app_panels`)."""
+def panel_figures(record: Mapping[str, Any], *, view: Mapping[str, Any] | None = None,
+                  size: tuple[int, int] | None = None) -> dict[str, Figure]:
+    """Every panel of the record by name (see ``PANEL_NAMES``), drawn as ``view`` says (see :func:`app_panels`).
+
+    With ``size`` (width, height in CSS pixels, as the PNG is drawn) a table too long for one image
+    is split into pages: 'parameters', 'parameters-2', ... each with its header, so no row is cut.
+    """
     fits = fits_from_record(record)
     out = app_panels(record, fits, view) or {"data": data_figure(record, fits), "residuals": residual_figure(record)}
-    out.update({
-        "comparison": comparison_figure(record),
-        "parameters": parameter_figure(record),
-    })
+    if size is None:
+        out.update({"comparison": comparison_figure(record), "parameters": parameter_figure(record)})
+    else:
+        out.update(table_pages("comparison", *comparison_columns(record), COMPARISON_WIDTHS, COMPARISON_TITLE, size))
+        out.update(table_pages("parameters", *parameter_columns(record), PARAMETER_WIDTHS, PARAMETER_TITLE, size))
     prof = profile_figure(record, view)
     if prof is not None:
         out["profile"] = prof
@@ -372,14 +401,14 @@ def _row_heights(header: Sequence[str], cols: Sequence[Sequence[str]], widths: S
                  width_px: float) -> tuple[float, list[float]]:
     """Header and row heights in pixels of a plotly table ``width_px`` wide, wrapping included.
 
-    Conservative: a character is taken as 0.62 of the font size wide (Helvetica and Arial average
-    about 0.5), so a table given these heights is never cut.
+    Conservative: a character is taken as 0.56 of the font size wide (Helvetica and Arial average
+    about 0.5, from memory of their metrics), so a table given these heights is never cut.
     """
     total = sum(widths)
     col_px = [width_px * w / total for w in widths]
 
     def lines(text: str, px: float, font: int) -> int:
-        per_line = max(int((px - 12) / (0.62 * font)), 1)
+        per_line = max(int((px - 12) / (0.56 * font)), 1)
         return sum(max(math.ceil(len(part) / per_line), 1) for part in _plain_text(text).split("\n"))
 
     head = max(lines(h, px, _HEAD_FONT) for h, px in zip(header, col_px)) * 16 + 10

@@ -138,7 +138,7 @@ def test_mixed_error_scales_get_an_axis_each(server_url: str, make_driver: Any, 
     wait_idle(driver)
     titles = driver.execute_script(
         "var gd = document.querySelector('#panel-residual-time .js-plotly-plot');"
-        "return Array.from(gd.querySelectorAll('.ytitle')).map(t => t.textContent);")
+        "return Array.from(gd.querySelectorAll('.ytitle, .y2title')).map(t => t.textContent);")
     assert sorted(titles) == ["ln p − ln p̂", "p − p̂ [g/L]"], titles
     assert driver.execute_script(OVERFLOW_JS, ["panel-residual-time", "panel-residual-fitted"]) == []
     shot(driver, artifacts, "34-mixed-error-scales", "panel-residual-time", block="center")
