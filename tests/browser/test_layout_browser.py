@@ -133,8 +133,10 @@ def test_mixed_error_scales_get_an_axis_each(server_url: str, make_driver: Any, 
     driver = make_driver(1600, 1200)
     open_demo(driver, server_url)
     _choose(driver, ("logistic", "gompertz"), "both")
-    driver.execute_script("document.querySelector('#model-error input[value=log]').click()")
-    wait(driver, lambda d: len(comparison_rows(d)) == 4 and "log error" in "\n".join(comparison_rows(d)))
+    wait(driver, lambda d: len(comparison_rows(d)) == 4)
+    wait_idle(driver)
+    driver.find_element("css selector", "#model-error input[value=log]").click()
+    wait(driver, lambda d: "log error" in "\n".join(comparison_rows(d)))
     wait_idle(driver)
     titles = driver.execute_script(
         "var gd = document.querySelector('#panel-residual-time .js-plotly-plot');"
