@@ -14,7 +14,7 @@ from app.components.population import population_box
 GROUP_MODES = (
     ("none", "none"),
     ("pattern", "from a pattern on the ids"),
-    ("column", "from a condition column"),
+    ("column", "from condition columns"),
 )
 ALL_GROUPS = "__all__"
 #: Milliseconds between the end of one chunk and the start of the next.
@@ -55,9 +55,9 @@ def picker() -> html.Div:
             html.Summary("Replicate groups"),
             dcc.RadioItems(id=ids.GROUP_MODE, options=[{"label": t, "value": v} for v, t in GROUP_MODES],
                            value="none", inputClassName="check", labelClassName="check-label"),
-            html.Label("Pattern or column name", htmlFor=ids.GROUP_TEXT, className="field-label"),
+            html.Label("Pattern, or condition column(s)", htmlFor=ids.GROUP_TEXT, className="field-label"),
             dcc.Input(id=ids.GROUP_TEXT, type="text", debounce=True, className="series-group-text",
-                      placeholder=r"e.g. ^([A-H]) groups wells by row"),
+                      placeholder=r"e.g. ^([A-H]) or Year, Variety"),
             html.Div(id=ids.GROUP_MESSAGE, className="hint", role="status", **{"aria-live": "polite"}),
         ], className="series-groups"),
         html.A("Overview of every series ↓", href=f"#{ids.SERIES_OVERVIEW}", className="series-jump"),
