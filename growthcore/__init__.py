@@ -1,5 +1,50 @@
-"""growthcore: turn a quantity measured over time into a defensible growth model."""
+"""growthcore: turn a quantity measured over time into a defensible growth model.
+
+The public API, for scripts and notebooks::
+
+    import growthcore as gc
+
+    imported = gc.load("cultures.csv")           # series and the import report
+    fits = [gc.fit(imported.series[0], m) for m in ("logistic", "gompertz")]
+    print(fits[0].summary())                      # constants, goodness of fit, diagnostics, notes
+    table = gc.comparison_frame(fits)             # a pandas DataFrame ranked by AICc
+
+    batch = gc.fit_batch(gc.load_batch("plate.csv", groups="Strain"), ["logistic-curve"])
+    frame = gc.batch_frame(batch)
+
+Names are loaded on first use, so that ``import growthcore`` stays quick.
+"""
 
 from __future__ import annotations
 
+from importlib import import_module
+from typing import Any
+
 __version__ = "0.1.0"
+
+#: Public name -> (module, attribute).
+_EXPORTS = {
+    "Series": ("growthcore.data", "Series"),
+    "load": ("growthcore.io", "load_file"),
+    "load_bytes": ("growthcore.io", "load_bytes"),
+    "ImportResult": ("growthcore.io", "ImportResult"),
+    "fit": ("growthcore.fit", "fit"),
+    "FitResult": ("growthcore.fit", "FitResult"),
+    "compare": ("growthcore.compare", "compare"),
+    "comparison_frame": ("growthcore.frames", "comparison_frame"),
+    "load_batch": ("growthcore.batch", "load_batch"),
+    "fit_batch": ("growthcore.batch", "fit_batch"),
+    "batch_frame": ("growthcore.frames", "batch_frame"),
+    "catalogue": ("growthcore.models.catalogue", "catalogue"),
+}
+
+__all__ = ["__version__", *_EXPORTS]
+
+
+def __getattr__(name: str) -> Any:
+    if name in _EXPORTS:
+        module, attribute = _EXPORTS[name]
+        value = getattr(import_module(module), attribute)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'growthcore' has no attribute {name!r}")

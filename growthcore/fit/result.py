@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 from functools import cached_property
-from typing import Any, Literal, Mapping
+from typing import TYPE_CHECKING, Any, Literal, Mapping
 
 import numpy as np
 
@@ -13,6 +13,9 @@ from growthcore.errors import GrowthcoreInputError
 from growthcore.fit.simulate import iterate
 from growthcore.models.base import ModelForm
 from growthcore.stats import Diagnostics, Metrics
+
+if TYPE_CHECKING:
+    from growthcore.summary import FitSummary
 
 Array = np.ndarray
 Method = Literal["increments", "trajectory"]
@@ -139,6 +142,12 @@ class FitResult:
         """The state the fitted path starts from: p0 when fitted, else the first used observation."""
         values = self.values
         return float(values["p0"]) if "p0" in values else float(self.settings.get("p_first", math.nan))
+
+    def summary(self) -> FitSummary:
+        """Constants, goodness of fit and diagnostics as tables with numbered notes (text or HTML)."""
+        from growthcore.summary import summarise  # the summary builds on this module
+
+        return summarise(self)
 
     def parameter(self, name: str) -> ParameterEstimate:
         for p in self.parameters:

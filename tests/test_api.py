@@ -1,0 +1,55 @@
+"""The public Python API: the README's example runs as written, and the summary's numbers are the fit's."""
+
+from __future__ import annotations
+
+import os
+import re
+import subprocess
+import sys
+
+import pytest
+
+import growthcore as gc
+
+ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+
+
+def test_the_readme_example_runs() -> None:
+    with open(os.path.join(ROOT, "README.md"), encoding="utf-8") as fh:
+        readme = fh.read()
+    (code,) = re.findall(r"### In Python.*?```python\n(.*?)```", readme, flags=re.S)
+    names: dict[str, object] = {}
+    cwd = os.getcwd()
+    os.chdir(ROOT)
+    try:
+        exec(compile(code, "README.md", "exec"), names)  # noqa: S102 - our own documentation
+    finally:
+        os.chdir(cwd)
+    ranked, table = names["ranked"], names["table"]
+    assert list(ranked["model"])[:1] and {"aicc", "K", "K_se"} <= set(ranked.columns)  # type: ignore[index]
+    assert len(table) == 3 and list(table["series"]) == ["R1", "R2", "R3"]  # type: ignore[index]
+
+
+def test_summary_tables_hold_the_fit_numbers() -> None:
+    series = gc.load(os.path.join(ROOT, "sample_data", "algae_photobioreactor.csv")).series[0]
+    result = gc.fit(series, "logistic", method="increments", capacity=4.1)
+    summary = result.summary()
+    constants = summary.tables[0]
+    r = next(row for row in constants.rows if row[0] == "r")
+    assert r[1] == f"{result.values['r']:.6g}" and r[2] == f"{result.parameter('r').se:.3g}"
+    assert next(row for row in constants.rows if row[0] == "K")[4] == "fixed"
+    text = str(summary)
+    assert "uncentered R² of the change per step" in text and f"{result.metrics.r2_uncentered:.4g}" in text
+    assert "[1] closed-form least squares through the origin" in text
+    html = summary._repr_html_()
+    assert html.startswith("<div class='growthcore-summary'>") and "<caption>Constants</caption>" in html
+    failed = gc.fit(gc.Series([0.0, 1.0, 2.5, 4.0], [1.0, 2.0, 3.0, 4.0]), "logistic")
+    assert failed.summary().tables == () and "regular grid" in str(failed.summary())
+
+
+def test_import_growthcore_loads_nothing_heavy() -> None:
+    out = subprocess.run([sys.executable, "-c", "import growthcore, sys; print('numpy' in sys.modules)"],
+                         capture_output=True, text=True, cwd=ROOT, check=True)
+    assert out.stdout.strip() == "False"
+    with pytest.raises(AttributeError, match="no attribute 'nothing'"):
+        gc.nothing  # noqa: B018
