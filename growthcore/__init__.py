@@ -5,14 +5,16 @@ The public API, for scripts and notebooks::
     import growthcore as gc
 
     imported = gc.load("cultures.csv")           # series and the import report
-    fits = [gc.fit(imported.series[0], m) for m in ("logistic", "gompertz")]
+    fits = [gc.fit_model(imported.series[0], m) for m in ("logistic", "gompertz")]
     print(fits[0].summary())                      # constants, goodness of fit, diagnostics, notes
     table = gc.comparison_frame(fits)             # a pandas DataFrame ranked by AICc
 
     batch = gc.fit_batch(gc.load_batch("plate.csv", groups="Strain"), ["logistic-curve"])
     frame = gc.batch_frame(batch)
 
-Names are loaded on first use, so that ``import growthcore`` stays quick.
+Names are loaded on first use, so that ``import growthcore`` stays quick. ``fit_model`` and
+``compare_fits`` are :func:`growthcore.fit.fit` and :func:`growthcore.compare.compare` under names
+that no subpackage of growthcore shadows.
 """
 
 from __future__ import annotations
@@ -28,9 +30,9 @@ _EXPORTS = {
     "load": ("growthcore.io", "load_file"),
     "load_bytes": ("growthcore.io", "load_bytes"),
     "ImportResult": ("growthcore.io", "ImportResult"),
-    "fit": ("growthcore.fit", "fit"),
+    "fit_model": ("growthcore.fit", "fit"),
     "FitResult": ("growthcore.fit", "FitResult"),
-    "compare": ("growthcore.compare", "compare"),
+    "compare_fits": ("growthcore.compare", "compare"),
     "comparison_frame": ("growthcore.frames", "comparison_frame"),
     "load_batch": ("growthcore.batch", "load_batch"),
     "fit_batch": ("growthcore.batch", "fit_batch"),

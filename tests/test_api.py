@@ -32,7 +32,7 @@ def test_the_readme_example_runs() -> None:
 
 def test_summary_tables_hold_the_fit_numbers() -> None:
     series = gc.load(os.path.join(ROOT, "sample_data", "algae_photobioreactor.csv")).series[0]
-    result = gc.fit(series, "logistic", method="increments", capacity=4.1)
+    result = gc.fit_model(series, "logistic", method="increments", capacity=4.1)
     summary = result.summary()
     constants = summary.tables[0]
     r = next(row for row in constants.rows if row[0] == "r")
@@ -43,7 +43,7 @@ def test_summary_tables_hold_the_fit_numbers() -> None:
     assert "[1] closed-form least squares through the origin" in text
     html = summary._repr_html_()
     assert html.startswith("<div class='growthcore-summary'>") and "<caption>Constants</caption>" in html
-    failed = gc.fit(gc.Series([0.0, 1.0, 2.5, 4.0], [1.0, 2.0, 3.0, 4.0]), "logistic")
+    failed = gc.fit_model(gc.Series([0.0, 1.0, 2.5, 4.0], [1.0, 2.0, 3.0, 4.0]), "logistic")
     assert failed.summary().tables == () and "regular grid" in str(failed.summary())
 
 
@@ -53,3 +53,15 @@ def test_import_growthcore_loads_nothing_heavy() -> None:
     assert out.stdout.strip() == "False"
     with pytest.raises(AttributeError, match="no attribute 'nothing'"):
         gc.nothing  # noqa: B018
+
+
+def test_every_public_name_is_what_it_says_even_after_the_subpackages_load() -> None:
+    import inspect
+
+    import growthcore.batch  # noqa: F401 - subpackages loaded first must not shadow a public name
+    import growthcore.compare  # noqa: F401
+    import growthcore.fit  # noqa: F401
+
+    for name in gc.__all__:
+        value = getattr(gc, name)
+        assert not inspect.ismodule(value), name
