@@ -52,6 +52,10 @@ class RecordError(GrowthcoreInputError):
         rest = "" if not more else "\n" + "\n".join(f"  - {p}" for p in self.problems[1:])
         super().__init__(head + rest)
 
+    def __reduce__(self) -> tuple[Any, ...]:
+        # rebuilt from its own arguments when it crosses a process boundary (a worker reads the record)
+        return (type(self), (self.name, self.problems))
+
 
 def _no_constants(token: str) -> float:
     raise ValueError(f"{token} is not a JSON number")

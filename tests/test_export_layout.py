@@ -90,3 +90,30 @@ def test_long_tables_continue_on_further_images_with_their_header() -> None:
         n = len(fig["data"][0]["cells"]["values"][0])
         assert 50 + 26 + 22 * n + 20 <= 450  # margins, header and 22-px rows within the image
         assert len(fig["data"][0]["header"]["values"]) == 2  # every page has the header
+
+
+def test_two_error_scales_get_an_axis_each() -> None:
+    from app.callbacks.fits import compute_fits
+    from app.callbacks.explore import labels_of
+    from app.figures.residuals import residual_time_figure
+
+    data, exclusions, settings, k = _stores(["logistic"], "both", "log")
+    fits = compute_fits(data, exclusions, settings, k)["fits"]
+    fig = residual_time_figure(fits, labels_of(data))
+    layout = fig["layout"]
+    assert layout["yaxis"]["title"]["text"] == "p − p̂ [g/L]" and layout["yaxis2"]["title"]["text"] == "ln p − ln p̂"
+    on = {t["name"]: t.get("yaxis", "y") for t in fig["data"] if t.get("meta") == "points"}
+    assert on == {"logistic (increments)": "y", "logistic (trajectory, log error)": "y2"}
+    # the domains do not overlap: no axis mixes the two units
+    assert layout["yaxis2"]["domain"][1] < layout["yaxis"]["domain"][0]
+
+
+def test_a_refused_record_crosses_a_process_boundary_whole() -> None:
+    """Records are read in worker processes; the refusal must arrive with its file name and problems."""
+    import pickle
+
+    from growthcore.reopen import RecordError
+
+    err = pickle.loads(pickle.dumps(RecordError("edited.json", ["integrity hash mismatch", "two"])))
+    assert err.name == "edited.json" and err.problems == ("integrity hash mismatch", "two")
+    assert str(err).startswith("edited.json: integrity hash mismatch")

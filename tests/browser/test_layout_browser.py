@@ -144,3 +144,45 @@ def test_mixed_error_scales_get_an_axis_each(server_url: str, make_driver: Any, 
     assert sorted(titles) == ["ln p − ln p̂", "p − p̂ [g/L]"], titles
     assert driver.execute_script(OVERFLOW_JS, ["panel-residual-time", "panel-residual-fitted"]) == []
     shot(driver, artifacts, "34-mixed-error-scales", "panel-residual-time", block="center")
+
+
+def test_a_point_on_the_k_line_takes_the_click(server_url: str, make_driver: Any, artifacts: str) -> None:
+    """K set exactly to an observation's value: clicking that point excludes it (the line takes no
+    clicks; only the handle in the margin moves K), on the linear and on the log scale."""
+    from selenium.webdriver.common.actions.action_builder import ActionBuilder
+    from selenium.webdriver.common.by import By
+    from selenium.webdriver.common.keys import Keys
+
+    driver = make_driver(1600, 1200)
+    open_demo(driver, server_url)
+    for k, scale in enumerate(("linear", "log")):
+        driver.find_element(By.CSS_SELECTOR, f"#panel-state-scale input[value={scale}]").click()
+        index = 30 + k
+        t, p = driver.execute_script(
+            "var gd = document.querySelector('#panel-trajectory .js-plotly-plot');"
+            "var o = gd.data.find(x => x.name === 'observed'); return [o.x[arguments[0]], o.y[arguments[0]]];", index)
+        box = driver.find_element(By.ID, "model-k-input")
+        driver.execute_script("arguments[0].scrollIntoView({block: 'center'})", box)
+        box.send_keys(Keys.CONTROL, "a")
+        box.send_keys(str(p), Keys.ENTER)
+        wait(driver, lambda d: d.execute_script(
+            "var gd = document.querySelector('#panel-trajectory .js-plotly-plot');"
+            "var line = gd.data.find(x => x.meta === 'capacity');"
+            "return line && line.y[0] === arguments[0] && gd._fullLayout.yaxis.type === arguments[1];", p,
+            "log" if scale == "log" else "linear"))
+        wait_idle(driver)
+        driver.execute_script("window.scrollTo(0, 0)")
+        x, y = driver.execute_script(
+            "var gd = document.querySelector('#panel-trajectory .js-plotly-plot'), L = gd._fullLayout;"
+            "var r = gd.getBoundingClientRect();"
+            "return [r.left + L.xaxis._offset + L.xaxis.l2p(arguments[0]),"
+            "        r.top + L.yaxis._offset + L.yaxis.l2p(L.yaxis.d2l(arguments[1]))];", t, p)
+        action = ActionBuilder(driver)
+        action.pointer_action.move_to_location(int(x), int(y))
+        action.pointer_action.pause(0.4)
+        action.pointer_action.click()
+        action.perform()
+        row = index + 2  # the header is row 1
+        wait(driver, lambda d: f"row {row}:" in text(d, "exclusion-list"))
+        wait_idle(driver)
+    shot(driver, artifacts, "35-click-on-k-line", "panel-trajectory", block="center")
