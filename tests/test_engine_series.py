@@ -169,3 +169,20 @@ def test_too_few_points_is_a_status() -> None:
     assert result.status == "failed" and "2 usable points" in result.message
     three = fit(Series([0.0, 1.0, 2.0], [1.0, 2.0, 3.0]), "theta-logistic", method="trajectory")
     assert three.status == "failed" and "need more points than constants" in three.message
+
+
+def test_forms_and_fits_cross_to_worker_processes_by_their_id() -> None:
+    """A fit (with its form) pickles, as heavy jobs hand results back from worker processes."""
+    import pickle
+
+    from growthcore.fit import fit
+    from growthcore.models.catalogue import get_form
+
+    for model_id, terms in (("logistic", ()), ("ricker+c", ()), ("logistic-curve", ()), ("custom", ("p*(K-p)", "p"))):
+        form = get_form(model_id, terms=terms)
+        back = pickle.loads(pickle.dumps(form))
+        assert (back.id, back.equation) == (form.id, form.equation)
+    series = Series(np.arange(12.0), 50 / (1 + 49 * np.exp(-0.6 * np.arange(12.0))))
+    result = fit(series, "logistic", method="trajectory")
+    again = pickle.loads(pickle.dumps(result))
+    assert again.values == result.values and again.form is not None and again.predict(series.t).size == 12

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Callable, Literal, Mapping, Union
+from typing import Any, Callable, Literal, Mapping, Union
 
 import numpy as np
 
@@ -64,6 +64,11 @@ class DifferenceForm:
     needs_positive: bool = False
     notes: tuple[str, ...] = field(default_factory=tuple)
     kind: Literal["difference"] = "difference"
+    terms: tuple[str, ...] = ()  # the rate terms as written, for the custom form
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        # forms hold functions that do not pickle; a form crosses to a worker process by its id
+        return (_form_by_id, (self.id, self.terms))
 
     @property
     def param_names(self) -> tuple[str, ...]:
@@ -107,6 +112,9 @@ class CurveForm:
     notes: tuple[str, ...] = field(default_factory=tuple)
     kind: Literal["curve"] = "curve"
 
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (_form_by_id, (self.id, ()))
+
     @property
     def param_names(self) -> tuple[str, ...]:
         return tuple(s.name for s in self.params)
@@ -123,3 +131,10 @@ def _spec(params: tuple[ParamSpec, ...], name: str) -> ParamSpec:
         if s.name == name:
             return s
     raise KeyError(name)
+
+
+def _form_by_id(model_id: str, terms: tuple[str, ...]) -> ModelForm:
+    """The catalogue's form for ``model_id`` (how a pickled form is rebuilt)."""
+    from growthcore.models.catalogue import get_form  # the catalogue is built from this module
+
+    return get_form(model_id, terms=terms)

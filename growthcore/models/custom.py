@@ -61,4 +61,5 @@ def custom_form(terms: Sequence[str]) -> DifferenceForm:
         linear=names,
         basis=basis,
         notes=tuple(f"term {n}: {t.text}" for n, t in zip(names, parsed)),
+        terms=tuple(terms),
     )
