@@ -107,8 +107,13 @@ def test_orange_results_are_complete_and_round_trip(trees):
     assert math.isclose(got.bic, -2 * got.loglik + math.log(35) * 5)
     lo, hi = got.random_sd["K"].ci95
     assert lo < got.random_sd["K"].value < hi
+    # t interval on containment degrees of freedom (as nlme): 5 trees less 1 for K, 35 − 3 − 5 for r, t_mid
+    from scipy.stats import t as student_t
+
+    assert (got.fixed["K"].df, got.fixed["r"].df, got.fixed["t_mid"].df) == (4, 27, 27)
     lo, hi = got.fixed["K"].ci95
-    assert lo < got.fixed["K"].value < hi and hi - lo == pytest.approx(2 * 1.959964 * got.fixed["K"].se, rel=1e-6)
+    assert lo < got.fixed["K"].value < hi
+    assert hi - lo == pytest.approx(2 * student_t.ppf(0.975, 4) * got.fixed["K"].se, rel=1e-9)
     # conditional constants: the population value plus each tree's deviation; deviations sum to ~0 (BLUPs)
     ks = [s.constants["K"] for s in got.series]
     assert sum(s.deviations["K"] for s in got.series) == pytest.approx(0.0, abs=1e-6 * PB["K"])

@@ -6,7 +6,7 @@ import math
 from typing import Mapping, Sequence
 
 import numpy as np
-from scipy.stats import norm
+from scipy.stats import norm, t as student_t
 
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
@@ -148,7 +148,9 @@ def _result(design: MixedDesign, found: Optimum, separate: Sequence[FitResult], 
     for j, name in enumerate(design.beta_names):
         value = float(found.beta[j])
         se = math.sqrt(cov_beta[j, j]) if cov_beta is not None and cov_beta[j, j] > 0 else None
-        fixed[name] = Estimate(value, se, (value - Z95 * se, value + Z95 * se) if se is not None else None)
+        df = fixed_df(design, name)
+        half_t = float(student_t.ppf(0.975, df)) * se if se is not None else None
+        fixed[name] = Estimate(value, se, (value - half_t, value + half_t) if half_t is not None else None, df)
     natural = natural_of(psi, sigma, design.covariance)
     half = _interval_halfwidths(design, wk, natural)
     sd = np.sqrt(np.diag(psi))
@@ -186,6 +188,20 @@ def _result(design: MixedDesign, found: Optimum, separate: Sequence[FitResult], 
         residual_sd=Estimate(sigma, None, resid_ci), loglik=loglik, aic=-2.0 * loglik + 2.0 * k,
         bic=-2.0 * loglik + math.log(n_eff) * k, n_obs=design.n_obs, n_params=k, iterations=found.iterations,
         series=effects, notes=tuple(notes))
+
+
+def fixed_df(design: MixedDesign, name: str) -> int:
+    """Degrees of freedom of a fixed effect's t interval, by containment (as nlme does).
+
+    A constant with a random deviation per series is estimated between series: its DF is the number
+    of series less the fixed effects of that constant. Others are estimated within series: the
+    points less every fixed effect and every series' random coefficients.
+    """
+    constant = name.split(":", 1)[0]
+    if constant in design.random:
+        own = sum(1 for n in design.beta_names if n.split(":", 1)[0] == constant)
+        return max(design.n_series - own, 1)
+    return max(design.n_obs - len(design.beta_names) - design.n_series * len(design.random), 1)
 
 
 def _interval_halfwidths(design: MixedDesign, wk: object, natural: Array) -> Array | None:

@@ -30,19 +30,25 @@ def _float(raw: Any) -> float:
 
 @dataclass(frozen=True)
 class Estimate:
-    """A value with its standard error and Wald 95% interval (None where not estimable)."""
+    """A value with its standard error and 95% interval (None where not estimable); ``df`` gives the
+    degrees of freedom of the t quantile behind the interval of a fixed effect."""
 
     value: float
     se: float | None = None
     ci95: Interval | None = None
+    df: int | None = None
 
     def to_dict(self) -> dict[str, Any]:
-        return {"value": _num(self.value), "se": _num(self.se), "ci95": _pair(self.ci95)}
+        out: dict[str, Any] = {"value": _num(self.value), "se": _num(self.se), "ci95": _pair(self.ci95)}
+        if self.df is not None:
+            out["df"] = self.df
+        return out
 
     @classmethod
     def from_dict(cls, raw: Mapping[str, Any]) -> "Estimate":
-        se = raw.get("se")
-        return cls(_float(raw.get("value")), None if se is None else float(se), _unpair(raw.get("ci95")))
+        se, df = raw.get("se"), raw.get("df")
+        return cls(_float(raw.get("value")), None if se is None else float(se), _unpair(raw.get("ci95")),
+                   None if df is None else int(df))
 
 
 @dataclass(frozen=True)
