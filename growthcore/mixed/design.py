@@ -2,8 +2,10 @@
 
 Each series i has constants φ_i = A_i·β + B·b_i: β are the population values (and the shifts of the
 conditions other than the first), b_i ~ N(0, Ψ) the series' random deviations on the chosen
-constants. Series of different lengths are padded to one array and masked, so every evaluation runs
-over all series at once.
+constants. Series of different lengths are padded to one array and masked, so every evaluation of a
+curve runs over all series at once. A difference form is iterated series by series on its step grid
+(the trajectory method) with p0, its state at the series' first time, as one more constant; its
+derivatives come from the forward sensitivities of the path.
 """
 
 from __future__ import annotations
@@ -15,7 +17,10 @@ import numpy as np
 
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
-from growthcore.models.base import CurveForm, ModelForm
+from growthcore.fit.problem import P0_DIFFERENCE
+from growthcore.fit.sensitivity import path_jacobian
+from growthcore.fit.simulate import path_of
+from growthcore.models.base import CurveForm, DifferenceForm, ModelForm
 
 Array = np.ndarray
 ESTIMATIONS: tuple[str, ...] = ("ML", "REML")
@@ -27,7 +32,7 @@ ERRORS: tuple[str, ...] = ("additive", "log")
 class MixedDesign:
     """Everything about a mixed-effects fit that does not change while it is optimised."""
 
-    form: CurveForm
+    form: CurveForm | DifferenceForm
     error: str
     estimation: str
     covariance: str
@@ -46,6 +51,8 @@ class MixedDesign:
     mask: Array                        # (m, n) 1.0 where a point is used
     counts: Array                      # (m,) used points per series
     origin: float = 0.0                # the time p0 refers to (curves with p0); ``t`` is measured from it
+    grid: Array | None = None          # difference forms: (m, n) step index of each point (padding: 0)
+    step: float | None = None          # difference forms: the common step h
 
     @property
     def n_obs(self) -> int:
@@ -71,12 +78,15 @@ class MixedDesign:
 
     def evaluate(self, phi: Array) -> tuple[Array, Array]:
         """Predictions on the error scale and their derivatives, (m, n) and (m, n, p); padding is zero."""
-        values: dict[str, Array | float] = dict(self.held)
-        for j, name in enumerate(self.free):
-            values[name] = phi[:, j:j + 1]
         with np.errstate(all="ignore"):
-            f = np.asarray(self.form.value(self.t, values), dtype=float)
-            partials = _partials(self.form, self.t, values, self.free)
+            if isinstance(self.form, DifferenceForm):
+                f, partials = self._paths(phi)
+            else:
+                values: dict[str, Array | float] = dict(self.held)
+                for j, name in enumerate(self.free):
+                    values[name] = phi[:, j:j + 1]
+                f = np.asarray(self.form.value(self.t, values), dtype=float)
+                partials = _partials(self.form, self.t, values, self.free)
             if self.error == "log":
                 jac = partials / f[:, :, None]
                 h = np.log(f)
@@ -86,6 +96,21 @@ class MixedDesign:
         h = np.where(self.mask > 0, h, 0.0)
         jac = np.where(self.mask[:, :, None] > 0, jac, 0.0)
         return h, jac
+
+    def _paths(self, phi: Array) -> tuple[Array, Array]:
+        """Each series' path at its points and the path's derivatives (one path per series)."""
+        assert isinstance(self.form, DifferenceForm) and self.grid is not None
+        m, n = self.t.shape
+        f = np.zeros((m, n))
+        partials = np.zeros((m, n, len(self.free)))
+        for i in range(m):
+            values = {**self.held, **{name: float(phi[i, j]) for j, name in enumerate(self.free)}}
+            count = int(self.counts[i])
+            index = self.grid[i, :count]
+            path = path_of(self.form, values["p0"], values, int(index[-1]))
+            f[i, :count] = path[index]
+            partials[i, :count] = path_jacobian(self.form, values, self.free, path)[index]
+        return f, partials
 
     def population_curve(self, beta: Array, t: Array, group: str | None = None) -> Array:
         """The curve of the population constants (of ``group`` when conditions shift constants)."""
@@ -131,9 +156,6 @@ def build_design(
     shifted: Sequence[str] = (),
 ) -> MixedDesign:
     """Check the choices and lay the data out; bad choices raise ``GrowthcoreInputError``."""
-    if not isinstance(form, CurveForm):
-        raise GrowthcoreInputError(
-            f"mixed-effects fits take the closed-form curves; {form.id!r} is a difference form")
     if estimation not in ESTIMATIONS:
         raise GrowthcoreInputError(f"`estimation` must be one of {', '.join(ESTIMATIONS)}; got {estimation!r}")
     if covariance not in COVARIANCES:
@@ -141,7 +163,8 @@ def build_design(
     if error not in ERRORS:
         raise GrowthcoreInputError(f"`error` must be one of {', '.join(ERRORS)}; got {error!r}")
     held_f = {k: float(v) for k, v in (held or {}).items()}
-    names_all = form.param_names
+    difference = isinstance(form, DifferenceForm)
+    names_all = (*form.param_names, P0_DIFFERENCE.name) if difference else form.param_names
     for label, chosen in (("held", held_f), ("random", random), ("shifted", shifted)):
         unknown = [n for n in chosen if n not in names_all]
         if unknown:
@@ -182,8 +205,10 @@ def build_design(
     B = np.zeros((p, q))
     for j, name in enumerate(random_t):
         B[free.index(name), j] = 1.0
-    # one origin for all series, so that their p0 are comparable; t_mid stays on the series' clock
-    origin = min(float(s.t[0]) for s in usable) if "p0" in names_all else 0.0
+    # one origin for all curves, so that their p0 are comparable; t_mid stays on the series' clock; a
+    # difference form's p0 is the state at each series' own first time
+    origin = min(float(s.t[0]) for s in usable) if "p0" in names_all and not difference else 0.0
+    grid, step = (_grids(usable) if difference else (None, None))
     width = max(int(np.count_nonzero(s.used)) for s in usable)
     t = np.zeros((m, width))
     y = np.zeros((m, width))
@@ -199,4 +224,28 @@ def build_design(
         y[i, :n] = np.log(ps) if error == "log" else ps
         mask[i, :n] = 1.0
     return MixedDesign(form, error, estimation, covariance, free, held_f, random_t, shifted_t, beta_names,
-                       names, labels, conditions, A, B, t, y, mask, mask.sum(axis=1), origin)
+                       names, labels, conditions, A, B, t, y, mask, mask.sum(axis=1), origin, grid, step)
+
+
+def _grids(series: Sequence[Series]) -> tuple[Array, float]:
+    """Step index of every used point, for series sampled on one common step."""
+    steps = []
+    for s in series:
+        info = s.step()
+        if not info.regular or info.h is None or info.index is None:
+            raise GrowthcoreInputError(f"series {s.name!r}: {info.message}")
+        steps.append(info.h)
+    h = steps[0]
+    for s, hi in zip(series, steps):
+        if abs(hi - h) > 1e-6 * h:
+            raise GrowthcoreInputError(
+                f"a difference form needs one step for every series; {series[0].name!r} has h = {h:g}, "
+                f"{s.name!r} has h = {hi:g}")
+    width = max(int(np.count_nonzero(s.used)) for s in series)
+    grid = np.zeros((len(series), width), dtype=int)
+    for i, s in enumerate(series):
+        index = s.step().index
+        assert index is not None
+        used = index[s.used]
+        grid[i, :used.size] = used
+    return grid, float(h)

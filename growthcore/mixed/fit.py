@@ -49,7 +49,9 @@ def fit_population(
     Parameters
     ----------
     series : the replicates; excluded points are left out, series without data are skipped.
-    model : a curve form id (``logistic-mid-curve``...) or form object.
+    model : a form id or object: a curve (``logistic-mid-curve``...) or a difference form, fitted by
+        its trajectory on the common step grid with p0 (the state at each series' first time) as
+        one more constant that may be random.
     random : constants with a random deviation per series.
     covariance : ``diagonal`` (independent deviations) or ``full`` (correlated).
     estimation : ``ML`` or ``REML``.
@@ -154,7 +156,8 @@ def _result(design: MixedDesign, found: Optimum, separate: Sequence[FitResult], 
     natural = natural_of(psi, sigma, design.covariance)
     half = _interval_halfwidths(design, wk, natural)
     sd = np.sqrt(np.diag(psi))
-    at_zero = found.theta[:q] <= LOG_SD_BOUNDS[0] + 1e-6
+    # an SD below 1e-4 of the residual SD cannot be told from zero (the lower bound is e^-12)
+    at_zero = found.theta[:q] <= math.log(1e-4)
     random_sd: dict[str, Estimate] = {}
     for j, name in enumerate(design.random):
         ci = None if half is None or at_zero[j] else (math.exp(natural[j] - half[j]), math.exp(natural[j] + half[j]))
