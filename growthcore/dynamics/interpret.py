@@ -43,10 +43,18 @@ def describe(result: Any, lr: LongRun, equilibria: Sequence[Mapping[str, Any]],
     out: list[str] = []
     if lr.kind in ("monotone", "damped-oscillation") and lr.states:
         level = lr.states[0]
-        mult = _multiplier_at(equilibria, level)
+        target = _approached(equilibria, level)
         how = "monotonically" if lr.kind == "monotone" else "through damped oscillations (the deviation changes sign each step)"
-        extra = f"; multiplier f'(p*) = {_g(mult)}" if mult is not None and result.form.kind == "difference" else ""
-        out.append(f"{subject} implies a steady level p* = {_g(level)}, approached {how}{extra}.")
+        if target is not None and abs(target["value"] - level) > 1e-3 * max(abs(target["value"]), abs(level), 1e-300):
+            # the path is still far from the level it tends to: say both, with the multiplier of the level itself
+            mult = target.get("multiplier")
+            extra = f"; multiplier f'(p*) = {_g(mult)}" if mult is not None and result.form.kind == "difference" else ""
+            out.append(f"{subject} implies a steady level p* = {_g(target['value'])}, approached {how} but slowly: "
+                       f"the path is still at {_g(level)} after the steps followed{extra}.")
+        else:
+            mult = _multiplier_at(equilibria, level)
+            extra = f"; multiplier f'(p*) = {_g(mult)}" if mult is not None and result.form.kind == "difference" else ""
+            out.append(f"{subject} implies a steady level p* = {_g(level)}, approached {how}{extra}.")
     elif lr.kind == "cycle":
         if lr.period and lr.states:
             out.append(f"{subject} implies a {lr.period}-cycle between {_g(min(lr.states))} and "
@@ -70,6 +78,12 @@ def describe(result: Any, lr: LongRun, equilibria: Sequence[Mapping[str, Any]],
         out.append(f"The 95% interval of {regimes.parameter} ({_g(lo)} to {_g(hi)}) lies outside the values the form "
                    "allows: the long run over it is not assessed.")
     return out
+
+
+def _approached(equilibria: Sequence[Mapping[str, Any]], level: float) -> Mapping[str, Any] | None:
+    """The stable equilibrium nearest the long-run state (None when none is stable)."""
+    stable = [e for e in equilibria if e.get("stable")]
+    return min(stable, key=lambda e: abs(e["value"] - level)) if stable else None
 
 
 def _multiplier_at(equilibria: Sequence[Mapping[str, Any]], level: float) -> float | None:

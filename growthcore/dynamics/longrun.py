@@ -122,6 +122,18 @@ def classify(
         deriv = np.abs(form.next_state_dp(tail, values))
         lyap = np.mean(np.log(np.where(deriv > 0, deriv, 1e-300)), axis=0)
         slope = form.next_state_dp(tail[-1:], values)[0]
+    suspect = _near_neutral(form, values, tail, period, lyap, m)
+    if np.any(suspect):
+        refined, refined_states = _settle_by_multiplier(form, values, tail, period, suspect, scale, max_period)
+        ok = refined > 0
+        for j in np.flatnonzero(ok):
+            q = int(refined[j])
+            period[j] = q
+            tail[-q:, j] = refined_states[j][:q]  # the exact cycle, so that the states shown are the cycle's
+            d[-1, j] = 0.0
+        if np.any(ok):
+            with np.errstate(all="ignore"):
+                slope = np.where(ok, form.next_state_dp(tail[-1:], values)[0], slope)
     kind = np.full(m, KINDS.index("chaos"))
     fixed_point = period == 1
     kind = np.where(fixed_point & (slope >= 0), KINDS.index("monotone"), kind)
@@ -130,13 +142,100 @@ def classify(
     not_chaotic = (period == 0) & ~(lyap > CHAOS_THRESHOLD)
     kind = np.where(not_chaotic, KINDS.index("cycle"), kind)  # a long or not yet settled cycle
     # a tail that still moves one way (a multiplier near 1) is a slow monotone approach, not a cycle
-    one_way = (period == 0) & (np.all(d > 0, axis=0) | np.all(d < 0, axis=0))
+    one_way = (period == 0) & (np.all(d > 0, axis=0) | np.all(d < 0, axis=0)) & (np.abs(d[-1]) > 0)
     kind = np.where(one_way, KINDS.index("monotone"), kind)
     kind = np.where(unbounded, KINDS.index("unbounded"), kind)
     kind = np.where(extinct, KINDS.index("extinction"), kind)
     period = np.where(kind == KINDS.index("cycle"), period, 0)
     lyap = np.where(extinct | unbounded, np.nan, lyap)
     return LongRunBatch(kind.astype(int), period, lyap, tail, float(np.median(start)))
+
+
+#: Cycles whose multiplier lies this close to ±1 settle too slowly for the tail alone to tell their period.
+NEAR_NEUTRAL = 0.1
+
+
+def _column(values: Mapping[str, Array | float], cols: Array) -> dict[str, Array | float]:
+    return {n: (v if np.ndim(v) == 0 else np.broadcast_to(np.asarray(v, dtype=float), (np.size(v),))[cols])
+            for n, v in values.items()}
+
+
+def _near_neutral(form: DifferenceForm, values: Mapping[str, Array | float], tail: Array, period: Array,
+                  lyap: Array, m: int) -> Array:
+    """Parameter sets whose detected period is in doubt: a cycle multiplier near ±1, or no period and no chaos."""
+    out = np.zeros(m, dtype=bool)
+    with np.errstate(all="ignore"):
+        deriv = form.next_state_dp(tail, values)
+        for q in np.unique(period):
+            cols = period == q
+            if q == 0:
+                out |= cols & ~(lyap > CHAOS_THRESHOLD) & np.all(np.isfinite(tail), axis=0)
+                continue
+            mu = np.prod(deriv[-int(q):], axis=0)
+            out |= cols & np.isfinite(mu) & (np.abs(np.abs(mu) - 1.0) < NEAR_NEUTRAL)
+    return out
+
+
+def _settle_by_multiplier(form: DifferenceForm, values: Mapping[str, Array | float], tail: Array, period: Array,
+                          suspect: Array, scale: float, max_period: int) -> tuple[Array, dict[int, Array]]:
+    """For each doubtful set, the smallest period whose cycle near the tail is stable by its multiplier.
+
+    Near a period doubling the tail converges like |μ|ⁿ with |μ| → 1, so no finite transient settles it
+    at the threshold; Newton's method on f^q(p) = p from the last state finds the cycle near the orbit,
+    and the product of f' over it (the cycle's multiplier μ) says whether the orbit can stay there
+    (|μ| < 1). 0 where no candidate cycle is stable (the tail's own answer stands).
+    """
+    m = tail.shape[1]
+    found = np.zeros(m, dtype=int)
+    states: dict[int, Array] = {}
+    cols_all = np.flatnonzero(suspect)
+    candidates: set[int] = set()
+    for j in cols_all:
+        q = int(period[j])
+        if q:
+            candidates |= {d for d in range(1, q + 1) if q % d == 0} | ({2 * q} if 2 * q <= max_period else set())
+        else:
+            candidates |= {2 ** k for k in range(int(np.log2(max_period)) + 1)}
+    for q in sorted(candidates):
+        cols = np.array([j for j in cols_all if found[j] == 0], dtype=int)
+        if not cols.size:
+            break
+        vals = _column(values, cols)
+        x = tail[-1, cols].copy()
+        for _ in range(60):
+            orbit, mu = _orbit(form, vals, x, q)
+            g = orbit[q] - x
+            with np.errstate(all="ignore"):
+                step = np.where(np.isfinite(mu) & (mu != 1.0), g / (mu - 1.0), 0.0)
+            x = x - step
+            if np.all(np.abs(step) <= 1e-14 * scale):
+                break
+        orbit, mu = _orbit(form, vals, x, q)
+        converged = np.isfinite(mu) & (np.abs(orbit[q] - x) <= 1e-10 * scale) & (np.abs(x - tail[-1, cols]) <= 0.1 * scale)
+        for i, j in enumerate(cols):
+            if not converged[i]:
+                continue
+            cycle = orbit[:q, i]
+            minimal = next(dd for dd in range(1, q + 1) if q % dd == 0 and abs(cycle[dd % q] - cycle[0]) <= 1e-9 * scale) \
+                if q > 1 else 1
+            with np.errstate(all="ignore"):
+                mu_min = float(np.prod(form.next_state_dp(cycle[:minimal], _column(vals, np.array([i])))))
+            if math.isfinite(mu_min) and abs(mu_min) < 1.0 and minimal == q and np.all(cycle > 1e-12 * scale):
+                found[j] = q
+                states[int(j)] = cycle
+    return found, states
+
+
+def _orbit(form: DifferenceForm, values: Mapping[str, Array | float], x: Array, q: int) -> tuple[Array, Array]:
+    """x, f(x), ..., f^q(x) and the multiplier (f^q)'(x) = Π f'(f^i(x)) for i < q."""
+    out = np.empty((q + 1, x.size))
+    out[0] = x
+    mu = np.ones(x.size)
+    with np.errstate(all="ignore"):
+        for i in range(q):
+            mu = mu * form.next_state_dp(out[i], values)
+            out[i + 1] = form.next_state(out[i], values)
+    return out, mu
 
 
 def long_run(form: DifferenceForm, values: Mapping[str, float], start: float, *, scale: float, **options: int) -> LongRun:
