@@ -111,7 +111,7 @@ def capacity_range(series: Series) -> CapacityRange:
     p = series.p[series.used]
     top = float(np.max(np.abs(p))) if p.size else 1.0
     top = top if top > 0 else 1.0
-    guess = capacity_guess(p) if p.size >= 3 else 1.1 * top
+    guess = capacity_guess(p, series.t[series.used]) if p.size >= 3 else 1.1 * top
     high = max(3.0 * top, 1.5 * guess)
     return CapacityRange(estimate=float(guess), low=0.0, high=float(high))
 

@@ -24,11 +24,21 @@ def rounded(k: float) -> float:
     return float(f"{k:.4g}")
 
 
+def same_file(data: Mapping[str, Any] | None, previous_key: str | None) -> bool:
+    """Whether ``data`` is another series of the file the previous fits came from (keys start with its hash)."""
+    sha = (data or {}).get("sha256")
+    return bool(sha and previous_key and previous_key.split(":", 1)[0] == sha and previous_key != data.get("key"))
+
+
 def update_capacity(trigger: str | None, k_input: float | None, k_slider: float | None,
                     relayout: Mapping[str, Any] | None, data: Mapping[str, Any] | None,
                     settings: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
-                    current: float | None) -> tuple[Any, ...]:
-    """Outputs: the committed K, the number box, the slider value, min, max, step, marks and the note."""
+                    current: float | None, *, previous_key: str | None = None) -> tuple[Any, ...]:
+    """Outputs: the committed K, the number box, the slider value, min, max, step, marks and the note.
+
+    A K the user holds (``k_mode`` "held") stays when another series of the same file is chosen
+    (``previous_key`` is the data key of the fits on screen); a new file starts from its first guess.
+    """
     none6 = (no_update,) * 6
     if data is None:
         return (no_update, no_update, *none6)
@@ -36,10 +46,16 @@ def update_capacity(trigger: str | None, k_input: float | None, k_slider: float 
     if trigger in (None, ids.DATA):
         series = series_from_store(data)
         rng = capacity_range(series)
-        k = rounded(rng.estimate)
-        step = rounded((rng.high - rng.low) / 400)
-        return (k, k, k, rng.low, rounded(rng.high), step, _marks(rng.low, rounded(rng.high)),
-                f"{unit} (first guess from the change per step)")
+        guess = rounded(rng.estimate)
+        held = (settings or {}).get("k_mode") == "held" and current is not None and math.isfinite(current) \
+            and current > 0 and same_file(data, previous_key)
+        k = current if held else guess
+        high = rounded(max(rng.high, 1.5 * k))
+        step = rounded((high - rng.low) / 400)
+        note = (f"{unit} (held at your estimate; this series' first guess is {guess:g})" if held else
+                f"{unit} (first guess from the data: the minimum of a profile over K at or above the largest value "
+                "when the series rises to it)")
+        return (k, k, k, rng.low, high, step, _marks(rng.low, high), note)
     if trigger == ids.K_FROM_FIT:
         series = series_from_store(data, exclusions)
         value, note = capacity_from_fit(series, (settings or {}).get("models", []), (settings or {}).get("terms", []))
@@ -74,13 +90,15 @@ def register(app: Dash) -> None:
         Input(ids.K_INPUT, "value"), Input(ids.K_SLIDER, "value"), Input(ids.G_TRAJECTORY, "relayoutData"),
         Input(ids.DATA, "data"), Input(ids.K_FROM_FIT, "n_clicks"),
         State(ids.SETTINGS, "data"), State(ids.EXCLUSIONS, "data"), State(ids.CAPACITY, "data"),
+        State(ids.FITS, "data"),
         prevent_initial_call=False,
     )
-    def _capacity(k_input, k_slider, relayout, data, _clicks, settings, exclusions, current):
+    def _capacity(k_input, k_slider, relayout, data, _clicks, settings, exclusions, current, fits):
         trigger = ctx.triggered_id
         if f"{ids.DATA}.data" in ctx.triggered_prop_ids:
             # new data arriving with a plot's relayout event in one call must still set the first guess
             trigger = ids.DATA
         if trigger == ids.K_FROM_FIT and not _clicks:
             trigger = "none"
-        return update_capacity(trigger, k_input, k_slider, relayout, data, settings, exclusions, current)
+        return update_capacity(trigger, k_input, k_slider, relayout, data, settings, exclusions, current,
+                               previous_key=(fits or {}).get("key"))

@@ -62,7 +62,7 @@ def record_settings(settings: Mapping[str, Any], capacity: float | None, models:
         "error": settings.get("error", "additive"),
         "capacity": held_capacity(settings, capacity),
         "terms": list(settings.get("terms", [])),
-        "profile": settings.get("k_mode", "held") != "held",
+        "profile": settings.get("k_mode", "fitted") != "held",
         "capacity_estimate": float(capacity) if capacity is not None else None,
     }
 

@@ -25,7 +25,7 @@ def needs_refit_on_drag(settings: Mapping[str, Any]) -> bool:
 
 def held_capacity(settings: Mapping[str, Any], capacity: float | None) -> float | None:
     """The K every fit holds (None when K is fitted), as the fits callback uses it."""
-    held = settings.get("k_mode", "held") == "held"
+    held = settings.get("k_mode", "fitted") == "held"
     return capacity if held and capacity is not None and capacity > 0 else None
 
 
@@ -37,7 +37,7 @@ def session_fits(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, 
     """
     series = series_from_store(data, exclusions)
     k = held_capacity(settings, capacity)
-    held = settings.get("k_mode", "held") == "held"
+    held = settings.get("k_mode", "fitted") == "held"
     chosen = [m for m in settings.get("models", []) if forms is None or m in forms]
     fits: list[FitResult] = []
     notes: list[str] = []

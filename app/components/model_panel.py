@@ -14,8 +14,8 @@ METHOD_OPTIONS = (
     ("both", "Both, side by side"),
 )
 K_MODES = (
-    ("held", "held at the estimate in every fit (live)"),
-    ("fitted", "fitted by every form (with a profile interval; slower)"),
+    ("fitted", "fitted by every form (with a profile interval)"),
+    ("held", "hold K at my estimate in every fit (live; kept when you switch series)"),
 )
 
 
@@ -69,7 +69,7 @@ def model_section() -> html.Section:
             dcc.Slider(id=ids.K_SLIDER, min=0, max=10, step=None, value=None, updatemode="mouseup",
                        tooltip={"always_visible": False, "placement": "bottom"}, marks=None,
                        className="k-slider"),
-            dcc.RadioItems(id=ids.K_MODE, options=[{"label": t, "value": v} for v, t in K_MODES], value="held",
+            dcc.RadioItems(id=ids.K_MODE, options=[{"label": t, "value": v} for v, t in K_MODES], value="fitted",
                            inputClassName="check", labelClassName="check-label"),
             html.P(id=ids.LIVE_NOTE, className="hint"),
         ], className="fieldset"),

@@ -24,7 +24,7 @@ from growthcore.fit.problem import P0_DIFFERENCE, Problem
 from growthcore.fit.result import Grid
 from growthcore.fit.simulate import iterate
 from growthcore.fit.trajectory import curve_origin, curve_problem
-from growthcore.fit.starts import _linearised, capacity_guess, curve_starts, mid_time
+from growthcore.fit.starts import _linearised, capacity_start, curve_starts, mid_time
 from growthcore.models.base import CurveForm, DifferenceForm, ModelForm
 
 Array = np.ndarray
@@ -114,7 +114,7 @@ def _difference(series: Series, form: DifferenceForm, *, model: str, error: str,
                       grid=Grid(float(series.t[0]), float(step.h)),
                       settings={"fixed": dict(fixed), "t_first": float(series.t[0])})
     first = float(series.p[0]) if used[0] else float(p[0])
-    k0 = capacity_guess(p)
+    k0 = capacity_start(p)
     defaults = {"r": 0.5, "K": k0, "lambda": 1.6, "theta": 1.0,
                 "A": 0.5 * float(np.min(p[p > 0])) if np.any(p > 0) else 1.0, "c": 0.0, "p0": max(first, 1e-9)}
     seeds = [{**defaults, "K": k0 * factor} for factor in (1.0, 1.5)]

@@ -20,7 +20,7 @@ from growthcore.data import Series
 from growthcore.fit.nls import solve
 from growthcore.fit.problem import Problem, build_result
 from growthcore.fit.result import FitResult, Grid, failed
-from growthcore.fit.starts import capacity_guess
+from growthcore.fit.starts import capacity_start
 from growthcore.models.base import DifferenceForm
 from growthcore.stats import regression_through_origin
 
@@ -165,7 +165,7 @@ def _shape_start(name: str, start: Mapping[str, float], observed: Array, x: Arra
         return float(start[name])
     states = np.concatenate([x, observed[-1:]])
     if name == "K":
-        return capacity_guess(states)
+        return capacity_start(states)
     if name == "theta":
         return 1.0
     if name == "A":
@@ -176,7 +176,7 @@ def _shape_start(name: str, start: Mapping[str, float], observed: Array, x: Arra
 
 def _fit_nonlinear(problem: Problem, form: DifferenceForm, x: Array, start: Mapping[str, float]) -> FitResult:
     states = np.concatenate([x, problem.observed[-1:]])
-    k0 = capacity_guess(states)
+    k0 = capacity_start(states)
     growth = np.median(problem.observed / np.where(x != 0, x, np.nan))
     growth = float(growth) if math.isfinite(growth) and growth > 0 else 1.5
     guesses = {"K": k0, "lambda": max(growth, 1.05) ** 2, "r": max(math.log(max(growth, 1.05)) * 2.0, 0.05), "c": 0.0}

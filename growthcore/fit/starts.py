@@ -3,18 +3,46 @@
 from __future__ import annotations
 
 import math
+from typing import Callable
 
 import numpy as np
+from scipy import optimize
 
 from growthcore.models.base import ModelForm
 
 Array = np.ndarray
 
 
-def capacity_guess(p: Array) -> float:
-    """K from the change per step: Δp/p ≈ a + b·p crosses zero at K = −a/b (logistic reasoning).
+#: The K grid of the first-guess profiles, in multiples of the largest observation.
+GUESS_GRID = np.geomspace(1.0, 5.0, 321)
 
-    Falls back to 1.1 × the largest value when that line does not slope down.
+
+def capacity_guess(p: Array, t: Array | None = None) -> float:
+    """A first guess of K from the data, never below the largest value of a series that rises to it.
+
+    A series whose largest values come last (it grows, or has levelled off) has its K at or above
+    them: the guess is the minimum of a profile over K ≥ max(p), the regression through the origin
+    of Δp on p(1 − p/K) for consecutive steps (``t`` omitted or evenly spaced), or the straight line
+    of ln(K/p − 1) against t for uneven times (the logistic curve's linear form). Other series
+    (cycles, declines) take the logistic reasoning Δp/p ≈ a + b·p, zero at K = −a/b, with 1.1 × the
+    largest value as the fallback.
+    """
+    p = np.asarray(p, dtype=float)
+    top = float(p.max()) if p.size else 0.0
+    fallback = 1.1 * top if top > 0 else 1.0
+    if p.size < 3 or not p.min() > 0:
+        return fallback
+    if rises_to_its_maximum(p):
+        even = t is None or np.allclose(np.diff(t), float(t[1] - t[0]), rtol=1e-6)
+        return _increments_profile_min(p, top) if even else _curve_profile_min(np.asarray(t, dtype=float), p, top)
+    return capacity_start(p)
+
+
+def capacity_start(p: Array) -> float:
+    """A cheap starting value of K for the solvers: Δp/p ≈ a + b·p crosses zero at K = −a/b.
+
+    Falls back to 1.1 × the largest value when that line does not slope down. (The solvers try
+    several starts; the first guess shown to the user is :func:`capacity_guess`.)
     """
     top = float(p.max()) if p.size else 0.0
     fallback = 1.1 * top if top > 0 else 1.0
@@ -28,6 +56,53 @@ def capacity_guess(p: Array) -> float:
         if 0.5 * top < k < 5.0 * top:
             return float(k)
     return fallback
+
+
+def rises_to_its_maximum(p: Array) -> bool:
+    """Whether the largest value lies in the last quarter and well above the first: growth that has
+    not turned down (a logistic path from below stays under K)."""
+    n = p.size
+    last = int(np.argmax(p))
+    return last >= n - max(2, n // 4) and float(p[last]) > 1.2 * float(p[0])
+
+
+def _increments_profile_min(p: Array, top: float) -> float:
+    x, dp = p[:-1], np.diff(p)
+
+    def sse(ks: Array) -> Array:
+        g = x[:, None] * (1.0 - x[:, None] / ks[None, :])
+        gg = np.einsum("ij,ij->j", g, g)
+        gd = dp @ g
+        with np.errstate(all="ignore"):
+            return np.where(gg > 0, float(dp @ dp) - gd * gd / gg, np.inf)
+
+    return _grid_then_refine(sse, top * GUESS_GRID)
+
+
+def _curve_profile_min(t: Array, p: Array, top: float) -> float:
+    tc = t - t.mean()
+
+    def sse(ks: Array) -> Array:
+        with np.errstate(all="ignore"):
+            y = np.log(ks[None, :] / p[:, None] - 1.0)
+        yc = y - y.mean(axis=0)
+        slope = (tc @ yc) / float(tc @ tc)
+        res = yc - tc[:, None] * slope[None, :]
+        out = np.einsum("ij,ij->j", res, res)
+        return np.where(np.isfinite(out), out, np.inf)
+
+    return _grid_then_refine(sse, top * GUESS_GRID[1:])  # ln(K/p − 1) needs K above every value
+
+
+def _grid_then_refine(sse: Callable[[Array], Array], ks: Array) -> float:
+    """The grid minimum of a profile, refined between its neighbours (the profile is smooth in K)."""
+    values = sse(ks)
+    j = int(np.argmin(values))
+    if j == ks.size - 1:
+        return float(ks[j])  # still falling at 5 × the largest value: K is not determined by these data
+    found = optimize.minimize_scalar(lambda k: float(sse(np.array([k]))[0]), bounds=(ks[max(j - 1, 0)], ks[j + 1]),
+                                     method="bounded", options={"xatol": 1e-10 * ks[j]})
+    return float(found.x) if found.success and found.fun <= values[j] else float(ks[j])
 
 
 def _line(x: Array, y: Array) -> tuple[float, float]:

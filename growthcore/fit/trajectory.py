@@ -22,7 +22,7 @@ from growthcore.fit.problem import P0_DIFFERENCE, Problem, build_result, is_at_b
 from growthcore.fit.result import FitResult, Grid, failed
 from growthcore.fit.sensitivity import path_jacobian
 from growthcore.fit.simulate import iterate, path_of
-from growthcore.fit.starts import capacity_guess, curve_starts
+from growthcore.fit.starts import capacity_start, curve_starts
 from growthcore.models.base import CurveForm, DifferenceForm, ModelForm
 
 Array = np.ndarray
@@ -193,7 +193,7 @@ def _fit_difference(series: Series, form: DifferenceForm, *, model: str, error: 
                       terms=terms, settings={"fixed": dict(fixed), "t_first": float(series.t[0])},
                       exact=_path_evaluation(form, free, fixed, steps, offset, p, error))
     first = float(series.p[0]) if used[0] else float(p[0])
-    k0 = capacity_guess(p)
+    k0 = capacity_start(p)
     defaults = {"r": 0.5, "K": k0, "lambda": 1.6, "theta": 1.0, "c": 0.0, "p0": max(first, 1e-9)}
     if "A" in free:
         positive = p[p > 0]

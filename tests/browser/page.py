@@ -67,3 +67,12 @@ def shot(driver: Any, artifacts: str, name: str, element_id: str | None = None, 
     if element_id:
         scroll_to(driver, element_id, block, pause)
     driver.save_screenshot(os.path.join(artifacts, f"{name}.png"))
+
+
+def hold_k(driver: Any, timeout: float = WAIT, poll: float = POLL) -> None:
+    """Choose "hold K at my estimate" (K is fitted by default) and wait until the fits hold it."""
+    from selenium.webdriver.common.by import By
+
+    driver.find_element(By.CSS_SELECTOR, "#model-k-mode input[value='held']").click()
+    wait(driver, lambda d: "(held)" in "\n".join(comparison_rows(d)), timeout, poll)
+    wait_idle(driver, timeout, poll)

@@ -10,7 +10,7 @@ from typing import Any
 import numpy as np
 import pytest
 
-from tests.browser.page import comparison_rows, open_demo, scroll_to, shot, text, upload, wait, wait_idle
+from tests.browser.page import comparison_rows, hold_k, open_demo, scroll_to, shot, text, upload, wait, wait_idle
 
 pytestmark = pytest.mark.browser
 
@@ -89,7 +89,9 @@ def test_upload_switch_forms_and_change_k(server_url: str, make_driver: Any, art
     wait_idle(driver)
     shot(driver, artifacts, "03-forms")
 
-    # change K by the number box: slope, uncentered R² and the table must all change
+    # hold K at the estimate (K is fitted by default), then change it by the number box: slope,
+    # uncentered R² and the table must all change
+    hold_k(driver)
     before_summary = text(driver, "panel-candidate-summary")
     before_table = comparison_rows(driver)
     box = driver.find_element(By.ID, "model-k-input")

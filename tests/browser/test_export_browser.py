@@ -25,7 +25,7 @@ from growthcore.report.images import PANEL_SIZES, SHEET_SIZES, png_size
 from growthcore.schemas import record_schema
 from tests.browser import page
 from tests.browser.conftest import CHROMEDRIVER, chromium_options
-from tests.browser.page import comparison_rows, shot, text
+from tests.browser.page import comparison_rows, hold_k, shot, text
 
 pytestmark = pytest.mark.browser
 
@@ -138,6 +138,7 @@ def test_export_every_file_then_reopen_and_refuse_a_tampered_record(
     driver, downloads = downloading_driver()
     open_demo(driver, server_url)
     # a K of our own and one point left out, so that the record carries both
+    hold_k(driver)
     _type(driver, "model-k-input", str(K))
     wait(driver, lambda d: f"K = {K:g} (held)" in "\n".join(comparison_rows(d)))
     _type(driver, "exclusion-row", str(EXCLUDED_ROW))
