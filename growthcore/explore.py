@@ -274,7 +274,51 @@ def capacity_from_fit(series: Series, models: Sequence[str], terms: Sequence[str
             continue
         method = "increments" if form.kind == "difference" else "trajectory"
         result = fit(series, form, method=method, terms=terms, profile=False)
-        if result.success and math.isfinite(result.values["K"]):
-            return float(result.values["K"]), f"K from the {model} fit ({method} method)"
-        return None, f"the {model} fit did not converge: {result.message}"
+        if not result.success:
+            return None, f"K not taken: the {model} fit did not converge: {result.message}"
+        why = degenerate_capacity(result, series)
+        if why:
+            return None, f"K not taken from the {model} fit ({method} method): {why}"
+        k = float(result.values["K"])
+        return k, f"K from the {model} fit ({method} method)" + (
+            f"; {flag}" if (flag := capacity_flag(k, series)) else "")
     return None, "none of the chosen forms has a carrying capacity K"
+
+
+#: How far beyond the data range a K may lie before it is flagged (a factor on the largest value).
+FAR_FACTOR = 10.0
+
+
+def degenerate_capacity(result: FitResult, series: Series) -> str:
+    """Why a fitted K cannot serve as an estimate ("" when it can): K or the rate at a bound, no standard
+    error for K, a singular Jacobian, a rate that makes the form decline, or K far outside the data."""
+    values = result.values
+    k = values.get("K", math.nan)
+    if not (math.isfinite(k) and k > 0):
+        return f"K = {k:g} is not a positive number"
+    rate = next((n for n in ("r", "lambda") if n in values), None)
+    if rate == "r" and values["r"] <= 0 or rate == "lambda" and values["lambda"] <= 1:
+        return f"{rate} = {values[rate]:.4g} makes the form decline, so K is not a level it approaches"
+    if any(p.at_bound for p in result.parameters):
+        return "a constant ended at its bound"
+    if any("singular" in n for n in result.notes) or result.parameter("K").se is None:
+        return "the constants are not identifiable (singular Jacobian, no standard error for K)"
+    flag = capacity_flag(k, series)
+    if flag and k > FAR_FACTOR * 10 * _top(series):
+        return flag
+    return ""
+
+
+def capacity_flag(k: float, series: Series) -> str:
+    """A warning when K lies far outside the range of the data ("" otherwise)."""
+    top = _top(series)
+    if top > 0 and (k > FAR_FACTOR * top or k < top / FAR_FACTOR):
+        return (f"K = {k:.4g} is far outside the data (largest value {top:.4g}): "
+                "the data say little about it")
+    return ""
+
+
+def _top(series: Series) -> float:
+    p = series.p[series.used]
+    p = p[np.isfinite(p)]
+    return float(np.max(np.abs(p))) if p.size else 0.0

@@ -10,7 +10,7 @@ from dash import Dash, Input, Output, State, ctx, no_update
 from app import ids
 from app.figures.trajectory import capacity_from_relayout
 from app.state import series_from_store
-from growthcore.explore import capacity_from_fit, capacity_range
+from growthcore.explore import capacity_flag, capacity_from_fit, capacity_range
 
 
 def _marks(low: float, high: float) -> dict[str, str]:
@@ -79,7 +79,9 @@ def update_capacity(trigger: str | None, k_input: float | None, k_slider: float 
     k = rounded(float(k))
     if current is not None and k == current:
         return (no_update, no_update, *none6)
-    return (k, k if trigger != ids.K_INPUT else no_update, k, no_update, no_update, no_update, no_update, unit)
+    flag = capacity_flag(k, series_from_store(data, exclusions))
+    return (k, k if trigger != ids.K_INPUT else no_update, k, no_update, no_update, no_update, no_update,
+            f"{unit}: {flag}" if flag else unit)
 
 
 def register(app: Dash) -> None:

@@ -78,6 +78,13 @@ def trajectory_figure(data: Mapping[str, Any], used: Sequence[bool], fits: Seque
             layout["shapes"].append(capacity_handle(capacity))
             layout["margin"] = dict(layout["margin"], r=RIGHT_MARGIN)
     layout["annotations"] = [*layout.get("annotations", []), *non_positive_note(data["p"], scale)]
+    guard = data_range_guard(data["p"], capacity, [t["y"] for t in traces])
+    if guard is not None:
+        layout["yaxis"]["range"] = guard
+        layout["annotations"].append({"text": "K or a fitted path lies far outside the data: the axis shows the data",
+                                      "xref": "paper", "yref": "paper", "x": 1.0, "y": 1.0, "xanchor": "right",
+                                      "yanchor": "bottom", "showarrow": False,
+                                      "font": {"size": 11, "color": theme.MUTED}})
     return {"data": [*traces, obs, highlight_trace()], "layout": layout}
 
 
@@ -128,3 +135,31 @@ def capacity_from_relayout(relayout: Mapping[str, Any] | None) -> float | None:
     if isinstance(shapes, list) and len(shapes) > CAPACITY_SHAPE and shapes[CAPACITY_SHAPE].get("yanchor") is not None:
         return float(shapes[CAPACITY_SHAPE]["yanchor"])
     return None
+
+
+#: Values more than this many data ranges beyond the data do not set the axis.
+FAR_RANGES = 10.0
+
+
+def data_range_guard(observed: Sequence[float | None], capacity: float | None,
+                     paths: Sequence[Sequence[float | None]]) -> list[float] | None:
+    """A y range around the data when K or a path would stretch the axis far past them (None otherwise)."""
+    obs = [float(v) for v in observed if v is not None and v == v and abs(v) != float("inf")]
+    if not obs:
+        return None
+    lo, hi = min(obs), max(obs)
+    span = (hi - lo) or abs(hi) or 1.0
+    limit_hi, limit_lo = hi + FAR_RANGES * span, lo - FAR_RANGES * span
+    others = [float(v) for path in paths for v in path if v is not None]
+    if capacity is not None:
+        others.append(float(capacity))
+    if not any(v != v or v > limit_hi or v < limit_lo for v in others):
+        return None
+    shown = [v for v in others if v == v and limit_lo <= v <= limit_hi] + obs
+    top, bottom = max(shown), min(shown)
+    pad = 0.05 * ((top - bottom) or 1.0)
+    return [max(bottom - pad, 0.0) if bottom >= 0 else bottom - pad, top + pad]
+
+
+def capacity_shape(capacity: float, unit: str) -> dict[str, Any]:
+    """The horizontal K line; editable so that dragging it reports a new ``y0`` through relayoutData."""

@@ -34,6 +34,8 @@ Array = np.ndarray
 CURVE_POINTS = 50
 #: How far an unbounded point forecast is followed to find where it passes the bound.
 MAX_STEPS = 10_000
+#: A simulated state this many times the largest observation counts as an overflow of the path.
+OVERFLOW = 1e6
 
 
 @dataclass(frozen=True)
@@ -160,20 +162,37 @@ def forecast(
     residuals = problem.residuals if problem is not None else np.asarray(result.residuals, dtype=float)
     pool = modified_residuals(residuals[np.isfinite(residuals)], len(names))
     noise = pool[rng.integers(0, pool.size, (t_future.size, b))] if pool.size else np.zeros((t_future.size, b))
-    point, sims = _simulate(result, t_future, values, noise)
+    observed = result.observed[np.isfinite(result.observed)]
+    nonnegative = bool(observed.size) and bool(np.all(observed >= 0))
+    point, sims = _simulate(result, t_future, values, noise, floor=0.0 if nonnegative else None)
     tail = 50.0 * (1.0 - level)
+    headline: list[str] = []
     with np.errstate(all="ignore"):
-        finite = np.isfinite(sims)
+        # a simulated path that overflows is not a draw of the future: past that point the band ends
+        huge = np.abs(sims) > OVERFLOW * max(float(np.max(np.abs(observed))) if observed.size else 1.0, 1e-300)
+        finite = np.isfinite(sims) & ~huge
         lo = np.full(t_future.size, math.nan)
         hi = np.full(t_future.size, math.nan)
-        for j in range(t_future.size):
+        share = finite.mean(axis=1)
+        end = int(np.flatnonzero(share < 0.95)[0]) if np.any(share < 0.95) else t_future.size
+        point_bad = ~np.isfinite(point) | (np.abs(point) > OVERFLOW * max(float(np.max(np.abs(observed))), 1e-300)
+                                           if observed.size else ~np.isfinite(point))
+        if np.any(point_bad):
+            j = int(np.flatnonzero(point_bad)[0])
+            end = min(end, j)
+            headline.append(f"the point forecast overflows from t = {t_future[j]:g}: the forecast and its band end there")
+            point = np.where(np.arange(point.size) >= j, math.nan, point)
+        for j in range(end):
             row = sims[j][finite[j]]
             if row.size >= 20:
                 lo[j], hi[j] = np.percentile(row, [tail, 100.0 - tail])
-    warnings = list(notes)
-    if np.any(finite.mean(axis=1) < 0.95):
-        j = int(np.flatnonzero(finite.mean(axis=1) < 0.95)[0])
-        warnings.append(f"from t = {t_future[j]:g} more than 5% of simulated paths overflow or fail: the band is not reliable there")
+    if end < t_future.size and not headline:
+        headline.append(f"from t = {t_future[end]:g} more than 5% of simulated paths overflow or fail: "
+                        "the band ends there")
+    warnings = [*headline, *notes]
+    if nonnegative:
+        warnings.append("the state cannot be negative: simulated values are truncated at 0, so the band's lower "
+                        "edge never goes below 0")
     warnings += _range_warnings(result, t_future, point, lo, hi)
     crossing, more = _bound(result, t_future, point, lo, hi, bound)
     warnings += more
@@ -181,8 +200,10 @@ def forecast(
                     tuple(warnings), bound, crossing)
 
 
-def _simulate(result: FitResult, t_future: Array, values: Mapping[str, Any], noise: Array) -> tuple[Array, Array]:
-    """(point forecast, simulated observations (n_future, b))."""
+def _simulate(result: FitResult, t_future: Array, values: Mapping[str, Any], noise: Array,
+              *, floor: float | None = None) -> tuple[Array, Array]:
+    """(point forecast, simulated observations (n_future, b)); ``floor`` truncates simulated states
+    from below (0 for a quantity that cannot be negative)."""
     form = result.form
     estimate = result.values
     log = result.error == "log"
@@ -195,6 +216,8 @@ def _simulate(result: FitResult, t_future: Array, values: Mapping[str, Any], noi
             sims = np.empty_like(noise)
             for j in range(t_future.size):
                 p = form.next_state(p, values) + noise[j]
+                if floor is not None:
+                    p = np.maximum(p, floor)  # a population that reaches 0 stays there
                 sims[j] = p
             return point, sims
         if isinstance(form, DifferenceForm):
@@ -208,6 +231,8 @@ def _simulate(result: FitResult, t_future: Array, values: Mapping[str, Any], noi
             lifted = {n: (v if np.ndim(v) == 0 else np.asarray(v)[None, :]) for n, v in values.items()}
             paths = np.broadcast_to(form.value((t_future - result.time_origin)[:, None], lifted), noise.shape)
         sims = paths * np.exp(noise) if log else paths + noise
+        if floor is not None:
+            sims = np.maximum(sims, floor)
     return point, sims
 
 
