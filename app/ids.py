@@ -7,6 +7,7 @@ SOURCE = "store-source"            # the raw file: name and base64 bytes
 DATA = "store-data"                # the chosen series as plain lists, with the import report
 EXCLUSIONS = "store-exclusions"    # points left out by the user, with an undo history
 CAPACITY = "store-capacity"        # the committed capacity estimate K
+CAPACITY_DATA = "store-capacity-data"   # the data key the committed K was set for (held K across series)
 SETTINGS = "store-settings"        # forms, terms, method, error model and K mode as one dict
 FITS = "store-fits"                # plain data of every fit and the comparison rows
 SORT = "store-sort"                # comparison table sort column and direction

@@ -29,6 +29,7 @@ def build_layout(source: Mapping[str, Any] | None, *, max_upload_bytes: int) -> 
         dcc.Store(id=ids.DATA, storage_type="memory"),
         dcc.Store(id=ids.EXCLUSIONS, storage_type="memory", data={"key": None, "excluded": {}, "history": []}),
         dcc.Store(id=ids.CAPACITY, storage_type="memory"),
+        dcc.Store(id=ids.CAPACITY_DATA, storage_type="memory"),
         dcc.Store(id=ids.SETTINGS, storage_type="memory"),
         dcc.Store(id=ids.FITS, storage_type="memory"),
         dcc.Store(id=ids.SORT, storage_type="memory", data={"column": None, "descending": False}),

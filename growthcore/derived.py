@@ -29,6 +29,9 @@ MAX_STEPS = 10_000
 #: The stability rules, stated with every equilibrium so that no table applies the wrong one.
 MAP_RULE = "map: stable when |f'(p*)| < 1"
 FLOW_RULE = "growth curve (dp/dt = F(p)): stable when F'(p*) < 0"
+#: Forms whose growth slows from the start: a doubling time has no meaning for them (reason given).
+NO_DOUBLING = {"monomolecular-curve": "the monomolecular form approaches K with ever slower growth from the start; "
+                                      "it does not double at a steady rate"}
 
 
 def state_upper(values: Mapping[str, float], observed: Array) -> float:
@@ -151,6 +154,12 @@ def _curve_summary(result: FitResult, form: CurveForm, values: Mapping[str, floa
         "specific_rate_at_start": _finite(specific),
         "doubling_time": _finite(math.log(2.0) / specific) if math.isfinite(specific) and specific > 0 else None,
     }
+    if form.id in NO_DOUBLING:
+        # growth that slows from the first moment on does not double at a steady rate
+        out["doubling_time"] = None
+        out["not_defined"] = {"doubling_time": NO_DOUBLING[form.id],
+                              "lag_time": "the rate is largest at the start: there is no lag phase",
+                              "inflection_time": "the rate is largest at the start: there is no inflection"}
     top = min(hi, values.get("K", hi)) if values.get("K") else hi
     states = np.linspace(max(p0, 0.0), top, 4000)[1:-1]
     if states.size:
@@ -164,6 +173,8 @@ def _curve_summary(result: FitResult, form: CurveForm, values: Mapping[str, floa
             t_i = time_to_reach(result, p_i) if interior else (0.0 if j == 0 else math.nan)
             out["inflection_time"] = _finite(t_i)
             out["lag_time"] = _finite(t_i - (p_i - p0) / mu) if math.isfinite(t_i) and mu > 0 and interior else None
+    if form.id in NO_DOUBLING:
+        out["inflection_time"] = None
     return out
 
 

@@ -37,7 +37,7 @@ def update_capacity(trigger: str | None, k_input: float | None, k_slider: float 
     """Outputs: the committed K, the number box, the slider value, min, max, step, marks and the note.
 
     A K the user holds (``k_mode`` "held") stays when another series of the same file is chosen
-    (``previous_key`` is the data key of the fits on screen); a new file starts from its first guess.
+    (``previous_key`` is the data key the K on screen was set for); a new file starts from its first guess.
     """
     none6 = (no_update,) * 6
     if data is None:
@@ -89,18 +89,21 @@ def register(app: Dash) -> None:
         Output(ids.CAPACITY, "data"), Output(ids.K_INPUT, "value"), Output(ids.K_SLIDER, "value"),
         Output(ids.K_SLIDER, "min"), Output(ids.K_SLIDER, "max"), Output(ids.K_SLIDER, "step"),
         Output(ids.K_SLIDER, "marks"), Output(ids.K_NOTE, "children"),
+        Output(ids.CAPACITY_DATA, "data"),
         Input(ids.K_INPUT, "value"), Input(ids.K_SLIDER, "value"), Input(ids.G_TRAJECTORY, "relayoutData"),
         Input(ids.DATA, "data"), Input(ids.K_FROM_FIT, "n_clicks"),
         State(ids.SETTINGS, "data"), State(ids.EXCLUSIONS, "data"), State(ids.CAPACITY, "data"),
-        State(ids.FITS, "data"),
+        State(ids.CAPACITY_DATA, "data"),
         prevent_initial_call=False,
     )
-    def _capacity(k_input, k_slider, relayout, data, _clicks, settings, exclusions, current, fits):
+    def _capacity(k_input, k_slider, relayout, data, _clicks, settings, exclusions, current, previous_key):
         trigger = ctx.triggered_id
         if f"{ids.DATA}.data" in ctx.triggered_prop_ids:
             # new data arriving with a plot's relayout event in one call must still set the first guess
             trigger = ids.DATA
         if trigger == ids.K_FROM_FIT and not _clicks:
             trigger = "none"
-        return update_capacity(trigger, k_input, k_slider, relayout, data, settings, exclusions, current,
-                               previous_key=(fits or {}).get("key"))
+        out = update_capacity(trigger, k_input, k_slider, relayout, data, settings, exclusions, current,
+                              previous_key=previous_key)
+        # the K on screen now belongs to these data (read back on the next change of series)
+        return (*out, (data or {}).get("key") if out[0] is not no_update or trigger in (None, ids.DATA) else no_update)

@@ -13,7 +13,7 @@ import hashlib
 import json
 import math
 import time
-from typing import Any, Mapping, Sequence
+from typing import Any, Callable, Mapping, Sequence
 
 from dash import Dash, Input, Output, State, ctx, html, no_update
 from dash.exceptions import PreventUpdate
@@ -33,6 +33,7 @@ from growthcore.errors import GrowthcoreInputError
 from growthcore.explore import fit_forms
 from growthcore.fit import FitResult
 from growthcore.models.base import DifferenceForm
+from growthcore.timeaxis import calendar_origin, is_calendar_years, time_point_text
 from growthcore.uncertainty import BootstrapResult, bootstrap, derived_intervals, forecast
 
 #: First chunk of a run; later chunks are sized so that each answer takes about TARGET_SECONDS.
@@ -110,6 +111,16 @@ def _units(data: Mapping[str, Any]) -> dict[str, str]:
     return {"time": tu, "state": vu, "rate": rate_unit(vu, tu), "per-time": f"per {tu}" if tu else "", "": ""}
 
 
+def axis_point_text(data: Mapping[str, Any]) -> Callable[[float | None], str]:
+    """How a moment on this series' time axis is written: a date from the imported dates' origin,
+    a year on a calendar-year axis, else t = … in the axis unit."""
+    notes = (data.get("report") or {}).get("notes", [])
+    origin = calendar_origin(notes)
+    unit = data.get("time_unit", "")
+    years = is_calendar_years([v for v in data.get("t", []) if v is not None], unit)
+    return lambda t: time_point_text(t, unit, origin=origin, calendar_years=years)
+
+
 def _derived_rows(derived: Mapping[str, Any], level: float | None) -> list[tuple[str, str, str]]:
     rows = list(DERIVED_ROWS)
     if level is not None:
@@ -165,7 +176,8 @@ def dynamics_view(fits_store: Mapping[str, Any] | None, label: str | None, capac
         sweep_fig = message_figure("The sweep applies to difference equations with a rate constant.")
     derived = derived_intervals(result, usable, levels=[level] if level is not None and level > 0 else [])
     lv = level if level is not None and level > 0 else None
-    table = derived_table(derived, _derived_rows(derived, lv), _units(data), usable is not None)
+    table = derived_table(derived, _derived_rows(derived, lv), _units(data), usable is not None,
+                          point_text=axis_point_text(data), not_defined=result.derived.get("not_defined"))
     free = [p.name for p in result.parameters if not p.fixed]
     correlations = result.correlation.tolist() if result.correlation is not None else None
     return sentences, equilibria_table(equilibria, unit), cobweb_fig, sweep_fig, [
@@ -189,7 +201,7 @@ def start_run(run_clicks: int, cancel_clicks: int | None, resamples: Any, seed: 
     n, s = _as_int(resamples), _as_int(seed)
     fit = find_fit(fits_store, label)
     base = {"run": int(run_clicks or 0), "cancel_seen": int(cancel_clicks or 0), "label": label, "done": 0,
-            "result": None, "elapsed": 0.0, "chunk": FIRST_CHUNK}
+            "result": None, "elapsed": 0.0, "computing": 0.0, "started": time.time(), "chunk": FIRST_CHUNK}
     if n is None or not 20 <= n <= MAX_RESAMPLES:
         return {**base, "state": "refused", "message": f"Resamples must be a whole number from 20 to {MAX_RESAMPLES}; "
                                                        f"got {resamples!r}."}
@@ -264,8 +276,10 @@ def bootstrap_step(boot: Mapping[str, Any] | None, done: Mapping[str, Any] | Non
         return (*_finish(boot, done, "failed", f"Nothing to resample: {part.message}"), False)
     so_far = BootstrapResult.from_dict(boot["result"]).merge(part) if boot.get("result") else part
     took = time.perf_counter() - t0
-    boot.update(result=so_far.to_dict(), done=so_far.done, elapsed=float(boot.get("elapsed", 0.0)) + took,
-                chunk=next_chunk(int(boot["chunk"]), took, n))
+    # the time the user waited (wall clock since the run began), not only the server's share of it
+    waited = time.time() - float(boot.get("started", time.time() - took))
+    boot.update(result=so_far.to_dict(), done=so_far.done, elapsed=max(waited, 0.0),
+                computing=float(boot.get("computing", 0.0)) + took, chunk=next_chunk(int(boot["chunk"]), took, n))
     if so_far.done >= n:
         return (*_finish(boot, done, "complete", so_far.message), False)
     return boot, no_update, True

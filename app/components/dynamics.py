@@ -4,12 +4,13 @@ derived times and the forecast with its band (drawn on the trajectory panel)."""
 from __future__ import annotations
 
 import math
-from typing import Any, Mapping, Sequence
+from typing import Any, Callable, Mapping, Sequence
 
 from dash import dcc, html
 
 from app import ids
 from app.components.panels import GRAPH_CONFIG
+from growthcore.timeaxis import is_time_point
 from growthcore.uncertainty import DEFAULT_RESAMPLES, DEFAULT_SEED, FORECAST_CAUTION
 
 #: Upper limit of resamples one run may ask for (the refits travel through the browser store).
@@ -20,8 +21,8 @@ TICK_MS = 30
 #: Derived quantities shown, in this order: key of growthcore.uncertainty.derived_intervals, label, unit kind.
 DERIVED_ROWS: tuple[tuple[str, str, str], ...] = (
     ("doubling_time", "Doubling time at the starting level", "time"),
-    ("lag_time", "Lag time (tangent at the inflection meets the starting level)", "time"),
-    ("inflection_time", "Time of the inflection (fastest growth)", "time"),
+    ("lag_time", "End of the lag phase (tangent at the inflection meets the starting level)", "time"),
+    ("inflection_time", "Moment of the inflection (fastest growth)", "time"),
     ("inflection_state", "State at the inflection", "state"),
     ("max_rate", "Largest change per unit time", "rate"),
     ("growth_factor_per_step", "Growth factor per step at the starting level", ""),
@@ -199,27 +200,42 @@ def intervals_table(parameters: Mapping[str, Mapping[str, Any]],
 
 
 def derived_table(derived: Mapping[str, Mapping[str, Any]], names: Sequence[tuple[str, str, str]],
-                  units: Mapping[str, str], bootstrapped: bool) -> html.Table | html.P:
-    """Derived quantities with their bootstrap intervals (where a bootstrap has run)."""
+                  units: Mapping[str, str], bootstrapped: bool, *,
+                  point_text: Callable[[float | None], str] | None = None,
+                  not_defined: Mapping[str, str] | None = None) -> html.Table | html.P:
+    """Derived quantities with their intervals (bootstrap percentile, or the delta method without one).
+
+    ``point_text`` writes a moment on the time axis (a date, a year); ``not_defined`` gives, per key,
+    why a quantity has no meaning for the form (the row then says so instead of a number).
+    """
     rows = []
     for key, label, kind in names:
+        if not_defined and key in not_defined:
+            rows.append(html.Tr([html.Th(label, scope="row"), html.Td("not defined", className="num"),
+                                 html.Td("", className="muted"), html.Td(not_defined[key], className="muted")]))
+            continue
         d = derived.get(key)
         if d is None:
             continue
-        unit = units.get(kind, "")
-        if d.get("ci95"):
-            ci = interval_text(d["ci95"])
-            if d.get("draws") and d.get("defined", 0) < d["draws"]:
-                ci += f" (exists in {d['defined']} of {d['draws']} refits)"
+        moment = kind == "time" and is_time_point(key) and point_text is not None
+        show = point_text if moment else fmt
+        unit = "" if moment else units.get(kind, "")
+        if d.get("ci95") and None not in d["ci95"]:
+            ci = f"{show(d['ci95'][0])} to {show(d['ci95'][1])}"
+            if d.get("method") and not str(d["method"]).startswith("bootstrap"):
+                ci += " (delta method)"
+            elif d.get("draws") and d.get("defined", 0) < d["draws"]:
+                ci += f" (exists in {d['defined']} of the {d['draws']} refits used)"
         elif bootstrapped and d.get("draws"):
-            ci = f"too few refits where it exists ({d.get('defined', 0)} of {d['draws']})"
+            used = f"the {d['draws']} refits used" + (f" (of {d['refits']})" if d.get("refits", 0) > d["draws"] else "")
+            ci = f"too few refits where it exists: {d.get('defined', 0)} of {used}"
         else:
             ci = "run the bootstrap" if not bootstrapped else "–"
-        value = fmt(d.get("value")) if d.get("value") is not None else "not reached / not defined"
+        value = show(d.get("value")) if d.get("value") is not None else "not reached within the horizon"
         rows.append(html.Tr([html.Th(label, scope="row"), html.Td(value, className="num"),
                              html.Td(unit, className="muted"), html.Td(ci, className="num")]))
     if not rows:
         return html.P("No derived times for this fit.", className="muted")
     head = html.Tr([html.Th("quantity", scope="col"), html.Th("value", scope="col"), html.Th("unit", scope="col"),
-                    html.Th("95% interval (bootstrap percentile)", scope="col")])
+                    html.Th("95% interval", scope="col")])
     return html.Table([html.Thead(head), html.Tbody(rows)], className="comparison dyn-table", style=TABLE)

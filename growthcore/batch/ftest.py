@@ -44,6 +44,8 @@ class GroupDifferenceTest:
     p_value: float = math.nan
     full: JointFit | None = None
     reduced: JointFit | None = None
+    #: The fits the test compares: joint least-squares fits of the whole paths of every series.
+    method: str = "trajectory"
 
     def to_dict(self) -> dict[str, Any]:
         def num(x: float) -> float | None:
@@ -52,7 +54,8 @@ class GroupDifferenceTest:
                 "status": self.status, "message": self.message,
                 "sse_full": num(self.sse_full), "df_full": self.df_full,
                 "sse_reduced": num(self.sse_reduced), "df_reduced": self.df_reduced,
-                "f": num(self.f), "df_numerator": self.df_reduced - self.df_full, "p_value": num(self.p_value)}
+                "f": num(self.f), "df_numerator": self.df_reduced - self.df_full, "p_value": num(self.p_value),
+                "method": self.method}
 
 
 def group_difference_test(series: Sequence[Series], groups: Sequence[str], model: str, parameter: str, *,
@@ -116,6 +119,10 @@ def difference_test_for_batch(batch: Any, model: str, parameter: str) -> GroupDi
         return GroupDifferenceTest(model, parameter, tuple(dict.fromkeys(labels)), "failed",
                                    "fewer than two groups with a converged fit: no test")
     out = group_difference_test(chosen, labels, model, parameter, error=batch.error)
+    if batch.method != "trajectory":
+        # the joint fits need the whole paths: say so rather than let the table's method stand for the test's
+        out = replace(out, message=f"{out.message}; the test compares joint trajectory fits (least squares on the "
+                                   f"whole paths), not the {batch.method} fits of the table")
     if left:
         shown = ", ".join(left[:10]) + (" ..." if len(left) > 10 else "")
         out = replace(out, message=f"{out.message} (left out, own fit failed: {shown})")

@@ -16,6 +16,7 @@ from growthcore.data import Series
 from growthcore.dynamics import analyse
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import FitResult
+from growthcore.timeaxis import is_calendar_years, time_point_text
 from growthcore.limits import DEFAULT as LIMITS
 from growthcore.uncertainty import (DEFAULT_RESAMPLES, DEFAULT_SEED, FORECAST_CAUTION, BootstrapResult, bootstrap,
                                     derived_intervals, forecast)
@@ -74,6 +75,9 @@ def _one(args: argparse.Namespace, series: Series, result: FitResult, out: dict[
         if boot.message:
             lines.append(f"{result.model} ({result.method}): bootstrap: {boot.message}")
     out["derived_intervals"] = derived_intervals(result, boot, levels=args.level)
+    for level in args.level:
+        d = out["derived_intervals"].get(f"time_to_level_{level:g}", {})
+        lines.append(f"{result.model} ({result.method}): {level_line(level, d, series)}")
     dyn = analyse(result, samples=boot.good() if boot is not None and boot.ok.sum() else None)
     out["dynamics"] = dyn.to_dict() if dyn is not None else None
     if dyn is not None:
@@ -85,6 +89,22 @@ def _one(args: argparse.Namespace, series: Series, result: FitResult, out: dict[
         out["forecast_notes"] = {k: v for k, v in fc.to_dict().items() if k != "points"}
         lines += [f"{result.model} ({result.method}): forecast: {w}" for w in fc.warnings]
     return lines
+
+
+def level_line(level: float, d: dict[str, Any], series: Series) -> str:
+    """When the fitted path reaches ``level``, as a moment on the series' time axis, with its interval."""
+    unit = series.time_unit
+    years = is_calendar_years(list(series.t), unit)
+
+    def when(t: float | None) -> str:
+        return time_point_text(t, unit, calendar_years=years)
+
+    if d.get("value") is None:
+        return f"the fitted path does not reach {level:g} within the horizon"
+    ci = d.get("ci95")
+    band = (f", 95% interval {when(ci[0])} to {when(ci[1])} ({d.get('method')})" if ci else
+            ", no interval (the fit gives no covariance of its constants, and no bootstrap was run)")
+    return f"reaches {level:g} at {when(d['value'])}{band}"
 
 
 def apply(args: argparse.Namespace, series: Series, fits: Sequence[FitResult], record: dict[str, Any],

@@ -23,7 +23,7 @@ from growthcore.fit.result import CapacityProfile, FitResult
 
 Array = np.ndarray
 #: Relative precision of an interval end in K.
-ROOT_RTOL = 1e-9
+ROOT_RTOL = 1e-8
 
 
 def profile_threshold(sse_min: float, n: int, q: int) -> float:
@@ -44,7 +44,7 @@ def likelihood_ratio_threshold(sse_min: float, n: int) -> float:
 
 
 def capacity_profile(result: FitResult, refit_with_k: Callable[[float, dict[str, float]], FitResult],
-                     *, points: int = 41) -> CapacityProfile | None:
+                     *, points: int = 25) -> CapacityProfile | None:
     """Scan K over a log grid from K̂/4 to 4·K̂ (each refit warm-started from its neighbour), then
     locate both cuts' crossings between the bracketing grid values with Brent's method."""
     if not result.success or result.metrics is None or "K" not in result.values or result.parameter("K").fixed:

@@ -15,6 +15,7 @@ import numpy as np
 
 from growthcore.derived import derived_quantities, time_to_reach
 from growthcore.fit.result import FitResult
+from growthcore.stats import t_quantile
 from growthcore.uncertainty.bootstrap import BootstrapResult
 
 Array = np.ndarray
@@ -58,12 +59,14 @@ def derived_intervals(
     horizon: float | None = None,
     level: float = 0.95,
 ) -> dict[str, dict[str, Any]]:
-    """name → {"value", "ci95" ([lo, hi] or None), "defined" (refits where it exists), "draws"}.
+    """name → {"value", "ci95" ([lo, hi] or None), "method", "defined" (refits where it exists), "draws"
+    (refits used), "refits" (bootstrap refits in all)}.
 
     ``levels`` are states to reach; ``fractions`` are fractions of K to reach (forms with K only),
     looked for up to ``horizon`` (default: 20 spans of the data past the first time).
-    Without ``boot`` only the values are given. An interval needs at least 20 refits where the
-    quantity exists; where only some refits give it, ``defined`` says how many.
+    Without ``boot`` the interval is the delta method's (value ± t·SE from the fit's covariance); with it,
+    the bootstrap percentile interval, which needs at least 20 refits where the quantity exists; where
+    only some refits give it, ``defined`` says how many.
     """
     if not result.success:
         return {}
@@ -80,12 +83,51 @@ def derived_intervals(
         for j in pick:
             rows.append(_quantities(with_values(result, {n: float(v[j]) for n, v in good.items()}), targets, horizon))
     tail = 50.0 * (1.0 - level)
+    delta = {} if rows else delta_method_intervals(result, targets, horizon, point, level=level)
+    total = int(boot.done) if boot is not None and boot.done else 0
     out: dict[str, dict[str, Any]] = {}
     for name in dict.fromkeys([*point, *(k for r in rows for k in r)]):
         value = point.get(name, math.nan)
         draws = np.array([r.get(name, math.nan) for r in rows], dtype=float)
         finite = draws[np.isfinite(draws)]
-        ci = [float(v) for v in np.percentile(finite, [tail, 100.0 - tail])] if finite.size >= 20 else None
+        if rows:
+            ci = [float(v) for v in np.percentile(finite, [tail, 100.0 - tail])] if finite.size >= 20 else None
+            how = "bootstrap percentile"
+        else:
+            ci = delta.get(name)
+            how = "delta method (t quantile; normal approximation of the constants)" if ci else None
         out[name] = {"value": float(value) if math.isfinite(value) else None, "ci95": ci,
-                     "defined": int(finite.size), "draws": int(draws.size)}
+                     "defined": int(finite.size), "draws": int(draws.size), "refits": total, "method": how}
+    return out
+
+
+def delta_method_intervals(result: FitResult, targets: list[tuple[str, Any]], horizon: float | None,
+                           point: Mapping[str, float], *, level: float = 0.95) -> dict[str, list[float]]:
+    """value ± t·SE with SE² = gᵀΣg, g the gradient of each quantity in the free constants (central
+    differences) and Σ their covariance from the fit; only quantities with a finite gradient."""
+    free = [p for p in result.parameters if not p.fixed and p.se is not None]
+    if not free or result.correlation is None or result.metrics is None or len(free) != result.correlation.shape[0]:
+        return {}
+    sd = np.array([p.se for p in free], dtype=float)
+    cov = result.correlation * np.outer(sd, sd)
+    if not np.all(np.isfinite(cov)):
+        return {}
+    names = [n for n, v in point.items() if math.isfinite(v)]
+    grad = np.full((len(names), len(free)), math.nan)
+    for j, p in enumerate(free):
+        h = 1e-5 * max(abs(p.value), p.se)
+        up = _quantities(with_values(result, {p.name: p.value + h}), targets, horizon)
+        down = _quantities(with_values(result, {p.name: p.value - h}), targets, horizon)
+        for i, n in enumerate(names):
+            grad[i, j] = (up.get(n, math.nan) - down.get(n, math.nan)) / (2.0 * h)
+    dof = result.metrics.n - result.metrics.n_params
+    if dof <= 0:
+        return {}
+    tq = t_quantile(0.5 + level / 2.0, dof)
+    out: dict[str, list[float]] = {}
+    for i, n in enumerate(names):
+        g = grad[i]
+        if np.all(np.isfinite(g)):
+            se = math.sqrt(max(float(g @ cov @ g), 0.0))
+            out[n] = [point[n] - tq * se, point[n] + tq * se]
     return out

@@ -73,6 +73,9 @@ def hold_k(driver: Any, timeout: float = WAIT, poll: float = POLL) -> None:
     """Choose "hold K at my estimate" (K is fitted by default) and wait until the fits hold it."""
     from selenium.webdriver.common.by import By
 
-    driver.find_element(By.CSS_SELECTOR, "#model-k-mode input[value='held']").click()
+    radio = driver.find_element(By.CSS_SELECTOR, "#model-k-mode input[value='held']")
+    driver.execute_script("arguments[0].scrollIntoView({block: 'center'})", radio)
+    time.sleep(0.2)
+    radio.click()
     wait(driver, lambda d: "(held)" in "\n".join(comparison_rows(d)), timeout, poll)
     wait_idle(driver, timeout, poll)
