@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from open_data import loblolly, lynx, soybean, uspop
+from tests.open_data import loblolly, lynx, soybean, uspop
 from scipy.optimize import curve_fit
 
 from app import ids

