@@ -158,7 +158,7 @@ def test_doubling_time_matches_its_closed_form(demo: dict, k_demo: float, fits: 
     p_s, h = demo["p"][0], demo["t"][1] - demo["t"][0]
     expected = h * math.log(2) / math.log(1 + r * (1 - p_s / k_demo))
     text = _text(out[4])
-    assert f"{expected:.4g}" in text and "Time to reach 2" in text and "run the bootstrap" in text
+    assert f"{expected:.4g}" in text and "Time to reach 2" in text and "(delta method)" in text  # no bootstrap yet: delta-method intervals
 
 
 # ----------------------------------------------------------------------------- bootstrap in chunks
