@@ -63,9 +63,9 @@ def _child(conn: Any, memory_bytes: int) -> None:
             conn.send(outcome)
         except MemoryError:
             conn.send(("memory",))
-        except Exception:  # an exception that cannot be pickled: its type and first line
-            exc = outcome[1] if outcome[0] == "raise" else None
-            conn.send(("error", type(exc).__name__, str(exc).splitlines()[0] if str(exc) else ""))
+        except Exception as problem:  # a result or exception that cannot be pickled: say which
+            exc = outcome[1] if outcome[0] == "raise" else problem
+            conn.send(("error", type(exc).__name__, (str(exc).splitlines() or [""])[0][:300]))
     finally:
         conn.close()
 
@@ -112,6 +112,19 @@ class HeavyRunner:
             self.running -= 1
             self._slots.release()
 
+    def bounded(self, what: str, func: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
+        """``func`` under the same bound on heavy jobs, in the calling thread (for results that do
+        not travel between processes, such as fitted forms)."""
+        if not self._slots.acquire(timeout=self.config.wait_s):
+            raise HeavyRefused(f"the server is busy with {self.config.slots} heavy job(s) from other tabs; {what} "
+                               f"was not started within {self.config.wait_s:g} s: try again in a moment")
+        self.running += 1
+        try:
+            return func(*args, **kwargs)
+        finally:
+            self.running -= 1
+            self._slots.release()
+
     def _in_process(self, what: str, func: Callable[..., Any], args: Any, kwargs: Any) -> Any:
         cfg = self.config
         ctx = self._ctx()
@@ -152,10 +165,16 @@ def direct(what: str, func: Callable[..., Any], *args: Any, **kwargs: Any) -> An
     return func(*args, **kwargs)
 
 
+def bounded_of(app: Any) -> Callable[..., Any]:
+    """The app's bound on heavy jobs for work that runs in the request's own thread."""
+    runner = app.server.config.get("GROWTHCORE_HEAVY")
+    return runner.bounded if runner is not None else direct
+
+
 def runner_of(app: Any) -> Callable[..., Any]:
     """The app's heavy-job runner (``direct`` for an app built without one)."""
     runner = app.server.config.get("GROWTHCORE_HEAVY")
     return runner.run if runner is not None else direct
 
 
-__all__ = ["HeavyConfig", "HeavyRefused", "HeavyRunner", "direct", "runner_of"]
+__all__ = ["HeavyConfig", "HeavyRefused", "HeavyRunner", "bounded_of", "direct", "runner_of"]

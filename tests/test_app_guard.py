@@ -176,3 +176,10 @@ def test_forged_settings_cannot_ask_for_unbounded_fits() -> None:
     settings = {"models": ["logistic"] * 1000, "method": "both", "error": "additive", "terms": []}
     with pytest.raises(GrowthcoreInputError, match=r"over the limit of 40 fits"):
         compute_fits(data, None, settings, None)
+
+
+def test_a_result_that_cannot_travel_is_named() -> None:
+    runner = HeavyRunner(HeavyConfig(budget_s=30))
+    with pytest.raises(RuntimeError, match=r"failed in its worker \((PicklingError|AttributeError|TypeError)"):
+        runner.run("a job", threading.Lock)  # a lock cannot be pickled back
+    assert runner.bounded("in this thread", threading.Lock) is not None

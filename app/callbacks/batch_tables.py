@@ -15,7 +15,7 @@ from dash.exceptions import PreventUpdate
 
 from app import ids
 from app.callbacks.series import merged_fits, series_from_plain
-from app.heavy import direct, runner_of
+from app.heavy import bounded_of, direct
 from app.state import fit_label_parts
 from growthcore.batch import group_difference_test
 from growthcore.batch.summary import summarise_groups
@@ -159,7 +159,7 @@ def ftest_reply(trigger: Any, clicks: int | None, fits: Mapping[str, Any] | None
 
 
 def register(app: Dash) -> None:
-    heavy_run = runner_of(app)
+    heavy_run = bounded_of(app)  # the test's result holds fitted forms, which stay in this process
 
     @app.callback(
         Output(ids.BATCH_TABLES, "hidden"), Output(ids.GROUP_SUMMARY, "children"),
