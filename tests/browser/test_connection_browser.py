@@ -68,6 +68,10 @@ def test_tab_marks_everything_stale_when_the_server_stops(make_driver, own_serve
     driver = make_driver(1280, 900)
     open_app(driver, url)
     assert driver.execute_script("return document.body.classList.contains('server-lost')") is False
+    # as a stopped process does: the listening socket and every open connection closed (closing the
+    # listener alone would leave the tab's kept-alive connection open, with requests never answered)
+    for channel in list(server._map.values()):
+        channel.close()
     server.close()
     box = driver.find_element(By.ID, "model-k-input")
     box.send_keys(Keys.CONTROL, "a")
