@@ -308,3 +308,21 @@ def test_ids_that_differ_only_in_surrounding_spaces_are_named_in_a_note() -> Non
     assert [s.name for s in result.series] == ["A1", "B2"] and len(result.series[0]) == 6
     assert ("series id 'A1' is written with surrounding spaces in row(s) 2, 4, 6 and without them elsewhere: "
             "read as one series") in result.report.notes
+
+
+@pytest.mark.parametrize(("pkg", "name", "series", "points"), [
+    ("datasets", "Orange", 5, 35), ("datasets", "Loblolly", 14, 84), ("nlme", "Soybean", 48, 412)])
+def test_each_open_long_file_through_inspect_fit_and_batch(tmp_path: Path, capsys: pytest.CaptureFixture[str],
+                                                         pkg: str, name: str, series: int, points: int) -> None:
+    path = str(r_csv(pkg, name, tmp_path / f"{name}.csv"))
+    assert main(["inspect", path, "--json"]) == 0
+    report = json.loads(capsys.readouterr().out)
+    assert len(report["series"]) == series and sum(s["points_used"] for s in report["series"]) == points
+    assert not report["left_out"] and len(report["taken"]["id"]) == 1
+    record = tmp_path / "fit.json"
+    assert main(["fit", path, "--model", "logistic-curve", "--out", str(record)]) == 0
+    assert json.loads(record.read_text())["data"]["name"] == report["series"][0]["name"]
+    table = tmp_path / "batch.csv"
+    assert main(["batch", path, "--model", "logistic-curve", "--out", str(table)]) == 0
+    rows = list(csv.DictReader(io.StringIO(table.read_text(encoding="utf-8"))))
+    assert len(rows) == series and sum(int(r["points_used"]) for r in rows) == points
