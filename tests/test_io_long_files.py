@@ -326,3 +326,12 @@ def test_each_open_long_file_through_inspect_fit_and_batch(tmp_path: Path, capsy
     assert main(["batch", path, "--model", "logistic-curve", "--out", str(table)]) == 0
     rows = list(csv.DictReader(io.StringIO(table.read_text(encoding="utf-8"))))
     assert len(rows) == series and sum(int(r["points_used"]) for r in rows) == points
+
+
+def test_row_numbers_of_a_file_longer_than_the_profiled_rows_are_still_row_numbers() -> None:
+    """An R-style row-name column in a long file of 3,000 rows (invented: 150 wells x 20 hours)."""
+    lines = ["rownames,Well,Hour,OD"] + [f"{20 * w + h + 1},W{w},{h},{0.05 * 1.2 ** h:.4f}"
+                                         for w in range(150) for h in range(20)]
+    result = load_bytes(("\n".join(lines) + "\n").encode(), "invented_wells_long.csv")
+    assert roles(result.report) == {"rownames": "row-number", "Well": "id", "Hour": "time", "OD": "value"}
+    assert len(result.series) == 150

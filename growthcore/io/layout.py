@@ -11,7 +11,7 @@ from growthcore.io.headers import Column, cell_kind
 from growthcore.io.numbers import NumberFormat
 from growthcore.io.report import ColumnRole
 from growthcore.io.roles import (Codes, Grouping, best_grouping, constant_within, encode, grouping, is_row_number,
-                                whole_numbers)
+                                row_number_header, whole_numbers)
 
 _TIME_WORDS = re.compile(
     r"^(t|time|times|elapsed|elapsed time|date|datetime|date time|date/time|timestamp|"
@@ -147,10 +147,11 @@ def choose_layout(
             cache[c.index] = encode(c, (r[c.index] if c.index < len(r) else None for r in rows))
         return cache[c.index]
 
+    headed = any(c.header.strip() for c in columns)
+    # the profile counts the first PROFILE_ROWS rows only; the codes check every row
     row_numbers = {p.column.index for p in used
-                   if p.numeric and p.distinct == min(p.filled, PROFILE_ROWS) and p.filled == n
-                   and not _TIME_WORDS.match(p.column.name)
-                   and is_row_number(codes(p.column), n, fmt, headed=any(c.header.strip() for c in columns))}
+                   if p.numeric and p.distinct == p.filled and not _TIME_WORDS.match(p.column.name)
+                   and row_number_header(p.column, headed=headed) and is_row_number(codes(p.column), n, fmt)}
     given_ids = _named_ids(columns, series, filename) if series is not None else None
 
     def id_candidates(time_col: Column) -> list[Codes]:
@@ -180,7 +181,7 @@ def choose_layout(
         split = grouping_for(time_col)
         time_reason = "chosen"
     else:
-        named = [p for p in used if _TIME_WORDS.match(p.column.name) and p.timelike and p.column.index not in row_numbers]
+        named = [p for p in used if _TIME_WORDS.match(p.column.name) and p.timelike]  # never row numbers
         clocks = [p for p in used if p.time and p.time >= 0.5 * p.filled]
         numeric = [p for p in used if p.timelike and p.column.index not in row_numbers]
         last_resort = [p for p in used if p.timelike]
@@ -257,8 +258,9 @@ def choose_layout(
         notes.append(f"constant within each series: {', '.join(kinds)}")
     for c, why in unused:
         notes.append(f"column {c.label!r} ({why}) is not used")
-    for i in sorted(row_numbers - chosen - {time_col.index}):
-        notes.append(f"column {columns[i].label!r} numbers the rows and is not used")
+    numbering = [columns[i] for i in sorted(row_numbers - chosen - {time_col.index})]
+    for c in numbering:
+        notes.append(f"column {c.label!r} numbers the rows and is not used")
     layout = "wide" if len(values) > 1 and not ids else "long"
     if layout == "wide":
         notes.append(f"wide layout: {len(values)} value columns read as separate series")
@@ -266,22 +268,18 @@ def choose_layout(
         raise ImportFailure(f"{filename}: the time column {time_col.label!r} is empty")
     empty = tuple(p.column for p in profiles if not p.filled and p.column.index not in taken | chosen)
 
-    roles: list[ColumnRole] = [ColumnRole(time_col.label, "time", time_reason)]
-    roles += [ColumnRole(c.label, "id", id_reason) for c in ids]
-    roles += [ColumnRole(c.label, "condition", f"constant within every series ({codes(c).distinct} value(s))")
-              for c in conditions]
-    roles += [ColumnRole(c.label, "covariate", "a number constant within every series") for c in covariates]
-    roles += [ColumnRole(v.label, "value", "chosen" if value is not None else
-                         "varies within the series" + (": the first such column" if ids and len(measurements) > 1 else ""))
-              for v in values]
-    roles += [ColumnRole(c.label, "measurement", "varies within the series; can be chosen as the value column")
-              for c in measurements if c.index not in chosen]
-    roles += [ColumnRole(columns[i].label, "row-number", "whole numbers, once each: the rows' numbers")
-              for i in sorted(row_numbers - chosen - {time_col.index})]
-    roles += [ColumnRole(c.label, "unused", why) for c, why in unused]
-    roles += [ColumnRole(c.label, "empty", "no values") for c in empty]
-    order = {c.index: i for i, c in enumerate(columns)}
-    by_label = {c.label: order[c.index] for c in columns}
-    roles.sort(key=lambda r: by_label.get(r.column, 0))
+    placed: list[tuple[Column, str, str]] = [(time_col, "time", time_reason)]
+    placed += [(c, "id", id_reason) for c in ids]
+    placed += [(c, "condition", f"constant within every series ({codes(c).distinct} value(s))") for c in conditions]
+    placed += [(c, "covariate", "a number constant within every series") for c in covariates]
+    placed += [(v, "value", "chosen" if value is not None else
+                "varies within the series" + (": the first such column" if ids and len(measurements) > 1 else ""))
+               for v in values]
+    placed += [(c, "measurement", "varies within the series; can be chosen as the value column")
+               for c in measurements if c.index not in chosen]
+    placed += [(c, "row-number", "whole numbers, once each: the rows' numbers") for c in numbering]
+    placed += [(c, "unused", why) for c, why in unused]
+    placed += [(c, "empty", "no values") for c in empty]
+    roles = [ColumnRole(c.label, role, why) for c, role, why in sorted(placed, key=lambda x: x[0].index)]
     return Layout(time_col, tuple(values), tuple(ids), layout, tuple(notes), tuple(conditions), tuple(covariates),
                   tuple(measurements), empty, tuple(roles))

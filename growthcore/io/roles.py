@@ -84,13 +84,16 @@ def whole_numbers(codes: Codes, fmt: NumberFormat) -> bool:
     return bool(codes.keys)
 
 
-def is_row_number(codes: Codes, rows: int, fmt: NumberFormat, *, headed: bool) -> bool:
-    """A column that numbers the rows: unique whole numbers under a header such as ``rownames``, or
-    under none at all in a table whose other columns have headers (as R writes a table)."""
-    if codes.filled != rows or codes.distinct != rows or rows < 3 or not whole_numbers(codes, fmt):
-        return False
-    header = codes.column.header.strip().lower()
+def row_number_header(column: Column, *, headed: bool) -> bool:
+    """A header such as ``rownames``, or none at all in a table whose other columns have headers
+    (as R writes a table): the column may only number the rows."""
+    header = column.header.strip().lower()
     return header in _ROW_NUMBER_NAMES and (bool(header) or headed)
+
+
+def is_row_number(codes: Codes, rows: int, fmt: NumberFormat) -> bool:
+    """Unique whole numbers in every row (checked once :func:`row_number_header` allows the column)."""
+    return codes.filled == rows and codes.distinct == rows and rows >= 3 and whole_numbers(codes, fmt)
 
 
 def group_codes(parts: Sequence[Codes], rows: int) -> np.ndarray:
