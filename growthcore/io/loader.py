@@ -6,7 +6,7 @@ import hashlib
 import math
 import os
 from dataclasses import dataclass
-from typing import Callable, NamedTuple, Sequence
+from typing import NamedTuple, Sequence
 
 import numpy as np
 
@@ -210,14 +210,15 @@ class _Builder:
 
         groups: list[tuple[str, Column, list[_Point] | _Columns, tuple[tuple[str, str], ...]]] = []
         if layout.ids:
-            conditions = self._conditions(layout, rows, lambda r: self._id_of(layout, r))
+            row_ids = [self._id_of(layout, r) for r in rows]
+            conditions = self._conditions(layout, rows, row_ids)
             for vcol in layout.values:
-                named = self._by_id(layout, vcol, rows, rownums, data_idx, conv.values, bad_time_rows, fmt)
+                named = self._by_id(layout, vcol, rows, row_ids, rownums, data_idx, conv.values, bad_time_rows, fmt)
                 for key, pts in named.items():
                     sname = key if len(layout.values) == 1 else f"{key} · {vcol.label}"
                     groups.append((sname, vcol, pts, conditions.get(key, ())))
         else:
-            shared = self._conditions(layout, rows, lambda r: "").get("", ())
+            shared = self._conditions(layout, rows, [""] * len(rows)).get("", ())
             times = conv.values
             for vcol in layout.values:
                 cells = _column(rows, vcol.index)
@@ -300,10 +301,10 @@ class _Builder:
             return None
         return " · ".join(keys)  # type: ignore[arg-type]
 
-    def _by_id(self, layout: Layout, vcol: Column, rows: Sequence[Sequence[object]], rownums: Sequence[int],
-               data_idx: Sequence[int], times: Sequence[float | None], bad_time_rows: set[int],
+    def _by_id(self, layout: Layout, vcol: Column, rows: Sequence[Sequence[object]], row_ids: Sequence[str | None],
+               rownums: Sequence[int], data_idx: Sequence[int], times: Sequence[float | None], bad_time_rows: set[int],
                fmt: NumberFormat) -> dict[str, list[_Point]]:
-        """The points of one value column of a long file, by series id, in file order."""
+        """The points of one value column of a long file, by series id (``row_ids``), in file order."""
         by_id: dict[str, list[_Point]] = {}
         padded: dict[str, list[int]] = {}  # rows where an id was written with spaces around it
         plain: set[str] = set()
@@ -312,7 +313,7 @@ class _Builder:
         for i, r in enumerate(rows):
             if i in bad_time_rows:
                 continue
-            key = self._id_of(layout, r)
+            key = row_ids[i]
             if key is None:
                 blank = next(c for c in layout.ids if cell_key(_cell(r, c.index)) is None)
                 self._leave_out(rownums[i], blank, _cell(r, blank.index), "blank series id", data_idx[i])
@@ -332,12 +333,11 @@ class _Builder:
         return by_id
 
     def _conditions(self, layout: Layout, rows: Sequence[Sequence[object]],
-                    series_of: Callable[[Sequence[object]], str | None]) -> dict[str, tuple[tuple[str, str], ...]]:
-        """Each series' conditions and covariates (constant within it), by series name."""
+                    row_ids: Sequence[str | None]) -> dict[str, tuple[tuple[str, str], ...]]:
+        """Each series' conditions and covariates (constant within it), by the series name of each row."""
         kept = (*layout.conditions, *layout.covariates)
         out: dict[str, dict[str, str]] = {}
-        for r in rows:
-            name = series_of(r)
+        for r, name in zip(rows, row_ids):
             if name is None:
                 continue
             found = out.setdefault(name, {})
