@@ -76,10 +76,9 @@ def detect_step(t: np.ndarray) -> StepInfo:
     tol = floor if decimals is None else max(floor, min(10.0 ** -decimals, MAX_STEP_SHARE * h0))
     with np.errstate(over="ignore", invalid="ignore"):
         k = np.rint((u - u[0]) / h0)
+    steps = f"steps from {h0:g} to {float(np.max(diffs)):g}"
     if not np.isfinite(k[-1]) or k[-1] > MAX_GRID_STEPS:
-        return StepInfo(False, None, None, f"irregular sampling (steps from {h0:g} to {float(np.max(diffs)):g}): "
-                        "difference-equation forms need a regular grid; the curve forms serve irregular times",
-                        None, decimals)
+        return StepInfo(False, None, None, _irregular(steps), None, decimals)
     h_ends = span / k[-1] if k[-1] > 0 else h0
     exact = float(np.max(np.abs(u - (u[0] + k * h_ends))))
     if exact <= floor:
@@ -95,16 +94,13 @@ def detect_step(t: np.ndarray) -> StepInfo:
         grid_index = k.astype(int)[inverse]
         grid_index.setflags(write=False)  # shared by every caller of the cached step
         return StepInfo(True, h, grid_index, note, tol, decimals)
-    return StepInfo(
-        False,
-        None,
-        None,
-        f"irregular sampling (steps from {h0:g} to {float(np.max(diffs)):g}, off a regular grid by up to "
-        f"{misfit:.3g} where {tol:.3g} is allowed): difference-equation forms need a regular grid; "
-        "the curve forms serve irregular times",
-        tol,
-        decimals,
-    )
+    return StepInfo(False, None, None, _irregular(f"{steps}, off a regular grid by up to {misfit:.3g} where "
+                                                  f"{tol:.3g} is allowed"), tol, decimals)
+
+
+def _irregular(detail: str) -> str:
+    return (f"irregular sampling ({detail}): difference-equation forms need a regular grid; "
+            "the curve forms serve irregular times")
 
 
 @dataclass(frozen=True)
@@ -200,10 +196,7 @@ class Series:
     @cached_property
     def replicate_times(self) -> int:
         """How many times carry more than one point (replicates)."""
-        if self.t.size < 2:
-            return 0
-        same = np.diff(self.t) == 0
-        return int(np.count_nonzero(same[1:] & ~same[:-1]) + int(same[0])) if same.size else 0
+        return int(np.count_nonzero(np.unique(self.t, return_counts=True)[1] > 1))
 
     @property
     def has_replicates(self) -> bool:
