@@ -48,6 +48,11 @@ def decode_source(source: Mapping[str, Any], max_bytes: int | None = None) -> by
                                    "(not valid base64); try again") from None
 
 
+def value_columns(text: str | None) -> str | list[str] | None:
+    """The value field as the import takes it: one column, several separated by commas, or none."""
+    return [v.strip() for v in text.split(",")] if text and "," in text else (text or None)
+
+
 #: The import choices of the mapping fields, in the order of their outputs.
 CHOICES = ("time", "value", "series_column", "time_unit", "sheet", "replicates")
 #: The field each ``ChoiceNotFound.choice`` comes from.
@@ -72,11 +77,9 @@ def import_source(source: Mapping[str, Any], *, pick: str | None = None, time: s
     choices: dict[str, str | None] = {"time": time, "value": value, "series_column": series_column, "sheet": sheet}
     dropped: list[str] = []
     while True:
-        values = [v.strip() for v in choices["value"].split(",")] if choices["value"] and "," in choices["value"] \
-            else (choices["value"] or None)
         try:
             imported = load_bytes(raw, name, sheet=choices["sheet"] or None, time=choices["time"] or None,
-                                  value=values, series=choices["series_column"] or None,
+                                  value=value_columns(choices["value"]), series=choices["series_column"] or None,
                                   time_unit=time_unit or None, replicates=replicates or "all",
                                   max_bytes=limits.max_bytes, limits=limits)
             break

@@ -18,7 +18,7 @@ from dash import Dash, Input, Output, Patch, State, ctx, html, no_update
 from dash.exceptions import PreventUpdate
 
 from app import ids
-from app.callbacks.data import DEFAULT_MAX_BYTES, decode_source, server_limits
+from app.callbacks.data import DEFAULT_MAX_BYTES, decode_source, server_limits, value_columns
 from app.heavy import direct, runner_of
 from app.components.series import ALL_GROUPS
 from app.figures.batch import data_ranges, overview_grid, plate_map
@@ -72,9 +72,7 @@ def series_from_plain(d: Mapping[str, Any]) -> Series:
 
 def _mapping(choices: Mapping[str, Any]) -> dict[str, Any]:
     """The import options of the choices the shown series was read with (see ``import_source``)."""
-    value = choices.get("value")
-    values = [v.strip() for v in value.split(",")] if value and "," in value else (value or None)
-    return {"time": choices.get("time") or None, "value": values, "series": choices.get("series_column") or None,
+    return {"time": choices.get("time") or None, "value": value_columns(choices.get("value")), "series": choices.get("series_column") or None,
             "time_unit": choices.get("time_unit") or None, "sheet": choices.get("sheet") or None,
             "replicates": choices.get("replicates") or "all"}
 
