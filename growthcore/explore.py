@@ -22,7 +22,6 @@ from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.expr import parse_term
 from growthcore.fit import FitResult, fit
-from growthcore.fit.forms import fit_forms  # noqa: F401  (the app fits through it)
 from growthcore.fit.starts import capacity_guess
 from growthcore.models import get_form
 from growthcore.models.base import DifferenceForm, ModelForm

@@ -22,7 +22,8 @@ from app.components.comparison import sort_rows
 from app.server import DEMO_FILE, read_source
 from app.state import series_from_store
 from growthcore.compare import compare
-from growthcore.explore import Candidate, candidate_fit, fit_forms
+from growthcore.explore import Candidate, candidate_fit
+from growthcore.fit.forms import fit_forms
 
 CSV = "Day,Cover (%)\n" + "\n".join(f"{d},{v:.3f}" for d, v in zip(range(12), [2, 3.1, 4.7, 7, 10.2, 14, 18.5,
                                                                               22, 24.9, 26.6, 27.5, 28.1]))

@@ -15,7 +15,8 @@ from app.figures.residuals import observed_predicted_figure, residual_fitted_fig
 from app.figures.trajectory import capacity_from_relayout, trajectory_figure
 from app.state import fit_to_store
 from growthcore.data import Series
-from growthcore.explore import Candidate, candidate_fit, change_table, fit_forms
+from growthcore.explore import Candidate, candidate_fit, change_table
+from growthcore.fit.forms import fit_forms
 
 
 @pytest.fixture(scope="module")

@@ -18,9 +18,9 @@ from growthcore.explore import (
     capacity_from_fit,
     capacity_range,
     change_table,
-    fit_forms,
     observation_index,
 )
+from growthcore.fit.forms import fit_forms
 
 
 def logistic_path(r: float, k: float, p0: float, n: int) -> np.ndarray:

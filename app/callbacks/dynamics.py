@@ -30,8 +30,8 @@ from app.state import series_from_store
 from growthcore.data import Series
 from growthcore.dynamics import analyse, cobweb, sweep
 from growthcore.errors import GrowthcoreInputError
-from growthcore.explore import fit_forms
 from growthcore.fit import FitResult
+from growthcore.fit.forms import fit_forms
 from growthcore.models.base import DifferenceForm
 from growthcore.timeaxis import calendar_origin, is_calendar_years, time_point_text
 from growthcore.uncertainty import BootstrapResult, bootstrap, derived_intervals, forecast

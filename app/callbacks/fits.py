@@ -13,8 +13,8 @@ from app.state import fit_to_store, rows_to_store, series_from_store
 from growthcore.compare import compare, comparison_notes
 from growthcore.errors import GrowthcoreInputError
 from growthcore.data import Series
-from growthcore.explore import fit_forms
 from growthcore.fit import FitResult
+from growthcore.fit.forms import fit_forms
 from growthcore.limits import DEFAULT as LIMITS
 
 
