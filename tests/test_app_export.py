@@ -20,7 +20,6 @@ from typing import Any
 import jsonschema
 import pytest
 
-from app import ids
 from app.callbacks import export as ex
 from app.callbacks.capacity import update_capacity
 from app.callbacks.data import import_source

@@ -22,10 +22,10 @@ import numpy as np
 import pytest
 
 from growthcore.batch import groups_from_pattern
-from growthcore.batch.pattern import PatternError, compile_pattern
+from growthcore.batch.pattern import compile_pattern
 from growthcore.cli import main
 from growthcore.errors import GrowthcoreInputError, ImportFailure
-from growthcore.io import load_bytes, load_file
+from growthcore.io import load_bytes
 from growthcore.io.writer import atomic_write_text, atomic_writer
 from growthcore.limits import DEFAULT, Limits
 from growthcore.record import seal

@@ -18,7 +18,6 @@ import argparse
 import base64
 import json
 import os
-import statistics
 import subprocess
 import sys
 import threading
