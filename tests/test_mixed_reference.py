@@ -118,7 +118,8 @@ def test_orange_results_are_complete_and_round_trip(trees):
     ks = [s.constants["K"] for s in got.series]
     assert sum(s.deviations["K"] for s in got.series) == pytest.approx(0.0, abs=1e-6 * PB["K"])
     assert all(s.constants["r"] == got.fixed["r"].value for s in got.series)
-    # shrinkage (BLUPs, textbook property): with r and t_mid at the population values, each tree's
+    # shrinkage (common practice: a random effect's prediction lies between the population value and
+    # the series' own estimate): with r and t_mid at the population values, each tree's
     # conditional K lies between the population K and the K that tree alone gives
     shape = {"r": got.fixed["r"].value, "t_mid": got.fixed["t_mid"].value}
     for series, s, k in zip(trees, got.series, ks):
