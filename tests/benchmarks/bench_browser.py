@@ -7,7 +7,8 @@ Starts the real app (create_app + waitress on a loopback port) and drives headle
 requests, their bytes and those in flight; a step ends when no request has been in flight for
 ``QUIET_MS`` and the awaited text is on the page. Measured:
 
-- a K typed into the number box: until every panel and the comparison table show it, nothing loading;
+- a K typed into the number box, with K held at the estimate: until every panel and the comparison
+  table show it, nothing loading;
   the requests and kB brought down per change;
 - an upload of an invented 100-point file: until the trajectory panel is drawn for it;
 - switching between the series of an invented long file of three series;
@@ -146,6 +147,11 @@ def k_changes(driver: Any, changes: int) -> list[tuple[float, int, int]]:
     from selenium.webdriver.common.keys import Keys
 
     out = []
+    # K is fitted by default; the live path the target speaks of is K held at the user's estimate
+    held = driver.find_element(By.CSS_SELECTOR, "#model-k-mode input[value='held']")
+    driver.execute_script("arguments[0].scrollIntoView({block: 'center'})", held)
+    held.click()
+    _settle(driver, driver.execute_script(INSTRUMENT), lambda: "(held)" in _text(driver, "comparison-table"))
     box = driver.find_element(By.ID, "model-k-input")
     driver.execute_script("arguments[0].scrollIntoView({block: 'center'})", box)
     for i in range(changes):
