@@ -16,6 +16,7 @@ from typing import Any, Callable, Mapping, Sequence
 import numpy as np
 
 from growthcore import __version__
+from growthcore.budget import BudgetExceeded
 from growthcore.compare import compare, comparison_notes
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
@@ -204,6 +205,8 @@ def refit(series: Series, request: Mapping[str, Any]) -> FitResult:
                    capacity=request.get("capacity"), fixed=request.get("fixed") or None,
                    start=request.get("start") or None, terms=tuple(request.get("terms", ())),
                    profile=bool(request.get("profile", True)), time_origin=request.get("time_origin"))
+    except BudgetExceeded:
+        raise  # out of time is not a refusal of this fit
     except GrowthcoreInputError as exc:
         return failed(str(request["model"]), str(request["method"]), str(request["error"]), str(exc))
 

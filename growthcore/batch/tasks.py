@@ -9,6 +9,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field, replace
 from typing import Mapping
 
+from growthcore.budget import BudgetExceeded
 from growthcore.data import Series
 from growthcore.fit import fit
 from growthcore.fit.result import FitResult, failed
@@ -50,6 +51,8 @@ def _single(series: Series, task: Task) -> FitResult:
     try:
         return fit(series, task.model, method=task.method, error=task.error, fixed=task.fixed or None,
                    terms=task.terms, profile=False)
+    except BudgetExceeded:
+        raise  # out of time stops the whole batch, not one series
     except Exception as exc:  # noqa: BLE001 - one bad series must never stop the batch
         return failed(task.model, task.method, task.error, f"fit stopped: {type(exc).__name__}: {exc}")
 
@@ -67,6 +70,8 @@ def run_task(task: Task) -> TaskOutput:
             for j, r in zip(ready, solved):
                 if r is not None:
                     results[j], paths[j] = r, VECTORISED
+        except BudgetExceeded:
+            raise
         except (FloatingPointError, OverflowError, ZeroDivisionError, ValueError, ArithmeticError,
                 IndexError, TypeError, KeyError):
             pass  # the whole chunk falls back to single fits, which report their own failures

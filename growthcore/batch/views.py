@@ -8,6 +8,7 @@ import numpy as np
 
 from growthcore.batch.plate import parse_well
 from growthcore.batch.runner import BatchResult
+from growthcore.budget import BudgetExceeded
 from growthcore.errors import GrowthcoreInputError
 
 
@@ -27,6 +28,8 @@ def overview_panels(batch: BatchResult, model: str) -> list[dict[str, Any]]:
                 pt, pp = r.path(float(s.t[-1]))
                 fit_t = [float(v) for v in pt]
                 fit_p = [float(v) if np.isfinite(v) else None for v in pp]
+            except BudgetExceeded:
+                raise
             except GrowthcoreInputError:
                 pass
         out.append({

@@ -22,6 +22,7 @@ from typing import Any, Mapping
 
 import numpy as np
 
+from growthcore.budget import check_budget
 from growthcore.fit.simulate import iterate
 from growthcore.models.base import DifferenceForm
 
@@ -203,6 +204,7 @@ def _settle_by_multiplier(form: DifferenceForm, values: Mapping[str, Array | flo
         vals = _column(values, cols)
         x = tail[-1, cols].copy()
         for _ in range(60):
+            check_budget()
             orbit, mu = _orbit(form, vals, x, q)
             g = orbit[q] - x
             with np.errstate(all="ignore"):

@@ -9,6 +9,7 @@ from typing import Mapping, Sequence
 
 import numpy as np
 
+from growthcore.budget import check_budget
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit.increments import fit_increments
@@ -54,8 +55,10 @@ def fit(
     -------
     FitResult whose ``status`` is ``converged`` or ``failed`` with a message; input that makes the
     numbers overflow or degenerate gives a failed result, not an exception. Only arguments outside
-    their choices (an unknown method or model id, a bad term) raise ``GrowthcoreInputError``.
+    their choices (an unknown method or model id, a bad term) raise ``GrowthcoreInputError``, and
+    a time budget that runs out (:class:`~growthcore.budget.BudgetExceeded`, a subclass).
     """
+    check_budget()  # every fit is a step of the request that asked for it, closed-form ones too
     if method not in METHODS:
         raise GrowthcoreInputError(f"`method` must be one of {', '.join(METHODS)}; got {method!r}")
     if error not in ERROR_MODELS:

@@ -18,6 +18,8 @@ from typing import Callable
 
 import numpy as np
 
+from growthcore.budget import check_budget
+
 Array = np.ndarray
 #: residuals(x, idx): x has shape (k, a, c) for the a problems listed in idx and c evaluations each;
 #: returns (n, a, c). Points a problem lacks must give residual 0.
@@ -81,6 +83,7 @@ def solve_batched(
     jac_all = jac.copy()
     eye = np.eye(k)
     for _ in range(max_iter):
+        check_budget()
         idx = np.flatnonzero(active)
         if idx.size == 0:
             break

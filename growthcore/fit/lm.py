@@ -16,6 +16,7 @@ from typing import Any, Callable, Sequence
 
 import numpy as np
 
+from growthcore.budget import check_budget
 from growthcore.fit.nls import STOP_REASONS, NLSOutcome
 
 Array = np.ndarray
@@ -38,7 +39,8 @@ def solve_exact(
     ftol: float = 1e-10,
     xtol: float = 1e-10,
 ) -> NLSOutcome:
-    """Minimise the sum of squared residuals from ``x0`` within [lower, upper]; never raises.
+    """Minimise the sum of squared residuals from ``x0`` within [lower, upper]; raises only when the
+    time budget runs out (:class:`~growthcore.budget.BudgetExceeded`).
 
     Converged when the fall of the sum of squares that the next Gauss–Newton step predicts is at
     most ``ftol`` of it, or when the step shrinks below ``xtol`` relative to x. In the first case
@@ -61,6 +63,7 @@ def solve_exact(
     scale = [max(a[i][i], 1e-300) for i in range(len(x))]
     damping, growth, nfev = 1e-3, 2.0, 1
     while nfev < max_nfev:
+        check_budget()
         step = _solve_damped(a, g, damping, scale)
         if step is None:
             damping, growth = damping * growth, growth * 2.0

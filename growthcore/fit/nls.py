@@ -13,6 +13,8 @@ from typing import Callable
 import numpy as np
 from scipy.optimize import leastsq
 
+from growthcore.budget import BudgetExceeded, check_budget
+
 Array = np.ndarray
 VectorResiduals = Callable[[Array], Array]
 
@@ -125,7 +127,7 @@ def solve(
     max_nfev: int | None = None,
     tol: float = 1e-12,
 ) -> NLSOutcome:
-    """Minimise ||fn(x)||² within bounds; never raises for numerical trouble.
+    """Minimise ||fn(x)||² within bounds; never raises for numerical trouble (only when the time budget runs out).
 
     The bounds are removed by a change of coordinates (log for one-sided bounds, a logistic squash
     for two-sided ones) so that MINPACK's Levenberg–Marquardt (``leastsq``) can be used: its
@@ -137,6 +139,7 @@ def solve(
     last: dict[str, Array] = {}
 
     def safe(cols_u: Array) -> Array:
+        check_budget()
         with np.errstate(all="ignore"):
             r = fn(coords.to_x(cols_u))
             if not np.all(np.isfinite(r)) or np.any(np.abs(r) > penalty):
@@ -161,6 +164,8 @@ def solve(
         with np.errstate(all="ignore"):
             u, _, info, message, ier = leastsq(fun, u0, Dfun=jac, full_output=True, ftol=tol, xtol=tol,
                                                gtol=0.0, maxfev=max_nfev or 200 * (x0.size + 1))
+    except BudgetExceeded:
+        raise  # out of time stops the request; it is not a failure of this fit
     except (ValueError, TypeError, np.linalg.LinAlgError, FloatingPointError) as exc:
         return NLSOutcome(x0, np.array([]), math.inf, False, f"optimiser stopped: {exc}", 0, False)
     x = coords.to_x(np.asarray(u, dtype=float))

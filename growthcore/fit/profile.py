@@ -19,6 +19,7 @@ from typing import Callable
 import numpy as np
 from scipy import optimize, special
 
+from growthcore.budget import BudgetExceeded, check_budget
 from growthcore.fit.result import CapacityProfile, FitResult
 
 Array = np.ndarray
@@ -63,6 +64,7 @@ def capacity_profile(result: FitResult, refit_with_k: Callable[[float, dict[str,
     for branch in (upper[1:], lower):
         start = start_by_k[k_hat]
         for k in branch:
+            check_budget()
             refit = refit_with_k(float(k), start)
             if refit.success and refit.metrics is not None:
                 sse_by_k[float(k)] = refit.metrics.sse
@@ -109,12 +111,15 @@ def _crossing(ks: Array, sse: Array, threshold: float, k_hat: float, side: int,
             inner, outer = float(ks[j - 1]), float(ks[j])
 
             def gap(log_k: float) -> float:
+                check_budget()
                 value = profile_at(math.exp(log_k), inner) - threshold
                 return value if math.isfinite(value) else math.inf
 
             a, b = sorted((math.log(inner), math.log(outer)))
             try:
                 root = optimize.brentq(gap, a, b, xtol=ROOT_RTOL, rtol=ROOT_RTOL, maxiter=100)
+            except BudgetExceeded:
+                raise
             except (ValueError, RuntimeError):
                 w = (threshold - sse[j - 1]) / (sse[j] - sse[j - 1])  # the refits misbehave: fall back
                 return float(math.exp(math.log(inner) + w * (math.log(outer) - math.log(inner))))

@@ -7,12 +7,15 @@ from typing import Mapping
 
 import numpy as np
 
+from growthcore.budget import BudgetExceeded, check_budget
 from growthcore.models.base import DifferenceForm
 
 Array = np.ndarray
 
 #: Up to this many parameter sets, plain Python floats beat numpy's per-call overhead on tiny arrays.
 SCALAR_LIMIT = 8
+#: Plain-float steps between two looks at the time budget (a path of a long grid is seconds of work).
+CHECK_EVERY = 65_536
 
 
 def iterate(form: DifferenceForm, p0: Array | float, values: Mapping[str, Array | float], steps: int) -> Array:
@@ -38,6 +41,7 @@ def _iterate_numpy(form: DifferenceForm, p: Array, values: Mapping[str, Array | 
     increment = form.increment
     with np.errstate(all="ignore"):
         for n in range(1, steps + 1):
+            check_budget()
             p = p + increment(p, values)
             path[n] = p
     return path
@@ -55,12 +59,17 @@ def path_of(form: DifferenceForm, p0: float, values: Mapping[str, float], steps:
     """States p_0 .. p_steps for one parameter set given as plain floats."""
     try:
         return np.array(_float_path(form, p0, values, steps))
+    except BudgetExceeded:
+        raise
     except (ArithmeticError, ValueError, TypeError):
         # Python floats raise (or turn complex) where numpy gives inf or nan: let numpy do it
         return _iterate_numpy(form, np.asarray(p0, dtype=float), values, steps, ())
 
 
 def _float_path(form: DifferenceForm, p: float, values: Mapping[str, float], steps: int) -> list[float]:
+    check_budget()
+    if steps > CHECK_EVERY:
+        return _float_path_in_parts(form, p, values, steps)
     out = [p]
     append = out.append
     if form.scalar_step is not None:
@@ -79,6 +88,14 @@ def _float_path(form: DifferenceForm, p: float, values: Mapping[str, float], ste
     return out
 
 
+def _float_path_in_parts(form: DifferenceForm, p: float, values: Mapping[str, float], steps: int) -> list[float]:
+    """A long path in parts of CHECK_EVERY steps, each after a look at the time budget."""
+    out = [p]
+    while len(out) <= steps:
+        out.extend(_float_path(form, out[-1], values, min(CHECK_EVERY, steps + 1 - len(out)))[1:])
+    return out
+
+
 def _iterate_scalar(form: DifferenceForm, p0: Array, values: Mapping[str, Array | float], steps: int,
                     shape: tuple[int, ...], size: int) -> Array | None:
     """The same iteration one parameter set at a time in Python floats; None if floats would raise."""
@@ -88,6 +105,8 @@ def _iterate_scalar(form: DifferenceForm, p0: Array, values: Mapping[str, Array 
     try:
         for j in range(size):
             path[:, j] = _float_path(form, starts[j], {n: c[j] for n, c in columns.items()}, steps)
+    except BudgetExceeded:
+        raise
     except (ArithmeticError, ValueError, TypeError):
         return None
     return path.reshape((steps + 1, *shape))

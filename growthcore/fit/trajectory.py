@@ -14,6 +14,7 @@ from typing import Any, Callable, Iterable, Iterator, Mapping, Sequence
 
 import numpy as np
 
+from growthcore.budget import check_budget
 from growthcore.data import Series
 from growthcore.fit.increments import consecutive_pairs, fit_increments
 from growthcore.fit.lm import Evaluation, solve_exact
@@ -81,6 +82,7 @@ def _best(problem: Problem, candidates: Iterable[Array]) -> NLSOutcome | None:
     best = None
     lower, upper = problem.lower, problem.upper
     for x0 in candidates:
+        check_budget()
         outcome = _solve_one(problem, x0, lower, upper)
         if outcome.finite and (best is None or outcome.sse < best.sse * (1 - 1e-9)):
             best = outcome

@@ -16,6 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import minimize, minimize_scalar
 
+from growthcore.budget import check_budget
 from growthcore.mixed.covariance import n_theta, relative_cov
 from growthcore.mixed.design import MixedDesign
 from growthcore.mixed.likelihood import LinearFit, Working, laplace_neg2ll, linear_fit, working
@@ -62,6 +63,7 @@ def pnls(design: MixedDesign, beta: Array, b: Array, Dinv: Array, *, fixed_beta:
     if not math.isfinite(obj):
         return beta, b, obj, False
     for _ in range(max_iter):
+        check_budget()
         X, Z = _lin(design, F)
         r = (design.y - h) * design.mask
         ZtZ = np.einsum("mnq,mnr->mqr", Z, Z)
@@ -108,6 +110,7 @@ def lme_step(design: MixedDesign, wk: Working, theta: Array) -> tuple[Array, Lin
     q = len(design.random)
 
     def objective(th: Array) -> float:
+        check_budget()
         fitted = linear_fit(wk, relative_cov(th, q, design.covariance), design.n_obs, design.estimation)
         return fitted.neg2ll if fitted is not None else 1e300
 
@@ -139,6 +142,7 @@ def lindstrom_bates(design: MixedDesign, beta: Array, theta: Array, *, max_iter:
     fitted: LinearFit | None = None
     moved = math.inf
     for it in range(1, max_iter + 1):
+        check_budget()
         D = relative_cov(theta, q, design.covariance)
         beta_new, b, obj, ok = pnls(design, beta, b, np.linalg.inv(D))
         if not math.isfinite(obj):
@@ -186,6 +190,7 @@ def polish_laplace(design: MixedDesign, start: Estimate) -> Estimate:
     warm = {"b": start.b}
 
     def objective(x: Array) -> float:
+        check_budget()
         value, _, b_hat = laplace_objective(design, x[:k] * scale, x[k:], warm["b"])
         return value if math.isfinite(value) else 1e300
 

@@ -20,6 +20,7 @@ from typing import Any, Iterator, Mapping
 
 import numpy as np
 
+from growthcore.budget import check_budget
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.limits import DEFAULT as LIMITS
@@ -202,6 +203,7 @@ def bootstrap(
     converged = outcome.converged.copy()
     # the batch solver can stall at an active bound; the few it leaves get one scipy refit each
     for j in np.flatnonzero(~converged)[:MAX_RETRIES]:
+        check_budget()
         x_j, ok = problem.solve_one(targets[:, j], outcome.x[:, j])
         if ok:
             x[j], converged[j] = x_j, True
@@ -232,6 +234,7 @@ def bootstrap_chunks(
     problem = refit_problem(result, series) if result.success else None
     so_far: BootstrapResult | None = None
     for begin in range(0, resamples, chunk):
+        check_budget()
         part = bootstrap(result, series=series, resamples=resamples, seed=seed, start=begin,
                          stop=begin + chunk, problem=problem)
         so_far = part if so_far is None else so_far.merge(part)

@@ -13,6 +13,7 @@ from typing import Any, Mapping, Sequence
 
 import numpy as np
 
+from growthcore.budget import check_budget
 from growthcore.derived import derived_quantities, time_to_reach
 from growthcore.fit.result import FitResult
 from growthcore.stats import t_quantile
@@ -81,6 +82,7 @@ def derived_intervals(
         count = len(next(iter(good.values()), []))
         pick = np.unique(np.linspace(0, count - 1, min(count, max_draws)).astype(int)) if count else np.zeros(0, int)
         for j in pick:
+            check_budget()
             rows.append(_quantities(with_values(result, {n: float(v[j]) for n, v in good.items()}), targets, horizon))
     tail = 50.0 * (1.0 - level)
     delta = {} if rows else delta_method_intervals(result, targets, horizon, point, level=level)

@@ -19,6 +19,7 @@ from typing import Any, Mapping
 
 import numpy as np
 
+from growthcore.budget import check_budget
 from growthcore.data import Series
 from growthcore.derived import _first_crossing
 from growthcore.errors import GrowthcoreInputError
@@ -183,6 +184,7 @@ def forecast(
             headline.append(f"the point forecast overflows from t = {t_future[j]:g}: the forecast and its band end there")
             point = np.where(np.arange(point.size) >= j, math.nan, point)
         for j in range(end):
+            check_budget()
             row = sims[j][finite[j]]
             if row.size >= 20:
                 lo[j], hi[j] = np.percentile(row, [tail, 100.0 - tail])
@@ -215,6 +217,7 @@ def _simulate(result: FitResult, t_future: Array, values: Mapping[str, Any], noi
             p = np.full(noise.shape[1], p_last)
             sims = np.empty_like(noise)
             for j in range(t_future.size):
+                check_budget()
                 p = form.next_state(p, values) + noise[j]
                 if floor is not None:
                     p = np.maximum(p, floor)  # a population that reaches 0 stays there
