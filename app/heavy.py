@@ -10,6 +10,9 @@ A heavy job runs in a fresh process forked from a small server of workers, so th
   out-of-memory message, and whatever a job allocated goes back to the system when it ends, so
   the server's memory returns to its baseline after any file, refused or read.
 
+The time a request waits for a heavy job (or for a slot) does not count against the request's own
+budget for light work (app/request_budget.py); work run by ``bounded`` in the request's thread does.
+
 Nothing here knows what the jobs do: each is a plain top-level function and its arguments.
 """
 
@@ -22,6 +25,7 @@ import time
 from dataclasses import dataclass
 from typing import Any, Callable
 
+from growthcore.budget import budget_paused
 from growthcore.errors import GrowthcoreInputError
 
 #: Modules the worker server imports once, so that each job starts without importing them again.
@@ -97,8 +101,13 @@ class HeavyRunner:
     def run(self, what: str, func: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
         """``func(*args, **kwargs)`` as a heavy job; HeavyRefused when busy, over time or out of memory.
 
-        ``what`` names the job in messages ("reading the file", "the bootstrap chunk").
+        ``what`` names the job in messages ("reading the file", "the bootstrap chunk"). The job has
+        its own budget, so the request's light-work budget is paused while it waits.
         """
+        with budget_paused():
+            return self._run(what, func, args, kwargs)
+
+    def _run(self, what: str, func: Callable[..., Any], args: Any, kwargs: Any) -> Any:
         cfg = self.config
         if not self._slots.acquire(timeout=cfg.wait_s):
             raise HeavyRefused(f"the server is busy with {cfg.slots} heavy job(s) from other tabs; {what} was not "
@@ -114,8 +123,11 @@ class HeavyRunner:
 
     def bounded(self, what: str, func: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
         """``func`` under the same bound on heavy jobs, in the calling thread (for results that do
-        not travel between processes, such as fitted forms)."""
-        if not self._slots.acquire(timeout=self.config.wait_s):
+        not travel between processes, such as fitted forms), and under the request's light-work
+        budget (the wait for a slot is not counted)."""
+        with budget_paused():
+            free = self._slots.acquire(timeout=self.config.wait_s)
+        if not free:
             raise HeavyRefused(f"the server is busy with {self.config.slots} heavy job(s) from other tabs; {what} "
                                f"was not started within {self.config.wait_s:g} s: try again in a moment")
         self.running += 1

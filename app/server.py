@@ -21,6 +21,9 @@ from app import ids
 from app.callbacks import register_all
 from app.heavy import HeavyConfig, HeavyRunner
 from app.layout import build_layout
+from app.request_budget import CONFIG_KEY as LIGHT_BUDGET_KEY
+from app.request_budget import DEFAULT_LIGHT_BUDGET_S, check_light_budget, describe_request, show_ran_out
+from growthcore.budget import BudgetExceeded
 from growthcore.limits import DEFAULT as DEFAULT_LIMITS
 from growthcore.limits import Limits
 
@@ -54,6 +57,9 @@ def read_source(path: str, max_bytes: int = DEFAULT_MAX_UPLOAD) -> dict[str, Any
 
 def _report_failure(err: Exception) -> None:
     """Any unexpected failure in a callback: our message on screen, the traceback in the server log."""
+    if isinstance(err, BudgetExceeded):  # a callback registered outside register_all ran out of time
+        show_ran_out(err.what, err.seconds, describe_request((), {})[1])
+        return
     LOG.error("callback failed:\n%s", "".join(traceback.format_exception(err)))
     first = (str(err).splitlines() or [""])[0][:300]
     set_props(ids.ERROR_BANNER, {"hidden": False})
@@ -64,13 +70,15 @@ def _report_failure(err: Exception) -> None:
 
 def create_app(data_path: str | None = None, *, max_upload_bytes: int = DEFAULT_MAX_UPLOAD,
                demo: bool = True, limits: Limits | None = None, heavy: HeavyConfig | None = None,
-               allowed_hosts: Iterable[str] = LOOPBACK_NAMES) -> Dash:
+               allowed_hosts: Iterable[str] = LOOPBACK_NAMES,
+               light_budget_s: float | None = DEFAULT_LIGHT_BUDGET_S) -> Dash:
     """A new app; ``data_path`` is the file shown first (the invented demo data when None).
 
     Every app keeps its state in the browser (dcc.Store), so one server serves many tabs, each
     with its own data. Every limit (``limits``, with ``max_upload_bytes`` as its byte limit) is
     the server's own and checked on the server, whatever the tab sends; heavy jobs run as
-    ``heavy`` says (worker processes, a bound on how many at once, a time budget).
+    ``heavy`` says (worker processes, a bound on how many at once, a time budget). Every other
+    callback may take ``light_budget_s`` seconds of work in the request's thread (None: no limit).
     """
     path = data_path or (DEMO_FILE if demo and os.path.exists(DEMO_FILE) else None)
     source = read_source(path, max_upload_bytes) if path else None
@@ -96,6 +104,7 @@ def create_app(data_path: str | None = None, *, max_upload_bytes: int = DEFAULT_
     app.server.config["GROWTHCORE_MAX_UPLOAD"] = max_upload_bytes
     app.server.config["GROWTHCORE_LIMITS"] = dataclasses.replace(limits or DEFAULT_LIMITS, max_bytes=max_upload_bytes)
     app.server.config["GROWTHCORE_HEAVY"] = HeavyRunner(heavy)
+    app.server.config[LIGHT_BUDGET_KEY] = check_light_budget(light_budget_s)
     app.server.config["GROWTHCORE_ALLOWED_HOSTS"] = frozenset(_host_key(h) for h in allowed_hosts)
     app.layout = build_layout(source, max_upload_bytes=max_upload_bytes)
     register_all(app)

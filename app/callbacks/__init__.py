@@ -1,7 +1,8 @@
 """Callbacks, one module per concern; :func:`register_all` wires them onto an app.
 
 Each module keeps its work in plain functions (called directly by the tests and the benchmark)
-and a ``register(app)`` that connects them to component ids.
+and a ``register(app)`` that connects them to component ids. Every callback registered here runs
+under the server's time budget for a light request (app/request_budget.py).
 """
 
 from __future__ import annotations
@@ -14,11 +15,13 @@ from app.callbacks import population as population_callbacks
 from app.callbacks import series as series_callbacks
 from app.callbacks import (batch_tables, capacity, comparison, data, exclusions, explore, fits, highlight, panels,
                            settings)
+from app.request_budget import BudgetedRegistration
 
 MODULES = (data, settings, capacity, exclusions, explore, fits, panels, comparison, highlight, export_callbacks,
            dynamics_callbacks, series_callbacks, batch_tables, population_callbacks)
 
 
 def register_all(app: Dash) -> None:
+    budgeted = BudgetedRegistration(app)
     for module in MODULES:
-        module.register(app)
+        module.register(budgeted)  # type: ignore[arg-type]  # the app, with callbacks under the budget
