@@ -7,8 +7,9 @@ scale, so ΔAICc and Akaike weights are computed within groups of equal method, 
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Any, Sequence
+from typing import Any
 
 from growthcore.fit.result import FitResult
 from growthcore.stats import akaike_weights
@@ -89,7 +90,7 @@ def compare(fits: Sequence[FitResult]) -> list[ComparisonRow]:
         weights = akaike_weights(aiccs)
         finite = [a for a in aiccs if math.isfinite(a)]
         low = min(finite) if finite else math.nan
-        for i, a, w in zip(members, aiccs, weights):
+        for i, a, w in zip(members, aiccs, weights, strict=True):
             delta = a - low
             if math.isfinite(delta) and abs(delta) <= TIE_RTOL * max(1.0, abs(low)):
                 delta = 0.0  # equal criteria up to round-off
@@ -100,7 +101,7 @@ def compare(fits: Sequence[FitResult]) -> list[ComparisonRow]:
     rows = []
     for i, f in enumerate(fits):
         m = f.metrics
-        d, w = deltas.get(i, (None, None))
+        delta_aicc, weight = deltas.get(i, (None, None))
         rows.append(
             ComparisonRow(
                 model=f.model,
@@ -116,8 +117,8 @@ def compare(fits: Sequence[FitResult]) -> list[ComparisonRow]:
                 r2=_num(m.r2) if m else None,
                 r2_uncentered=_num(m.r2_uncentered) if m and m.r2_uncentered is not None else None,
                 aicc=_num(m.aicc) if m else None,
-                delta_aicc=d,
-                weight=w,
+                delta_aicc=delta_aicc,
+                weight=weight,
                 bic=_num(m.bic) if m else None,
                 systematic_misfit=f.diagnostics.systematic if f.diagnostics else None,
                 warnings=f.notes + ((f.diagnostics.message,) if f.diagnostics and f.diagnostics.systematic else ())
@@ -128,7 +129,8 @@ def compare(fits: Sequence[FitResult]) -> list[ComparisonRow]:
             )
         )
     order = sorted(range(len(rows)), key=lambda i: (
-        rows[i].status != "converged", _group(fits[i]), rows[i].delta_aicc if rows[i].delta_aicc is not None else math.inf))
+        rows[i].status != "converged", _group(fits[i]),
+        rows[i].delta_aicc if rows[i].delta_aicc is not None else math.inf))
     return [rows[i] for i in order]
 
 

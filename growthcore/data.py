@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from functools import cached_property
-from typing import Mapping
 
 import numpy as np
 
@@ -174,13 +174,13 @@ class Series:
         """Row number of point ``i`` in the source, or its 1-based position when there is none."""
         return self.rows[i] if self.rows is not None else i + 1
 
-    def exclude(self, i: int, reason: str) -> "Series":
+    def exclude(self, i: int, reason: str) -> Series:
         """A copy with point ``i`` left out for ``reason``."""
         excluded = dict(self.excluded)
         excluded[int(i)] = reason
         return replace(self, excluded=excluded)
 
-    def restore(self, i: int) -> "Series":
+    def restore(self, i: int) -> Series:
         """A copy with point ``i`` used again."""
         excluded = {k: v for k, v in self.excluded.items() if k != int(i)}
         return replace(self, excluded=excluded)
@@ -202,7 +202,7 @@ class Series:
     def has_replicates(self) -> bool:
         return self.replicate_times > 0
 
-    def means_per_time(self) -> "Series":
+    def means_per_time(self) -> Series:
         """One point per distinct time: the mean of the used replicates there.
 
         A time whose every replicate is left out stays as one excluded point; rows are those of the

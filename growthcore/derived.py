@@ -15,7 +15,8 @@ an ODE equilibrium when F'(p*) < 0.
 from __future__ import annotations
 
 import math
-from typing import Any, Mapping
+from collections.abc import Mapping
+from typing import Any
 
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
@@ -61,7 +62,7 @@ def equilibria(form: ModelForm, values: Mapping[str, float], upper: float) -> li
     at_zero = g[0] if np.isfinite(g[0]) else g[1]
     if np.isfinite(at_zero) and abs(at_zero) <= 1e-12 * max(upper, 1.0):
         roots.append(0.0)
-    for a, b, ga, gb in zip(grid[1:-1], grid[2:], g[1:-1], g[2:]):
+    for a, b, ga, gb in zip(grid[1:-1], grid[2:], g[1:-1], g[2:], strict=True):
         if not (np.isfinite(ga) and np.isfinite(gb)):
             continue
         if ga == 0.0:
@@ -99,7 +100,8 @@ def _derived(result: FitResult) -> dict[str, Any]:
     values = result.values
     hi = state_upper(values, result.observed)
     out: dict[str, Any] = {}
-    if "K" in values and "r" in values and values["K"] > 0 and form.id.startswith("logistic") and form.kind == "difference":
+    logistic_map = form.id.startswith("logistic") and form.kind == "difference"
+    if "K" in values and "r" in values and values["K"] > 0 and logistic_map:
         out["k"] = values["r"] / values["K"]
     out["equilibria"] = equilibria(form, values, hi)
     if isinstance(form, DifferenceForm):
@@ -113,7 +115,8 @@ def _finite(x: float) -> float | None:
     return float(x) if x is not None and math.isfinite(x) else None
 
 
-def _difference_summary(result: FitResult, form: DifferenceForm, values: Mapping[str, float], hi: float) -> dict[str, Any]:
+def _difference_summary(result: FitResult, form: DifferenceForm, values: Mapping[str, float],
+                        hi: float) -> dict[str, Any]:
     assert result.grid is not None
     h = result.grid.h
     p_s = result.start_level

@@ -13,8 +13,8 @@ the engine's increments fit at the given K.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, field, replace
-from typing import Sequence
 
 import numpy as np
 

@@ -20,8 +20,8 @@ every recursive walk over the tree far from Python's stack limit.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
-from typing import Callable, Iterator, Union
 
 import numpy as np
 from numpy.typing import ArrayLike
@@ -106,7 +106,7 @@ class Call:
     args: tuple[Node, ...]
 
 
-Node = Union[Num, Var, Neg, BinOp, Call]
+Node = Num | Var | Neg | BinOp | Call
 
 
 # --------------------------------------------------------------------------------------------

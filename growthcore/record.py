@@ -20,9 +20,10 @@ import hashlib
 import json
 import math
 import platform
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from importlib import metadata
-from typing import Any, Mapping, Sequence
+from typing import Any
 
 from growthcore import __version__
 from growthcore.data import Series
@@ -51,7 +52,7 @@ def sha256_of(data: bytes) -> str:
 
 
 def software_versions() -> dict[str, Any]:
-    deps = {}
+    deps: dict[str, str | None] = {}
     for name in _DEPENDENCIES:
         try:
             deps[name] = metadata.version(name)
@@ -63,7 +64,7 @@ def software_versions() -> dict[str, Any]:
 def data_section(series: Series, source: DataSource) -> dict[str, Any]:
     points = series.to_points()
     if series.rows is not None:
-        for point, row in zip(points, series.rows):
+        for point, row in zip(points, series.rows, strict=True):
             point["row"] = int(row)
     out: dict[str, Any] = {
         "source": source.source,

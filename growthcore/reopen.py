@@ -10,8 +10,9 @@ from __future__ import annotations
 import json
 import math
 import os
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
-from typing import Any, Callable, Mapping, Sequence
+from typing import Any
 
 import numpy as np
 
@@ -112,7 +113,8 @@ def check_record(record: Any, *, name: str = "record") -> None:
     if not isinstance(record, dict):
         raise RecordError(name, [f"holds a JSON {type(record).__name__}, not an object: not a growthcore fit record"])
     if record.get("format") != FORMAT:
-        raise RecordError(name, [f"is not a growthcore fit record (format is {record.get('format')!r}, expected {FORMAT!r})"])
+        raise RecordError(
+            name, [f"is not a growthcore fit record (format is {record.get('format')!r}, expected {FORMAT!r})"])
     version = record.get("format_version")
     known = available_versions()
     if isinstance(version, bool) or not isinstance(version, int) or version not in known:
@@ -276,7 +278,7 @@ def differences(stored: Any, new: Any, where: str = "", *, atol: float = 0.0, rt
             if len(a) != len(b):
                 out.append(Difference(f"{at} (length)", len(a), len(b)))
                 return
-            for i, (x, y) in enumerate(zip(a, b)):
+            for i, (x, y) in enumerate(zip(a, b, strict=True)):
                 walk(x, y, f"{at}[{i}]")
         elif isinstance(a, bool) or isinstance(b, bool) or isinstance(a, str) or isinstance(b, str):
             if a != b:
@@ -311,14 +313,15 @@ def recompute(record: Mapping[str, Any], *, name: str = "record", rtol: float = 
     atol = 1e-9 * (float(np.max(np.abs(finite))) if finite.size else 1.0)
     found: list[Difference] = []
     later: list[str] = []
-    for i, (old_fit, new_fit) in enumerate(zip(record["fits"], new["fits"])):
+    for i, (old_fit, new_fit) in enumerate(zip(record["fits"], new["fits"], strict=True)):
         label = f"fits[{i}] {old_fit['model']} ({old_fit['method']}, {old_fit['error']})"
         old_core = {k: v for k, v in old_fit.items() if k != "request"}
         new_core = {k: v for k, v in new_fit.items() if k != "request"}
         found.extend(differences(old_core, new_core, label, atol=atol, rtol=rtol, skip=skip))
         later.extend(f"{label}.{k}" for k in sorted(skip & set(old_fit)))
     if "comparison" in record:
-        found.extend(differences(record["comparison"], new["comparison"], "comparison", atol=atol, rtol=rtol, skip=skip))
+        found.extend(differences(record["comparison"], new["comparison"], "comparison",
+                                 atol=atol, rtol=rtol, skip=skip))
     return Recomputation(fits, new, tuple(found), tuple(later))
 
 def _nan(x: Any) -> float:
@@ -349,14 +352,17 @@ def fit_from_dict(d: Mapping[str, Any]) -> FitResult:
     m = d.get("metrics")
     metrics = None
     if m is not None:
-        metrics = Metrics(int(m["n"]), int(m["n_params"]), *(_nan(m.get(k)) for k in (
-            "sse", "rmse", "residual_sd", "r2", "r2_adjusted", "log_likelihood", "aic", "aicc", "bic")),
-            r2_uncentered=None if m.get("r2_uncentered") is None else float(m["r2_uncentered"]))
+        metrics = Metrics(
+            n=int(m["n"]), n_params=int(m["n_params"]), sse=_nan(m.get("sse")), rmse=_nan(m.get("rmse")),
+            residual_sd=_nan(m.get("residual_sd")), r2=_nan(m.get("r2")), r2_adjusted=_nan(m.get("r2_adjusted")),
+            log_likelihood=_nan(m.get("log_likelihood")), aic=_nan(m.get("aic")), aicc=_nan(m.get("aicc")),
+            bic=_nan(m.get("bic")), r2_uncentered=None if m.get("r2_uncentered") is None else float(m["r2_uncentered"]))
     g = d.get("diagnostics")
     diagnostics = None
     if g is not None:
         diagnostics = Diagnostics(_nan(g["durbin_watson"]), int(g["runs"]), _nan(g.get("runs_expected")),
-                                  _nan(g.get("runs_z")), _nan(g.get("runs_p")), bool(g["systematic"]), str(g["message"]))
+                                  _nan(g.get("runs_z")), _nan(g.get("runs_p")), bool(g["systematic"]),
+                                  str(g["message"]))
     res = d.get("residuals") or []
     corr = d.get("correlation")
     prof = d.get("capacity_profile")
@@ -371,7 +377,7 @@ def fit_from_dict(d: Mapping[str, Any]) -> FitResult:
             np.array([float(v) for v in prof["K"]]), np.array([_nan(v) for v in prof["sse"]]),
             _nan(prof["threshold"]), (prof["interval"][0], prof["interval"][1]) if prof["interval"] else (None, None),
             str(prof.get("message", "")), _nan(prof.get("threshold_lr")),
-            tuple(prof.get("interval_lr") or (None, None))),  # type: ignore[arg-type]
+            tuple(prof.get("interval_lr") or (None, None))),
         notes=tuple(str(n) for n in d.get("notes", ())),
         grid=None if grid is None else Grid(float(grid["t0"]), float(grid["h"])),
         terms=terms if d["model"] == "custom" else (),

@@ -65,7 +65,8 @@ def regression_through_origin(x: Array, y: Array) -> OriginRegression:
     se = np.sqrt(np.clip(np.diag(cov), 0.0, None)) if dof > 0 else np.full(k, math.nan)
     yy = float(y @ y)
     r2u = 1.0 - sse / yy if yy > 0 else math.nan
-    return OriginRegression(coef, se, cov, residuals, sse, dof, math.sqrt(sigma2) if dof > 0 else math.nan, r2u, int(rank))
+    sigma = math.sqrt(sigma2) if dof > 0 else math.nan
+    return OriginRegression(coef, se, cov, residuals, sse, dof, sigma, r2u, int(rank))
 
 
 @dataclass(frozen=True)
@@ -287,4 +288,4 @@ def akaike_weights(aicc: list[float]) -> list[float]:
     w = np.exp(-0.5 * delta)
     w = np.where(np.isfinite(w), w, 0.0)
     total = float(np.sum(w))
-    return [float(x / total) if math.isfinite(v) else math.nan for x, v in zip(w, vals)]
+    return [float(x / total) if math.isfinite(v) else math.nan for x, v in zip(w, vals, strict=True)]

@@ -32,8 +32,8 @@ class Table:
     rows: tuple[tuple[str, ...], ...]
 
     def to_text(self) -> str:
-        widths = [max(len(c) for c in col) for col in zip(self.header, *self.rows)]
-        line = lambda cells: "  ".join(c.ljust(w) for c, w in zip(cells, widths)).rstrip()  # noqa: E731
+        widths = [max(len(c) for c in col) for col in zip(self.header, *self.rows, strict=True)]
+        line = lambda cells: "  ".join(c.ljust(w) for c, w in zip(cells, widths, strict=True)).rstrip()  # noqa: E731
         return "\n".join([self.title, line(self.header), line(tuple("-" * w for w in widths)),
                           *(line(r) for r in self.rows)])
 

@@ -10,7 +10,7 @@ from __future__ import annotations
 import datetime as dt
 import math
 import re
-from typing import Sequence
+from collections.abc import Sequence
 
 #: Seconds in each time unit the importer converts dates and clock times to.
 UNIT_SECONDS = {"s": 1.0, "min": 60.0, "h": 3600.0, "d": 86400.0, "yr": 365.25 * 86400.0}

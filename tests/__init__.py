@@ -1,1 +1,2 @@
-"""growthcore tests (a package, so that `tests.…` imports resolve here and not to another distribution's top-level tests)."""
+"""growthcore tests (a package, so that `tests.…` imports resolve here and not to another distribution's
+top-level tests)."""

@@ -15,8 +15,8 @@ import json
 import os
 import sys
 import zipfile
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Callable
 
 #: Peak memory of a growthcore command that reads a small file (Python, numpy, scipy imported),
 #: measured here at about 110 MB; the ceilings below leave room above it.
@@ -72,8 +72,10 @@ def xlsx_bytes(cells: dict[tuple[int, int], object], dimension: str = "A1",
         "[Content_Types].xml": f'<?xml version="1.0"?><Types xmlns="{pkg}/content-types">'
         '<Default Extension="rels" ContentType="application/vnd.openxmlformats-package.relationships+xml"/>'
         '<Default Extension="xml" ContentType="application/xml"/>'
-        '<Override PartName="/xl/workbook.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet.main+xml"/>'
-        '<Override PartName="/xl/worksheets/sheet1.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"/>'
+        '<Override PartName="/xl/workbook.xml" '
+        'ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet.main+xml"/>'
+        '<Override PartName="/xl/worksheets/sheet1.xml" '
+        'ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"/>'
         "</Types>",
         "_rels/.rels": f'<?xml version="1.0"?><Relationships xmlns="{pkg}/relationships">'
         f'<Relationship Id="rId1" Type="{office}/officeDocument" Target="xl/workbook.xml"/></Relationships>',
@@ -167,8 +169,8 @@ def _nested_pattern(folder: str) -> list[str]:
     ids = ["a" * 28 + "!", "aaa", "aab"]
     text = "series,Time (h),OD\n" + "".join(f"{s},{i},{80 / (1 + 39 * 2.718281828 ** (-0.45 * i)):.6g}\n"
                                             for s in ids for i in range(12))
-    return ["batch", _write(folder, "ids.csv", text), "--model", "logistic", "--series", "series", "--pattern", "^(a+)+$",
-            "--out", os.path.join(folder, "ids_out.csv")]
+    return ["batch", _write(folder, "ids.csv", text), "--model", "logistic", "--series", "series",
+            "--pattern", "^(a+)+$", "--out", os.path.join(folder, "ids_out.csv")]
 
 
 def _capacity(value: str) -> Callable[[str], list[str]]:

@@ -45,6 +45,6 @@ def as_csv(series: Series, path) -> str:
     """The series as a two-column CSV (header from its columns and units) for CLI tests."""
     unit = f" ({series.value_unit})" if series.value_unit else ""
     lines = [f"{series.time_column},{series.value_column}{unit}"]
-    lines += [f"{t:g},{p:.10g}" for t, p in zip(series.t, np.asarray(series.p))]
+    lines += [f"{t:g},{p:.10g}" for t, p in zip(series.t, np.asarray(series.p), strict=True)]
     path.write_text("\n".join(lines) + "\n", encoding="utf-8")
     return str(path)

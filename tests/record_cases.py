@@ -7,7 +7,7 @@ invented tables written here.
 from __future__ import annotations
 
 import json
-from functools import lru_cache
+from functools import cache
 from pathlib import Path
 from typing import Any
 
@@ -41,7 +41,7 @@ def _census() -> tuple[Series, DataSource]:
     return imported.series[0], DataSource(report["source"], report["sha256"], report)
 
 
-@lru_cache(maxsize=None)
+@cache
 def _cases() -> dict[str, str]:
     series, source = _census()
     with_exclusion = series.exclude(4, "count disturbed by a storm (field note)")

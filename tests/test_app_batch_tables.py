@@ -20,8 +20,8 @@ from scipy import stats
 
 from app.callbacks import batch_tables as B
 from app.callbacks import series as S
-from app.state import fit_label, fit_label_parts
 from app.callbacks.data import import_source
+from app.state import fit_label, fit_label_parts
 from growthcore.batch import group_difference_test
 
 SETTINGS = {"models": ["logistic"], "terms": [], "method": "trajectory", "error": "additive", "k_mode": "held"}
@@ -44,9 +44,9 @@ def _tanks(tmp_path: Any) -> tuple[dict[str, Any], dict[str, Any]]:
     rng = np.random.default_rng(11)
     t = np.arange(25)
     lines = ["Day,Tank,Count"]
-    for i, (tank, r) in enumerate([("F1", 0.9), ("F2", 0.85), ("F3", 0.95), ("L1", 0.5), ("L2", 0.55), ("L3", 0.45)]):
+    for tank, r in [("F1", 0.9), ("F2", 0.85), ("F3", 0.95), ("L1", 0.5), ("L2", 0.55), ("L3", 0.45)]:
         p = 200 / (1 + (200 / 4 - 1) * np.exp(-r * t)) * np.exp(rng.normal(0, 0.02, t.size))
-        lines += [f"{d},{tank},{v:.3f}" for d, v in zip(t, p)]
+        lines += [f"{d},{tank},{v:.3f}" for d, v in zip(t, p, strict=True)]
     path = tmp_path / "invented_tanks.csv"
     path.write_text("\n".join(lines) + "\n", encoding="utf-8")
     source = _source(str(path))

@@ -26,7 +26,7 @@ from growthcore.explore import Candidate, candidate_fit
 from growthcore.fit.forms import fit_forms
 
 CSV = "Day,Cover (%)\n" + "\n".join(f"{d},{v:.3f}" for d, v in zip(range(12), [2, 3.1, 4.7, 7, 10.2, 14, 18.5,
-                                                                              22, 24.9, 26.6, 27.5, 28.1]))
+                                                                              22, 24.9, 26.6, 27.5, 28.1], strict=True))
 
 
 def upload(text: str, name: str = "invented_cover.csv") -> str:

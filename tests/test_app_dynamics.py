@@ -158,7 +158,8 @@ def test_doubling_time_matches_its_closed_form(demo: dict, k_demo: float, fits: 
     p_s, h = demo["p"][0], demo["t"][1] - demo["t"][0]
     expected = h * math.log(2) / math.log(1 + r * (1 - p_s / k_demo))
     text = _text(out[4])
-    assert f"{expected:.4g}" in text and "Time to reach 2" in text and "(delta method)" in text  # no bootstrap yet: delta-method intervals
+    # no bootstrap yet: delta-method intervals
+    assert f"{expected:.4g}" in text and "Time to reach 2" in text and "(delta method)" in text
 
 
 # ----------------------------------------------------------------------------- bootstrap in chunks
@@ -227,7 +228,8 @@ def test_bootstrap_changes_sentences_and_comparison(demo: dict, k_demo: float, f
     table, _ = draw_comparison(fits, None, dy.summaries(done))
     assert "r bootstrap [" in _text(table)
     moved = compute_fits(demo, None, _settings(), rounded(0.9 * k_demo))
-    assert "bootstrap [" not in _text(draw_comparison(moved, None, dy.summaries(done))[0])  # stale intervals are not shown
+    # stale intervals are not shown
+    assert "bootstrap [" not in _text(draw_comparison(moved, None, dy.summaries(done))[0])
 
 
 # ----------------------------------------------------------------------------- forecast

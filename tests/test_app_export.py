@@ -143,7 +143,7 @@ def test_round_trip_record_app_state_record(case: dict[str, Any]) -> None:
     shown = compute_fits(*again)
     assert [(f["model"], f["method"], f["error"]) for f in shown["fits"]] == \
         [(f["model"], f["method"], f["error"]) for f in first["fits"]]
-    converged = [(p, s) for p, s in zip(shown["fits"], first["fits"]) if s["status"] == "converged"]
+    converged = [(p, s) for p, s in zip(shown["fits"], first["fits"], strict=True) if s["status"] == "converged"]
     assert len(converged) >= 3
     for plain, stored in converged:
         assert plain["parameters"] == stored["parameters"]

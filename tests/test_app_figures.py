@@ -56,7 +56,8 @@ def test_change_figure_labels_quantity_and_units(series: Series, data: dict) -> 
     points = fig["data"][0]
     assert points["meta"] == "points"
     # the excluded point 4 ends two pairs, drawn open and grey
-    open_pairs = [cd[0] for cd, sym in zip(points["customdata"], points["marker"]["symbol"]) if sym == "circle-open"]
+    open_pairs = [cd[0] for cd, sym in zip(points["customdata"], points["marker"]["symbol"], strict=True)
+                  if sym == "circle-open"]
     assert open_pairs == [3, 4]
     by_time = change_figure(change_to_store(change_table(series)), labels_of(data), against="time")
     assert by_time["layout"]["xaxis"]["title"]["text"].startswith("Time at the start of the step [h]")
@@ -154,9 +155,9 @@ def test_one_colour_per_form_and_a_dash_per_method(fits: list[dict]) -> None:
 
     styles = fit_styles(fits)
     by_model: dict[str, set[str]] = {}
-    for f, st in zip(fits, styles):
+    for f, st in zip(fits, styles, strict=True):
         by_model.setdefault(f["model"], set()).add(st["colour"])
     assert all(len(c) == 1 for c in by_model.values())
     assert len({next(iter(c)) for c in by_model.values()}) == len(by_model)
-    dashes = {(f["method"], st["dash"]) for f, st in zip(fits, styles)}
+    dashes = {(f["method"], st["dash"]) for f, st in zip(fits, styles, strict=True)}
     assert dashes == {("increments", "dot"), ("trajectory", "solid")}

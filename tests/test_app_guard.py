@@ -14,6 +14,7 @@ import threading
 import time
 
 import pytest
+
 from app import ids
 from app.callbacks.data import import_source, on_import
 from app.callbacks.dynamics import bootstrap_step, compute_forecast
@@ -96,7 +97,7 @@ def _fit_store() -> tuple[dict, dict]:
 def test_forged_bootstrap_run_is_refused() -> None:
     data, fits = _fit_store()
     label = fits["fits"][0]["label"]
-    from app.callbacks.dynamics import fit_signature, find_fit
+    from app.callbacks.dynamics import find_fit, fit_signature
 
     sig = fit_signature(fits, find_fit(fits, label))
     for forged in ({"requested": 1_000_000, "chunk": 50}, {"requested": 100, "chunk": 10**7}):

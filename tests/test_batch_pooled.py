@@ -46,7 +46,8 @@ def hand_joint(series: list[Series], labels: list[str], shared_k: bool) -> least
     def res(x: np.ndarray) -> np.ndarray:
         ks, rs, p0s = x[:nk], x[nk:nk + len(groups)], x[nk + len(groups):]
         return np.concatenate([
-            s.p - logistic(s.t, ks[0 if shared_k else g], rs[g], p0s[j]) for j, (s, g) in enumerate(zip(series, g_of))
+            s.p - logistic(s.t, ks[0 if shared_k else g], rs[g], p0s[j])
+            for j, (s, g) in enumerate(zip(series, g_of, strict=True))
         ])
 
     x0 = np.concatenate([np.full(nk, 1.0), np.full(len(groups), 0.5), np.full(len(series), 0.02)])
@@ -61,7 +62,8 @@ def test_pooled_fit_against_hand_built_joint_least_squares() -> None:
     def res(x: np.ndarray) -> np.ndarray:
         return np.concatenate([s.p - logistic(s.t, x[0], x[1], x[2 + j]) for j, s in enumerate(series[:3])])
 
-    ref = least_squares(res, np.array([1.0, 0.5, 0.02, 0.02, 0.02]), bounds=(0, np.inf), ftol=1e-14, xtol=1e-14, gtol=1e-14)
+    ref = least_squares(res, np.array([1.0, 0.5, 0.02, 0.02, 0.02]), bounds=(0, np.inf),
+                        ftol=1e-14, xtol=1e-14, gtol=1e-14)
     sse = float(ref.fun @ ref.fun)
     assert pooled.sse == pytest.approx(sse, rel=1e-7)
     assert pooled.value("K") == pytest.approx(ref.x[0], rel=1e-5)
@@ -93,7 +95,7 @@ def test_f_test_against_scipy_f_from_two_sses() -> None:
 
 def test_f_test_no_difference_gives_a_large_p() -> None:
     series, labels = invented_groups()
-    same = [s for s, g in zip(series, labels) if g == "ctrl"]
+    same = [s for s, g in zip(series, labels, strict=True) if g == "ctrl"]
     test = group_difference_test(same, ["a", "a", "b"][: len(same)], "logistic-curve", "r")
     assert test.status == "done" and test.p_value > 0.01
 

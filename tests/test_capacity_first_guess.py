@@ -9,13 +9,13 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from tests.open_data import loblolly, lynx, soybean, uspop
 from scipy.optimize import curve_fit
 
 from app import ids
 from app.callbacks.capacity import update_capacity
 from app.components.model_panel import model_section
 from growthcore.explore import capacity_range
+from tests.open_data import loblolly, lynx, soybean, uspop
 
 
 def _logistic_curve_k(t: np.ndarray, p: np.ndarray) -> float:

@@ -64,17 +64,18 @@ def test_sweep_marks_the_fitted_rate_and_interval() -> None:
     sw = sweep(res, points=200)
     assert sw is not None and sw.parameter == "r"
     # regimes along r match the logistic map's thresholds (May 1976): fixed point below 2, 2-cycle above
-    kinds = dict(zip(np.round(sw.grid, 3), sw.kinds))
+    kinds = dict(zip(np.round(sw.grid, 3), sw.kinds, strict=True))
     below = [k for r, k in kinds.items() if 0.1 < r < 1.9]
     assert set(below) <= {"monotone", "damped-oscillation"}
-    assert all(p == 2 for r, p in zip(sw.grid, sw.periods) if 2.05 < r < 2.4)
+    assert all(p == 2 for r, p in zip(sw.grid, sw.periods, strict=True) if 2.05 < r < 2.4)
     fig = sweep_figure(sw.to_dict(), {**LABELS, "rate_unit": "per yr"})
     go.Figure(fig)
     shapes = fig["layout"]["shapes"]
     assert shapes[0]["type"] == "rect" and shapes[0]["x0"] == pytest.approx(sw.interval[0])
     assert shapes[1]["x0"] == pytest.approx(res.values["r"])
     assert "per yr" in fig["layout"]["xaxis"]["title"]["text"]
-    assert sweep(fit(Series(np.arange(40.0), iterate(LOGISTIC, 5.0, {"r": 0.5, "K": 100.0}, 39)), "logistic-curve")) is None
+    curve_fit = fit(Series(np.arange(40.0), iterate(LOGISTIC, 5.0, {"r": 0.5, "K": 100.0}, 39)), "logistic-curve")
+    assert sweep(curve_fit) is None
 
 
 def test_forecast_band_on_a_trajectory_figure() -> None:

@@ -21,7 +21,7 @@ METRIC_KEYS = {"n", "n_params", "sse", "rmse", "r2", "r2_adjusted", "aic", "aicc
 
 def _write_csv(path: Path, t, p, header=("hours", "density")) -> Path:
     """Invented culture-density data (for tests only), written as a plain CSV."""
-    lines = [",".join(header)] + [f"{a:g},{b:.6g}" for a, b in zip(t, p)]
+    lines = [",".join(header)] + [f"{a:g},{b:.6g}" for a, b in zip(t, p, strict=True)]
     path.write_text("\n".join(lines) + "\n", encoding="utf-8")
     return path
 
@@ -69,7 +69,8 @@ def test_fit_writes_a_record_with_the_named_keys(logistic_csv: Path, tmp_path: P
     assert len(data["sha256"]) == 64
     expected = {"increments": [("logistic", "increments"), ("logistic-curve", "increments")],
                 "trajectory": [("logistic", "trajectory"), ("logistic-curve", "trajectory")],
-                "both": [("logistic", "increments"), ("logistic", "trajectory"), ("logistic-curve", "trajectory")]}[method]
+                "both": [("logistic", "increments"), ("logistic", "trajectory"),
+                         ("logistic-curve", "trajectory")]}[method]
     assert [(f["model"], f["method"]) for f in record["fits"]] == expected
     for f in record["fits"]:
         assert RECORD_FIT_KEYS <= set(f)

@@ -75,8 +75,10 @@ def test_path_jacobian_matches_finite_differences_of_the_path(form):
     for j, name in enumerate(free):
         h = 1e-6 * abs(values[name])
         up = iterate(form, values["p0"] if name != "p0" else values["p0"] + h, {**values, name: values[name] + h}, 30)
-        down = iterate(form, values["p0"] if name != "p0" else values["p0"] - h, {**values, name: values[name] - h}, 30)
-        np.testing.assert_allclose(exact[:, j], (up - down) / (2 * h), rtol=1e-5, atol=1e-7, err_msg=f"{form.id}: {name}")
+        down = iterate(form, values["p0"] if name != "p0" else values["p0"] - h,
+                       {**values, name: values[name] - h}, 30)
+        np.testing.assert_allclose(exact[:, j], (up - down) / (2 * h), rtol=1e-5, atol=1e-7,
+                                   err_msg=f"{form.id}: {name}")
 
 
 @pytest.mark.parametrize("form", CURVE_FORMS, ids=lambda f: f.id)
@@ -87,7 +89,8 @@ def test_curve_partials_match_central_differences(form):
     assert set(partials) == set(form.param_names)
     for name, analytic in partials.items():
         h = 1e-6 * abs(values[name])
-        numeric = (form.value(t, {**values, name: values[name] + h}) - form.value(t, {**values, name: values[name] - h})) / (2 * h)
+        numeric = (form.value(t, {**values, name: values[name] + h})
+                   - form.value(t, {**values, name: values[name] - h})) / (2 * h)
         assert np.max(np.abs(analytic - numeric)) <= 1e-8 * np.max(np.abs(numeric)), f"{form.id}: d/d{name}"
 
 
@@ -113,9 +116,10 @@ def test_linear_recursion_agrees_with_the_plain_loop(multipliers):
     forcing = rng.normal(size=(multipliers.size, 2))
     start = np.array([1.0, 0.0])
     expected = [start]
-    for a, b in zip(multipliers, forcing):
+    for a, b in zip(multipliers, forcing, strict=True):
         expected.append(a * expected[-1] + b)
-    np.testing.assert_allclose(_linear_recursion(multipliers, forcing, start), np.array(expected), rtol=1e-12, atol=1e-12)
+    np.testing.assert_allclose(_linear_recursion(multipliers, forcing, start), np.array(expected),
+                               rtol=1e-12, atol=1e-12)
 
 
 def _curve_evaluation(x_data, y_data, model, gradient):
@@ -162,7 +166,7 @@ def test_solver_reaches_nist_certified_values(name, model, gradient, start):
     outcome = solve_exact(_curve_evaluation(x, y, model, gradient), np.array(ds[start], float),
                           np.full(k, -np.inf), np.full(k, np.inf), max_nfev=1000)
     assert outcome.success, outcome.message
-    for value, key in zip(outcome.x, names):
+    for value, key in zip(outcome.x, names, strict=True):
         assert value == pytest.approx(ds["certified"][key], rel=1e-7), key
     assert outcome.sse == pytest.approx(ds["residual_sum_of_squares"], rel=1e-8)
     # the returned Jacobian gives NIST's certified standard errors
@@ -216,7 +220,7 @@ def test_trajectory_fit_matches_scipy_least_squares(form_id, values, error):
     names = (*form.param_names, "p0")
 
     def residuals(theta):
-        v = dict(zip(names, theta))
+        v = dict(zip(names, theta, strict=True))
         path = iterate(form, v["p0"], v, 39)
         return np.log(series.p) - np.log(path) if error == "log" else series.p - path
 
@@ -225,7 +229,7 @@ def test_trajectory_fit_matches_scipy_least_squares(form_id, values, error):
     reference = least_squares(residuals, [values[n] * 1.1 for n in names], bounds=(lower, upper),
                               x_scale="jac", xtol=1e-14, ftol=1e-14, gtol=1e-14)
     assert result.metrics.sse == pytest.approx(2 * reference.cost, rel=1e-8)
-    for name, ref in zip(names, reference.x):
+    for name, ref in zip(names, reference.x, strict=True):
         assert result.values[name] == pytest.approx(ref, rel=1e-5), name
     # standard errors from the exact Jacobian agree with those from scipy's finite-difference Jacobian
     jac = reference.jac
@@ -250,9 +254,9 @@ def test_curve_fit_matches_scipy_curve_fit_on_irregular_times(form_id, values):
     result = fit(Series(t, y), form_id, profile=False, time_origin=0.0)
     assert result.success, result.message
     names = form.param_names
-    model = lambda tt, *theta: form.value(tt, dict(zip(names, theta)))  # noqa: E731
+    model = lambda tt, *theta: form.value(tt, dict(zip(names, theta, strict=True)))  # noqa: E731
     ref, cov = curve_fit(model, t, y, p0=[values[n] * 1.2 for n in names], maxfev=20000, xtol=1e-14, ftol=1e-14)
-    for name, value, var in zip(names, ref, np.diag(cov)):
+    for name, value, var in zip(names, ref, np.diag(cov), strict=True):
         assert result.values[name] == pytest.approx(value, rel=1e-5), name
         assert result.parameter(name).se == pytest.approx(math.sqrt(var), rel=1e-4), name
 

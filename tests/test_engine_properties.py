@@ -5,7 +5,8 @@ multiplicative noise of NOISE (0.2 %). A constant counts as recovered when it is
 (5 % relative, an engineering tolerance for that noise level, not a published figure) or, where
 the data determine it less well than that (a constant term c, the shapes nu and theta, a small p0,
 all of which trade off against r on a single path), within 4 of the fit's own standard errors,
-provided that error is itself under 25 % of the value. Standard errors themselves are checked against NIST and statsmodels elsewhere.
+provided that error is itself under 25 % of the value. Standard errors themselves are checked
+against NIST and statsmodels elsewhere.
 """
 
 from __future__ import annotations
@@ -132,7 +133,8 @@ def test_curves_recover_their_constants(model: str) -> None:
     strategies = CURVE_CASES[model]
 
     @SETTINGS
-    @given(raw=st.fixed_dictionaries(strategies), seed=st.integers(0, 2**31 - 1), error=st.sampled_from(["additive", "log"]))
+    @given(raw=st.fixed_dictionaries(strategies), seed=st.integers(0, 2**31 - 1),
+           error=st.sampled_from(["additive", "log"]))
     def check(raw: dict[str, float], seed: int, error: str) -> None:
         truth = _resolve(raw)
         # Long enough to pass the inflection and approach K: ν·ln(K/p0) + 8 rate-times (ν = 1 but for Richards).

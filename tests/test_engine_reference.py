@@ -33,7 +33,8 @@ def lre(got: float, certified: float) -> float:
 
 def assert_digits(got: float | None, certified: float, digits: float, what: str) -> None:
     assert got is not None, f"{what}: no value"
-    assert lre(got, certified) >= digits, f"{what}: got {got!r}, certified {certified!r} (LRE {lre(got, certified):.2f} < {digits})"
+    assert lre(got, certified) >= digits, (
+        f"{what}: got {got!r}, certified {certified!r} (LRE {lre(got, certified):.2f} < {digits})")
 
 
 # --------------------------------------------------------------------------------------------
@@ -60,7 +61,7 @@ def _pairs_series(x: list[float], y: list[float]) -> Series:
     point between pairs) keeps the pairs independent: (x_i + y_i, x_{i+1}) are two steps apart.
     """
     t, p = [], []
-    for i, (xi, yi) in enumerate(zip(x, y)):
+    for i, (xi, yi) in enumerate(zip(x, y, strict=True)):
         t += [3.0 * i, 3.0 * i + 1.0]
         p += [xi, xi + yi]
     return Series(np.array(t), np.array(p))

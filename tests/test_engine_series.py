@@ -9,7 +9,6 @@ from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import fit
 
-
 # --------------------------------------------------------------------------------------------
 # Step detection
 

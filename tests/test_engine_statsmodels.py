@@ -15,7 +15,6 @@ import math
 
 import numpy as np
 import pytest
-
 import statsmodels.api as sm  # a test dependency: a missing reference library fails, it does not skip
 from statsmodels.sandbox.stats.runs import Runs
 from statsmodels.stats.stattools import durbin_watson

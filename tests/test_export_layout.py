@@ -93,8 +93,8 @@ def test_long_tables_continue_on_further_images_with_their_header() -> None:
 
 
 def test_two_error_scales_get_an_axis_each() -> None:
-    from app.callbacks.fits import compute_fits
     from app.callbacks.explore import labels_of
+    from app.callbacks.fits import compute_fits
     from app.figures.residuals import residual_time_figure
 
     data, exclusions, settings, k = _stores(["logistic"], "both", "log")

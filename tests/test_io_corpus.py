@@ -7,9 +7,11 @@ arithmetic is in the comments); messages are checked for the file name, row and 
 from __future__ import annotations
 
 import codecs
+import hashlib
+from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any
 
 import numpy as np
 import pytest
@@ -238,7 +240,8 @@ CASES = [
     Case("latin1", "latin1.csv", "Day,Protein (\u00b5g/mL)\n0,1.5\n1,3.0\n2,6.0\n".encode("latin-1"), _check_latin1),
     Case("semicolon-decimal-comma", "de.csv", "Zeit (h);Wert\n0;1,25\n0,5;2,5\n1,5;1.234,5\n", _check_semicolon_comma),
     Case("thousands", "counts.csv", 'Year,Count\n1,"1,250"\n2,"2,500"\n3,"1,234,567.5"\n', _check_thousands),
-    Case("title-lines", "titled.csv", "Pilot reactor B, run 3\nOperator: A. N. Other\n\nt,N\n0,5\n1,6\n2,7\n", _check_title_lines),
+    Case("title-lines", "titled.csv", "Pilot reactor B, run 3\nOperator: A. N. Other\n\nt,N\n0,5\n1,6\n2,7\n",
+         _check_title_lines),
     Case("blank-rows", "blanks.csv", "t,N\n0,1\n\n1,2\n,\n\n2,3\n", _check_blank_rows),
     Case("non-numeric", "text.csv", "t,Count\n0,1\n1,lost\n2,3\n3,4\n", _check_non_numeric),
     Case("missing-marks", "na.csv", "t,N\n0,1\n1,NA\n2,\n3,4\n4,5\n", _check_missing_marks),
@@ -250,25 +253,38 @@ CASES = [
     Case("unsorted", "unsorted.csv", "t,N\n0,1\n2,3\n1,2\n3,4\n", _check_unsorted),
     Case("negative", "neg.csv", "t,OD\n0,0.5\n1,0\n2,-0.2\n3,0.9\n", _check_negative),
     Case("header-units", "units.csv", "Time (h),Dry weight (g/L),OD600 [-]\n0,1,0.1\n1,2,0.2\n2,3,0.3\n", _check_units),
-    Case("clock-past-24", "clock.csv", "Time,OD\n0:00:00,0.1\n0:15:00,0.1\n23:45:00,0.2\n24:00:00,0.3\n1:02:30:00,0.35\n36:00:00,0.4\n", _check_clock_past_24),
-    Case("clock-minutes", "clock.csv", "Time,OD\n0:00:00,1\n0:15:00,2\n1:30:00,3\n", _check_clock_minutes, kwargs={"time_unit": "min"}),
-    Case("dst-offsets", "dst.csv", "Sampled,N\n2024-03-31T00:00+01:00,1\n2024-03-31T01:30+01:00,2\n2024-03-31T03:30+02:00,3\n2024-03-31T05:00+02:00,4\n", _check_dst_offsets),
-    Case("dst-naive", "dst.csv", "Sampled,N\n2024-03-31 00:00,1\n2024-03-31 01:30,2\n2024-03-31 03:30,3\n2024-03-31 05:00,4\n", _check_dst_naive),
+    Case("clock-past-24", "clock.csv",
+         "Time,OD\n0:00:00,0.1\n0:15:00,0.1\n23:45:00,0.2\n24:00:00,0.3\n1:02:30:00,0.35\n36:00:00,0.4\n",
+         _check_clock_past_24),
+    Case("clock-minutes", "clock.csv", "Time,OD\n0:00:00,1\n0:15:00,2\n1:30:00,3\n", _check_clock_minutes,
+         kwargs={"time_unit": "min"}),
+    Case("dst-offsets", "dst.csv",
+         "Sampled,N\n2024-03-31T00:00+01:00,1\n2024-03-31T01:30+01:00,2\n2024-03-31T03:30+02:00,3\n"
+         "2024-03-31T05:00+02:00,4\n", _check_dst_offsets),
+    Case("dst-naive", "dst.csv",
+         "Sampled,N\n2024-03-31 00:00,1\n2024-03-31 01:30,2\n2024-03-31 03:30,3\n2024-03-31 05:00,4\n",
+         _check_dst_naive),
     Case("dates-day-first", "dates.csv", "Date;N\n28.02.2024;1\n01.03.2024;2\n05.03.2024;3\n", _check_dates_days),
-    Case("dates-years", "dates.csv", "Date,N\n2020-01-01,1\n2021-01-01,2\n2022-01-01,3\n", _check_dates_years, kwargs={"time_unit": "yr"}),
+    Case("dates-years", "dates.csv", "Date,N\n2020-01-01,1\n2021-01-01,2\n2022-01-01,3\n", _check_dates_years,
+         kwargs={"time_unit": "yr"}),
     Case("wide", "plate.csv", "Time,A1,A2,A3\n0,0.1,0.1,0.1\n1,0.2,0.2,0.3\n2,0.4,0.3,0.5\n", _check_wide),
-    Case("long-series", "long.csv", "Flask,t,N\nflask 1,0,1\nflask 2,0,2\nflask 1,1,2\nflask 2,1,4\nflask 1,2,4\nflask 2,2,8\n", _check_long),
+    Case("long-series", "long.csv",
+         "Flask,t,N\nflask 1,0,1\nflask 2,0,2\nflask 1,1,2\nflask 2,1,4\nflask 1,2,4\nflask 2,2,8\n", _check_long),
     Case("tab", "tab.tsv", SIMPLE.replace(",", "\t"), _check_tab),
     Case("no-header", "bare.csv", "1,10\n2,20\n3,40\n", _check_no_header),
-    Case("time-unit-convert", "minutes.csv", "Time (min),N\n0,1\n30,2\n90,3\n", _check_numeric_time_unit_override, kwargs={"time_unit": "h"}),
+    Case("time-unit-convert", "minutes.csv", "Time (min),N\n0,1\n30,2\n90,3\n", _check_numeric_time_unit_override,
+         kwargs={"time_unit": "h"}),
     Case("units-row", "unitsrow.csv", "Day,Density\n[d],(cells/mL)\n0,1\n1,2\n2,4\n", _check_units_row),
     Case("footer", "footer.csv", "t,N\n0,1\n1,2\n2,4\n\nMean,2.3\n", _check_footer),
     Case("crlf-quoted", "crlf.csv", SIMPLE.replace("\n", "\r\n").replace("Time (h)", '"Time (h)"'), _check_crlf_quoted),
     Case("too-few-one-series", "few.csv", "g,t,N\na,0,1\na,1,2\na,2,3\nb,0,1\nb,1,2\n", _check_too_few_one_series),
-    Case("title-with-commas-semicolon", "titled-de.csv", "Pilotreaktor B, Lauf 3\nZeit (h);Wert\n0;1,25\n0,5;2,5\n1,5;1,5\n",
-         lambda r: (r.report.delimiter == ";" and values(r) == ([0.0, 0.5, 1.5], [1.25, 2.5, 1.5])) or pytest.fail(str(values(r)))),
+    Case("title-with-commas-semicolon", "titled-de.csv",
+         "Pilotreaktor B, Lauf 3\nZeit (h);Wert\n0;1,25\n0,5;2,5\n1,5;1,5\n",
+         lambda r: (r.report.delimiter == ";" and values(r) == ([0.0, 0.5, 1.5], [1.25, 2.5, 1.5]))
+         or pytest.fail(str(values(r)))),
     Case("space-thousands-decimal-comma", "fr.csv", "Temps (j);Cellules\n0;1 250,5\n1;2 500,25\n2;10 000\n",
-         lambda r: (values(r)[1] == [1250.5, 2500.25, 10000.0] and r.report.thousands == " ") or pytest.fail(str(values(r)))),
+         lambda r: (values(r)[1] == [1250.5, 2500.25, 10000.0] and r.report.thousands == " ")
+         or pytest.fail(str(values(r)))),
     Case("quoted-newline-header", "quoted.csv", '"Time\n(h)",N\n0,1\n1,2\n2,3\n',
          lambda r: (r.series[0].time_unit == "h" and r.series[0].rows == (2, 3, 4)) or pytest.fail(str(r.series[0]))),
     # Refusals: (fragment, ...) must all appear in the one-line message.
@@ -276,14 +292,18 @@ CASES = [
     Case("whitespace-only", "blank.csv", "  \n\n \n", refuse=("blank.csv", "no text")),
     Case("binary-junk", "junk.csv", bytes(range(256)) * 8, refuse=("junk.csv", "not a spreadsheet")),
     Case("one-column", "one.csv", "N\n1\n2\n3\n", refuse=("one.csv", "no numeric time and value columns")),
-    Case("no-numeric-values", "words.csv", "t,name\n0,a\n1,b\n2,c\n", refuse=("words.csv", "no numeric time and value columns")),
+    Case("no-numeric-values", "words.csv", "t,name\n0,a\n1,b\n2,c\n",
+         refuse=("words.csv", "no numeric time and value columns")),
     Case("too-few", "few.csv", "t,N\n0,1\n1,2\n", refuse=("few.csv", "too few usable points", "at least 3")),
-    Case("too-few-after-bad", "few.csv", "t,N\n0,1\n1,x\n2,y\n3,2\n", refuse=("few.csv", "row 3", "column 'N'", "not a number")),
+    Case("too-few-after-bad", "few.csv", "t,N\n0,1\n1,x\n2,y\n3,2\n",
+         refuse=("few.csv", "row 3", "column 'N'", "not a number")),
     Case("xls-named", "old.xls", b"abc,def\n", refuse=("old.xls", ".xls files are not read")),
     Case("text-named-xlsx", "fake.xlsx", SIMPLE, refuse=("fake.xlsx", "not an .xlsx workbook")),
     Case("bad-time-unit", "plain.csv", SIMPLE, refuse=("time unit must be one of",), kwargs={"time_unit": "fortnight"}),
-    Case("unknown-column", "plain.csv", SIMPLE, refuse=("no column 'Biomass'", "'Time (h)'"), kwargs={"value": "Biomass"}),
-    Case("oversize", "big.csv", SIMPLE * 20, refuse=("big.csv", "over the limit of 100 bytes"), kwargs={"max_bytes": 100}),
+    Case("unknown-column", "plain.csv", SIMPLE, refuse=("no column 'Biomass'", "'Time (h)'"),
+         kwargs={"value": "Biomass"}),
+    Case("oversize", "big.csv", SIMPLE * 20, refuse=("big.csv", "over the limit of 100 bytes"),
+         kwargs={"max_bytes": 100}),
     Case("utf8-bom-damaged", "bad16.csv", codecs.BOM_UTF16_LE + b"\x00\xd8a\x00", refuse=("bad16.csv", "utf-16")),
 ]
 
@@ -325,7 +345,7 @@ def test_load_bytes_matches_load_file(tmp_path: Path) -> None:
     a = load_file(path).report.to_dict()
     b = load_bytes(SIMPLE.encode(), "same.csv").report.to_dict()
     assert a == b
-    assert a["sha256"] == "%s" % __import__("hashlib").sha256(SIMPLE.encode()).hexdigest()
+    assert a["sha256"] == hashlib.sha256(SIMPLE.encode()).hexdigest()
 
 
 def test_missing_file_is_an_import_failure(tmp_path: Path) -> None:
@@ -342,7 +362,7 @@ def test_overrides_pick_columns() -> None:
 
 
 def test_report_json_shape() -> None:
-    r = load_bytes("t,N\n0,1\n1,x\n2,3\n3,4\n".encode(), "shape.csv")
+    r = load_bytes(b"t,N\n0,1\n1,x\n2,3\n3,4\n", "shape.csv")
     d = r.report.to_dict()
     for key in ("source", "sha256", "encoding", "delimiter", "decimal", "header_row", "layout",
                 "rows_read", "series", "left_out", "notes"):
@@ -361,6 +381,6 @@ def test_report_json_shape() -> None:
 
 
 def test_series_are_usable_numbers() -> None:
-    r = load_bytes("t,N\n0,1\n1,2\n2,4\n".encode(), "ok.csv")
+    r = load_bytes(b"t,N\n0,1\n1,2\n2,4\n", "ok.csv")
     s = r.series[0]
     assert np.all(np.diff(s.t) > 0) and s.step().regular and s.step().h == 1.0

@@ -171,8 +171,8 @@ def test_lack_of_fit_matches_the_cell_means_f_test_of_statsmodels() -> None:
     """The lack-of-fit F test equals the F test of a straight line against one mean per time
     (statsmodels anova_lm of the nested OLS fits; Draper & Smith, Applied Regression Analysis, 2.1)."""
     sm = pytest.importorskip("statsmodels.formula.api")
-    from statsmodels.stats.anova import anova_lm
     import pandas as pd
+    from statsmodels.stats.anova import anova_lm
 
     from growthcore.stats import lack_of_fit
 
@@ -245,7 +245,8 @@ def test_text_ids_with_gaps_shuffled_rows_and_conditions_as_text_and_numbers() -
     order = np.random.default_rng(5).permutation(len(rows))
     shuffled = [rows[i] for i in order]
     result = load_bytes(long_text(shuffled, "Vessel,Diet,Temp (C),Day,Biomass (g)"), "invented_flasks.csv")
-    assert [s.name for s in result.series] == sorted({s.name for s in result.series}, key=[r[0] for r in shuffled].index)
+    first_seen = [r[0] for r in shuffled].index
+    assert [s.name for s in result.series] == sorted({s.name for s in result.series}, key=first_seen)
     assert sorted(s.name for s in result.series) == ["flask-1", "flask-2", "flask-4", "flask-7"]
     assert all(len(s) == 8 and list(s.t) == list(range(8)) for s in result.series)
     assert roles(result.report) == {"Vessel": "id", "Diet": "condition", "Temp (C)": "condition", "Day": "time",

@@ -73,7 +73,8 @@ def test_parse_calendar() -> None:
     "header, name, unit",
     [
         ("Dry weight (g/L)", "Dry weight", "g/L"), ("OD600 [-]", "OD600", "-"), ("t / h", "t", "h"),
-        ("Time in min", "Time", "min"), ("Counts", "Counts", ""), ("  Cell  density (cells/mL) ", "Cell density", "cells/mL"),
+        ("Time in min", "Time", "min"), ("Counts", "Counts", ""),
+        ("  Cell  density (cells/mL) ", "Cell density", "cells/mL"),
         ("Biomass in reactor", "Biomass in reactor", ""),
     ],
 )

@@ -53,7 +53,7 @@ def test_plate_csv_and_xlsx_agree() -> None:
     a = load_file(SAMPLES / "plate_reader_wide.csv")
     b = load_file(SAMPLES / "plate_reader_wide.xlsx")
     assert [s.name for s in a.series] == [f"A{i}" for i in range(1, 13)] == [s.name for s in b.series]
-    for sa, sb in zip(a.series, b.series):
+    for sa, sb in zip(a.series, b.series, strict=True):
         # the workbook stores durations as fractions of a day: equal to within float rounding
         np.testing.assert_allclose(sa.t, sb.t, rtol=0, atol=1e-9)
         np.testing.assert_array_equal(sa.p, sb.p)

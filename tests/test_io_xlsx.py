@@ -119,7 +119,8 @@ def test_sheet_choice(tmp_path: Path) -> None:
     assert r.report.sheet == "counts" and list(r.series[0].p) == [5, 9, 14]
     assert "first with data" in "\n".join(r.report.notes)
     assert list(load_file(path, sheet="OTHER").series[0].p) == [50, 90, 140]
-    with pytest.raises(ImportFailure, match="sheets.xlsx: no sheet named 'missing'; the sheets are 'notes', 'counts', 'other'"):
+    with pytest.raises(ImportFailure,
+                       match="sheets.xlsx: no sheet named 'missing'; the sheets are 'notes', 'counts', 'other'"):
         load_file(path, sheet="missing")
 
 

@@ -14,7 +14,6 @@ from dataclasses import replace
 
 import numpy as np
 import pytest
-from tests.open_data import as_csv, loblolly, lynx, uspop
 
 from app.components.comparison import COLUMNS, comparison_table
 from app.components.dynamics import equilibria_table
@@ -23,6 +22,7 @@ from growthcore.compare import compare
 from growthcore.dynamics import analyse
 from growthcore.fit import fit
 from growthcore.report.panels import comparison_columns
+from tests.open_data import as_csv, loblolly, lynx, uspop
 
 sm = pytest.importorskip("statsmodels.api")
 

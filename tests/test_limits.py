@@ -41,7 +41,7 @@ def _culture(n: int = 24) -> str:
     """Invented culture densities (tests only)."""
     t = np.arange(n, dtype=float)
     p = 80.0 / (1.0 + 39.0 * np.exp(-0.45 * t))
-    return "Time (h),OD\n" + "".join(f"{a:g},{b:.6g}\n" for a, b in zip(t, p))
+    return "Time (h),OD\n" + "".join(f"{a:g},{b:.6g}\n" for a, b in zip(t, p, strict=True))
 
 
 # ----------------------------------------------------------------------------- limits on import
@@ -83,21 +83,27 @@ def _xlsx(cells: dict[str, object], dimension: str = "A1") -> bytes:
     body = "".join(f'<row r="{r}">{"".join(c)}</row>' for r, c in sorted(rows.items()))
     ns = 'xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"'
     rel = 'xmlns:r="http://schemas.openxmlformats.org/officeDocument/2006/relationships"'
+    pkg = "http://schemas.openxmlformats.org/package/2006"
+    office = "http://schemas.openxmlformats.org/officeDocument/2006/relationships"
     files = {
-        "[Content_Types].xml": '<?xml version="1.0"?><Types xmlns="http://schemas.openxmlformats.org/package/2006/content-types">'
+        "[Content_Types].xml": f'<?xml version="1.0"?><Types xmlns="{pkg}/content-types">'
         '<Default Extension="rels" ContentType="application/vnd.openxmlformats-package.relationships+xml"/>'
         '<Default Extension="xml" ContentType="application/xml"/>'
-        '<Override PartName="/xl/workbook.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet.main+xml"/>'
-        '<Override PartName="/xl/worksheets/sheet1.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"/>'
+        '<Override PartName="/xl/workbook.xml" '
+        'ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet.main+xml"/>'
+        '<Override PartName="/xl/worksheets/sheet1.xml" '
+        'ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"/>'
         '</Types>',
-        "_rels/.rels": '<?xml version="1.0"?><Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships">'
-        '<Relationship Id="rId1" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/officeDocument" Target="xl/workbook.xml"/>'
+        "_rels/.rels": f'<?xml version="1.0"?><Relationships xmlns="{pkg}/relationships">'
+        f'<Relationship Id="rId1" Type="{office}/officeDocument" Target="xl/workbook.xml"/>'
         '</Relationships>',
-        "xl/workbook.xml": f'<?xml version="1.0"?><workbook {ns} {rel}><sheets><sheet name="Data" sheetId="1" r:id="rId1"/></sheets></workbook>',
-        "xl/_rels/workbook.xml.rels": '<?xml version="1.0"?><Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships">'
-        '<Relationship Id="rId1" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/worksheet" Target="worksheets/sheet1.xml"/>'
+        "xl/workbook.xml": f'<?xml version="1.0"?><workbook {ns} {rel}>'
+        '<sheets><sheet name="Data" sheetId="1" r:id="rId1"/></sheets></workbook>',
+        "xl/_rels/workbook.xml.rels": f'<?xml version="1.0"?><Relationships xmlns="{pkg}/relationships">'
+        f'<Relationship Id="rId1" Type="{office}/worksheet" Target="worksheets/sheet1.xml"/>'
         '</Relationships>',
-        "xl/worksheets/sheet1.xml": f'<?xml version="1.0"?><worksheet {ns}><dimension ref="{dimension}"/><sheetData>{body}</sheetData></worksheet>',
+        "xl/worksheets/sheet1.xml": f'<?xml version="1.0"?><worksheet {ns}><dimension ref="{dimension}"/>'
+        f'<sheetData>{body}</sheetData></worksheet>',
     }
     buf = io.BytesIO()
     with zipfile.ZipFile(buf, "w", zipfile.ZIP_DEFLATED) as z:

@@ -27,7 +27,7 @@ def test_period_doublings_of_the_logistic_map_within_1e_4(r_c: float, below: int
     r = np.array([r_c - 1e-4, r_c + 1e-4])
     batch = classify(LOGISTIC, {"r": r, "K": 100.0}, 30.0, scale=100.0)
     periods = [int(p) or 1 if KINDS[int(k)] in ("monotone", "damped-oscillation") else int(p)
-               for k, p in zip(batch.kind, batch.period)]
+               for k, p in zip(batch.kind, batch.period, strict=True)]
     assert periods == [below, above]
 
 

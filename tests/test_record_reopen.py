@@ -14,8 +14,7 @@ from hypothesis import strategies as st
 
 import growthcore.cli as cli
 from growthcore.record import FORMAT_VERSION, build_record, seal
-from growthcore.reopen import (RecordError, differences, fits_from_record, load_record, parse_record, recompute,
-                               reopen)
+from growthcore.reopen import RecordError, differences, fits_from_record, load_record, parse_record, recompute, reopen
 from growthcore.schemas import record_errors
 from tests.record_cases import FIXTURES, SAMPLES, census_record, record_cases
 

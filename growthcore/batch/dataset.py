@@ -3,15 +3,14 @@
 from __future__ import annotations
 
 import os
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
-from typing import Mapping, Sequence
 
+from growthcore.batch.groups import condition_columns, groups_from_conditions, groups_from_pattern, members
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.io import ImportReport, load_bytes
 from growthcore.io.loader import read_file
-from growthcore.batch.groups import condition_columns, groups_from_conditions, groups_from_pattern, members
-
 
 
 @dataclass(frozen=True)
@@ -80,7 +79,8 @@ def load_batch(
 ) -> BatchData:
     """Every series of a file, grouped by condition columns (``groups``, one or more) or an id ``pattern``."""
     if groups is not None and pattern is not None:
-        raise GrowthcoreInputError("group the series either by condition columns or by a pattern on their names, not both")
+        raise GrowthcoreInputError(
+            "group the series either by condition columns or by a pattern on their names, not both")
     name, data = read_file(path)
     imported = load_bytes(data, name, sheet=sheet, time=time, value=value, series=series, time_unit=time_unit,
                           replicates=replicates)

@@ -16,15 +16,16 @@ F reference is approximate).
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, replace
-from typing import Any, Sequence
+from typing import Any
 
 from scipy import stats as sps
 
+from growthcore.batch.pooled import JointFit, joint_fit
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.models.catalogue import get_form
-from growthcore.batch.pooled import JointFit, joint_fit
 
 
 @dataclass(frozen=True)
@@ -90,13 +91,15 @@ def group_difference_test(series: Sequence[Series], groups: Sequence[str], model
     df_num = df_red - df_full
     if df_full <= 0 or df_num <= 0:
         return GroupDifferenceTest(form.id, parameter, labels, "failed",
-                                   "too few points for the F test (no residual degrees of freedom)", full=full, reduced=reduced)
+                                   "too few points for the F test (no residual degrees of freedom)",
+                                   full=full, reduced=reduced)
     f = ((reduced.sse - full.sse) / df_num) / (full.sse / df_full)
     f = max(f, 0.0)
-    p = float(sps.f.sf(f, df_num, df_full))
-    message = (f"H0: the {len(labels)} groups share one {parameter}; F({df_num}, {df_full}) = {f:.4g}, p = {p:.3g}")
+    p_value = float(sps.f.sf(f, df_num, df_full))
+    message = (f"H0: the {len(labels)} groups share one {parameter}; F({df_num}, {df_full}) = {f:.4g}, "
+               f"p = {p_value:.3g}")
     return GroupDifferenceTest(form.id, parameter, labels, "done", message, full.sse, df_full, reduced.sse, df_red,
-                               float(f), p, full, reduced)
+                               float(f), p_value, full, reduced)
 
 
 def difference_test_for_batch(batch: Any, model: str, parameter: str) -> GroupDifferenceTest:

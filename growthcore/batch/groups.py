@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Mapping, Sequence
+from collections.abc import Mapping, Sequence
 
 from growthcore.batch.pattern import MAX_PATTERN, compile_pattern
 from growthcore.errors import GrowthcoreInputError
@@ -36,7 +36,7 @@ def groups_from_pattern(names: Sequence[str], pattern: str, *,
             missed.append(name)
         else:
             out[name] = label
-    notes = ()
+    notes: tuple[str, ...] = ()
     if missed:
         shown = ", ".join(missed[:10]) + (" ..." if len(missed) > 10 else "")
         notes = (f"{len(missed)} series do not match the pattern {pattern!r} and are in no group: {shown}",)
@@ -68,7 +68,8 @@ def groups_from_conditions(report: ImportReport, wanted: str | Sequence[str]) ->
                 raise GrowthcoreInputError(
                     f"{report.source}: grouping by a column needs a long file with a series id column; this file "
                     "has one column per series (wide layout): group the series by a pattern on their names instead")
-            where = f"the conditions are {', '.join(repr(c) for c in offered)}" if offered else "the file has no conditions"
+            where = (f"the conditions are {', '.join(repr(c) for c in offered)}" if offered
+                     else "the file has no conditions")
             known = {c.lower() for c in (*report.columns, *(r.column for r in report.roles))}
             what = "is not a condition (a column constant within every series)" if col.lower() in known else \
                 "is not in the file"

@@ -15,8 +15,8 @@ linear time), and so is a repeated part that can match nothing, such as ``(a*)*`
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Callable
 
 from growthcore.errors import GrowthcoreInputError
 from growthcore.limits import DEFAULT as LIMITS

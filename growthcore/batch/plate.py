@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import re
-from typing import Sequence
+from collections.abc import Sequence
 
 _WELL = re.compile(r"^\s*([A-Pa-p])\s*0*([1-9][0-9]?)\s*$")
 #: (rows, columns) of the plate formats recognised.

@@ -13,11 +13,14 @@ and ``p0[A1]`` (series ``A1``).
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
-from typing import Any, Mapping, Sequence
+from typing import Any
 
 import numpy as np
 
+from growthcore.batch.problems import Prepared, prepare
+from growthcore.batch.vectorised import fit_vectorised
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import fit
@@ -25,8 +28,6 @@ from growthcore.fit.nls import solve
 from growthcore.fit.problem import Problem, build_result
 from growthcore.fit.result import FitResult, failed
 from growthcore.models.catalogue import get_form
-from growthcore.batch.problems import Prepared, prepare
-from growthcore.batch.vectorised import fit_vectorised
 
 SCOPES: tuple[str, ...] = ("all", "group", "series")
 Array = np.ndarray
@@ -80,12 +81,13 @@ class JointFit:
         }
 
 
-def _singles(preps: Sequence[Prepared], series: Sequence[Series], model: str, error: str) -> list[dict[str, float] | None]:
+def _singles(preps: Sequence[Prepared], series: Sequence[Series], model: str,
+             error: str) -> list[dict[str, float] | None]:
     """Each series' own fit, as starting values for the joint fit."""
     form = preps[0].problem.form
     solved = fit_vectorised(form, preps, error=error)
     out: list[dict[str, float] | None] = []
-    for s, r in zip(series, solved):
+    for s, r in zip(series, solved, strict=True):
         if r is None:
             r = fit(s, model, error=error, profile=False)
         out.append(r.values if r.success else None)
@@ -131,7 +133,7 @@ def joint_fit(
     joint_names: list[str] = []
     index = np.zeros((len(series), len(base)), dtype=int)
     where: dict[str, int] = {}
-    for j, (s, g) in enumerate(zip(series, labels)):
+    for j, (s, g) in enumerate(zip(series, labels, strict=True)):
         for i, n in enumerate(base):
             key = n if scoped[n] == "all" else f"{n}[{g}]" if scoped[n] == "group" else f"{n}[{s.name}]"
             if key not in where:
@@ -149,14 +151,16 @@ def joint_fit(
                       settings={"fixed": {}, "joint": {"series": list(names), "points": sizes, "scopes": dict(scoped)}})
     x0 = _joint_start(preps, series, form.id, error, base, index, len(joint_names), start, joint_names)
     lower, upper = problem.lower, problem.upper
-    x0 = np.array([problem.spec(n).clip(v) for n, v in zip(joint_names, x0)])
+    x0 = np.array([problem.spec(n).clip(v) for n, v in zip(joint_names, x0, strict=True)])
     with np.errstate(all="ignore"):
         outcome = solve(problem.residuals, x0, lower, upper, scale=problem.scale)
     if not outcome.finite:
         return JointFit(form.id, error, names, labels, scoped, failed(
-            form.id, "trajectory", error, f"the joint fit did not reach a finite optimum ({outcome.message})", form=form))
+            form.id, "trajectory", error, f"the joint fit did not reach a finite optimum ({outcome.message})",
+            form=form))
     notes = () if outcome.success else (f"optimiser stopped before full convergence: {outcome.message}",)
-    result = build_result(problem, outcome.x, message=f"joint nonlinear least squares on {len(series)} paths ({outcome.message})",
+    result = build_result(problem, outcome.x,
+                          message=f"joint nonlinear least squares on {len(series)} paths ({outcome.message})",
                           notes=notes)
     return JointFit(form.id, error, names, labels, scoped, result)
 

@@ -14,8 +14,8 @@ points, ln of a non-positive state, an irregular grid) are not prepared: the cal
 
 from __future__ import annotations
 
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
-from typing import Callable, Mapping
 
 import numpy as np
 
@@ -23,8 +23,8 @@ from growthcore.data import Series
 from growthcore.fit.problem import P0_DIFFERENCE, Problem
 from growthcore.fit.result import Grid
 from growthcore.fit.simulate import iterate
-from growthcore.fit.trajectory import curve_origin, curve_problem
 from growthcore.fit.starts import _linearised, capacity_start, curve_starts, mid_time
+from growthcore.fit.trajectory import curve_origin, curve_problem
 from growthcore.models.base import CurveForm, DifferenceForm, ModelForm
 
 Array = np.ndarray
@@ -70,7 +70,7 @@ def _curve(series: Series, t: Array, p: Array, form: CurveForm, *, model: str, e
                             t_first=float(series.t[0]), origin=curve_origin(form, series, None))
     if p.size <= len(problem.free):
         return None
-    elapsed = t - problem.settings["time_origin"]
+    elapsed = t - problem.time_origin
 
     def vector(c: Mapping[str, float]) -> Array:
         return np.array([problem.spec(n).clip(c.get(n, 1.0)) for n in problem.free])

@@ -9,17 +9,18 @@ from __future__ import annotations
 import math
 import multiprocessing
 import os
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, replace
-from typing import Any, Callable, Iterable, Mapping, Sequence
+from typing import Any
 
+from growthcore.batch.dataset import BatchData, from_series
+from growthcore.batch.tasks import Task, TaskOutput, run_task
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit.result import ERROR_MODELS, METHODS, FitResult
 from growthcore.models.base import ModelForm
 from growthcore.models.catalogue import get_form
-from growthcore.batch.dataset import BatchData, from_series
-from growthcore.batch.tasks import Task, TaskOutput, run_task
 
 ENGINES: tuple[str, ...] = ("local", "dask")
 #: Series per task: large enough to vectorise well, small enough to balance two or more workers.
@@ -175,7 +176,7 @@ def fit_batch(
     for task in tasks:
         o = by_key[(task.model, task.first)]
         form = forms[task.model]
-        for s, r, path in zip(task.series, o.results, o.paths):
+        for s, r, path in zip(task.series, o.results, o.paths, strict=True):
             fits.append(SeriesFit(s.name, batch.group_of(s.name), replace(r, form=form), path))
     return BatchResult(batch, tuple(forms), method, error, tuple(fits), engine, n_workers)
 

@@ -10,8 +10,9 @@ independent replicates; it treats each replicate's estimate as one observation).
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Any, Mapping, Sequence
+from typing import Any
 
 import numpy as np
 

@@ -6,16 +6,16 @@ its id and is looked up again where the task runs, because forms hold functions.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
-from typing import Mapping
 
+from growthcore.batch.problems import prepare
+from growthcore.batch.vectorised import fit_vectorised
 from growthcore.budget import BudgetExceeded
 from growthcore.data import Series
 from growthcore.fit import fit
 from growthcore.fit.result import FitResult, failed
 from growthcore.models.catalogue import get_form
-from growthcore.batch.problems import prepare
-from growthcore.batch.vectorised import fit_vectorised
 
 #: Where a result came from: the vectorised solver or the single-series fit.
 VECTORISED = "vectorised"
@@ -67,7 +67,7 @@ def run_task(task: Task) -> TaskOutput:
             preps = [prepare(s, form, model=form.id, error=task.error, fixed=task.fixed) for s in task.series]
             ready = [j for j, p in enumerate(preps) if p is not None]
             solved = fit_vectorised(form, [preps[j] for j in ready], error=task.error, fixed=task.fixed)  # type: ignore[misc]
-            for j, r in zip(ready, solved):
+            for j, r in zip(ready, solved, strict=True):
                 if r is not None:
                     results[j], paths[j] = r, VECTORISED
         except BudgetExceeded:

@@ -12,16 +12,16 @@ Standard errors, metrics and diagnostics come from :func:`growthcore.fit.problem
 
 from __future__ import annotations
 
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import replace
-from typing import Callable, Mapping, Sequence
 
 import numpy as np
 
+from growthcore.batch.problems import Prepared, good_enough
 from growthcore.fit.batched import solve_batched
 from growthcore.fit.problem import build_result
 from growthcore.fit.result import FitResult
 from growthcore.fit.simulate import iterate
-from growthcore.batch.problems import Prepared, good_enough
 from growthcore.models.base import ModelForm
 
 Array = np.ndarray
@@ -50,7 +50,7 @@ class _Stack:
             size = prep.problem.observed.size
             self.mask[:size, j] = True
             self.obs[:size, j] = prep.problem.scaled(prep.problem.observed)
-            self.t[:size, j] = prep.problem.t - float((prep.problem.settings or {}).get("time_origin", 0.0))
+            self.t[:size, j] = prep.problem.t - prep.problem.time_origin
             if prep.offset is not None:
                 self.offset[:size, j] = prep.offset
 
@@ -130,7 +130,7 @@ def fit_vectorised(form: ModelForm, preps: Sequence[Prepared], *, error: str,
     if m == 0:
         return []
     stack = _Stack(form, preps, error, fixed or {})
-    best_x: list[Array | None] = [None] * m
+    best_x: dict[int, Array] = {}
     best_sse = np.full(m, np.inf)
     iterations_note = "vectorised Levenberg–Marquardt"
 
@@ -146,7 +146,8 @@ def fit_vectorised(form: ModelForm, preps: Sequence[Prepared], *, error: str,
         cols2 = np.array([j for j, _ in pairs])
         x2, sse2, ok2 = _run(stack, preps, cols2, np.stack([s for _, s in pairs], axis=1))
         for c, j in enumerate(cols2):
-            if ok2[c] and np.isfinite(sse2[c]) and sse2[c] < best_sse[j] and good_enough(preps[j].problem, float(sse2[c])):
+            better = ok2[c] and np.isfinite(sse2[c]) and sse2[c] < best_sse[j]
+            if better and good_enough(preps[j].problem, float(sse2[c])):
                 best_x[j], best_sse[j], accepted[j] = x2[:, c], sse2[c], True
     out: list[FitResult | None] = [None] * m
     done = [j for j in range(m) if accepted[j]]

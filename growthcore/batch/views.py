@@ -58,7 +58,8 @@ def plate_values(batch: BatchResult, model: str, quantity: str) -> dict[str, dic
                 value = getattr(r.metrics, quantity)
             else:
                 names = [*r.values, "sse", "rmse", "r2", "r2_adjusted", "aic", "aicc", "bic"]
-                raise GrowthcoreInputError(f"{model} has no constant or metric {quantity!r}; choose one of {', '.join(names)}")
+                raise GrowthcoreInputError(
+                    f"{model} has no constant or metric {quantity!r}; choose one of {', '.join(names)}")
         out[f.series] = {"value": float(value) if value is not None and np.isfinite(value) else None,
                          "status": r.status, "message": r.message}
     return out

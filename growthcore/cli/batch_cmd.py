@@ -10,10 +10,10 @@ from typing import IO, Any
 
 from growthcore.batch import fit_batch, group_summary, load_batch, rows
 from growthcore.batch.ftest import difference_test_for_batch
+from growthcore.cli.batch_population import population_options, population_section
 from growthcore.cli.import_options import add_replicates_option
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit.result import ERROR_MODELS, METHODS
-from growthcore.cli.batch_population import population_options, population_section
 from growthcore.io.writer import atomic_write_text, write_csv
 
 #: Failed rows listed on the terminal; the output file has all of them.

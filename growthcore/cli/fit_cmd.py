@@ -6,7 +6,7 @@ import argparse
 import json
 import math
 import sys
-from typing import Sequence
+from collections.abc import Sequence
 
 from growthcore.cli import fit_export, fit_uncertainty
 from growthcore.cli.import_options import add_replicates_option
@@ -31,7 +31,8 @@ def add_data_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--sheet", help="worksheet name (XLSX; default: the first with data)")
     p.add_argument("--time", help="time column (default: guessed)")
     p.add_argument("--value", help="value column (default: guessed)")
-    p.add_argument("--series", help="the series to use by name, or the id column(s) of a long file (default: the first series)")
+    p.add_argument("--series",
+                   help="the series to use by name, or the id column(s) of a long file (default: the first series)")
     add_replicates_option(p)
     p.add_argument("--time-unit", choices=("min", "h", "d", "yr"), help="unit for clock and calendar times")
 
@@ -40,12 +41,14 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p = subparsers.add_parser("fit", help="fit model forms to a series and write the fit record")
     add_data_options(p)
     p.add_argument("--model", default="logistic", help="form id(s), comma separated (see `growthcore models`)")
-    p.add_argument("--term", action="append", default=[], metavar="EXPR", help="a rate term of the custom form (repeatable)")
+    p.add_argument("--term", action="append", default=[], metavar="EXPR",
+                   help="a rate term of the custom form (repeatable)")
     p.add_argument("--method", choices=METHOD_CHOICES, default="trajectory")
     p.add_argument("--capacity", type=float, metavar="K", help="fix the carrying capacity K at this estimate")
     p.add_argument("--error", choices=ERROR_MODELS, default="additive", help="error model of the trajectory method")
     p.add_argument("--no-profile", action="store_true", help="skip the profile interval for K")
-    p.add_argument("--out", default="-", metavar="PATH", help="where to write the record JSON ('-' for standard output)")
+    p.add_argument("--out", default="-", metavar="PATH",
+                   help="where to write the record JSON ('-' for standard output)")
     for extension in EXTENSIONS:
         extension.add_options(p)
     p.set_defaults(func=run)
@@ -121,7 +124,8 @@ def summary_lines(fits: Sequence[FitResult]) -> list[str]:
             lines.append(f"{head}: {row.message}")
             continue
         params = ", ".join(
-            f"{n} = {d['value']:.6g}" + (f" ± {d['se']:.2g}" if d["se"] is not None else " (fixed)" if d["fixed"] else "")
+            f"{n} = {d['value']:.6g}"
+            + (f" ± {d['se']:.2g}" if d["se"] is not None else " (fixed)" if d["fixed"] else "")
             for n, d in row.parameters.items()
         )
         lines.append(f"{head}{f' [best AICc among {row.group}]' if row.best else ''}\n    {params}\n"

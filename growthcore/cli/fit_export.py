@@ -10,7 +10,8 @@ from __future__ import annotations
 import argparse
 import json
 import sys
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
@@ -24,7 +25,8 @@ def add_artefact_options(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("figures, tables and report")
     g.add_argument("--png", metavar="DIR", help="write a PNG of each panel and a one-page summary sheet into DIR")
     g.add_argument("--csv", metavar="FILE", help="write times, observations, predictions and residuals of each form")
-    g.add_argument("--html", metavar="FILE", help="write a self-contained HTML report (opens with no server or network)")
+    g.add_argument("--html", metavar="FILE",
+                   help="write a self-contained HTML report (opens with no server or network)")
     g.add_argument("--image-size", choices=("screen", "slide", "print"), default="screen",
                    help="PNG size: screen (960×600), slide (1920×1080 px) or print (6.5×4.5 in at 300 dpi; "
                         "the sheet is A4)")

@@ -10,16 +10,24 @@ from __future__ import annotations
 import argparse
 import math
 import sys
-from typing import Any, Sequence
+from collections.abc import Sequence
+from typing import Any
 
 from growthcore.data import Series
 from growthcore.dynamics import analyse
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import FitResult
-from growthcore.timeaxis import is_calendar_years, time_point_text
 from growthcore.limits import DEFAULT as LIMITS
-from growthcore.uncertainty import (DEFAULT_RESAMPLES, DEFAULT_SEED, FORECAST_CAUTION, BootstrapResult, bootstrap,
-                                    derived_intervals, forecast)
+from growthcore.timeaxis import is_calendar_years, time_point_text
+from growthcore.uncertainty import (
+    DEFAULT_RESAMPLES,
+    DEFAULT_SEED,
+    FORECAST_CAUTION,
+    BootstrapResult,
+    bootstrap,
+    derived_intervals,
+    forecast,
+)
 
 
 def add_options(p: argparse.ArgumentParser) -> None:
@@ -27,10 +35,12 @@ def add_options(p: argparse.ArgumentParser) -> None:
     g = p.add_argument_group("uncertainty, dynamics and forecast")
     g.add_argument("--bootstrap", nargs="?", type=int, const=DEFAULT_RESAMPLES, default=None, metavar="N",
                    help=f"bootstrap intervals from N residual resamples (default N: {DEFAULT_RESAMPLES})")
-    g.add_argument("--seed", type=int, default=DEFAULT_SEED, metavar="S", help="seed of the resampling (default %(default)s)")
+    g.add_argument("--seed", type=int, default=DEFAULT_SEED, metavar="S",
+                   help="seed of the resampling (default %(default)s)")
     g.add_argument("--forecast", type=int, metavar="STEPS", help="forecast STEPS steps past the last observation")
     g.add_argument("--forecast-span", type=float, metavar="T", help="forecast a time span T past the last observation")
-    g.add_argument("--bound", type=float, metavar="B", help="plausibility bound on the state: report when the forecast passes it")
+    g.add_argument("--bound", type=float, metavar="B",
+                   help="plausibility bound on the state: report when the forecast passes it")
     g.add_argument("--level", type=float, action="append", default=[], metavar="P",
                    help="report the time to reach state P, with its interval (repeatable)")
 
@@ -115,7 +125,7 @@ def apply(args: argparse.Namespace, series: Series, fits: Sequence[FitResult], r
     """
     check(args)
     lines: list[str] = []
-    for result, out in zip(fits, record["fits"]):
+    for result, out in zip(fits, record["fits"], strict=True):
         lines += _one(args, series, result, out)
     if args.bootstrap:
         _mark_comparison(record)

@@ -11,7 +11,7 @@ from growthcore.io import load_file
 from growthcore.io.loader import TIME_UNITS
 
 
-def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
+def register(subparsers: argparse._SubParsersAction) -> None:
     parser = subparsers.add_parser(
         "inspect",
         help="read a spreadsheet and report what was read, what was left out and why",
@@ -26,7 +26,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
     parser.add_argument("--time", metavar="COL", help="time column: header, name without unit, or 1-based position")
     parser.add_argument("--value", metavar="COL", action="append",
                         help="value column (repeat for several; default: every numeric column)")
-    parser.add_argument("--series", metavar="COL[,COL]", help="id column(s) naming the series of a long file (default: read from the content)")
+    parser.add_argument("--series", metavar="COL[,COL]",
+                        help="id column(s) naming the series of a long file (default: read from the content)")
     parser.add_argument("--time-unit", metavar="U", choices=TIME_UNITS,
                         help=f"unit for elapsed time: {', '.join(TIME_UNITS)}")
     add_replicates_option(parser)

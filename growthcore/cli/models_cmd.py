@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import json
+from typing import Any
 
 from growthcore.models import catalogue
 from growthcore.models.difference import CONSTANT
@@ -16,14 +17,16 @@ def register(subparsers: argparse._SubParsersAction) -> None:
 
 
 def run(args: argparse.Namespace) -> int:
-    rows = [
+    rows: list[dict[str, Any]] = [
         {
             "id": f.id,
             "kind": f.kind,
             "title": f.title,
             "equation": f.equation,
-            "parameters": [{"name": s.name, "lower": s.lower, "upper": s.upper, "meaning": s.description, "unit": s.unit}
-                           for s in f.params],
+            "parameters": [
+                {"name": s.name, "lower": s.lower, "upper": s.upper, "meaning": s.description, "unit": s.unit}
+                for s in f.params
+            ],
         }
         for f in catalogue()
     ]

@@ -10,7 +10,8 @@ from growthcore.errors import GrowthcoreInputError
 
 def register(subparsers: argparse._SubParsersAction) -> None:
     p = subparsers.add_parser("serve", help="open the exploration dashboard in a browser tab")
-    p.add_argument("--data", metavar="FILE", help="CSV, TSV or XLSX file to open first (default: the invented demo data)")
+    p.add_argument("--data", metavar="FILE",
+                   help="CSV, TSV or XLSX file to open first (default: the invented demo data)")
     p.add_argument("--port", type=int, default=8050, help="port to listen on (default 8050)")
     p.add_argument("--host", default="127.0.0.1",
                    help="address to listen on (default 127.0.0.1, this machine only; others warn that the "

@@ -2,8 +2,9 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any, Mapping
+from typing import Any
 
 import numpy as np
 
@@ -42,7 +43,7 @@ def cobweb(form: DifferenceForm, values: Mapping[str, float], start: float, *, u
     orbit = orbit[: int(np.argmax(~np.isfinite(orbit))) or orbit.size] if not np.all(np.isfinite(orbit)) else orbit
     xs = [float(orbit[0])]
     ys = [0.0]
-    for a, b in zip(orbit[:-1], orbit[1:]):
+    for a, b in zip(orbit[:-1], orbit[1:], strict=True):
         xs += [float(a), float(b)]
         ys += [float(b), float(b)]
     return Cobweb(p, f, np.array(xs), np.array(ys), orbit, tuple(equilibria))

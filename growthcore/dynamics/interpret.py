@@ -3,7 +3,8 @@
 from __future__ import annotations
 
 import math
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
 from growthcore.dynamics.longrun import LongRun
 from growthcore.dynamics.regimes import RegimeShares, rate_parameter
@@ -44,7 +45,8 @@ def describe(result: Any, lr: LongRun, equilibria: Sequence[Mapping[str, Any]],
     if lr.kind in ("monotone", "damped-oscillation") and lr.states:
         level = lr.states[0]
         target = _approached(equilibria, level)
-        how = "monotonically" if lr.kind == "monotone" else "through damped oscillations (the deviation changes sign each step)"
+        how = ("monotonically" if lr.kind == "monotone"
+               else "through damped oscillations (the deviation changes sign each step)")
         if target is not None and abs(target["value"] - level) > 1e-3 * max(abs(target["value"]), abs(level), 1e-300):
             # the path is still far from the level it tends to: say both, with the multiplier of the level itself
             mult = target.get("multiplier")

@@ -17,8 +17,9 @@ The map is iterated from a start for ``transient`` steps, then ``keep`` further 
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any, Mapping
+from typing import Any
 
 import numpy as np
 
@@ -130,7 +131,7 @@ def classify(
         for j in np.flatnonzero(ok):
             q = int(refined[j])
             period[j] = q
-            tail[-q:, j] = refined_states[j][:q]  # the exact cycle, so that the states shown are the cycle's
+            tail[-q:, j] = refined_states[int(j)][:q]  # the exact cycle, so that the states shown are the cycle's
             d[-1, j] = 0.0
         if np.any(ok):
             with np.errstate(all="ignore"):
@@ -213,13 +214,14 @@ def _settle_by_multiplier(form: DifferenceForm, values: Mapping[str, Array | flo
             if np.all(np.abs(step) <= 1e-14 * scale):
                 break
         orbit, mu = _orbit(form, vals, x, q)
-        converged = np.isfinite(mu) & (np.abs(orbit[q] - x) <= 1e-10 * scale) & (np.abs(x - tail[-1, cols]) <= 0.1 * scale)
+        converged = (np.isfinite(mu) & (np.abs(orbit[q] - x) <= 1e-10 * scale)
+                     & (np.abs(x - tail[-1, cols]) <= 0.1 * scale))
         for i, j in enumerate(cols):
             if not converged[i]:
                 continue
             cycle = orbit[:q, i]
-            minimal = next(dd for dd in range(1, q + 1) if q % dd == 0 and abs(cycle[dd % q] - cycle[0]) <= 1e-9 * scale) \
-                if q > 1 else 1
+            minimal = next(dd for dd in range(1, q + 1)
+                           if q % dd == 0 and abs(cycle[dd % q] - cycle[0]) <= 1e-9 * scale) if q > 1 else 1
             with np.errstate(all="ignore"):
                 mu_min = float(np.prod(form.next_state_dp(cycle[:minimal], _column(vals, np.array([i])))))
             if math.isfinite(mu_min) and abs(mu_min) < 1.0 and minimal == q and np.all(cycle > 1e-12 * scale):
@@ -240,6 +242,7 @@ def _orbit(form: DifferenceForm, values: Mapping[str, Array | float], x: Array, 
     return out, mu
 
 
-def long_run(form: DifferenceForm, values: Mapping[str, float], start: float, *, scale: float, **options: int) -> LongRun:
+def long_run(form: DifferenceForm, values: Mapping[str, float], start: float, *, scale: float,
+             **options: int) -> LongRun:
     """The long-run behaviour for one parameter set (see :func:`classify`)."""
     return classify(form, values, start, scale=scale, **options).item(0)

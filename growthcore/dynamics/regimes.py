@@ -8,8 +8,9 @@ at their estimates.
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any, Mapping
+from typing import Any
 
 import numpy as np
 
@@ -64,7 +65,7 @@ class RegimeShares:
 
 
 def _shares(kinds: Array, periods: Array) -> dict[str, float]:
-    labels = [regime_label(KINDS[int(k)], int(p) or None) for k, p in zip(kinds, periods)]
+    labels = [regime_label(KINDS[int(k)], int(p) or None) for k, p in zip(kinds, periods, strict=True)]
     counts: dict[str, int] = {}
     for label in labels:
         counts[label] = counts.get(label, 0) + 1

@@ -76,4 +76,4 @@ def sweep(result: FitResult, *, parameter: str | None = None, interval: tuple[fl
     kinds = tuple(KINDS[int(k)] for k in batch.kind)
     periods = tuple(int(p) or None for p in batch.period)
     return Sweep(name, grid, kinds, periods, batch.lyapunov, rate[keep], states[keep],
-                 float(result.values[name]), tuple(interval) if interval else None)
+                 float(result.values[name]), (interval[0], interval[1]) if interval else None)

@@ -3,9 +3,8 @@
 from __future__ import annotations
 
 import math
-
+from collections.abc import Mapping, Sequence
 from dataclasses import replace
-from typing import Mapping, Sequence
 
 import numpy as np
 
@@ -75,7 +74,8 @@ def fit(
     allowed = set(form.param_names) | ({"p0"} if form.kind == "difference" and method == "trajectory" else set())
     unknown = sorted(set(fixed_all) - allowed)
     if unknown:
-        raise GrowthcoreInputError(f"{model_id} ({method}) has no constant {', '.join(unknown)} to fix; it has {', '.join(sorted(allowed))}")
+        raise GrowthcoreInputError(f"{model_id} ({method}) has no constant {', '.join(unknown)} to fix; "
+                                   f"it has {', '.join(sorted(allowed))}")
     start = dict(start or {})
     terms_t = tuple(terms) if model_id == "custom" else ()
     notes: list[str] = []
@@ -94,7 +94,8 @@ def fit(
                               terms=terms_t, time_origin=time_origin)
 
     if np.count_nonzero(series.used) < 3:
-        return failed(model_id, method, error, f"only {int(series.used.sum())} usable points: a fit needs at least 3", form=form)
+        return failed(model_id, method, error, f"only {int(series.used.sum())} usable points: a fit needs at least 3",
+                      form=form)
     try:
         with np.errstate(all="ignore"):  # numerical trouble is reported through the status, not warnings
             result = run(fixed_all, start)

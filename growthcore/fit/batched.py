@@ -13,8 +13,8 @@ when the SSE falls, otherwise λ_j grows fourfold. Steps are projected onto the 
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Callable
 
 import numpy as np
 
@@ -92,11 +92,12 @@ def solve_batched(
         a_mat = np.einsum("ank,anl->akl", j, j)
         g = np.einsum("ank,na->ak", j, ra)
         diag = np.einsum("akk->ak", a_mat)
-        damped = a_mat + (lam[idx][:, None] * np.maximum(diag, 1e-12 * (diag.max(axis=1, keepdims=True) + 1e-300)))[:, :, None] * eye
+        floor = 1e-12 * (diag.max(axis=1, keepdims=True) + 1e-300)
+        damped = a_mat + (lam[idx][:, None] * np.maximum(diag, floor))[:, :, None] * eye
         try:
             step = -np.linalg.solve(damped, g[:, :, None])[:, :, 0]
         except np.linalg.LinAlgError:
-            step = -np.stack([np.linalg.lstsq(d, gg, rcond=None)[0] for d, gg in zip(damped, g)])
+            step = -np.stack([np.linalg.lstsq(d, gg, rcond=None)[0] for d, gg in zip(damped, g, strict=True)])
         x_try = np.clip(x[:, idx] + step.T, lo[:, idx], hi[:, idx])
         r_try, jac_try = _jacobian(fn, x_try, idx, penalty)
         sse_try = np.einsum("na,na->a", r_try, r_try)

@@ -6,8 +6,8 @@ capacity is fitted (with a note saying the fixed K did not apply) wherever the c
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import replace
-from typing import Sequence
 
 from growthcore.data import Series
 from growthcore.fit import FitResult, fit

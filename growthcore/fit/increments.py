@@ -11,8 +11,8 @@ are not linear in any constant (Ricker, Beverton–Holt) fit p_{n+1} on p_n by n
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import replace
-from typing import Mapping
 
 import numpy as np
 
@@ -22,7 +22,7 @@ from growthcore.fit.problem import Problem, build_result
 from growthcore.fit.result import FitResult, Grid, failed
 from growthcore.fit.starts import capacity_start
 from growthcore.models.base import DifferenceForm
-from growthcore.stats import regression_through_origin
+from growthcore.stats import OriginRegression, regression_through_origin
 
 Array = np.ndarray
 
@@ -54,7 +54,8 @@ def fit_increments(
     if form.needs_positive and np.any(x <= 0):
         j = int(i[np.flatnonzero(x <= 0)[0]])
         return failed(model, "increments", "additive",
-                      f"{form.id} takes ln of the state, which needs p > 0; row {series.row_of(j)} has p = {series.p[j]:g}",
+                      f"{form.id} takes ln of the state, which needs p > 0; "
+                      f"row {series.row_of(j)} has p = {series.p[j]:g}",
                       form=form)
     free = tuple(n for n in form.param_names if n not in fixed)
     if x.size <= len(free):
@@ -81,7 +82,9 @@ def fit_increments(
     return _fit_nonlinear(problem, form, x, start)
 
 
-def _linear_solution(form: DifferenceForm, problem: Problem, x: Array, dy: Array, shape: Mapping[str, float]):
+def _linear_solution(
+    form: DifferenceForm, problem: Problem, x: Array, dy: Array, shape: Mapping[str, float]
+) -> tuple[dict[str, float] | None, Array | None, OriginRegression | None]:
     """Free linear coefficients for given shape values, through the origin, with fixed ones subtracted."""
     values = {**problem.fixed, **shape}
     assert form.basis is not None
@@ -90,7 +93,7 @@ def _linear_solution(form: DifferenceForm, problem: Problem, x: Array, dy: Array
     target = dy.copy()
     design = []
     names = []
-    for name, col in zip(form.linear, cols):
+    for name, col in zip(form.linear, cols, strict=True):
         if name in problem.fixed:
             target = target - problem.fixed[name] * col
         else:
@@ -102,7 +105,7 @@ def _linear_solution(form: DifferenceForm, problem: Problem, x: Array, dy: Array
     if not np.all(np.isfinite(xmat)):
         return None, None, None
     reg = regression_through_origin(xmat, target)
-    return dict(zip(names, (float(c) for c in reg.coef))), reg.residuals, reg
+    return dict(zip(names, (float(c) for c in reg.coef), strict=True)), reg.residuals, reg
 
 
 def _fit_linear(problem: Problem, form: DifferenceForm, x: Array, dy: Array, start: Mapping[str, float]) -> FitResult:
@@ -112,12 +115,13 @@ def _fit_linear(problem: Problem, form: DifferenceForm, x: Array, dy: Array, sta
         x0 = np.array([_shape_start(n, start, problem.observed, x) for n in free_shape])
         lower = np.array([problem.spec(n).lower for n in free_shape])
         upper = np.array([problem.spec(n).upper for n in free_shape])
-        x0 = np.array([problem.spec(n).clip(v) for n, v in zip(free_shape, x0)])
+        x0 = np.array([problem.spec(n).clip(v) for n, v in zip(free_shape, x0, strict=True)])
 
         def concentrated(cols: Array) -> Array:
             out = np.empty((dy.size, cols.shape[1]))
             for m in range(cols.shape[1]):
-                coef, res, _ = _linear_solution(form, problem, x, dy, {**shape_fixed, **dict(zip(free_shape, cols[:, m]))})
+                column_shape = {**shape_fixed, **dict(zip(free_shape, cols[:, m], strict=True))}
+                coef, res, _ = _linear_solution(form, problem, x, dy, column_shape)
                 out[:, m] = res if res is not None else np.nan
             return out
 
@@ -125,7 +129,7 @@ def _fit_linear(problem: Problem, form: DifferenceForm, x: Array, dy: Array, sta
         if not outcome.finite:
             return failed(problem.model, "increments", "additive",
                           f"the concentrated regression did not converge ({outcome.message})", form=form)
-        shape = {**shape_fixed, **dict(zip(free_shape, outcome.x))}
+        shape = {**shape_fixed, **dict(zip(free_shape, outcome.x, strict=True))}
         if not outcome.success:
             return failed(problem.model, "increments", "additive",
                           f"the concentrated regression did not converge: {outcome.message}", form=form)
@@ -134,13 +138,16 @@ def _fit_linear(problem: Problem, form: DifferenceForm, x: Array, dy: Array, sta
     coef, res, reg = _linear_solution(form, problem, x, dy, shape)
     if coef is None or (reg is not None and reg.rank < len(coef)):
         return failed(problem.model, "increments", "additive",
-                      "the rate terms are collinear or not finite on these data: their coefficients cannot be separated",
+                      "the rate terms are collinear or not finite on these data: "
+                      "their coefficients cannot be separated",
                       form=form)
+    assert res is not None  # coefficients come with their residuals
     with np.errstate(over="ignore", invalid="ignore"):
         sse, dyy = float(res @ res), float(dy @ dy)
     if not (math.isfinite(sse) and math.isfinite(dyy)):
         return failed(problem.model, "increments", "additive",
-                      "the squared changes overflow: the values are too large to regress (rescale the data, e.g. to other units)",
+                      "the squared changes overflow: the values are too large to regress "
+                      "(rescale the data, e.g. to other units)",
                       form=form)
     all_values = {**shape, **coef}
     xvec = np.array([all_values[n] for n in problem.free])
@@ -177,8 +184,8 @@ def _shape_start(name: str, start: Mapping[str, float], observed: Array, x: Arra
 def _fit_nonlinear(problem: Problem, form: DifferenceForm, x: Array, start: Mapping[str, float]) -> FitResult:
     states = np.concatenate([x, problem.observed[-1:]])
     k0 = capacity_start(states)
-    growth = np.median(problem.observed / np.where(x != 0, x, np.nan))
-    growth = float(growth) if math.isfinite(growth) and growth > 0 else 1.5
+    growth = float(np.median(problem.observed / np.where(x != 0, x, np.nan)))
+    growth = growth if math.isfinite(growth) and growth > 0 else 1.5
     guesses = {"K": k0, "lambda": max(growth, 1.05) ** 2, "r": max(math.log(max(growth, 1.05)) * 2.0, 0.05), "c": 0.0}
     candidates = []
     for factor in (1.0, 1.5, 0.7):

@@ -11,8 +11,9 @@ does not converge.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Sequence
 from operator import mul
-from typing import Any, Callable, Sequence
+from typing import Any
 
 import numpy as np
 
@@ -51,7 +52,7 @@ def solve_exact(
     about the sixth digit.
     """
     lo, hi = lower.tolist(), upper.tolist()
-    x = [min(max(v, a), b) for v, a, b in zip(np.asarray(x0, dtype=float).tolist(), lo, hi)]
+    x = [min(max(v, a), b) for v, a, b in zip(np.asarray(x0, dtype=float).tolist(), lo, hi, strict=True)]
     last = evaluate(x)
     if last is None:
         return _stopped(x, 1, "the starting point gives a non-finite path")
@@ -68,8 +69,8 @@ def solve_exact(
         if step is None:
             damping, growth = damping * growth, growth * 2.0
             continue
-        trial = [min(max(xi + si, l), h) for xi, si, l, h in zip(x, step, lo, hi)]
-        step = [ti - xi for ti, xi in zip(trial, x)]
+        trial = [min(max(xi + si, low), high) for xi, si, low, high in zip(x, step, lo, hi, strict=True)]
+        step = [ti - xi for ti, xi in zip(trial, x, strict=True)]
         # the linear model's fall: ||r||² − ||r − M·s||² = 2·sᵀg − sᵀA·s
         predicted = 2.0 * _dot(step, g) - _quadratic(a, step)
         if predicted <= ftol * sse:
@@ -106,7 +107,7 @@ def _normal_equations(jac: Array, r: Array) -> tuple[list[list[float]], list[flo
 def _last_step(evaluate: Evaluation, x: list[float], last: tuple[Any, ...], jac: Array, newton: list[float],
                lo: list[float], hi: list[float], nfev: int) -> NLSOutcome:
     """Converged at ``x``; take the final Gauss–Newton step if it keeps the sum of squares down."""
-    final = [min(max(xi + si, l), h) for xi, si, l, h in zip(x, newton, lo, hi)]
+    final = [min(max(xi + si, low), high) for xi, si, low, high in zip(x, newton, lo, hi, strict=True)]
     if final != x:
         out = evaluate(final)
         nfev += 1
@@ -152,7 +153,7 @@ def _dot(u: Sequence[float], v: Sequence[float]) -> float:
 
 
 def _quadratic(a: list[list[float]], s: list[float]) -> float:
-    return sum(si * sum(map(mul, row, s)) for si, row in zip(s, a))
+    return sum(si * sum(map(mul, row, s)) for si, row in zip(s, a, strict=True))
 
 
 def _converged(x: list[float], at_x: tuple[Any, ...], jac: Array, reason: int, nfev: int) -> NLSOutcome:

@@ -7,8 +7,8 @@ finite differences for all k parameters cost one model evaluation instead of k.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Callable
 
 import numpy as np
 from scipy.optimize import leastsq
@@ -70,12 +70,12 @@ class Unbounded:
         self.high = hi_f & ~lo_f
         self.trivial = not np.any(lo_f | hi_f)
         self._plan = [(int(b) + 2 * int(lo) + 4 * int(hi), float(a), float(c)) for b, lo, hi, a, c in
-                      zip(self.both, self.low, self.high, self.lower, self.upper)]
+                      zip(self.both, self.low, self.high, self.lower, self.upper, strict=True)]
 
     def _column_to_x(self, u: Array) -> Array:
         """One parameter column in plain floats: the solver's residual calls are single columns."""
         out = []
-        for (kind, lo, hi), ui in zip(self._plan, u[:, 0].tolist()):
+        for (kind, lo, hi), ui in zip(self._plan, u[:, 0].tolist(), strict=True):
             if kind == 1:
                 out.append(lo + (hi - lo) / (1.0 + math.exp(-ui)) if ui > -700 else lo)
             elif kind == 2:

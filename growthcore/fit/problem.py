@@ -3,9 +3,10 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, replace
 from functools import cached_property
-from typing import Callable, Mapping
+from typing import Any
 
 import numpy as np
 
@@ -13,8 +14,14 @@ from growthcore.fit.lm import Evaluation
 from growthcore.fit.nls import jacobian
 from growthcore.fit.result import FitResult, Grid, ParameterEstimate
 from growthcore.models.base import ModelForm, ParamSpec
-from growthcore.stats import (correlation, covariance_and_condition, fit_metrics, lack_of_fit, residual_diagnostics,
-                              t_quantile)
+from growthcore.stats import (
+    correlation,
+    covariance_and_condition,
+    fit_metrics,
+    lack_of_fit,
+    residual_diagnostics,
+    t_quantile,
+)
 
 Array = np.ndarray
 P0_DIFFERENCE = ParamSpec("p0", 0.0, math.inf, "state at the first time of the grid", "state")
@@ -42,8 +49,13 @@ class Problem:
     observed: Array
     grid: Grid | None = None
     terms: tuple[str, ...] = ()
-    settings: Mapping[str, object] | None = None
+    settings: Mapping[str, Any] | None = None
     exact: Evaluation | None = None
+
+    @property
+    def time_origin(self) -> float:
+        """The time from which curve forms measure t (0 for difference forms)."""
+        return float((self.settings or {}).get("time_origin", 0.0))
 
     @cached_property
     def lower(self) -> Array:
@@ -121,7 +133,7 @@ def build_result(
     tq = t_quantile(0.975, dof) if dof > 0 else math.nan
     notes_out = list(notes)
     estimates = []
-    free_values = dict(zip(problem.free, zip(x.tolist(), cov.diagonal().tolist())))
+    free_values = dict(zip(problem.free, zip(x.tolist(), cov.diagonal().tolist(), strict=True), strict=True))
     for spec in problem.specs:
         if spec.name in free_values:
             value, var = free_values[spec.name]

@@ -14,7 +14,7 @@ Two cuts on the profile SSE(K) are given (Bates & Watts, *Nonlinear Regression A
 from __future__ import annotations
 
 import math
-from typing import Callable
+from collections.abc import Callable
 
 import numpy as np
 from scipy import optimize, special
@@ -104,20 +104,20 @@ def _crossing(ks: Array, sse: Array, threshold: float, k_hat: float, side: int,
     ks, sse = ks[order], sse[order]
     mask = (ks >= k_hat) if side > 0 else (ks <= k_hat)
     ks, sse = ks[mask], sse[mask]
+
+    def gap(log_k: float, start: float) -> float:
+        check_budget()
+        value = profile_at(math.exp(log_k), start) - threshold
+        return value if math.isfinite(value) else math.inf
+
     for j in range(1, ks.size):
         if not math.isfinite(sse[j]):
             return None
         if sse[j] >= threshold > sse[j - 1]:
             inner, outer = float(ks[j - 1]), float(ks[j])
-
-            def gap(log_k: float) -> float:
-                check_budget()
-                value = profile_at(math.exp(log_k), inner) - threshold
-                return value if math.isfinite(value) else math.inf
-
             a, b = sorted((math.log(inner), math.log(outer)))
             try:
-                root = optimize.brentq(gap, a, b, xtol=ROOT_RTOL, rtol=ROOT_RTOL, maxiter=100)
+                root = optimize.brentq(gap, a, b, args=(inner,), xtol=ROOT_RTOL, rtol=ROOT_RTOL, maxiter=100)
             except BudgetExceeded:
                 raise
             except (ValueError, RuntimeError):

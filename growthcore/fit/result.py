@@ -3,9 +3,10 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from functools import cached_property
-from typing import TYPE_CHECKING, Any, Literal, Mapping
+from typing import TYPE_CHECKING, Any, Literal
 
 import numpy as np
 
@@ -227,7 +228,7 @@ class FitResult:
             "notes": list(self.notes),
             "residuals": [
                 {"t": float(t), "observed": float(o), "predicted": _num(float(p)), "residual": _num(float(r))}
-                for t, o, p, r in zip(self.t, self.observed, self.predicted, self.residuals)
+                for t, o, p, r in zip(self.t, self.observed, self.predicted, self.residuals, strict=True)
             ],
         }
         if self.correlation is not None:

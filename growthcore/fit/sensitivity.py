@@ -10,7 +10,7 @@ paths per constant for, and without their truncation error.
 
 from __future__ import annotations
 
-from typing import Mapping, Sequence
+from collections.abc import Mapping, Sequence
 
 import numpy as np
 
@@ -60,8 +60,8 @@ def _linear_recursion(a: Array, b: Array, s0: Array) -> Array:
         return out
     s = s0.tolist()
     rows = b.tolist()
-    for n, (an, bn) in enumerate(zip(a.tolist(), rows), start=1):
-        s = [an * si + bi for si, bi in zip(s, bn)]
+    for n, (an, bn) in enumerate(zip(a.tolist(), rows, strict=True), start=1):
+        s = [an * si + bi for si, bi in zip(s, bn, strict=True)]
         out[n] = s
     return out
 

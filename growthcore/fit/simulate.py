@@ -3,7 +3,8 @@
 from __future__ import annotations
 
 import math
-from typing import Mapping
+from collections.abc import Mapping
+from typing import Any
 
 import numpy as np
 
@@ -79,10 +80,12 @@ def _float_path(form: DifferenceForm, p: float, values: Mapping[str, float], ste
             append(p)
     else:
         increment = form.increment
+        state: Any = p  # a numpy scalar after the first step, which gives inf or nan where floats raise
         with np.errstate(all="ignore"):
             for _ in range(steps):
-                p = p + increment(p, values)
-                append(p)
+                state = state + increment(state, values)
+                append(state)
+        p = state
     if isinstance(p, complex):  # a fractional power of a negative state: numpy gives nan instead
         raise TypeError("the path left the real numbers")
     return out

@@ -10,7 +10,8 @@ error) or ln p − ln p̂ (log, i.e. multiplicative error).
 from __future__ import annotations
 
 import math
-from typing import Any, Callable, Iterable, Iterator, Mapping, Sequence
+from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
+from typing import Any
 
 import numpy as np
 
@@ -95,7 +96,7 @@ def _solve_one(problem: Problem, x0: Array, lower: Array, upper: Array) -> NLSOu
     """The exact-Jacobian solver where the problem has one, MINPACK where it stops short or at a bound."""
     if problem.exact is not None:
         outcome = solve_exact(problem.exact, x0, lower, upper, max_nfev=100 * (x0.size + 1))
-        at_bound = any(is_at_bound(v, problem.spec(n)) for v, n in zip(outcome.x.tolist(), problem.free))
+        at_bound = any(is_at_bound(v, problem.spec(n)) for v, n in zip(outcome.x.tolist(), problem.free, strict=True))
         if outcome.success and not at_bound:
             return outcome
     return solve(problem.residuals, x0, lower, upper, scale=problem.scale)
@@ -109,7 +110,8 @@ def _good_enough(problem: Problem, outcome: NLSOutcome) -> bool:
 def _finish(problem: Problem, best: NLSOutcome | None, form: ModelForm) -> FitResult:
     if best is None:
         return failed(problem.model, "trajectory", problem.error,
-                      "no start converged to a finite path: the form cannot follow these data (overflow or non-finite values)",
+                      "no start converged to a finite path: the form cannot follow these data "
+                      "(overflow or non-finite values)",
                       form=form)
     if not best.success:
         return failed(problem.model, "trajectory", problem.error,
@@ -249,7 +251,7 @@ def _evaluation(free: tuple[str, ...], fixed: Mapping[str, float], observed: Arr
 
     def evaluate(x: Sequence[float]) -> tuple[Array, float, Callable[[], Array], Array] | None:
         values = dict(base)
-        values.update(zip(free, x))
+        values.update(zip(free, x, strict=True))
         predicted, states_jacobian = at(values)
         residuals = target - (np.log(predicted) if log else predicted)
         sse = float(residuals @ residuals)
@@ -285,4 +287,4 @@ def quick_seed(series: Series, form: DifferenceForm, guesses: Mapping[str, float
             coef = np.linalg.lstsq(design, change, rcond=None)[0].tolist()
     if not all(math.isfinite(c) for c in coef):
         return None
-    return {**{n: guesses[n] for n in form.shape if n in guesses}, **dict(zip(form.linear, coef))}
+    return {**{n: guesses[n] for n in form.shape if n in guesses}, **dict(zip(form.linear, coef, strict=True))}

@@ -5,8 +5,8 @@ from __future__ import annotations
 import datetime as dt
 import math
 import re
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Sequence
 
 from growthcore.io.numbers import NumberFormat, is_missing, parse_number
 from growthcore.io.timeparse import canonical_unit, parse_calendar, parse_duration
@@ -133,13 +133,15 @@ def find_header(rows: Sequence[Sequence[object]], fmt: NumberFormat) -> HeaderGu
         nxt = following[0]
         if _is_data_row(kinds[nxt], spare[nxt]):
             return HeaderGuess(i, None, nxt)
-        if len(following) > 1 and _is_data_row(kinds[following[1]], spare[following[1]]) and _looks_like_units(rows[nxt], kinds[nxt]):
-            return HeaderGuess(i, nxt, following[1])
+        if len(following) > 1:
+            after = following[1]
+            if _is_data_row(kinds[after], spare[after]) and _looks_like_units(rows[nxt], kinds[nxt]):
+                return HeaderGuess(i, nxt, after)
     return None
 
 
 def _looks_like_units(row: Sequence[object], kinds: Sequence[str]) -> bool:
-    cells = [str(v).strip() for v, k in zip(row, kinds) if k != "blank"]
+    cells = [str(v).strip() for v, k in zip(row, kinds, strict=True) if k != "blank"]
     return bool(cells) and all(k in ("text", "blank") for k in kinds) and all(len(c) <= 16 for c in cells)
 
 

@@ -3,15 +3,24 @@
 from __future__ import annotations
 
 import re
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Sequence
 
 from growthcore.errors import ChoiceNotFound, ImportFailure
 from growthcore.io.headers import Column, cell_kind
 from growthcore.io.numbers import NumberFormat
 from growthcore.io.report import ColumnRole
-from growthcore.io.roles import (Codes, Grouping, best_grouping, constant_within, encode, grouping, is_row_number,
-                                row_number_header, whole_numbers)
+from growthcore.io.roles import (
+    Codes,
+    Grouping,
+    best_grouping,
+    constant_within,
+    encode,
+    grouping,
+    is_row_number,
+    row_number_header,
+    whole_numbers,
+)
 
 _TIME_WORDS = re.compile(
     r"^(t|time|times|elapsed|elapsed time|date|datetime|date time|date/time|timestamp|"

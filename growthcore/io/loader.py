@@ -5,8 +5,9 @@ from __future__ import annotations
 import hashlib
 import math
 import os
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import NamedTuple, Sequence
+from typing import NamedTuple
 
 import numpy as np
 
@@ -14,8 +15,15 @@ from growthcore.data import Series
 from growthcore.errors import ImportFailure
 from growthcore.io.headers import Column, find_header, make_columns
 from growthcore.io.layout import Layout, choose_layout, profile_columns
-from growthcore.io.numbers import (NumberFormat, detect_number_format, is_missing, parse_number, parse_plain_number,
-                                   plain_number_column, thousands_separator)
+from growthcore.io.numbers import (
+    NumberFormat,
+    detect_number_format,
+    is_missing,
+    parse_number,
+    parse_plain_number,
+    plain_number_column,
+    thousands_separator,
+)
 from growthcore.io.report import REPLICATE_RULES, ImportReport, ImportResult, LeftOut, SeriesSummary
 from growthcore.io.roles import cell_key
 from growthcore.io.sniff import decode_text, detect_format
@@ -166,7 +174,8 @@ class _Builder:
         if fmt.decimal == ",":
             self.notes.append("decimal comma: numbers such as 1,25 read as 1.25")
         if fmt.thousands:
-            sep = {" ": "space", "\u00a0": "no-break space", "\u202f": "narrow space"}.get(fmt.thousands, repr(fmt.thousands))
+            sep = {" ": "space", "\u00a0": "no-break space", "\u202f": "narrow space"}.get(
+                fmt.thousands, repr(fmt.thousands))
             self.notes.append(f"thousands separator {sep} in numbers such as 1{fmt.thousands}250")
         guess = find_header(t.rows, fmt)
         if guess is None:
@@ -199,11 +208,11 @@ class _Builder:
         tcol = layout.time
         tcells = _column(rows, tcol.index)
         conv = convert_time_column(
-            tcells, rownums, fmt, column=tcol.label, header_unit=tcol.unit or None, time_unit=time_unit
+            tcells, fmt, column=tcol.label, header_unit=tcol.unit or None, time_unit=time_unit
         )
         self.notes.extend(conv.notes)
         bad_time_rows: set[int] = set()
-        for i, (tv, why) in enumerate(zip(conv.values, conv.reasons)):
+        for i, (tv, why) in enumerate(zip(conv.values, conv.reasons, strict=True)):
             if tv is None:
                 bad_time_rows.add(i)
                 self._leave_out(rownums[i], tcol, tcells[i], why, data_idx[i])
@@ -214,9 +223,9 @@ class _Builder:
             conditions = self._conditions(layout, rows, row_ids)
             for vcol in layout.values:
                 named = self._by_id(layout, vcol, rows, row_ids, rownums, data_idx, conv.values, bad_time_rows, fmt)
-                for key, pts in named.items():
+                for key, points in named.items():
                     sname = key if len(layout.values) == 1 else f"{key} · {vcol.label}"
-                    groups.append((sname, vcol, pts, conditions.get(key, ())))
+                    groups.append((sname, vcol, points, conditions.get(key, ())))
         else:
             shared = self._conditions(layout, rows, [""] * len(rows)).get("", ())
             times = conv.values
@@ -224,7 +233,7 @@ class _Builder:
                 cells = _column(rows, vcol.index)
                 quick = plain_number_column(cells) if fmt.decimal == "." else None
                 if quick is not None and not bad_time_rows:  # the clean case, without per-cell checks
-                    pts = _Columns(rownums, times, quick, cells)  # type: ignore[arg-type]
+                    pts: list[_Point] | _Columns = _Columns(rownums, times, quick, cells)  # type: ignore[arg-type]
                 else:
                     pts = []
                     for i, cell in enumerate(cells):
@@ -253,7 +262,8 @@ class _Builder:
         if not out_series:
             counts = ", ".join(f"{g[0]!r}: {_points(g[2])}" for g in groups[:5])
             first_bad = next((x for x in self.left_out if x.reason), None)
-            why = f"; first left out: row {first_bad.row}, column {first_bad.column!r}: {first_bad.reason}" if first_bad else ""
+            why = (f"; first left out: row {first_bad.row}, column {first_bad.column!r}: {first_bad.reason}"
+                   if first_bad else "")
             raise ImportFailure(
                 f"{self.name}: too few usable points for any fit (at least {MIN_POINTS} needed; "
                 f"usable {counts}){why}"
@@ -337,7 +347,7 @@ class _Builder:
         """Each series' conditions and covariates (constant within it), by the series name of each row."""
         kept = (*layout.conditions, *layout.covariates)
         out: dict[str, dict[str, str]] = {}
-        for r, name in zip(rows, row_ids):
+        for r, name in zip(rows, row_ids, strict=True):
             if name is None:
                 continue
             found = out.setdefault(name, {})
@@ -410,14 +420,17 @@ class _Builder:
         return x
 
     def _series(
-        self, sname: str, vcol: Column, tcol: Column, unit: str, pts: list[_Point] | _Columns, *, clock: bool = False,
-        conditions: tuple[tuple[str, str], ...] = (),
+        self, sname: str, vcol: Column, tcol: Column, unit: str, given: list[_Point] | _Columns, *,
+        clock: bool = False, conditions: tuple[tuple[str, str], ...] = (),
     ) -> tuple[Series, SeriesSummary] | None:
-        if isinstance(pts, _Columns):
-            quick = self._clean_series(sname, vcol, tcol, unit, pts, conditions)
+        if isinstance(given, _Columns):
+            quick = self._clean_series(sname, vcol, tcol, unit, given, conditions)
             if quick is not None:
                 return quick
-            pts = [_Point(n, t, v, c) for n, t, v, c in zip(pts.rows, pts.times, pts.values, pts.cells)]
+            pts = [_Point(n, t, v, c)
+                   for n, t, v, c in zip(given.rows, given.times, given.values, given.cells, strict=True)]
+        else:
+            pts = given
         if clock:
             self._unwrap_midnight(sname, tcol, unit, pts)
         order = sorted(range(len(pts)), key=lambda k: (pts[k].t, k))
@@ -464,7 +477,9 @@ class _Builder:
                               f"repeated time(s): {what}")
         n_times = len({g.t for g in merged})
         if n_times < MIN_POINTS:
-            what = f"{len(merged)} usable point(s)" + (f" at {n_times} distinct time(s)" if n_times < len(merged) else "")
+            what = f"{len(merged)} usable point(s)"
+            if n_times < len(merged):
+                what += f" at {n_times} distinct time(s)"
             for g in merged:
                 self.left_out.append(
                     LeftOut(g.row, vcol.label, g.raw or _num(g.p),
@@ -534,7 +549,7 @@ def _cell(row: Sequence[object], j: int) -> object:
 def _label(value: object) -> str:
     if isinstance(value, float) and value.is_integer():
         return str(int(value))
-    return str(value).strip() if not hasattr(value, "isoformat") else value.isoformat()  # type: ignore[union-attr]
+    return str(value).strip() if not hasattr(value, "isoformat") else str(value.isoformat())
 
 
 def _num(x: float) -> str:

@@ -2,8 +2,9 @@
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Any, Mapping
+from typing import Any
 
 from growthcore.data import Series
 
@@ -71,7 +72,7 @@ class SeriesSummary:
         }
 
     @classmethod
-    def from_dict(cls, d: Mapping[str, Any]) -> "SeriesSummary":
+    def from_dict(cls, d: Mapping[str, Any]) -> SeriesSummary:
         return cls(
             name=str(d["name"]),
             time_column=str(d["time"]["column"]),
@@ -137,12 +138,13 @@ class ImportReport:
             "columns": list(self.columns),
             "not_read": [{"series": name, "reason": why} for name, why in self.not_read],
             "roles": [r.to_dict() for r in self.roles],
-            "taken": {role: list(self.columns_with(role)) for role in ("time", "id", "condition", "covariate", "value")},
+            "taken": {role: list(self.columns_with(role))
+                      for role in ("time", "id", "condition", "covariate", "value")},
             "replicates": self.replicates,
         }
 
     @classmethod
-    def from_dict(cls, d: Mapping[str, Any]) -> "ImportReport":
+    def from_dict(cls, d: Mapping[str, Any]) -> ImportReport:
         """The report back from ``to_dict()`` output (for instance from a fit record)."""
         return cls(
             source=str(d["source"]),
@@ -158,7 +160,8 @@ class ImportReport:
             layout=str(d["layout"]),
             rows_read=int(d["rows_read"]),
             series=tuple(SeriesSummary.from_dict(s) for s in d["series"]),
-            left_out=tuple(LeftOut(x.get("row"), str(x["column"]), str(x["value"]), str(x["reason"])) for x in d["left_out"]),
+            left_out=tuple(LeftOut(x.get("row"), str(x["column"]), str(x["value"]), str(x["reason"]))
+                           for x in d["left_out"]),
             notes=tuple(str(n) for n in d["notes"]),
             columns=tuple(str(c) for c in d.get("columns", [])),
             not_read=tuple((str(x["series"]), str(x["reason"])) for x in d.get("not_read", [])),
@@ -179,7 +182,8 @@ class ImportReport:
             lines.append(f"  delimiter   {delim}")
         thousands = f", thousands separator {self.thousands!r}" if self.thousands else ""
         lines.append(f"  decimal     {self.decimal!r}{thousands}")
-        lines.append(f"  header row  {self.header_row if self.header_row is not None else 'none (columns named by position)'}")
+        header_row = self.header_row if self.header_row is not None else "none (columns named by position)"
+        lines.append(f"  header row  {header_row}")
         lines.append(f"  layout      {self.layout}")
         lines.append(f"  rows read   {self.rows_read}")
         if self.roles:
@@ -205,7 +209,8 @@ class ImportReport:
                 lines.append("    " + ", ".join(f"{c} = {v}" for c, v in s.conditions))
             if s.replicate_times:
                 rule = {"all": "every point kept", "mean": "averaged into one point each",
-                        "first": "the first point kept at each"}[self.replicates if self.replicates in REPLICATE_RULES else "all"]
+                        "first": "the first point kept at each"}[
+                    self.replicates if self.replicates in REPLICATE_RULES else "all"]
                 lines.append(f"    replicates: {s.replicate_points} points at {s.replicate_times} time(s), {rule}")
         for name, why in self.not_read:
             lines.append(f"  {name}: not read ({why})")

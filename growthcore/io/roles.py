@@ -11,8 +11,8 @@ from __future__ import annotations
 
 import itertools
 import math
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
-from typing import Iterable, Sequence
 
 import numpy as np
 
@@ -38,7 +38,7 @@ def cell_key(cell: object) -> str | None:
             return None
         return str(int(cell)) if cell.is_integer() else repr(cell)
     if hasattr(cell, "isoformat"):
-        return cell.isoformat()  # type: ignore[no-any-return,union-attr]
+        return str(cell.isoformat())
     text = str(cell).strip()
     return None if is_missing(text) else text
 

@@ -2,9 +2,8 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import Callable
-
 
 #: Most trimmed text cells remembered per table.
 MAX_PADDED = 10_000

@@ -11,8 +11,8 @@ from __future__ import annotations
 
 import datetime as dt
 import re
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
-from typing import Callable, Sequence
 
 from growthcore.io.numbers import NumberFormat, is_missing, parse_number, plain_number_column
 
@@ -126,16 +126,16 @@ def parse_calendar(text: str, day_first: bool = True) -> TimeCell | None:
         return TimeCell("date" if is_date else "naive", moment=value)
     m = _YMD_SLASH.fullmatch(s)
     if m:
-        value = _datetime_from_match(m, int(m.group("y")), int(m.group("m")), int(m.group("d")))
-        if value is None:
+        moment = _datetime_from_match(m, int(m.group("y")), int(m.group("m")), int(m.group("d")))
+        if moment is None:
             return None
-        return TimeCell("naive" if m.group("H") else "date", moment=value)
+        return TimeCell("naive" if m.group("H") else "date", moment=moment)
     m = _DMY.fullmatch(s)
     if m:
         a, b = int(m.group("a")), int(m.group("b"))
         day, month = (a, b) if day_first else (b, a)
-        value = _datetime_from_match(m, int(m.group("y")), month, day)
-        if value is None:
+        moment = _datetime_from_match(m, int(m.group("y")), month, day)
+        if moment is None:
             return None
         return TimeCell("naive" if m.group("H") else "date", moment=value)
     return None
@@ -170,16 +170,16 @@ def parse_time_cell(value: object, fmt: NumberFormat, day_first: bool = True) ->
     if isinstance(value, dt.date):
         return TimeCell("date", moment=dt.datetime(value.year, value.month, value.day))
     if isinstance(value, dt.time):
-        seconds = value.hour * 3600 + value.minute * 60 + value.second + value.microsecond / 1e6
-        return TimeCell("duration", number=float(seconds))
+        of_day = value.hour * 3600 + value.minute * 60 + value.second + value.microsecond / 1e6
+        return TimeCell("duration", number=float(of_day))
     if isinstance(value, dt.timedelta):
         return TimeCell("duration", number=value.total_seconds())
     text = str(value).strip()
     if is_missing(text):
         return None
-    x = parse_number(text, fmt)
-    if x is not None:
-        return TimeCell("number", number=x)
+    number = parse_number(text, fmt)
+    if number is not None:
+        return TimeCell("number", number=number)
     seconds = parse_duration(text)
     if seconds is not None:
         return TimeCell("duration", number=seconds)
@@ -230,7 +230,6 @@ def midnight_wraps(times: Sequence[float], day: float) -> list[int] | None:
 
 def convert_time_column(
     cells: Sequence[object],
-    rows: Sequence[int],
     fmt: NumberFormat,
     *,
     column: str,
@@ -264,7 +263,7 @@ def convert_time_column(
     kind = max(counts, key=lambda k: counts[k])
     # Durations of a day or more can come back from a workbook as dates near the 1900 epoch.
     if counts["duration"] and counts["calendar"]:
-        fixed = []
+        fixed: list[TimeCell | str | None] = []
         for p in parsed:
             if isinstance(p, TimeCell) and p.kind == "naive" and p.moment is not None and p.moment.year < 1901:
                 fixed.append(TimeCell("duration", number=(p.moment - _EXCEL_EPOCH).total_seconds()))
@@ -304,7 +303,7 @@ def convert_time_column(
     unit = time_unit or ("h" if has_clock else "d")
     scale = UNIT_SECONDS[unit]
     origin = min(moments, key=_instant) if moments else None
-    for p, row in zip(parsed, rows):
+    for p in parsed:
         if isinstance(p, TimeCell) and p.kind in wanted and p.moment is not None and origin is not None:
             values.append((_instant(p.moment) - _instant(origin)) / scale)
             reasons.append("")

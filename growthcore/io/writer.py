@@ -10,7 +10,8 @@ import math
 import os
 import re
 import tempfile
-from typing import IO, Any, Iterable, Iterator, Sequence
+from collections.abc import Iterable, Iterator, Sequence
+from typing import IO, Any
 
 
 def _umask() -> int:
@@ -35,7 +36,9 @@ def atomic_writer(path: str | os.PathLike[str], mode: str = "w", *, encoding: st
     fd, tmp = tempfile.mkstemp(dir=folder, prefix="." + os.path.basename(target) + ".", suffix=".part")
     try:
         os.fchmod(fd, 0o666 & ~_umask())  # the permissions a plain open() would give
-        with os.fdopen(fd, "wb" if binary else "w", **({} if binary else {"encoding": encoding, "newline": newline})) as fh:
+        handle: IO[Any] = (os.fdopen(fd, "wb") if binary
+                           else os.fdopen(fd, "w", encoding=encoding, newline=newline))
+        with handle as fh:
             yield fh
             fh.flush()
             os.fsync(fh.fileno())
@@ -98,7 +101,8 @@ def safe_csv_cell(value: object) -> str:
     return text
 
 
-def write_csv(path_or_buffer: str | os.PathLike[str] | IO[str], header: Sequence[object], rows: Iterable[Sequence[object]]) -> None:
+def write_csv(path_or_buffer: str | os.PathLike[str] | IO[str], header: Sequence[object],
+              rows: Iterable[Sequence[object]]) -> None:
     """Write UTF-8 CSV (comma, ``\\n`` line ends) with every cell passed through ``safe_csv_cell``.
 
     A path is written atomically: a reader never sees a table cut short.

@@ -26,7 +26,8 @@ def check_archive(data: bytes, filename: str, max_unpacked: int) -> None:
             infos = archive.infolist()
             names = {i.filename for i in infos}
     except Exception as exc:  # zipfile raises several types on damaged input
-        raise ImportFailure(f"{filename}: the workbook is damaged: not a readable zip archive ({_short(exc)})") from None
+        raise ImportFailure(
+            f"{filename}: the workbook is damaged: not a readable zip archive ({_short(exc)})") from None
     if len(infos) > MAX_MEMBERS:
         raise ImportFailure(f"{filename}: the archive holds {len(infos)} members: refused")
     total = sum(max(i.file_size, 0) for i in infos)
@@ -110,8 +111,9 @@ class _Sheet:
                             )
                         value = cell["value"]
                         if cell["data_type"] == "f":
-                            if isinstance(getattr(value, "text", value), str):
-                                self.formulas[(int(cell["row"]), column)] = getattr(value, "text", value)
+                            formula = getattr(value, "text", value)
+                            if isinstance(formula, str):
+                                self.formulas[(int(cell["row"]), column)] = formula
                             continue
                         if value is not None:
                             current[column] = value
@@ -129,7 +131,7 @@ class _Sheet:
                                 f"limit) by row {parser.row_counter:,}: refused (split the sheet or keep only the "
                                 "columns to fit)"
                             )
-                        row = [None] * width
+                        row: list[object] = [None] * width
                         for column, value in current.items():
                             row[column - 1] = value
                         self.rows.append(row)

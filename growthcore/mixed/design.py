@@ -10,8 +10,8 @@ derivatives come from the forward sensitivities of the path.
 
 from __future__ import annotations
 
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Mapping, Sequence
 
 import numpy as np
 
@@ -114,6 +114,8 @@ class MixedDesign:
 
     def population_curve(self, beta: Array, t: Array, group: str | None = None) -> Array:
         """The curve of the population constants (of ``group`` when conditions shift constants)."""
+        if not isinstance(self.form, CurveForm):
+            raise TypeError(f"{self.form.id} is a difference form: its population path is iterated, not a curve")
         values = dict(self.held)
         values.update(self.group_constants(beta, group))
         with np.errstate(all="ignore"):
@@ -186,7 +188,7 @@ def build_design(
     labels = tuple(str(g) for g in groups) if groups is not None else tuple("all" for _ in series)
     if len(labels) != len(series):
         raise GrowthcoreInputError(f"`groups` gives {len(labels)} labels for {len(series)} series")
-    labels = tuple(g for s, g in zip(series, labels) if int(np.count_nonzero(s.used)) > 0)
+    labels = tuple(g for s, g in zip(series, labels, strict=True) if int(np.count_nonzero(s.used)) > 0)
     conditions = tuple(dict.fromkeys(labels))
     if shifted_t and len(conditions) < 2:
         raise GrowthcoreInputError("shifting a constant by condition needs at least two conditions")
@@ -236,7 +238,7 @@ def _grids(series: Sequence[Series]) -> tuple[Array, float]:
             raise GrowthcoreInputError(f"series {s.name!r}: {info.message}")
         steps.append(info.h)
     h = steps[0]
-    for s, hi in zip(series, steps):
+    for s, hi in zip(series, steps, strict=True):
         if abs(hi - h) > 1e-6 * h:
             raise GrowthcoreInputError(
                 f"a difference form needs one step for every series; {series[0].name!r} has h = {h:g}, "

@@ -3,10 +3,11 @@
 from __future__ import annotations
 
 import math
-from typing import Mapping, Sequence
+from collections.abc import Mapping, Sequence
 
 import numpy as np
-from scipy.stats import norm, t as student_t
+from scipy.stats import norm
+from scipy.stats import t as student_t
 
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
@@ -15,7 +16,8 @@ from growthcore.fit.result import FitResult
 from growthcore.mixed.covariance import from_natural, natural_of, relative_cov, theta_of
 from growthcore.mixed.design import MixedDesign, build_design
 from growthcore.mixed.likelihood import linear_fit, linear_neg2ll
-from growthcore.mixed.optimiser import LOG_SD_BOUNDS, Estimate as Optimum, lindstrom_bates, linearised, polish_laplace
+from growthcore.mixed.optimiser import LOG_SD_BOUNDS, lindstrom_bates, linearised, polish_laplace
+from growthcore.mixed.optimiser import Estimate as Optimum
 from growthcore.mixed.result import Estimate, PopulationFit, SeriesEffects, failed_population
 from growthcore.models.base import ModelForm
 from growthcore.models.catalogue import get_form
@@ -104,7 +106,7 @@ def _failed(design: MixedDesign, message: str) -> PopulationFit:
 def _starts(design: MixedDesign, separate: Sequence[FitResult], start: Mapping[str, float] | None
             ) -> tuple[Array, Array] | str:
     """β from the medians of the separate fits (shifts from the condition medians), D from their spread."""
-    ok = [(r, g) for r, g in zip(separate, design.groups) if r.success]
+    ok = [(r, g) for r, g in zip(separate, design.groups, strict=True) if r.success]
     given = dict(start or {})
     if not ok and not all(n in given for n in design.free):
         return ("no series could be fitted on its own to start from; give starting values "
@@ -168,7 +170,7 @@ def _result(design: MixedDesign, found: Optimum, separate: Sequence[FitResult], 
     correlations: dict[str, Estimate] = {}
     if design.covariance == "full" and q > 1:
         rows, cols = np.tril_indices(q, -1)
-        for c, (a, b) in enumerate(zip(rows, cols)):
+        for c, (a, b) in enumerate(zip(rows, cols, strict=True)):
             z = natural[q + c]
             ci = None if half is None else (math.tanh(z - half[q + c]), math.tanh(z + half[q + c]))
             correlations[f"{design.random[b]},{design.random[a]}"] = Estimate(math.tanh(z), None, ci)
@@ -187,7 +189,8 @@ def _result(design: MixedDesign, found: Optimum, separate: Sequence[FitResult], 
         error=design.error, algorithm=algorithm, random=design.random,
         covariance=design.covariance, shifted=design.shifted, held=dict(design.held), conditions=design.conditions,
         time_origin=design.origin, fixed=fixed,
-        fixed_cov=tuple(tuple(float(v) for v in row) for row in cov_beta) if cov_beta is not None else (), random_sd=random_sd, correlations=correlations,
+        fixed_cov=tuple(tuple(float(v) for v in row) for row in cov_beta) if cov_beta is not None else (),
+        random_sd=random_sd, correlations=correlations,
         residual_sd=Estimate(sigma, None, resid_ci), loglik=loglik, aic=-2.0 * loglik + 2.0 * k,
         bic=-2.0 * loglik + math.log(n_eff) * k, n_obs=design.n_obs, n_params=k, iterations=found.iterations,
         series=effects, notes=tuple(notes))

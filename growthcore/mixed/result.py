@@ -3,8 +3,9 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Any, Mapping
+from typing import Any
 
 Interval = tuple[float, float]
 
@@ -45,7 +46,7 @@ class Estimate:
         return out
 
     @classmethod
-    def from_dict(cls, raw: Mapping[str, Any]) -> "Estimate":
+    def from_dict(cls, raw: Mapping[str, Any]) -> Estimate:
         se, df = raw.get("se"), raw.get("df")
         return cls(_float(raw.get("value")), None if se is None else float(se), _unpair(raw.get("ci95")),
                    None if df is None else int(df))
@@ -76,7 +77,7 @@ class SeriesEffects:
         }
 
     @classmethod
-    def from_dict(cls, raw: Mapping[str, Any]) -> "SeriesEffects":
+    def from_dict(cls, raw: Mapping[str, Any]) -> SeriesEffects:
         sep = raw.get("separate")
         return cls(str(raw["name"]), str(raw.get("group", "all")),
                    {k: _float(v) for k, v in raw["constants"].items()},
@@ -161,7 +162,7 @@ class PopulationFit:
         }
 
     @classmethod
-    def from_dict(cls, raw: Mapping[str, Any]) -> "PopulationFit":
+    def from_dict(cls, raw: Mapping[str, Any]) -> PopulationFit:
         sd_ci = raw.get("random_sd_ci95") or {}
         resid = raw.get("residual_sd")
         return cls(
@@ -173,7 +174,8 @@ class PopulationFit:
             conditions=tuple(raw.get("conditions", ())), time_origin=float(raw.get("time_origin", 0.0)),
             fixed={k: Estimate.from_dict(v) for k, v in (raw.get("fixed") or {}).items()},
             fixed_cov=tuple(tuple(_float(v) for v in row) for row in raw.get("fixed_cov", ())),
-            random_sd={k: Estimate(_float(v), None, _unpair(sd_ci.get(k))) for k, v in (raw.get("random_sd") or {}).items()},
+            random_sd={k: Estimate(_float(v), None, _unpair(sd_ci.get(k)))
+                       for k, v in (raw.get("random_sd") or {}).items()},
             correlations={k: Estimate.from_dict(v) for k, v in (raw.get("correlations") or {}).items()},
             residual_sd=None if resid is None else Estimate(float(resid), None, _unpair(raw.get("residual_sd_ci95"))),
             loglik=_float(raw.get("loglik")), aic=_float(raw.get("aic")), bic=_float(raw.get("bic")),

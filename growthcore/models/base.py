@@ -7,13 +7,14 @@ call evaluates many parameter sets at once (the fitting code uses this for Jacob
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
-from typing import Any, Callable, Literal, Mapping, Union
+from typing import Any, Literal
 
 import numpy as np
 
 Array = np.ndarray
-Values = Mapping[str, Union[float, Array]]
+Values = Mapping[str, float | Array]
 StateFn = Callable[[Array, Values], Array]
 
 INF = math.inf
@@ -46,8 +47,9 @@ class DifferenceForm:
     derivative is f'(p) = 1 + dΔ/dp. ``increment_partials`` gives ∂Δ/∂θ for the constants it
     knows in closed form (trajectory fits take the rest by finite differences). ``scalar_step``,
     given plain-float values, returns f as a function of one float: iterating one parameter set
-    in Python floats is several times faster than numpy on a single state. When Δ is linear in some constants, ``linear`` names them and
-    ``basis`` returns one column per name for given values of the others: Δ = Σ coef_j · basis_j(p).
+    in Python floats is several times faster than numpy on a single state. When Δ is linear in some
+    constants, ``linear`` names them and ``basis`` returns one column per name for given values of
+    the others: Δ = Σ coef_j · basis_j(p).
     The increments method then regresses the change on those columns through the origin.
     """
 
@@ -123,7 +125,7 @@ class CurveForm:
         return _spec(self.params, name)
 
 
-ModelForm = Union[DifferenceForm, CurveForm]
+ModelForm = DifferenceForm | CurveForm
 
 
 def _spec(params: tuple[ParamSpec, ...], name: str) -> ParamSpec:

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Sequence
+from collections.abc import Sequence
 
 from growthcore.errors import GrowthcoreInputError
 from growthcore.models.base import ModelForm
@@ -10,7 +10,8 @@ from growthcore.models.curves import CURVE_FORMS
 from growthcore.models.difference import DIFFERENCE_FORMS, with_constant
 
 CONSTANT_SUFFIX = "+c"
-_BUILT_IN: dict[str, ModelForm] = {f.id: f for f in (*DIFFERENCE_FORMS, *CURVE_FORMS)}
+_FORMS: tuple[ModelForm, ...] = (*DIFFERENCE_FORMS, *CURVE_FORMS)
+_BUILT_IN: dict[str, ModelForm] = {f.id: f for f in _FORMS}
 MODEL_IDS: tuple[str, ...] = (*_BUILT_IN, "custom")
 
 

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Sequence
+from collections.abc import Sequence
 
 import numpy as np
 
@@ -37,19 +37,20 @@ def custom_form(terms: Sequence[str]) -> DifferenceForm:
         return [np.broadcast_to(c, np.broadcast_shapes(np.shape(p), np.shape(c))) for c in cols]
 
     def increment(p: Array, v: Values) -> Array:
-        return sum(v[n] * col for n, col in zip(names, basis(p, v)))  # type: ignore[return-value]
+        return sum(v[n] * col for n, col in zip(names, basis(p, v), strict=True))  # type: ignore[return-value]
 
     def increment_dp(p: Array, v: Values) -> Array:
         k = capacity(v)
-        return sum(v[n] * d.evaluate(p, k) for n, d in zip(names, derivatives))  # type: ignore[return-value]
+        return sum(v[n] * d.evaluate(p, k) for n, d in zip(names, derivatives, strict=True))  # type: ignore[return-value]
 
     def partials(p: Array, v: Values) -> dict[str, Array]:
-        return dict(zip(names, basis(p, v)))  # K enters the terms nonlinearly: left to finite differences
+        return dict(zip(names, basis(p, v), strict=True))  # K enters the terms nonlinearly: left to finite differences
 
-    params = tuple(ParamSpec(n, -INF, INF, f"coefficient of {t.canonical}", "") for n, t in zip(names, parsed))
+    params = tuple(ParamSpec(n, -INF, INF, f"coefficient of {t.canonical}", "")
+                   for n, t in zip(names, parsed, strict=True))
     if uses_k:
         params = (*params, K_CAP)
-    equation = "Δp = " + " + ".join(f"{n}·({t.canonical})" for n, t in zip(names, parsed))
+    equation = "Δp = " + " + ".join(f"{n}·({t.canonical})" for n, t in zip(names, parsed, strict=True))
     return DifferenceForm(
         id="custom",
         title="Custom rate terms",
@@ -60,6 +61,6 @@ def custom_form(terms: Sequence[str]) -> DifferenceForm:
         increment_partials=partials,
         linear=names,
         basis=basis,
-        notes=tuple(f"term {n}: {t.text}" for n, t in zip(names, parsed)),
+        notes=tuple(f"term {n}: {t.text}" for n, t in zip(names, parsed, strict=True)),
         terms=tuple(terms),
     )

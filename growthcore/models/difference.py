@@ -9,8 +9,8 @@ the fitting code reports it as a derived quantity.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Mapping
 from dataclasses import replace
-from typing import Callable, Mapping
 
 import numpy as np
 
@@ -232,7 +232,8 @@ DIFFERENCE_FORMS: tuple[DifferenceForm, ...] = (
     ALLEE,
 )
 
-CONSTANT = ParamSpec("c", -INF, INF, "constant change per step: immigration (c > 0) or harvest (c < 0)", "state per step")
+CONSTANT = ParamSpec("c", -INF, INF, "constant change per step: immigration (c > 0) or harvest (c < 0)",
+                     "state per step")
 
 
 def with_constant(form: DifferenceForm) -> DifferenceForm:

@@ -7,8 +7,9 @@ Unlike the engine, this package renders figures and so uses plotly (and kaleido 
 from __future__ import annotations
 
 import os
+from collections.abc import Mapping
 from pathlib import Path
-from typing import Any, Mapping
+from typing import Any
 
 from growthcore.io.writer import atomic_write_bytes, atomic_write_text
 from growthcore.report.tables import residual_csv_text, residual_table, write_residual_csv
@@ -43,7 +44,7 @@ def write_pngs(record: Mapping[str, Any], directory: str | os.PathLike[str], *, 
     out_dir = Path(directory)
     out_dir.mkdir(parents=True, exist_ok=True)
     paths = []
-    for name, png in zip(names, images):
+    for name, png in zip(names, images, strict=True):
         path = out_dir / f"{name}.png"
         atomic_write_bytes(path, png)
         paths.append(path)

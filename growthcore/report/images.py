@@ -10,11 +10,12 @@ from __future__ import annotations
 import logging
 import os
 import shutil
-import warnings
 import struct
+import warnings
 import zlib
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Any, Mapping, Sequence
+from typing import Any
 
 from growthcore.errors import GrowthcoreInputError
 
@@ -131,7 +132,7 @@ def render_pngs(figures: Sequence[Mapping[str, Any]], sizes: Sequence[ImageSize]
     pipe_log.setLevel(logging.CRITICAL)
     kaleido.start_sync_server(silence_warnings=True)
     try:
-        for fig, size in zip(figures, sizes):
+        for fig, size in zip(figures, sizes, strict=True):
             with warnings.catch_warnings():
                 warnings.filterwarnings("ignore", message="The kopts argument is ignored")
                 fig = dict(fig, layout=dict(fig.get("layout", {}), width=size.width, height=size.height))

@@ -8,17 +8,22 @@ from __future__ import annotations
 
 import json
 import math
-from typing import Any, Mapping
+from collections.abc import Mapping
+from typing import Any
 
 from growthcore.report.panels import esc, label, panel_figures, sheet_heading
 
 CAUTION = ("Forecasts and derived times from a fitted growth law can be badly wrong outside the observed range. "
            "Where they could steer a safety decision (food shelf life, pathogen growth, harvest quotas, outbreak "
            "sizing), use validated methods, follow local regulations and consult qualified professionals.")
+#: The report's own policy: inline scripts and styles only, nothing fetched.
+_CSP = ("default-src 'none'; script-src 'unsafe-inline' 'unsafe-eval'; style-src 'unsafe-inline'; "
+        "img-src data: blob:; font-src data:")
 _CSS = """
 body{font-family:Helvetica Neue,Arial,sans-serif;color:#1f2a30;margin:24px auto;max-width:1100px;padding:0 16px}
 h1{font-size:22px}h2{font-size:17px;margin-top:28px;border-bottom:1px solid #e3e7ea}
-table{border-collapse:collapse;font-size:13px;margin:8px 0}td,th{border:1px solid #e3e7ea;padding:3px 8px;text-align:left}
+table{border-collapse:collapse;font-size:13px;margin:8px 0}
+td,th{border:1px solid #e3e7ea;padding:3px 8px;text-align:left}
 th{background:#f3f5f6}.panel{width:100%;height:480px}.table-panel{width:100%;height:360px}
 .caution{background:#fff6e5;border-left:4px solid #E69F00;padding:8px 12px}.muted{color:#6b7780;font-size:12px}
 code{font-size:12px}
@@ -70,7 +75,8 @@ def _fit_details(f: Mapping[str, Any]) -> str:
     diag = f.get("diagnostics")
     if diag:
         parts.append(f"<p>Residual checks: Durbin–Watson {_fmt(diag.get('durbin_watson'))}, "
-                     f"runs {diag.get('runs')} (expected {_fmt(diag.get('runs_expected'))}, p = {_fmt(diag.get('runs_p'))}): "
+                     f"runs {diag.get('runs')} (expected {_fmt(diag.get('runs_expected'))}, "
+                     f"p = {_fmt(diag.get('runs_p'))}): "
                      f"{esc(diag.get('message', ''))}</p>")
     return "\n".join(parts)
 
@@ -89,7 +95,8 @@ def _import_section(data: Mapping[str, Any]) -> str:
                    f"({esc(rep.get('format', ''))}, layout {esc(rep.get('layout', ''))}).</p>")
         if rep.get("left_out"):
             out.append("<p>Cells left out at import:</p>" + _table(
-                ["row", "column", "value", "reason"], [[x["row"], x["column"], x["value"], x["reason"]] for x in rep["left_out"]]))
+                ["row", "column", "value", "reason"],
+                [[x["row"], x["column"], x["value"], x["reason"]] for x in rep["left_out"]]))
         if rep.get("notes"):
             out.append("<ul>" + "".join(f"<li>{esc(n)}</li>" for n in rep["notes"]) + "</ul>")
     return "\n".join(out)
@@ -125,7 +132,7 @@ def report_html(record: Mapping[str, Any], *, plotlyjs: str | None = None,
     notes = record.get("comparison", {}).get("notes", [])
     return f"""<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1">
-<meta http-equiv="Content-Security-Policy" content="default-src 'none'; script-src 'unsafe-inline' 'unsafe-eval'; style-src 'unsafe-inline'; img-src data: blob:; font-src data:">
+<meta http-equiv="Content-Security-Policy" content="{_CSP}">
 <title>{title}</title><style>{_CSS}</style>
 <script>{plotlyjs}</script></head>
 <body>
@@ -146,7 +153,8 @@ def report_html(record: Mapping[str, Any], *, plotlyjs: str | None = None,
 <h2>Settings</h2>
 {_table(['setting', 'value'], settings_rows)}
 {_table(['fit', 'arguments that reproduce it'], request_rows)}
-<p class="muted">Software: {esc(sw.get('name', ''))} {esc(sw.get('version', ''))}, Python {esc(sw.get('python', ''))}; {deps}.
+<p class="muted">Software: {esc(sw.get('name', ''))} {esc(sw.get('version', ''))},
+Python {esc(sw.get('python', ''))}; {deps}.
 Record integrity (SHA-256 of its canonical JSON): <code>{esc(integrity)}</code>.
 <a id="record-download" download="fit-record.json" href="#">Save the fit record (JSON)</a></p>
 <script type="application/json" id="fit-record">{_json_for_script(record)}</script>

@@ -9,7 +9,8 @@ from __future__ import annotations
 import html
 import math
 import re
-from typing import Any, Mapping, Sequence
+from collections.abc import Iterable, Mapping, Sequence
+from typing import Any
 
 import numpy as np
 
@@ -63,7 +64,7 @@ def _with_unit(name: str, unit: str) -> str:
     return f"{esc(name)} [{esc(unit)}]" if unit else esc(name)
 
 
-def _clean(values: Sequence[float]) -> list[float | None]:
+def _clean(values: Iterable[float]) -> list[float | None]:
     return [float(v) if v is not None and math.isfinite(v) else None for v in values]
 
 
@@ -86,7 +87,7 @@ def data_figure(record: Mapping[str, Any], fits: Sequence[FitResult] | None = No
             "marker": {"color": MUTED, "size": 8, "symbol": "x-thin", "line": {"width": 2, "color": MUTED}},
         })
     t_end = max(p["t"] for p in pts)
-    for i, (f, d) in enumerate(zip(fits, record["fits"])):
+    for i, (f, d) in enumerate(zip(fits, record["fits"], strict=True)):
         if not f.success or f.form is None:
             continue
         try:
@@ -143,7 +144,8 @@ def comparison_columns(record: Mapping[str, Any]) -> tuple[list[str], list[list[
     """Header and columns of the comparison table (rows as the record orders them)."""
     rows = record.get("comparison", {}).get("rows") or [
         {"model": f["model"], "method": f["method"], "error": f["error"], "status": f["status"],
-         **{k: (f.get("metrics") or {}).get(k) for k in ("n", "n_params", "r2", "r2_uncentered", "rmse", "aicc", "bic")}}
+         **{k: (f.get("metrics") or {}).get(k)
+            for k in ("n", "n_params", "r2", "r2_uncentered", "rmse", "aicc", "bic")}}
         for f in record["fits"]]
     header = ["form (method, error)", "n", "k", "R² (states)", "uncentered R² (Δp)", "RMSE", "AICc", "ΔAICc", "weight",
               "misfit"]
@@ -189,7 +191,7 @@ def parameter_columns(record: Mapping[str, Any]) -> tuple[list[str], list[list[s
             interval = f"{_fmt(ci[0])} to {_fmt(ci[1])}" if ci else "–"
             note = "fixed" if p.get("fixed") else "at its bound" if p.get("at_bound") else ""
             for col, v in zip(out, (esc(label(f)), esc(name), _fmt(p.get("value"), ".6g"), _fmt(p.get("se"), ".3g"),
-                                    interval, note)):
+                                    interval, note), strict=True):
                 col.append(v)
     return header, out
 
@@ -268,8 +270,9 @@ def profile_figure(record: Mapping[str, Any], view: Mapping[str, Any] | None = N
                            "line": {"color": colour, "width": 1, "dash": "dash"}})
     if not traces:
         return None
-    return {"data": traces, "layout": _layout("Profile of K: SSE with K fixed (dotted: F-calibrated 95% cut; dashed: chi-square likelihood-ratio cut)",
-                                              "carrying capacity K", "SSE")}
+    title = ("Profile of K: SSE with K fixed "
+             "(dotted: F-calibrated 95% cut; dashed: chi-square likelihood-ratio cut)")
+    return {"data": traces, "layout": _layout(title, "carrying capacity K", "SSE")}
 
 
 def _models(record: Mapping[str, Any], view: Mapping[str, Any] | None) -> list[str] | None:
@@ -340,7 +343,8 @@ def export_view(fig: Figure, title: str) -> Figure:
     family = (layout.get("font") or {}).get("family")
     if family:
         layout["font"]["family"] = ", ".join(
-            f'"{n.strip()}"' if " " in n.strip() and not n.strip().startswith('"') else n.strip() for n in family.split(","))
+            f'"{n.strip()}"' if " " in n.strip() and not n.strip().startswith('"') else n.strip()
+            for n in family.split(","))
     layout["title"] = {"text": title, "x": 0.0, "xanchor": "left", "font": {"size": 14}}
     layout["margin"] = dict(layout.get("margin") or {}, t=60)
     layout["showlegend"] = any(t.get("showlegend", True) for t in fig["data"])
@@ -411,9 +415,9 @@ def _row_heights(header: Sequence[str], cols: Sequence[Sequence[str]], widths: S
         per_line = max(int((px - 12) / (0.56 * font)), 1)
         return sum(max(math.ceil(len(part) / per_line), 1) for part in _plain_text(text).split("\n"))
 
-    head = max(lines(h, px, _HEAD_FONT) for h, px in zip(header, col_px)) * 16 + 10
+    head = max(lines(h, px, _HEAD_FONT) for h, px in zip(header, col_px, strict=True)) * 16 + 10
     n_rows = len(cols[0]) if cols else 0
-    rows = [max(22.0, max(lines(str(c[i]), px, _CELL_FONT) for c, px in zip(cols, col_px)) * 15 + 8)
+    rows = [max(22.0, max(lines(str(c[i]), px, _CELL_FONT) for c, px in zip(cols, col_px, strict=True)) * 15 + 8)
             for i in range(n_rows)]
     return float(head), rows
 
@@ -510,7 +514,7 @@ def summary_sheets(record: Mapping[str, Any], *, width: int | None = None, heigh
     pages: list[Figure] = [{"data": traces, "layout": layout}]
     leftovers: list[tuple[str, list[str], list[list[str]], list[float]]] = []
     continued_headings: list[dict[str, Any]] = []
-    for (title, header, cols, widths), (x_dom, y_dom) in zip(_sheet_tables(record), regions):
+    for (title, header, cols, widths), (x_dom, y_dom) in zip(_sheet_tables(record), regions, strict=True):
         head_px, rows_px = _row_heights(header, cols, widths, (x_dom[1] - x_dom[0]) * pw)
         room = (y_dom[1] - y_dom[0]) * ph - head_px
         n = _fitting(rows_px, room)

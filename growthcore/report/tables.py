@@ -3,7 +3,8 @@
 from __future__ import annotations
 
 import os
-from typing import IO, Any, Mapping
+from collections.abc import Mapping
+from typing import IO, Any
 
 from growthcore.io.writer import csv_text, write_csv
 

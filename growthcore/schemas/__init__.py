@@ -13,9 +13,10 @@ from __future__ import annotations
 import json
 import math
 import re
-from functools import lru_cache
+from collections.abc import Mapping
+from functools import cache
 from importlib import resources
-from typing import Any, Mapping
+from typing import Any
 
 #: Keywords with no bearing on validity.
 _ANNOTATIONS = frozenset({"$schema", "$id", "title", "description", "$comment", "$defs", "default", "examples"})
@@ -41,7 +42,7 @@ def available_versions() -> tuple[int, ...]:
     return tuple(sorted(found))
 
 
-@lru_cache(maxsize=None)
+@cache
 def _schema_text(version: int) -> str:
     return resources.files(__package__).joinpath(schema_name(version)).read_text(encoding="utf-8")
 
@@ -80,7 +81,7 @@ def _equal(a: Any, b: Any) -> bool:
     if isinstance(a, Mapping) and isinstance(b, Mapping):
         return a.keys() == b.keys() and all(_equal(a[k], b[k]) for k in a)
     if isinstance(a, (list, tuple)) and isinstance(b, (list, tuple)):
-        return len(a) == len(b) and all(_equal(x, y) for x, y in zip(a, b))
+        return len(a) == len(b) and all(_equal(x, y) for x, y in zip(a, b, strict=True))
     return type(a) is type(b) and a == b
 
 

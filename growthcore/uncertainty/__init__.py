@@ -2,8 +2,13 @@
 
 from __future__ import annotations
 
-from growthcore.uncertainty.bootstrap import (DEFAULT_RESAMPLES, DEFAULT_SEED, BootstrapResult, bootstrap,
-                                              bootstrap_chunks)
+from growthcore.uncertainty.bootstrap import (
+                                              DEFAULT_RESAMPLES,
+                                              DEFAULT_SEED,
+                                              BootstrapResult,
+                                              bootstrap,
+                                              bootstrap_chunks,
+)
 from growthcore.uncertainty.caution import FORECAST_CAUTION
 from growthcore.uncertainty.derived_ci import derived_intervals
 from growthcore.uncertainty.forecast import Forecast, forecast

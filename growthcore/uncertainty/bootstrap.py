@@ -15,16 +15,17 @@ Tibshirani 1993, An Introduction to the Bootstrap, ch. 13).
 from __future__ import annotations
 
 import math
+from collections.abc import Iterator, Mapping
 from dataclasses import dataclass, field
-from typing import Any, Iterator, Mapping
+from typing import Any
 
 import numpy as np
 
 from growthcore.budget import check_budget
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
-from growthcore.limits import DEFAULT as LIMITS
 from growthcore.fit.result import FitResult
+from growthcore.limits import DEFAULT as LIMITS
 from growthcore.uncertainty.refit import RefitProblem, modified_residuals, refit_problem
 
 Array = np.ndarray
@@ -95,7 +96,7 @@ class BootstrapResult:
     def intervals(self, level: float = 0.95) -> dict[str, tuple[float, float] | None]:
         return {n: self.interval(n, level) for n in self.names}
 
-    def merge(self, later: "BootstrapResult") -> "BootstrapResult":
+    def merge(self, later: BootstrapResult) -> BootstrapResult:
         """This result followed by the next chunk (which must start where this one ends)."""
         if later.names != self.names or later.seed != self.seed or later.model != self.model:
             raise GrowthcoreInputError("bootstrap chunks of different fits or seeds cannot be merged")
@@ -130,7 +131,7 @@ class BootstrapResult:
                 "estimate": list(self.estimate), "start": self.start, "samples": rows}
 
     @classmethod
-    def from_dict(cls, data: Mapping[str, Any]) -> "BootstrapResult":
+    def from_dict(cls, data: Mapping[str, Any]) -> BootstrapResult:
         names = tuple(data["names"])
         rows = [[math.nan if v is None else float(v) for v in row] for row in data["samples"]]
         samples = np.array(rows, dtype=float).reshape(len(rows), len(names))
@@ -145,7 +146,8 @@ def _draws(seed: int, start: int, stop: int, n: int) -> Array:
     return np.stack(cols, axis=1) if cols else np.zeros((n, 0), dtype=int)
 
 
-def _empty(result: FitResult, names: tuple[str, ...], seed: int, requested: int, start: int, message: str) -> BootstrapResult:
+def _empty(result: FitResult, names: tuple[str, ...], seed: int, requested: int, start: int,
+           message: str) -> BootstrapResult:
     est = tuple(float(result.values.get(n, math.nan)) for n in names)
     return BootstrapResult(result.model, result.method, names, est, np.zeros((0, len(names))), seed, requested,
                            start, message)
@@ -191,9 +193,11 @@ def bootstrap(
         problem = refit_problem(result, series)
     n, k = problem.residuals.size, len(problem.names)
     if n <= k:
-        return _empty(result, problem.names, seed, resamples, start, f"{n} points for {k} constants: nothing to resample")
+        return _empty(result, problem.names, seed, resamples, start,
+                      f"{n} points for {k} constants: nothing to resample")
     if not np.all(np.isfinite(problem.fitted)) or not np.all(np.isfinite(problem.residuals)):
-        return _empty(result, problem.names, seed, resamples, start, "the fitted values are not all finite: no resampling")
+        return _empty(result, problem.names, seed, resamples, start,
+                      "the fitted values are not all finite: no resampling")
     pool = modified_residuals(problem.residuals, k)
     targets = problem.fitted[:, None] + pool[_draws(seed, start, stop, n)]
     if targets.shape[1] == 0:

@@ -8,8 +8,9 @@ that give the point values (growthcore.derived), so estimate and interval cannot
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping, Sequence
 from dataclasses import replace
-from typing import Any, Mapping, Sequence
+from typing import Any
 
 import numpy as np
 
@@ -88,6 +89,7 @@ def derived_intervals(
     delta = {} if rows else delta_method_intervals(result, targets, horizon, point, level=level)
     total = int(boot.done) if boot is not None and boot.done else 0
     out: dict[str, dict[str, Any]] = {}
+    how: str | None
     for name in dict.fromkeys([*point, *(k for r in rows for k in r)]):
         value = point.get(name, math.nan)
         draws = np.array([r.get(name, math.nan) for r in rows], dtype=float)
@@ -117,6 +119,7 @@ def delta_method_intervals(result: FitResult, targets: list[tuple[str, Any]], ho
     names = [n for n, v in point.items() if math.isfinite(v)]
     grad = np.full((len(names), len(free)), math.nan)
     for j, p in enumerate(free):
+        assert p.se is not None
         h = 1e-5 * max(abs(p.value), p.se)
         up = _quantities(with_values(result, {p.name: p.value + h}), targets, horizon)
         down = _quantities(with_values(result, {p.name: p.value - h}), targets, horizon)

@@ -14,8 +14,9 @@ residuals of that method are one-step changes), so their noise accumulates along
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any, Mapping
+from typing import Any
 
 import numpy as np
 
@@ -23,10 +24,10 @@ from growthcore.budget import check_budget
 from growthcore.data import Series
 from growthcore.derived import _first_crossing
 from growthcore.errors import GrowthcoreInputError
-from growthcore.limits import DEFAULT as LIMITS
 from growthcore.fit.result import FitResult
 from growthcore.fit.simulate import iterate
-from growthcore.models.base import DifferenceForm
+from growthcore.limits import DEFAULT as LIMITS
+from growthcore.models.base import CurveForm, DifferenceForm
 from growthcore.uncertainty.bootstrap import DEFAULT_SEED, BootstrapResult
 from growthcore.uncertainty.caution import FORECAST_CAUTION
 from growthcore.uncertainty.refit import modified_residuals, refit_problem
@@ -60,7 +61,7 @@ class Forecast:
     def points(self) -> list[dict[str, float | None]]:
         """[{"t", "p", "lo", "hi"}] for the record and the CSV table."""
         return [{"t": float(t), "p": _num(p), "lo": _num(lo), "hi": _num(hi)}
-                for t, p, lo, hi in zip(self.t, self.p, self.lo, self.hi)]
+                for t, p, lo, hi in zip(self.t, self.p, self.lo, self.hi, strict=True)]
 
     def to_dict(self) -> dict[str, Any]:
         return {"points": self.points(), "level": self.level, "source": self.source, "draws": self.draws,
@@ -101,11 +102,13 @@ def future_times(result: FitResult, *, steps: int | None, span: float | None) ->
         _check_steps(steps, None)
         dt = float(np.ptp(result.t)) / max(result.t.size - 1, 1) or 1.0
         return t_last + dt * np.arange(1, steps + 1)
-    return t_last + np.linspace(span / CURVE_POINTS, span, CURVE_POINTS)  # type: ignore[operator]
+    assert span is not None  # exactly one of steps and span was given
+    return t_last + np.linspace(span / CURVE_POINTS, span, CURVE_POINTS)
 
 
 def _parameter_draws(result: FitResult, names: tuple[str, ...], lower: Array, upper: Array,
-                     boot: BootstrapResult | None, draws: int, rng: np.random.Generator) -> tuple[Array, str, list[str]]:
+                     boot: BootstrapResult | None, draws: int,
+                     rng: np.random.Generator) -> tuple[Array, str, list[str]]:
     notes: list[str] = []
     if boot is not None and boot.ok.sum() >= 20 and boot.names == names:
         return boot.samples[boot.ok].T, f"{int(boot.ok.sum())} bootstrap refits", notes
@@ -181,7 +184,8 @@ def forecast(
         if np.any(point_bad):
             j = int(np.flatnonzero(point_bad)[0])
             end = min(end, j)
-            headline.append(f"the point forecast overflows from t = {t_future[j]:g}: the forecast and its band end there")
+            headline.append(
+                f"the point forecast overflows from t = {t_future[j]:g}: the forecast and its band end there")
             point = np.where(np.arange(point.size) >= j, math.nan, point)
         for j in range(end):
             check_budget()
@@ -302,7 +306,8 @@ def _far_crossing(result: FitResult, t: Array, bound: float) -> float:
             path = iterate(form, result.start_level, result.values, MAX_STEPS)
             grid = result.grid.t0 + result.grid.h * np.arange(MAX_STEPS + 1)
             return _first_crossing(grid, path, bound)
-        assert form is not None
+        assert isinstance(form, CurveForm)
         span = max(t_end - float(result.t[0]), 1e-9)
         grid = np.linspace(t_end, t_end + 100.0 * span, 20001)
-        return _first_crossing(grid, np.asarray(form.value(grid - result.time_origin, result.values), dtype=float), bound)
+        path = np.asarray(form.value(grid - result.time_origin, result.values), dtype=float)
+        return _first_crossing(grid, path, bound)

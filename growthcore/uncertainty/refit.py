@@ -11,8 +11,8 @@ the observed states p_n as a fixed design and refits every constant, linear ones
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Callable
 
 import numpy as np
 

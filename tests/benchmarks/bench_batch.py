@@ -47,10 +47,10 @@ def plain_fit(form_id: str, t: np.ndarray, p: np.ndarray):  # noqa: ANN201 - the
     lower = np.zeros(len(names))
     if form.kind == "curve":
         def res(x: np.ndarray) -> np.ndarray:
-            return p - form.value(t, dict(zip(names, x)))
+            return p - form.value(t, dict(zip(names, x, strict=True)))
     else:
         def res(x: np.ndarray) -> np.ndarray:
-            v = dict(zip(names, x))
+            v = dict(zip(names, x, strict=True))
             path = np.empty(p.size)
             q = v["p0"]
             for i in range(p.size):

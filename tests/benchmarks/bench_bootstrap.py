@@ -46,14 +46,14 @@ def main(resamples: int = 1000) -> int:
 
     t0 = time.perf_counter()
     loop_x = np.empty((resamples, 3))
+
+    def residuals(x: np.ndarray, target: np.ndarray) -> np.ndarray:
+        path = iterate(form, x[2], {"r": x[0], "K": x[1]}, steps)
+        return np.nan_to_num(target - path, nan=1e6, posinf=1e6, neginf=-1e6)
+
     for b in range(resamples):
-        target = targets[:, b]
-
-        def residuals(x: np.ndarray) -> np.ndarray:
-            path = iterate(form, x[2], {"r": x[0], "K": x[1]}, steps)
-            return np.nan_to_num(target - path, nan=1e6, posinf=1e6, neginf=-1e6)
-
-        fitted = least_squares(residuals, cold, bounds=(problem.lower, problem.upper), method="trf")
+        fitted = least_squares(residuals, cold, bounds=(problem.lower, problem.upper), method="trf",
+                               args=(targets[:, b],))
         loop_x[b] = fitted.x
     loop = time.perf_counter() - t0
 

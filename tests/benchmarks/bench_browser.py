@@ -161,7 +161,7 @@ def k_changes(driver: Any, changes: int) -> list[tuple[float, int, int]]:
         box.send_keys(f"{k:g}")
         start = driver.execute_script(INSTRUMENT)
         box.send_keys(Keys.ENTER)
-        out.append(_settle(driver, start, lambda: wanted in _text(driver, "panel-candidate-summary")
+        out.append(_settle(driver, start, lambda wanted=wanted: wanted in _text(driver, "panel-candidate-summary")
                            and wanted in _text(driver, "comparison-table")))
     return out
 

@@ -3,8 +3,9 @@
     python tests/benchmarks/bench_import.py [--rows N] [--repeats N]
 
 An invented plate-reader export (a time column and 23 wells of plain numbers, about 4.3 MB at the
-default 20 000 rows, the most points a series may have) read by growthcore's import, which also detects the layout, parses and
-checks every cell, and writes the report, against pandas.read_csv, which only parses. For
+default 20 000 rows, the most points a series may have) read by growthcore's import, which also
+detects the layout, parses and checks every cell, and writes the report, against pandas.read_csv,
+which only parses. For
 information: the ratio says what the checks cost; a 12 MB file should import in a few seconds.
 """
 

@@ -55,7 +55,7 @@ def chain(data: dict, settings: dict, k: float, previous_k: float) -> None:
 
 def timed(data: dict, settings: dict, ks: list[float]) -> list[float]:
     out = []
-    for previous, k in zip([ks[-1], *ks[:-1]], ks):
+    for previous, k in zip([ks[-1], *ks[:-1]], ks, strict=True):
         start = time.perf_counter()
         chain(data, settings, k, previous)
         out.append((time.perf_counter() - start) * 1000.0)

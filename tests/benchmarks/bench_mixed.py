@@ -54,17 +54,21 @@ def plain_scipy(t: np.ndarray, y: np.ndarray) -> tuple[float, np.ndarray]:
         shape = expit(r * (t - t_mid))
         const = -n * (math.log(sigma) + 0.5 * math.log(2 * math.pi)) - math.log(sd) - 0.5 * math.log(2 * math.pi)
         total = 0.0
-        for yi in y:  # one integral per series
-            def log_joint(b: np.ndarray) -> np.ndarray:  # log p(y_i | b) + log p(b) without constants
-                resid = yi[None, :] - (k + np.atleast_1d(b))[:, None] * shape[None, :]
-                return -0.5 * np.sum(resid * resid, axis=1) / sigma**2 - 0.5 * np.atleast_1d(b) ** 2 / sd**2
 
-            mode = minimize_scalar(lambda b: -float(log_joint(np.array([b]))[0]), bracket=(-sd, sd)).x
+        def log_joint(b: np.ndarray, yi: np.ndarray) -> np.ndarray:  # log p(y_i | b) + log p(b) without constants
+            resid = yi[None, :] - (k + np.atleast_1d(b))[:, None] * shape[None, :]
+            return -0.5 * np.sum(resid * resid, axis=1) / sigma**2 - 0.5 * np.atleast_1d(b) ** 2 / sd**2
+
+        def neg_log_joint(b: float, yi: np.ndarray) -> float:
+            return -float(log_joint(np.array([b]), yi)[0])
+
+        for yi in y:  # one integral per series
+            mode = minimize_scalar(neg_log_joint, bracket=(-sd, sd), args=(yi,)).x
             step = 1e-3 * sd
-            around = log_joint(np.array([mode - step, mode, mode + step]))
+            around = log_joint(np.array([mode - step, mode, mode + step]), yi)
             curvature = -(around[0] - 2 * around[1] + around[2]) / step**2
             scale = math.sqrt(2.0 / curvature)
-            total += const + math.log(scale) + float(logsumexp(log_w + log_joint(mode + scale * nodes)))
+            total += const + math.log(scale) + float(logsumexp(log_w + log_joint(mode + scale * nodes, yi)))
         return -total
 
     (k0, r0, m0), _ = curve_fit(lambda tt, k, r, m: k * expit(r * (tt - m)), np.tile(t, len(y)), y.ravel(),

@@ -12,7 +12,8 @@ import sys
 import tempfile
 import threading
 import types
-from typing import Any, Callable, Iterator
+from collections.abc import Callable, Iterator
+from typing import Any
 
 import pytest
 

@@ -8,7 +8,8 @@ from __future__ import annotations
 
 import os
 import time
-from typing import Any, Callable
+from collections.abc import Callable
+from typing import Any
 
 #: Seconds a wait may take, and seconds between two looks, unless a test file says otherwise.
 WAIT = 25.0

@@ -18,7 +18,7 @@ pytestmark = pytest.mark.browser
 def _write_csv(path: str, header: str, t: np.ndarray, p: np.ndarray) -> str:
     with open(path, "w", encoding="utf-8") as fh:
         fh.write(header + "\n")
-        for a, b in zip(t, p):
+        for a, b in zip(t, p, strict=True):
             fh.write(f"{a:g},{b:.4f}\n")
     return path
 
@@ -50,9 +50,8 @@ def test_demo_opens_with_every_panel(server_url: str, make_driver: Any, artifact
         assert not driver.find_elements("css selector", ".dash-debug-menu, .dash-fe-error__title")
         shot(driver, artifacts, f"01-demo-{width}x{height}")
     # keyboard: Tab reaches the K box, the row-exclusion box and the table's sort buttons
-    from selenium.webdriver.common.keys import Keys
-
     from selenium.webdriver.common.action_chains import ActionChains
+    from selenium.webdriver.common.keys import Keys
 
     reached: set[str] = set()
     wanted = {"model-k-input", "exclusion-row", "sort-button"}
@@ -114,7 +113,8 @@ def test_upload_switch_forms_and_change_k(server_url: str, make_driver: Any, art
     plot = driver.find_element(By.CSS_SELECTOR, "#panel-trajectory .js-plotly-plot")
     dx, dy = driver.execute_script(
         "var gd = arguments[0], r = gd.getBoundingClientRect();"
-        "var h = gd.querySelectorAll('.shape-group[data-index=\"0\"] path'), b = h[h.length - 1].getBoundingClientRect();"
+        "var h = gd.querySelectorAll('.shape-group[data-index=\"0\"] path');"
+        "var b = h[h.length - 1].getBoundingClientRect();"
         "return [b.left + b.width / 2 - r.left - r.width / 2, b.top + b.height / 2 - r.top - r.height / 2];", plot)
     ActionChains(driver).move_to_element_with_offset(plot, int(dx), int(dy)).pause(0.3).click_and_hold() \
         .move_by_offset(0, 10).move_by_offset(0, 30).pause(0.2).release().perform()

@@ -6,8 +6,9 @@ Screenshots go to tests/artifacts/ at 1280×800 and 1920×1080.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from functools import partial
-from typing import Any, Callable
+from typing import Any
 
 import pytest
 

@@ -15,8 +15,9 @@ import struct
 import tempfile
 import time
 import zlib
+from collections.abc import Callable, Iterator
 from functools import partial
-from typing import Any, Callable, Iterator
+from typing import Any
 
 import jsonschema
 import pytest

@@ -50,7 +50,9 @@ document.querySelectorAll('.view-bar, .panels > .panel, .panel-table').forEach(f
     if (e.scrollWidth > e.clientWidth + 1 && e.clientWidth > 0 && style.overflowX !== 'visible') {
       bad.push('clipped: ' + (e.id || e.className || e.tagName) + ' ' + e.scrollWidth + ' > ' + e.clientWidth);
     }
-    var own = Array.prototype.some.call(e.childNodes, function (n) { return n.nodeType === 3 && n.textContent.trim(); });
+    var own = Array.prototype.some.call(e.childNodes, function (n) {
+      return n.nodeType === 3 && n.textContent.trim();
+    });
     if (own) {
       var r = e.getBoundingClientRect();
       if (r.left < pb.left - 1 || r.right > pb.right + 1) {
@@ -165,11 +167,11 @@ def test_a_point_on_the_k_line_takes_the_click(server_url: str, make_driver: Any
         driver.execute_script("arguments[0].scrollIntoView({block: 'center'})", box)
         box.send_keys(Keys.CONTROL, "a")
         box.send_keys(str(p), Keys.ENTER)
-        wait(driver, lambda d: d.execute_script(
+        wait(driver, lambda d, p=p, axis_type="log" if scale == "log" else "linear": d.execute_script(
             "var gd = document.querySelector('#panel-trajectory .js-plotly-plot');"
             "var line = gd.data.find(x => x.meta === 'capacity');"
             "return line && line.y[0] === arguments[0] && gd._fullLayout.yaxis.type === arguments[1];", p,
-            "log" if scale == "log" else "linear"))
+            axis_type))
         wait_idle(driver)
         driver.execute_script("window.scrollTo(0, 0)")
         x, y = driver.execute_script(
@@ -183,6 +185,6 @@ def test_a_point_on_the_k_line_takes_the_click(server_url: str, make_driver: Any
         action.pointer_action.click()
         action.perform()
         row = index + 2  # the header is row 1
-        wait(driver, lambda d: f"row {row}:" in text(d, "exclusion-list"))
+        wait(driver, lambda d, row=row: f"row {row}:" in text(d, "exclusion-list"))
         wait_idle(driver)
     shot(driver, artifacts, "35-click-on-k-line", "panel-trajectory", block="center")

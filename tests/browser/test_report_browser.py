@@ -11,8 +11,8 @@ import pytest
 
 from growthcore.reopen import load_record
 from growthcore.report import write_html
-from tests.record_cases import FIXTURES
 from tests.browser.page import wait
+from tests.record_cases import FIXTURES
 
 #: No name resolves and no proxy answers: any fetch the page tried would fail.
 OFFLINE = ("--host-resolver-rules=MAP * ~NOTFOUND", "--proxy-server=127.0.0.1:9")

@@ -110,7 +110,8 @@ def _click_plate_well(driver: Any, row: int, col: int) -> None:
     driver.execute_script("arguments[0].scrollIntoView({block: 'center'})", plot)
     x, y = driver.execute_script(
         "var gd = arguments[0], L = gd._fullLayout, r = gd.getBoundingClientRect();"
-        "return [r.left + L.xaxis._offset + L.xaxis.l2p(arguments[2]), r.top + L.yaxis._offset + L.yaxis.l2p(arguments[1])];",
+        "return [r.left + L.xaxis._offset + L.xaxis.l2p(arguments[2]),"
+        "        r.top + L.yaxis._offset + L.yaxis.l2p(arguments[1])];",
         plot, row, col + 1)
     _click_at(driver, x, y)
 
@@ -124,7 +125,8 @@ def _click_grid_point(driver: Any, series: str) -> None:
               "var tr = gd.data.find(t => t.meta === 'points'), mine = [];"
               "tr.customdata.forEach((c, i) => { if (c[0] === arguments[1]) mine.push(i); });"
               "var k = mine[Math.floor(mine.length * 0.15)];"
-              "return [r.left + L.xaxis._offset + L.xaxis.l2p(tr.x[k]), r.top + L.yaxis._offset + L.yaxis.l2p(tr.y[k])];")
+              "return [r.left + L.xaxis._offset + L.xaxis.l2p(tr.x[k]),"
+              "        r.top + L.yaxis._offset + L.yaxis.l2p(tr.y[k])];")
     _, y = driver.execute_script(script, plot, series)
     driver.execute_script("window.scrollBy(0, arguments[0] - window.innerHeight / 2)", y)
     time.sleep(0.3)
@@ -227,7 +229,8 @@ def test_plate_overview_map_click_stop_and_groups(server_url: str, make_driver: 
     done = int(line.split("after ")[1].split(" of")[0])
     assert 0 < done < 384
     # the grid shows what the stopped run fitted, even when its last redraw was held back
-    wait(driver, lambda d: f"logistic (increments): series 1–96 of 384 · {384 - done} not fitted" in text(d, "batch-grid"))
+    shown = f"logistic (increments): series 1–96 of 384 · {384 - done} not fitted"
+    wait(driver, lambda d: shown in text(d, "batch-grid"))
     heat = driver.execute_script("var h = document.querySelector('#batch-plate .js-plotly-plot').data[0];"
                                  "return [h.z.length, h.z[0].length, h.text[15][23]];")
     assert heat == [16, 24, "not fitted yet"]
@@ -263,7 +266,7 @@ def test_group_means_f_test_and_table_download(server_url: str, make_driver: Any
     for tank, feed, r in (("F1", "fed", 0.9), ("F2", "fed", 0.85), ("F3", "fed", 0.95),
                           ("L1", "lean", 0.5), ("L2", "lean", 0.55), ("L3", "lean", 0.45)):
         counts = 200 / (1 + 49 * np.exp(-r * days)) * np.exp(rng.normal(0, 0.02, days.size))
-        lines += [f"{d},{tank},{feed},{c:.3f}" for d, c in zip(days, counts)]
+        lines += [f"{d},{tank},{feed},{c:.3f}" for d, c in zip(days, counts, strict=True)]
     path = tmp_path / "invented_tanks_by_feed.csv"
     path.write_text("\n".join(lines) + "\n", encoding="utf-8")
     downloads = tmp_path / "downloads"
