@@ -13,10 +13,10 @@ errors shows it as a message.
 
 from __future__ import annotations
 
+from collections.abc import Iterator
 from contextlib import contextmanager
 from contextvars import ContextVar
 from time import monotonic
-from typing import Iterator
 
 from growthcore.errors import GrowthcoreInputError
 

@@ -10,11 +10,11 @@ from __future__ import annotations
 import pickle
 import re
 import threading
-from typing import Any, Callable
+from collections.abc import Callable
+from typing import Any
 
 import numpy as np
 import pytest
-from tests.open_data import lynx, rdatasets, uspop
 
 import growthcore.budget as budget_module
 from growthcore.batch.tasks import Task, run_task
@@ -25,6 +25,7 @@ from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import fit
 from growthcore.mixed import fit_population
 from growthcore.uncertainty import bootstrap, derived_intervals, forecast
+from tests.open_data import lynx, rdatasets, uspop
 
 
 class Clock:

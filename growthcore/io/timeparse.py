@@ -137,7 +137,7 @@ def parse_calendar(text: str, day_first: bool = True) -> TimeCell | None:
         moment = _datetime_from_match(m, int(m.group("y")), month, day)
         if moment is None:
             return None
-        return TimeCell("naive" if m.group("H") else "date", moment=value)
+        return TimeCell("naive" if m.group("H") else "date", moment=moment)
     return None
 
 
