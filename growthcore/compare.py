@@ -12,6 +12,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from growthcore.fit.result import FitResult
+from growthcore.numbers import finite_or_none
 from growthcore.stats import akaike_weights
 
 
@@ -73,10 +74,6 @@ def _group(f: FitResult) -> tuple[str, str, int]:
     return (f.method, f.error, f.metrics.n if f.metrics else -1)
 
 
-def _num(x: float | None) -> float | None:
-    return float(x) if x is not None and math.isfinite(x) else None
-
-
 def compare(fits: Sequence[FitResult]) -> list[ComparisonRow]:
     """One row per fit, best by AICc first within each comparable group; failed fits last."""
     deltas: dict[int, tuple[float | None, float | None]] = {}
@@ -94,7 +91,7 @@ def compare(fits: Sequence[FitResult]) -> list[ComparisonRow]:
             delta = a - low
             if math.isfinite(delta) and abs(delta) <= TIE_RTOL * max(1.0, abs(low)):
                 delta = 0.0  # equal criteria up to round-off
-            deltas[i] = (_num(delta), _num(w))
+            deltas[i] = (finite_or_none(delta), finite_or_none(w))
         tied = [i for i in members if deltas[i][0] == 0.0]
         if tied:
             best.add(tied[0])  # one best per comparable group; a tie is said in the warnings
@@ -112,14 +109,14 @@ def compare(fits: Sequence[FitResult]) -> list[ComparisonRow]:
                 parameters={p.name: p.to_dict() for p in f.parameters},
                 n=m.n if m else None,
                 n_params=m.n_params if m else None,
-                sse=_num(m.sse) if m else None,
-                rmse=_num(m.rmse) if m else None,
-                r2=_num(m.r2) if m else None,
-                r2_uncentered=_num(m.r2_uncentered) if m and m.r2_uncentered is not None else None,
-                aicc=_num(m.aicc) if m else None,
+                sse=finite_or_none(m.sse) if m else None,
+                rmse=finite_or_none(m.rmse) if m else None,
+                r2=finite_or_none(m.r2) if m else None,
+                r2_uncentered=finite_or_none(m.r2_uncentered) if m and m.r2_uncentered is not None else None,
+                aicc=finite_or_none(m.aicc) if m else None,
                 delta_aicc=delta_aicc,
                 weight=weight,
-                bic=_num(m.bic) if m else None,
+                bic=finite_or_none(m.bic) if m else None,
                 systematic_misfit=f.diagnostics.systematic if f.diagnostics else None,
                 warnings=f.notes + ((f.diagnostics.message,) if f.diagnostics and f.diagnostics.systematic else ())
                 + _tie_note(i, fits, deltas, best),

@@ -9,6 +9,7 @@ from functools import cached_property
 import numpy as np
 
 from growthcore.errors import GrowthcoreInputError
+from growthcore.numbers import finite_or_none
 
 #: Relative tolerance on the step when deciding whether sampling is regular (times written in full).
 STEP_TOLERANCE = 1e-6
@@ -245,7 +246,7 @@ class Series:
         return [
             {
                 "t": float(self.t[i]),
-                "p": float(self.p[i]) if np.isfinite(self.p[i]) else None,
+                "p": finite_or_none(self.p[i]),
                 "used": bool(used[i]),
                 "reason": self.reason(i),
             }

@@ -24,6 +24,7 @@ from scipy.optimize import brentq, minimize_scalar
 from growthcore.fit.result import FitResult
 from growthcore.fit.simulate import iterate
 from growthcore.models.base import CurveForm, DifferenceForm, ModelForm
+from growthcore.numbers import finite_or_none
 
 Array = np.ndarray
 MAX_STEPS = 10_000
@@ -76,12 +77,12 @@ def equilibria(form: ModelForm, values: Mapping[str, float], upper: float) -> li
         if isinstance(form, DifferenceForm):
             multiplier = 1.0 + slope
             stable = bool(math.isfinite(multiplier) and abs(multiplier) < 1.0)
-            out.append({"value": root, "multiplier": multiplier if math.isfinite(multiplier) else None,
+            out.append({"value": root, "multiplier": finite_or_none(multiplier),
                         "stable": stable, "rule": MAP_RULE})
         else:
             # a growth curve is the solution of dp/dt = F(p): its equilibria have a rate slope, not a multiplier
             stable = bool(math.isfinite(slope) and slope < 0.0)
-            out.append({"value": root, "multiplier": None, "rate_slope": slope if math.isfinite(slope) else None,
+            out.append({"value": root, "multiplier": None, "rate_slope": finite_or_none(slope),
                         "stable": stable, "rule": FLOW_RULE})
     return out
 
@@ -111,10 +112,6 @@ def _derived(result: FitResult) -> dict[str, Any]:
     return out
 
 
-def _finite(x: float) -> float | None:
-    return float(x) if x is not None and math.isfinite(x) else None
-
-
 def _difference_summary(result: FitResult, form: DifferenceForm, values: Mapping[str, float],
                         hi: float) -> dict[str, Any]:
     assert result.grid is not None
@@ -127,8 +124,8 @@ def _difference_summary(result: FitResult, form: DifferenceForm, values: Mapping
     change = _rate(form, states, values)
     out: dict[str, Any] = {
         "step": h,
-        "growth_factor_per_step": _finite(factor),
-        "doubling_time": _finite(doubling),
+        "growth_factor_per_step": finite_or_none(factor),
+        "doubling_time": finite_or_none(doubling),
     }
     if np.any(np.isfinite(change)) and np.nanmax(change) > 0:
         j = int(np.nanargmax(change))
@@ -140,8 +137,8 @@ def _difference_summary(result: FitResult, form: DifferenceForm, values: Mapping
         out["max_rate"] = mu
         path = iterate(form, p_s, values, MAX_STEPS // 10)
         t_i = _first_crossing(result.grid.t0 + h * np.arange(path.size), path, p_i)
-        out["inflection_time"] = _finite(t_i)
-        out["lag_time"] = _finite(t_i - (p_i - p_s) / mu) if math.isfinite(t_i) and mu > 0 else None
+        out["inflection_time"] = finite_or_none(t_i)
+        out["lag_time"] = finite_or_none(t_i - (p_i - p_s) / mu) if math.isfinite(t_i) and mu > 0 else None
     return out
 
 
@@ -154,8 +151,8 @@ def _curve_summary(result: FitResult, form: CurveForm, values: Mapping[str, floa
     with np.errstate(all="ignore"):
         specific = float(form.rate(np.array([p0]), values)[0] / p0) if p0 > 0 else math.nan
     out: dict[str, Any] = {
-        "specific_rate_at_start": _finite(specific),
-        "doubling_time": _finite(math.log(2.0) / specific) if math.isfinite(specific) and specific > 0 else None,
+        "specific_rate_at_start": finite_or_none(specific),
+        "doubling_time": finite_or_none(math.log(2.0) / specific) if math.isfinite(specific) and specific > 0 else None,
     }
     if form.id in NO_DOUBLING:
         # growth that slows from the first moment on does not double at a steady rate
@@ -174,8 +171,9 @@ def _curve_summary(result: FitResult, form: CurveForm, values: Mapping[str, floa
             out["inflection_state"] = p_i if interior else None
             out["max_rate"] = mu
             t_i = time_to_reach(result, p_i) if interior else (0.0 if j == 0 else math.nan)
-            out["inflection_time"] = _finite(t_i)
-            out["lag_time"] = _finite(t_i - (p_i - p0) / mu) if math.isfinite(t_i) and mu > 0 and interior else None
+            out["inflection_time"] = finite_or_none(t_i)
+            has_lag = math.isfinite(t_i) and mu > 0 and interior
+            out["lag_time"] = finite_or_none(t_i - (p_i - p0) / mu) if has_lag else None
     if form.id in NO_DOUBLING:
         out["inflection_time"] = None
     return out

@@ -22,13 +22,10 @@ from growthcore.compare import compare, comparison_notes
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import FitResult, fit
-from growthcore.fit.result import CapacityProfile, Grid, ParameterEstimate
 from growthcore.io.report import ImportReport
 from growthcore.limits import DEFAULT as DEFAULT_LIMITS
-from growthcore.models.catalogue import get_form
 from growthcore.record import FORMAT, DataSource, build_record, integrity_problem, seal
 from growthcore.schemas import available_versions, record_errors
-from growthcore.stats import Diagnostics, Metrics
 
 #: Records larger than this are refused before parsing; every input the import accepts makes a
 #: smaller record (see growthcore.limits).
@@ -38,6 +35,8 @@ MAX_RECORD_BYTES = DEFAULT_LIMITS.max_record_bytes
 RTOL = 1e-6
 #: Fit members that describe the fit rather than hold numbers to repeat.
 _TEXT_KEYS = frozenset({"message", "notes", "equation", "description", "unit", "warnings"})
+#: How a fit reached its optimum, not what the optimum is: not compared (older records lack them).
+_HOW_KEYS = frozenset({"solver", "nfev"})
 #: Members written by steps after the fit (growthcore.cli.fit_uncertainty); a plain refit does not
 #: remake them.
 LATER_KEYS = frozenset({"dynamics", "forecast", "forecast_notes", "bootstrap", "derived_intervals", "ci95_bootstrap"})
@@ -265,14 +264,14 @@ def differences(stored: Any, new: Any, where: str = "", *, atol: float = 0.0, rt
             return
         if isinstance(a, Mapping) and isinstance(b, Mapping):
             for key in a:
-                if key in _TEXT_KEYS or key in skip:
+                if key in _TEXT_KEYS or key in _HOW_KEYS or key in skip:
                     continue
                 if key not in b:
                     out.append(Difference(f"{at}.{key}", a[key], "(absent)"))
                 else:
                     walk(a[key], b[key], f"{at}.{key}")
             for key in b:
-                if key not in a and key not in _TEXT_KEYS and key not in skip:
+                if key not in a and key not in _TEXT_KEYS and key not in _HOW_KEYS and key not in skip:
                     out.append(Difference(f"{at}.{key}", "(absent)", b[key]))
         elif isinstance(a, list) and isinstance(b, list):
             if len(a) != len(b):
@@ -324,65 +323,10 @@ def recompute(record: Mapping[str, Any], *, name: str = "record", rtol: float = 
                                  atol=atol, rtol=rtol, skip=skip))
     return Recomputation(fits, new, tuple(found), tuple(later))
 
-def _nan(x: Any) -> float:
-    return math.nan if x is None else float(x)
-
-
-def _pair(x: Any) -> tuple[float, float] | None:
-    return None if x is None else (_nan(x[0]), _nan(x[1]))
-
 
 def fit_from_dict(d: Mapping[str, Any]) -> FitResult:
-    """The fit result a record's fit entry describes, without fitting again.
-
-    Numbers are taken as stored (``None`` becomes NaN); the form comes from the catalogue by its
-    id and terms, so paths, predictions and derived quantities can be drawn from the record alone.
-    """
-    terms = tuple(d.get("terms") or ())
-    try:
-        form = get_form(str(d["model"]), terms=terms)
-    except GrowthcoreInputError:
-        form = None
-    params = tuple(
-        ParameterEstimate(name, _nan(p["value"]), None if p["se"] is None else float(p["se"]), _pair(p["ci95"]),
-                          bool(p["fixed"]), bool(p.get("at_bound", False)), str(p.get("description", "")),
-                          str(p.get("unit", "")))
-        for name, p in d.get("parameters", {}).items()
-    )
-    m = d.get("metrics")
-    metrics = None
-    if m is not None:
-        metrics = Metrics(
-            n=int(m["n"]), n_params=int(m["n_params"]), sse=_nan(m.get("sse")), rmse=_nan(m.get("rmse")),
-            residual_sd=_nan(m.get("residual_sd")), r2=_nan(m.get("r2")), r2_adjusted=_nan(m.get("r2_adjusted")),
-            log_likelihood=_nan(m.get("log_likelihood")), aic=_nan(m.get("aic")), aicc=_nan(m.get("aicc")),
-            bic=_nan(m.get("bic")), r2_uncentered=None if m.get("r2_uncentered") is None else float(m["r2_uncentered"]))
-    g = d.get("diagnostics")
-    diagnostics = None
-    if g is not None:
-        diagnostics = Diagnostics(_nan(g["durbin_watson"]), int(g["runs"]), _nan(g.get("runs_expected")),
-                                  _nan(g.get("runs_z")), _nan(g.get("runs_p")), bool(g["systematic"]),
-                                  str(g["message"]))
-    res = d.get("residuals") or []
-    corr = d.get("correlation")
-    prof = d.get("capacity_profile")
-    grid = d.get("grid")
-    return FitResult(
-        model=str(d["model"]), method=str(d["method"]), error=str(d["error"]), status=str(d["status"]),
-        message=str(d["message"]), form=form, parameters=params, metrics=metrics, diagnostics=diagnostics,
-        t=np.array([float(r["t"]) for r in res]), observed=np.array([float(r["observed"]) for r in res]),
-        predicted=np.array([_nan(r["predicted"]) for r in res]), residuals=np.array([_nan(r["residual"]) for r in res]),
-        correlation=None if corr is None else np.array([[_nan(v) for v in row] for row in corr["matrix"]]),
-        profile=None if prof is None else CapacityProfile(
-            np.array([float(v) for v in prof["K"]]), np.array([_nan(v) for v in prof["sse"]]),
-            _nan(prof["threshold"]), (prof["interval"][0], prof["interval"][1]) if prof["interval"] else (None, None),
-            str(prof.get("message", "")), _nan(prof.get("threshold_lr")),
-            tuple(prof.get("interval_lr") or (None, None))),
-        notes=tuple(str(n) for n in d.get("notes", ())),
-        grid=None if grid is None else Grid(float(grid["t0"]), float(grid["h"])),
-        terms=terms if d["model"] == "custom" else (),
-        settings=dict(d.get("settings") or {}),
-    )
+    """The fit result a record's fit entry describes, without fitting again (see FitResult.from_dict)."""
+    return FitResult.from_dict(d)
 
 
 def fits_from_record(record: Mapping[str, Any]) -> list[FitResult]:

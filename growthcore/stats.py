@@ -11,10 +11,14 @@ AIC = −2 log L + 2q, AICc = AIC + 2q(q + 1)/(n − q − 1), BIC = −2 log L 
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 from scipy import special
+
+from growthcore.numbers import finite_or_none
 
 Array = np.ndarray
 
@@ -87,13 +91,29 @@ class Metrics:
     r2_uncentered: float | None = None
 
     def to_dict(self) -> dict[str, float | int | None]:
-        return {k: _finite_or_none(v) for k, v in self.__dict__.items()}
+        return {k: _json_number(v) for k, v in self.__dict__.items()}
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> Metrics:
+        """The metrics a :meth:`to_dict` wrote (None becomes NaN)."""
+        r2u = d.get("r2_uncentered")
+        return cls(
+            n=int(d["n"]), n_params=int(d["n_params"]), sse=_nan(d.get("sse")), rmse=_nan(d.get("rmse")),
+            residual_sd=_nan(d.get("residual_sd")), r2=_nan(d.get("r2")), r2_adjusted=_nan(d.get("r2_adjusted")),
+            log_likelihood=_nan(d.get("log_likelihood")), aic=_nan(d.get("aic")), aicc=_nan(d.get("aicc")),
+            bic=_nan(d.get("bic")), r2_uncentered=None if r2u is None else float(r2u))
 
 
-def _finite_or_none(v: float | int | None) -> float | int | None:
-    if v is None or isinstance(v, int):
-        return v
-    return float(v) if math.isfinite(v) else None
+def _nan(x: Any) -> float:
+    """A stored number back as a float: None (a non-finite value when written) becomes NaN."""
+    return math.nan if x is None else float(x)
+
+
+def _json_number(v: float | int | None) -> float | int | None:
+    """Counts as they are; other numbers finite or None."""
+    return v if isinstance(v, int) else finite_or_none(v)
+
+
 
 
 def fit_metrics(
@@ -169,11 +189,19 @@ class Diagnostics:
     lack_of_fit: LackOfFit | None = None
 
     def to_dict(self) -> dict[str, object]:
-        out = {k: (_finite_or_none(v) if isinstance(v, float) else v) for k, v in self.__dict__.items()
+        out = {k: (_json_number(v) if isinstance(v, float) else v) for k, v in self.__dict__.items()
                if k != "lack_of_fit"}
         if self.lack_of_fit is not None:
             out["lack_of_fit"] = self.lack_of_fit.to_dict()
         return out
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> Diagnostics:
+        lof = d.get("lack_of_fit")
+        return cls(durbin_watson=_nan(d["durbin_watson"]), runs=int(d["runs"]),
+                   runs_expected=_nan(d.get("runs_expected")), runs_z=_nan(d.get("runs_z")),
+                   runs_p=_nan(d.get("runs_p")), systematic=bool(d["systematic"]), message=str(d["message"]),
+                   lack_of_fit=None if lof is None else LackOfFit.from_dict(lof))
 
 
 @dataclass(frozen=True)
@@ -189,7 +217,13 @@ class LackOfFit:
     message: str
 
     def to_dict(self) -> dict[str, object]:
-        return {k: (_finite_or_none(v) if isinstance(v, float) else v) for k, v in self.__dict__.items()}
+        return {k: (_json_number(v) if isinstance(v, float) else v) for k, v in self.__dict__.items()}
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> LackOfFit:
+        return cls(ss_pure_error=_nan(d["ss_pure_error"]), df_pure_error=int(d["df_pure_error"]),
+                   ss_lack_of_fit=_nan(d["ss_lack_of_fit"]), df_lack_of_fit=int(d["df_lack_of_fit"]),
+                   f=_nan(d["f"]), p=_nan(d["p"]), message=str(d["message"]))
 
 
 def lack_of_fit(t: Array, observed: Array, predicted: Array, n_params: int) -> LackOfFit | None:

@@ -26,6 +26,7 @@ from growthcore.batch.pooled import JointFit, joint_fit
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.models.catalogue import get_form
+from growthcore.numbers import finite_or_none
 
 
 @dataclass(frozen=True)
@@ -49,13 +50,12 @@ class GroupDifferenceTest:
     method: str = "trajectory"
 
     def to_dict(self) -> dict[str, Any]:
-        def num(x: float) -> float | None:
-            return float(x) if math.isfinite(x) else None
         return {"model": self.model, "parameter": self.parameter, "groups": list(self.groups),
                 "status": self.status, "message": self.message,
-                "sse_full": num(self.sse_full), "df_full": self.df_full,
-                "sse_reduced": num(self.sse_reduced), "df_reduced": self.df_reduced,
-                "f": num(self.f), "df_numerator": self.df_reduced - self.df_full, "p_value": num(self.p_value),
+                "sse_full": finite_or_none(self.sse_full), "df_full": self.df_full,
+                "sse_reduced": finite_or_none(self.sse_reduced), "df_reduced": self.df_reduced,
+                "f": finite_or_none(self.f), "df_numerator": self.df_reduced - self.df_full,
+                "p_value": finite_or_none(self.p_value),
                 "method": self.method}
 
 

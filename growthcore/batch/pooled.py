@@ -26,7 +26,7 @@ from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import fit
 from growthcore.fit.nls import solve
 from growthcore.fit.problem import Problem, build_result
-from growthcore.fit.result import FitResult, failed
+from growthcore.fit.result import FitResult, as_error_model, failed
 from growthcore.models.catalogue import get_form
 
 SCOPES: tuple[str, ...] = ("all", "group", "series")
@@ -146,7 +146,7 @@ def joint_fit(
     def predict(cols: Array) -> Array:
         return np.concatenate([p.problem.predict(cols[index[j]]) for j, p in enumerate(preps)], axis=0)
 
-    problem = Problem(form.id, "trajectory", error, form, specs, tuple(joint_names), {}, predict,
+    problem = Problem(form.id, "trajectory", as_error_model(error), form, specs, tuple(joint_names), {}, predict,
                       np.concatenate([p.problem.t for p in preps]), np.concatenate([p.problem.observed for p in preps]),
                       settings={"fixed": {}, "joint": {"series": list(names), "points": sizes, "scopes": dict(scoped)}})
     x0 = _joint_start(preps, series, form.id, error, base, index, len(joint_names), start, joint_names)
@@ -161,7 +161,7 @@ def joint_fit(
     notes = () if outcome.success else (f"optimiser stopped before full convergence: {outcome.message}",)
     result = build_result(problem, outcome.x,
                           message=f"joint nonlinear least squares on {len(series)} paths ({outcome.message})",
-                          notes=notes)
+                          notes=notes, solver=outcome.solver, nfev=outcome.nfev)
     return JointFit(form.id, error, names, labels, scoped, result)
 
 

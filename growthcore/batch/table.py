@@ -2,23 +2,15 @@
 
 from __future__ import annotations
 
-import math
 from typing import Any
 
 from growthcore.batch.runner import BatchResult, SeriesFit
+from growthcore.stats import _json_number
 
 #: Metric columns, in order; all come from :class:`growthcore.stats.Metrics`. ``r2`` is the centered R² of
 #: the states; ``r2_uncentered`` the uncentered R² of the regression of Δp (increments fits only).
 METRICS: tuple[str, ...] = ("n", "sse", "rmse", "r2", "r2_adjusted", "r2_uncentered", "aic", "aicc", "bic")
 LEAD: tuple[str, ...] = ("series", "group", "model", "method", "error", "status", "message", "points_used")
-
-
-def _num(x: float | int | None) -> float | int | None:
-    if x is None:
-        return None
-    if isinstance(x, int):
-        return x
-    return float(x) if math.isfinite(x) else None
 
 
 def parameter_names(batch: BatchResult) -> list[str]:
@@ -43,13 +35,13 @@ def row(fit: SeriesFit, params: list[str], used: int | None = None) -> dict[str,
     values = {p.name: p for p in r.parameters}
     for n in params:
         p = values.get(n)
-        out[n] = _num(p.value) if p is not None else None
-        out[f"{n}_se"] = _num(p.se) if p is not None else None
+        out[n] = _json_number(p.value) if p is not None else None
+        out[f"{n}_se"] = _json_number(p.se) if p is not None else None
     for m in METRICS:
-        out[m] = _num(getattr(r.metrics, m)) if r.metrics is not None else None
+        out[m] = _json_number(getattr(r.metrics, m)) if r.metrics is not None else None
     d = r.diagnostics
-    out["durbin_watson"] = _num(d.durbin_watson) if d is not None else None
-    out["runs_p"] = _num(d.runs_p) if d is not None else None
+    out["durbin_watson"] = _json_number(d.durbin_watson) if d is not None else None
+    out["runs_p"] = _json_number(d.runs_p) if d is not None else None
     out["notes"] = "; ".join(r.notes)
     out["solver"] = fit.path
     return out

@@ -160,7 +160,8 @@ def fit_vectorised(form: ModelForm, preps: Sequence[Prepared], *, error: str,
         size = prep.problem.observed.size
         problem = replace(prep.problem, predict=_Known(prep.problem.predict, x_done[:, c], pred[:size, c]))
         result = build_result(problem, x_done[:, c], jac=jac[c, :size],
-                              message=f"nonlinear least squares on the path ({iterations_note})")
+                              message=f"nonlinear least squares on the path ({iterations_note})",
+                              solver="batched-lm")
         if result.metrics is not None and np.isfinite(result.metrics.sse):
             out[j] = result
     return out

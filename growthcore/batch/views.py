@@ -4,12 +4,11 @@ from __future__ import annotations
 
 from typing import Any
 
-import numpy as np
-
 from growthcore.batch.plate import parse_well
 from growthcore.batch.runner import BatchResult
 from growthcore.budget import BudgetExceeded
 from growthcore.errors import GrowthcoreInputError
+from growthcore.numbers import finite_list, finite_or_none
 
 
 def overview_panels(batch: BatchResult, model: str) -> list[dict[str, Any]]:
@@ -27,14 +26,14 @@ def overview_panels(batch: BatchResult, model: str) -> list[dict[str, Any]]:
             try:
                 pt, pp = r.path(float(s.t[-1]))
                 fit_t = [float(v) for v in pt]
-                fit_p = [float(v) if np.isfinite(v) else None for v in pp]
+                fit_p = finite_list(pp)
             except BudgetExceeded:
                 raise
             except GrowthcoreInputError:
                 pass
         out.append({
             "series": s.name, "group": f.group, "t": [float(v) for v in s.t],
-            "p": [float(v) if np.isfinite(v) else None for v in s.p], "used": [bool(u) for u in s.used],
+            "p": finite_list(s.p), "used": [bool(u) for u in s.used],
             "fit_t": fit_t, "fit_p": fit_p, "status": r.status, "message": r.message,
         })
     return out
@@ -60,6 +59,6 @@ def plate_values(batch: BatchResult, model: str, quantity: str) -> dict[str, dic
                 names = [*r.values, "sse", "rmse", "r2", "r2_adjusted", "aic", "aicc", "bic"]
                 raise GrowthcoreInputError(
                     f"{model} has no constant or metric {quantity!r}; choose one of {', '.join(names)}")
-        out[f.series] = {"value": float(value) if value is not None and np.isfinite(value) else None,
+        out[f.series] = {"value": finite_or_none(value),
                          "status": r.status, "message": r.message}
     return out

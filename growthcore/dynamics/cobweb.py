@@ -10,6 +10,7 @@ import numpy as np
 
 from growthcore.fit.simulate import iterate
 from growthcore.models.base import DifferenceForm
+from growthcore.numbers import finite_list
 
 Array = np.ndarray
 
@@ -26,9 +27,8 @@ class Cobweb:
     equilibria: tuple[Mapping[str, Any], ...]
 
     def to_dict(self) -> dict[str, Any]:
-        clean = lambda a: [float(v) if np.isfinite(v) else None for v in a]  # noqa: E731
-        return {"p": clean(self.p), "f": clean(self.f), "stairs_x": clean(self.stairs_x),
-                "stairs_y": clean(self.stairs_y), "orbit": clean(self.orbit),
+        return {"p": finite_list(self.p), "f": finite_list(self.f), "stairs_x": finite_list(self.stairs_x),
+                "stairs_y": finite_list(self.stairs_y), "orbit": finite_list(self.orbit),
                 "equilibria": [dict(e) for e in self.equilibria]}
 
 

@@ -26,6 +26,7 @@ import numpy as np
 from growthcore.budget import check_budget
 from growthcore.fit.simulate import iterate
 from growthcore.models.base import DifferenceForm
+from growthcore.numbers import finite_or_none
 
 Array = np.ndarray
 KINDS: tuple[str, ...] = ("monotone", "damped-oscillation", "cycle", "chaos", "unbounded", "extinction")
@@ -49,8 +50,7 @@ class LongRun:
     start: float
 
     def to_dict(self) -> dict[str, Any]:
-        lyap = self.lyapunov if self.lyapunov is not None and math.isfinite(self.lyapunov) else None
-        return {"kind": self.kind, "period": self.period, "lyapunov": lyap,
+        return {"kind": self.kind, "period": self.period, "lyapunov": finite_or_none(self.lyapunov),
                 "states": [float(s) for s in self.states], "start": float(self.start)}
 
 
@@ -78,7 +78,7 @@ class LongRunBatch:
         else:
             states = ()
         lyap = float(self.lyapunov[j])
-        return LongRun(kind, period, lyap if math.isfinite(lyap) else None, states, self.start)
+        return LongRun(kind, period, finite_or_none(lyap), states, self.start)
 
 
 def classify(

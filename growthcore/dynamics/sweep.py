@@ -13,6 +13,7 @@ from growthcore.dynamics.longrun import KINDS, classify
 from growthcore.dynamics.regimes import rate_parameter, state_scale
 from growthcore.fit.result import FitResult
 from growthcore.models.base import DifferenceForm
+from growthcore.numbers import finite_list
 
 Array = np.ndarray
 
@@ -33,10 +34,9 @@ class Sweep:
     interval: tuple[float, float] | None
 
     def to_dict(self) -> dict[str, Any]:
-        clean = lambda a: [float(v) if np.isfinite(v) else None for v in a]  # noqa: E731
-        return {"parameter": self.parameter, "grid": clean(self.grid), "kinds": list(self.kinds),
-                "periods": list(self.periods), "lyapunov": clean(self.lyapunov), "rate": clean(self.rate),
-                "states": clean(self.states), "estimate": self.estimate,
+        return {"parameter": self.parameter, "grid": finite_list(self.grid), "kinds": list(self.kinds),
+                "periods": list(self.periods), "lyapunov": finite_list(self.lyapunov), "rate": finite_list(self.rate),
+                "states": finite_list(self.states), "estimate": self.estimate,
                 "interval": list(self.interval) if self.interval else None}
 
 

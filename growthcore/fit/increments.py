@@ -157,7 +157,10 @@ def _fit_linear(problem: Problem, form: DifferenceForm, x: Array, dy: Array, sta
         jac = np.column_stack([_column(form, problem, x, all_values, n) for n in problem.free])
     message = "closed-form least squares through the origin" if not free_shape else \
         f"least squares through the origin, {', '.join(free_shape)} by minimising the concentrated SSE"
-    return build_result(problem, xvec, message=message, jac=jac, r2_uncentered=r2u)
+    if free_shape:
+        return build_result(problem, xvec, message=message, jac=jac, r2_uncentered=r2u,
+                            solver=outcome.solver, nfev=outcome.nfev)
+    return build_result(problem, xvec, message=message, jac=jac, r2_uncentered=r2u, solver="linear")
 
 
 def _column(form: DifferenceForm, problem: Problem, x: Array, values: Mapping[str, float], name: str) -> Array:
@@ -204,4 +207,5 @@ def _fit_nonlinear(problem: Problem, form: DifferenceForm, x: Array, start: Mapp
     if not best.success:
         return failed(problem.model, "increments", "additive",
                       f"nonlinear least squares of p_{{n+1}} on p_n did not converge: {best.message}", form=form)
-    return build_result(problem, best.x, message=f"nonlinear least squares of p_{{n+1}} on p_n ({best.message})")
+    return build_result(problem, best.x, message=f"nonlinear least squares of p_{{n+1}} on p_n ({best.message})",
+                        solver=best.solver, nfev=best.nfev)

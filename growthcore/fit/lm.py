@@ -18,7 +18,7 @@ from typing import Any
 import numpy as np
 
 from growthcore.budget import check_budget
-from growthcore.fit.nls import STOP_REASONS, NLSOutcome
+from growthcore.fit.nls import NLSOutcome
 
 Array = np.ndarray
 #: x (plain floats) ↦ (residuals r, their sum of squares, a function giving M = d predictions / dx
@@ -55,11 +55,11 @@ def solve_exact(
     x = [min(max(v, a), b) for v, a, b in zip(np.asarray(x0, dtype=float).tolist(), lo, hi, strict=True)]
     last = evaluate(x)
     if last is None:
-        return _stopped(x, 1, "the starting point gives a non-finite path")
+        return _stopped(x, 1, -1)
     sse, jac = last[1], last[2]()
     normal = _normal_equations(jac, last[0])
     if normal is None:
-        return _stopped(x, 1, "the Jacobian is not finite at the start")
+        return _stopped(x, 1, -2)
     a, g = normal
     scale = [max(a[i][i], 1e-300) for i in range(len(x))]
     damping, growth, nfev = 1e-3, 2.0, 1
@@ -88,12 +88,13 @@ def solve_exact(
         x, last, sse, jac = trial, out, out[1], out[2]()
         normal = _normal_equations(jac, last[0])
         if normal is None:
-            return _stopped(x, nfev, "the Jacobian is not finite")
+            return _stopped(x, nfev, -3)
         a, g = normal
         scale = [max(s, a[i][i]) for i, s in enumerate(scale)]
         damping *= max(1.0 / 3.0, 1.0 - (2.0 * ratio - 1.0) ** 3)
         growth = 2.0
-    return NLSOutcome(np.array(x), last[0], sse, False, STOP_REASONS[5], nfev, True, jac, last[3])
+    return NLSOutcome(x=np.array(x), residuals=last[0], sse=sse, status=5, solver="exact-lm", nfev=nfev, finite=True,
+                      jac=jac, predicted=last[3])
 
 
 def _normal_equations(jac: Array, r: Array) -> tuple[list[list[float]], list[float]] | None:
@@ -156,10 +157,12 @@ def _quadratic(a: list[list[float]], s: list[float]) -> float:
     return sum(si * sum(map(mul, row, s)) for si, row in zip(s, a, strict=True))
 
 
-def _converged(x: list[float], at_x: tuple[Any, ...], jac: Array, reason: int, nfev: int) -> NLSOutcome:
+def _converged(x: list[float], at_x: tuple[Any, ...], jac: Array, status: int, nfev: int) -> NLSOutcome:
     """``at_x`` is the evaluation at x: (residuals, sse, Jacobian function, predicted states)."""
-    return NLSOutcome(np.array(x), at_x[0], at_x[1], True, STOP_REASONS[reason], nfev, True, jac, at_x[3])
+    return NLSOutcome(x=np.array(x), residuals=at_x[0], sse=at_x[1], status=status, solver="exact-lm", nfev=nfev,
+                      finite=True, jac=jac, predicted=at_x[3])
 
 
-def _stopped(x: list[float], nfev: int, message: str) -> NLSOutcome:
-    return NLSOutcome(np.array(x), np.array([]), math.inf, False, message, nfev, False)
+def _stopped(x: list[float], nfev: int, status: int) -> NLSOutcome:
+    return NLSOutcome(x=np.array(x), residuals=np.array([]), sse=math.inf, status=status, solver="exact-lm", nfev=nfev,
+                      finite=False)

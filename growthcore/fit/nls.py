@@ -9,6 +9,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import Literal
 
 import numpy as np
 from scipy.optimize import leastsq
@@ -22,27 +23,59 @@ VectorResiduals = Callable[[Array], Array]
 PENALTY_FACTOR = 1e6
 
 
-#: MINPACK's stopping codes in our words.
-STOP_REASONS = {
+#: Which solver ran: the exact-Jacobian Levenberg–Marquardt of :mod:`growthcore.fit.lm`, or MINPACK.
+Solver = Literal["exact-lm", "minpack"]
+
+#: What a solver's status means, in our words: the one table of stop messages (as
+#: scipy.optimize.least_squares keeps its termination messages). 1 to 8 are MINPACK's codes (the
+#: ``ier`` of leastsq), which the exact-Jacobian solver uses too; 0 and below are stops before any
+#: optimum.
+STATUS_MESSAGES: dict[int, str] = {
+    -3: "the Jacobian is not finite",
+    -2: "the Jacobian is not finite at the start",
+    -1: "the starting point gives a non-finite path",
+    0: "optimiser stopped",
     1: "converged: the sum of squares stopped falling",
     2: "converged: the constants stopped changing",
     3: "converged: the sum of squares and the constants stopped changing",
     4: "converged: the residuals are orthogonal to every direction the constants can move",
     5: "stopped at the evaluation limit before converging",
+    6: "stopped: the sum of squares cannot fall further at this tolerance",
+    7: "stopped: the constants cannot improve further at this tolerance",
+    8: "stopped: the residuals are orthogonal to the Jacobian to machine precision",
 }
+#: The statuses that count as convergence.
+CONVERGED = frozenset({1, 2, 3, 4})
 
 
-@dataclass(frozen=True)
+def status_message(status: int, detail: str = "") -> str:
+    """The message of ``status``, with ``detail`` (such as the error that stopped the solver) after it."""
+    text = STATUS_MESSAGES.get(status, STATUS_MESSAGES[0])
+    return f"{text}: {detail}" if detail else text
+
+
+@dataclass(frozen=True, kw_only=True)
 class NLSOutcome:
+    """Where a solver stopped, why (``status``, see :data:`STATUS_MESSAGES`) and at what cost."""
+
     x: Array
     residuals: Array
     sse: float
-    success: bool
-    message: str
+    status: int
+    solver: Solver
     nfev: int
     finite: bool
+    detail: str = ""  # what the status message alone does not say (the error that stopped the solver)
     jac: Array | None = None  # d predictions (on the error scale) / dx at x, when the solver had it exactly
     predicted: Array | None = None  # the predicted states at x, when the solver had them
+
+    @property
+    def success(self) -> bool:
+        return self.status in CONVERGED and self.finite
+
+    @property
+    def message(self) -> str:
+        return status_message(self.status, self.detail)
 
 
 def _steps(x: Array, rel: float) -> Array:
@@ -167,7 +200,8 @@ def solve(
     except BudgetExceeded:
         raise  # out of time stops the request; it is not a failure of this fit
     except (ValueError, TypeError, np.linalg.LinAlgError, FloatingPointError) as exc:
-        return NLSOutcome(x0, np.array([]), math.inf, False, f"optimiser stopped: {exc}", 0, False)
+        return NLSOutcome(x=x0, residuals=np.array([]), sse=math.inf, status=0, solver="minpack", nfev=0,
+                          finite=False, detail=str(exc))
     x = coords.to_x(np.asarray(u, dtype=float))
     with np.errstate(all="ignore"):
         raw = fn(x[:, None])[:, 0]
@@ -175,6 +209,7 @@ def solve(
     with np.errstate(over="ignore"):
         sse = float(raw @ raw) if finite else math.inf
     finite = finite and math.isfinite(sse)  # finite residuals can still overflow when squared
-    text = STOP_REASONS.get(int(ier), " ".join(str(message).split()))
-    return NLSOutcome(x, raw, sse, ier in (1, 2, 3, 4) and finite, text,
-                      int(info.get("nfev", 0)), finite)
+    status = int(ier)
+    detail = "" if status in STATUS_MESSAGES else " ".join(str(message).split())
+    return NLSOutcome(x=x, residuals=raw, sse=sse, status=status, solver="minpack", nfev=int(info.get("nfev", 0)),
+                      finite=finite, detail=detail)

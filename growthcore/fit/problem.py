@@ -12,8 +12,9 @@ import numpy as np
 
 from growthcore.fit.lm import Evaluation
 from growthcore.fit.nls import jacobian
-from growthcore.fit.result import FitResult, Grid, ParameterEstimate
+from growthcore.fit.result import ErrorModel, FitResult, Grid, Method, ParameterEstimate, SolverName
 from growthcore.models.base import ModelForm, ParamSpec
+from growthcore.numbers import finite_or_none
 from growthcore.stats import (
     correlation,
     covariance_and_condition,
@@ -38,8 +39,8 @@ class Problem:
     """
 
     model: str
-    method: str
-    error: str
+    method: Method
+    error: ErrorModel
     form: ModelForm
     specs: tuple[ParamSpec, ...]
     free: tuple[str, ...]
@@ -112,6 +113,8 @@ def build_result(
     notes: tuple[str, ...] = (),
     r2_uncentered: float | None = None,
     t_residual: Array | None = None,
+    solver: SolverName | None = None,
+    nfev: int | None = None,
 ) -> FitResult:
     """Standard errors from the Jacobian at ``x``, t-based intervals, metrics and diagnostics.
 
@@ -143,7 +146,7 @@ def build_result(
             if at_bound:
                 notes_out.append(f"{spec.name} = {value:.6g} is at its bound; its standard error is not reliable")
             estimates.append(
-                ParameterEstimate(spec.name, value, se if math.isfinite(se) else None, ci, False, at_bound,
+                ParameterEstimate(spec.name, value, finite_or_none(se), ci, False, at_bound,
                                   spec.description, spec.unit)
             )
         else:
@@ -184,6 +187,8 @@ def build_result(
         grid=problem.grid,
         terms=problem.terms,
         settings=settings,
+        solver=solver,
+        nfev=nfev,
     )
 
 

@@ -6,13 +6,14 @@ import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from functools import cached_property
-from typing import TYPE_CHECKING, Any, Literal
+from typing import TYPE_CHECKING, Any, Literal, get_args
 
 import numpy as np
 
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit.simulate import iterate
 from growthcore.models.base import ModelForm
+from growthcore.numbers import finite_or_none
 from growthcore.stats import Diagnostics, Metrics
 
 if TYPE_CHECKING:
@@ -21,12 +22,54 @@ if TYPE_CHECKING:
 Array = np.ndarray
 Method = Literal["increments", "trajectory"]
 ErrorModel = Literal["additive", "log"]
-METHODS: tuple[str, ...] = ("increments", "trajectory")
-ERROR_MODELS: tuple[str, ...] = ("additive", "log")
+Status = Literal["converged", "failed"]
+#: Which solver found the optimum: the exact-Jacobian Levenberg–Marquardt (growthcore.fit.lm),
+#: MINPACK (growthcore.fit.nls), the vectorised Levenberg–Marquardt of many series at once
+#: (growthcore.fit.batched) or a closed-form linear regression.
+SolverName = Literal["exact-lm", "minpack", "batched-lm", "linear"]
+METHODS: tuple[Method, ...] = get_args(Method)
+ERROR_MODELS: tuple[ErrorModel, ...] = get_args(ErrorModel)
+STATUSES: tuple[Status, ...] = get_args(Status)
 
 
-def _num(x: float | None) -> float | None:
-    return float(x) if x is not None and math.isfinite(x) else None
+def as_method(value: str) -> Method:
+    """``value`` as a :data:`Method`; an input error naming the choices otherwise."""
+    for choice in METHODS:
+        if value == choice:
+            return choice
+    raise GrowthcoreInputError(f"`method` must be one of {', '.join(METHODS)}; got {value!r}")
+
+
+def as_error_model(value: str) -> ErrorModel:
+    """``value`` as an :data:`ErrorModel`; an input error naming the choices otherwise."""
+    for choice in ERROR_MODELS:
+        if value == choice:
+            return choice
+    raise GrowthcoreInputError(f"`error` must be one of {', '.join(ERROR_MODELS)}; got {value!r}")
+
+
+def as_solver(value: str) -> SolverName:
+    """``value`` as a :data:`SolverName`; an input error naming the choices otherwise."""
+    for choice in get_args(SolverName):
+        if value == choice:
+            return choice
+    raise GrowthcoreInputError(f"`solver` must be one of {', '.join(get_args(SolverName))}; got {value!r}")
+
+
+def _nan(x: Any) -> float:
+    return math.nan if x is None else float(x)
+
+
+def _optional(x: Any) -> float | None:
+    return None if x is None else float(x)
+
+
+def as_status(value: str) -> Status:
+    """``value`` as a :data:`Status`; an input error naming the choices otherwise."""
+    for choice in STATUSES:
+        if value == choice:
+            return choice
+    raise GrowthcoreInputError(f"`status` must be one of {', '.join(STATUSES)}; got {value!r}")
 
 
 @dataclass(frozen=True)
@@ -44,14 +87,22 @@ class ParameterEstimate:
 
     def to_dict(self) -> dict[str, Any]:
         return {
-            "value": _num(self.value),
-            "se": _num(self.se),
-            "ci95": [_num(self.ci95[0]), _num(self.ci95[1])] if self.ci95 else None,
+            "value": finite_or_none(self.value),
+            "se": finite_or_none(self.se),
+            "ci95": [finite_or_none(self.ci95[0]), finite_or_none(self.ci95[1])] if self.ci95 else None,
             "fixed": self.fixed,
             "at_bound": self.at_bound,
             "description": self.description,
             "unit": self.unit,
         }
+
+    @classmethod
+    def from_dict(cls, name: str, d: Mapping[str, Any]) -> ParameterEstimate:
+        """The estimate a :meth:`to_dict` wrote under ``name`` (None becomes NaN)."""
+        ci = d.get("ci95")
+        return cls(name, _nan(d["value"]), None if d["se"] is None else float(d["se"]),
+                   None if ci is None else (_nan(ci[0]), _nan(ci[1])), bool(d["fixed"]),
+                   bool(d.get("at_bound", False)), str(d.get("description", "")), str(d.get("unit", "")))
 
 
 @dataclass(frozen=True)
@@ -76,14 +127,23 @@ class CapacityProfile:
     def to_dict(self) -> dict[str, Any]:
         return {
             "K": [float(v) for v in self.k],
-            "sse": [_num(float(v)) for v in self.sse],
-            "threshold": _num(self.threshold),
-            "interval": [_num(self.interval[0]), _num(self.interval[1])],
+            "sse": [finite_or_none(float(v)) for v in self.sse],
+            "threshold": finite_or_none(self.threshold),
+            "interval": [finite_or_none(self.interval[0]), finite_or_none(self.interval[1])],
             "cut": self.cut,
-            "threshold_lr": _num(self.threshold_lr),
-            "interval_lr": [_num(self.interval_lr[0]), _num(self.interval_lr[1])],
+            "threshold_lr": finite_or_none(self.threshold_lr),
+            "interval_lr": [finite_or_none(self.interval_lr[0]), finite_or_none(self.interval_lr[1])],
             "message": self.message,
         }
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> CapacityProfile:
+        interval = d.get("interval") or (None, None)
+        interval_lr = d.get("interval_lr") or (None, None)
+        return cls(np.array([float(v) for v in d["K"]]), np.array([_nan(v) for v in d["sse"]]),
+                   _nan(d["threshold"]), (_optional(interval[0]), _optional(interval[1])),
+                   str(d.get("message", "")), _nan(d.get("threshold_lr")),
+                   (_optional(interval_lr[0]), _optional(interval_lr[1])), str(d.get("cut", "F-calibrated")))
 
 
 @dataclass(frozen=True)
@@ -93,15 +153,22 @@ class Grid:
     t0: float
     h: float
 
+    def to_dict(self) -> dict[str, float]:
+        return {"t0": self.t0, "h": self.h}
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> Grid:
+        return cls(float(d["t0"]), float(d["h"]))
+
 
 @dataclass(frozen=True)
 class FitResult:
     """What one fit of one form by one method found. ``status`` is ``converged`` or ``failed``."""
 
     model: str
-    method: str
-    error: str
-    status: str
+    method: Method
+    error: ErrorModel
+    status: Status
     message: str
     form: ModelForm | None = None
     parameters: tuple[ParameterEstimate, ...] = ()
@@ -117,6 +184,8 @@ class FitResult:
     grid: Grid | None = None
     terms: tuple[str, ...] = ()
     settings: Mapping[str, Any] = field(default_factory=dict)
+    solver: SolverName | None = None  # None when no solver ran (a fit that failed before)
+    nfev: int | None = None  # residual evaluations the solver made; None where it does not count them
 
     @cached_property
     def derived(self) -> dict[str, Any]:
@@ -218,6 +287,8 @@ class FitResult:
             "error": self.error,
             "status": self.status,
             "message": self.message,
+            "solver": self.solver,
+            "nfev": self.nfev,
             "equation": self.form.equation if self.form is not None else None,
             "terms": list(self.terms),
             "settings": dict(self.settings),
@@ -227,7 +298,7 @@ class FitResult:
             "derived": dict(self.derived),
             "notes": list(self.notes),
             "residuals": [
-                {"t": float(t), "observed": float(o), "predicted": _num(float(p)), "residual": _num(float(r))}
+                {"t": float(t), "observed": float(o), "predicted": finite_or_none(p), "residual": finite_or_none(r)}
                 for t, o, p, r in zip(self.t, self.observed, self.predicted, self.residuals, strict=True)
             ],
         }
@@ -235,15 +306,55 @@ class FitResult:
             free = [p.name for p in self.parameters if not p.fixed]
             out["correlation"] = {
                 "parameters": free,
-                "matrix": [[_num(float(v)) for v in row] for row in self.correlation],
+                "matrix": [[finite_or_none(float(v)) for v in row] for row in self.correlation],
             }
         if self.profile is not None:
             out["capacity_profile"] = self.profile.to_dict()
         if self.grid is not None:
-            out["grid"] = {"t0": self.grid.t0, "h": self.grid.h}
+            out["grid"] = self.grid.to_dict()
         return out
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> FitResult:
+        """The fit result a :meth:`to_dict` (a record's fit entry) describes, without fitting again.
+
+        Numbers are taken as stored (``None`` becomes NaN); the form comes from the catalogue by its
+        id and terms (None when the catalogue does not know it), so paths, predictions and derived
+        quantities can be drawn from the record alone.
+        """
+        from growthcore.models.catalogue import get_form  # the catalogue builds on the fit modules' forms
+
+        terms = tuple(d.get("terms") or ())
+        try:
+            form: ModelForm | None = get_form(str(d["model"]), terms=terms)
+        except GrowthcoreInputError:
+            form = None
+        metrics, diagnostics = d.get("metrics"), d.get("diagnostics")
+        residuals = d.get("residuals") or []
+        corr, prof, grid = d.get("correlation"), d.get("capacity_profile"), d.get("grid")
+        solver, nfev = d.get("solver"), d.get("nfev")
+        return cls(
+            model=str(d["model"]), method=as_method(str(d["method"])), error=as_error_model(str(d["error"])),
+            status=as_status(str(d["status"])), message=str(d["message"]), form=form,
+            parameters=tuple(ParameterEstimate.from_dict(n, p) for n, p in (d.get("parameters") or {}).items()),
+            metrics=None if metrics is None else Metrics.from_dict(metrics),
+            diagnostics=None if diagnostics is None else Diagnostics.from_dict(diagnostics),
+            t=np.array([float(r["t"]) for r in residuals]),
+            observed=np.array([float(r["observed"]) for r in residuals]),
+            predicted=np.array([_nan(r["predicted"]) for r in residuals]),
+            residuals=np.array([_nan(r["residual"]) for r in residuals]),
+            correlation=None if corr is None else np.array([[_nan(v) for v in row] for row in corr["matrix"]]),
+            profile=None if prof is None else CapacityProfile.from_dict(prof),
+            notes=tuple(str(n) for n in d.get("notes", ())),
+            grid=None if grid is None else Grid.from_dict(grid),
+            terms=terms if d["model"] == "custom" else (),
+            settings=dict(d.get("settings") or {}),
+            solver=None if solver is None else as_solver(str(solver)),
+            nfev=None if nfev is None else int(nfev),
+        )
 
 
 def failed(model: str, method: str, error: str, message: str, **extra: Any) -> FitResult:
     """A failed fit: the message says why, in words a user can act on."""
-    return FitResult(model=model, method=method, error=error, status="failed", message=message, **extra)
+    return FitResult(model=model, method=as_method(method), error=as_error_model(error), status="failed",
+                     message=message, **extra)

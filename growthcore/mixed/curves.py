@@ -12,6 +12,7 @@ from growthcore.errors import GrowthcoreInputError
 from growthcore.mixed.result import PopulationFit
 from growthcore.models.base import CurveForm
 from growthcore.models.catalogue import get_form
+from growthcore.numbers import finite_list, finite_or_none
 
 Array = np.ndarray
 
@@ -104,21 +105,17 @@ def forest_rows(fit: PopulationFit, constant: str) -> dict[str, object]:
     if fit.series and constant not in fit.series[0].constants:
         raise GrowthcoreInputError(f"{fit.model} has no constant {constant!r}")
     rows = [{"name": s.name, "group": s.group,
-             "separate": None if s.separate is None else _finite(s.separate.get(constant)),
-             "conditional": _finite(s.constants[constant])} for s in fit.series]
+             "separate": None if s.separate is None else finite_or_none(s.separate.get(constant)),
+             "conditional": finite_or_none(s.constants[constant])} for s in fit.series]
     populations = []
     for g in fit.conditions or ("all",):
         values = fit.population_constants(g if fit.conditions else None)
-        populations.append({"group": g, "value": _finite(values[constant])})
+        populations.append({"group": g, "value": finite_or_none(values[constant])})
     est = fit.fixed.get(constant)
     ci = list(est.ci95) if est is not None and est.ci95 is not None else None
     return {"constant": constant, "rows": rows, "population": populations,
             "ci95": ci, "random": constant in fit.random}
 
 
-def _finite(x: float | None) -> float | None:
-    return float(x) if x is not None and math.isfinite(x) else None
-
-
 def _plain(a: Array) -> list[float | None]:
-    return [float(v) if math.isfinite(v) else None for v in np.asarray(a, dtype=float).tolist()]
+    return finite_list(np.asarray(a, dtype=float).tolist())

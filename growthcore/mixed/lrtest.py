@@ -9,6 +9,7 @@ from typing import Any
 from scipy.stats import chi2
 
 from growthcore.mixed.result import PopulationFit
+from growthcore.numbers import finite_or_none
 
 
 @dataclass(frozen=True)
@@ -27,9 +28,9 @@ class LikelihoodRatioTest:
     full: str = ""
 
     def to_dict(self) -> dict[str, Any]:
-        fin = lambda x: float(x) if math.isfinite(x) else None  # noqa: E731
-        return {"status": self.status, "message": self.message, "statistic": fin(self.statistic), "df": self.df,
-                "p_value": fin(self.p_value), "reduced": self.reduced, "full": self.full}
+        return {"status": self.status, "message": self.message, "statistic": finite_or_none(self.statistic),
+                "df": self.df,
+                "p_value": finite_or_none(self.p_value), "reduced": self.reduced, "full": self.full}
 
 
 def describe(fit: PopulationFit) -> str:

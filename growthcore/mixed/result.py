@@ -7,15 +7,13 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
+from growthcore.numbers import finite_or_none
+
 Interval = tuple[float, float]
 
 
-def _num(x: float | None) -> float | None:
-    return float(x) if x is not None and math.isfinite(x) else None
-
-
 def _pair(ci: Interval | None) -> list[float | None] | None:
-    return [_num(ci[0]), _num(ci[1])] if ci is not None else None
+    return [finite_or_none(ci[0]), finite_or_none(ci[1])] if ci is not None else None
 
 
 def _unpair(raw: Any) -> Interval | None:
@@ -40,7 +38,8 @@ class Estimate:
     df: int | None = None
 
     def to_dict(self) -> dict[str, Any]:
-        out: dict[str, Any] = {"value": _num(self.value), "se": _num(self.se), "ci95": _pair(self.ci95)}
+        out: dict[str, Any] = {"value": finite_or_none(self.value), "se": finite_or_none(self.se),
+                               "ci95": _pair(self.ci95)}
         if self.df is not None:
             out["df"] = self.df
         return out
@@ -68,12 +67,12 @@ class SeriesEffects:
     def to_dict(self) -> dict[str, Any]:
         return {
             "name": self.name, "group": self.group,
-            "constants": {k: _num(v) for k, v in self.constants.items()},
-            "random_effects": {k: _num(v) for k, v in self.deviations.items()},
-            "separate": None if self.separate is None else {k: _num(v) for k, v in self.separate.items()},
+            "constants": {k: finite_or_none(v) for k, v in self.constants.items()},
+            "random_effects": {k: finite_or_none(v) for k, v in self.deviations.items()},
+            "separate": None if self.separate is None else {k: finite_or_none(v) for k, v in self.separate.items()},
             "t": list(self.t),
-            "residual_population": [_num(v) for v in self.residual_population],
-            "residual_series": [_num(v) for v in self.residual_series],
+            "residual_population": [finite_or_none(v) for v in self.residual_population],
+            "residual_series": [finite_or_none(v) for v in self.residual_series],
         }
 
     @classmethod
@@ -149,13 +148,13 @@ class PopulationFit:
             "random": list(self.random), "covariance": self.covariance, "shifted": list(self.shifted),
             "held": dict(self.held), "conditions": list(self.conditions), "time_origin": self.time_origin,
             "fixed": {k: v.to_dict() for k, v in self.fixed.items()},
-            "fixed_cov": [[_num(v) for v in row] for row in self.fixed_cov],
-            "random_sd": {k: _num(v.value) for k, v in self.random_sd.items()},
+            "fixed_cov": [[finite_or_none(v) for v in row] for row in self.fixed_cov],
+            "random_sd": {k: finite_or_none(v.value) for k, v in self.random_sd.items()},
             "random_sd_ci95": {k: _pair(v.ci95) for k, v in self.random_sd.items()},
             "correlations": {k: v.to_dict() for k, v in self.correlations.items()},
-            "residual_sd": _num(self.residual_sd.value) if self.residual_sd else None,
+            "residual_sd": finite_or_none(self.residual_sd.value) if self.residual_sd else None,
             "residual_sd_ci95": _pair(self.residual_sd.ci95) if self.residual_sd else None,
-            "loglik": _num(self.loglik), "aic": _num(self.aic), "bic": _num(self.bic),
+            "loglik": finite_or_none(self.loglik), "aic": finite_or_none(self.aic), "bic": finite_or_none(self.bic),
             "n_obs": self.n_obs, "n_params": self.n_params, "iterations": self.iterations,
             "series": [s.to_dict() for s in self.series],
             "notes": list(self.notes),

@@ -9,12 +9,13 @@ from __future__ import annotations
 import html
 import math
 import re
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Mapping, Sequence
 from typing import Any
 
 import numpy as np
 
 from growthcore.fit.result import FitResult
+from growthcore.numbers import finite_list
 from growthcore.reopen import fits_from_record
 
 Figure = dict[str, Any]
@@ -64,10 +65,6 @@ def _with_unit(name: str, unit: str) -> str:
     return f"{esc(name)} [{esc(unit)}]" if unit else esc(name)
 
 
-def _clean(values: Iterable[float]) -> list[float | None]:
-    return [float(v) if v is not None and math.isfinite(v) else None for v in values]
-
-
 def data_figure(record: Mapping[str, Any], fits: Sequence[FitResult] | None = None) -> Figure:
     """Observations (used and left out, with the reason on hover) and each converged fitted path."""
     data = record["data"]
@@ -100,8 +97,8 @@ def data_figure(record: Mapping[str, Any], fits: Sequence[FitResult] | None = No
         else:
             mode = "lines"
         traces.append({
-            "type": "scatter", "mode": mode, "name": esc(label(d)), "x": _clean(np.asarray(t)),
-            "y": _clean(np.asarray(y)), "line": {"color": COLOURS[i % 6], "dash": DASHES[i % 6], "shape": shape},
+            "type": "scatter", "mode": mode, "name": esc(label(d)), "x": finite_list(np.asarray(t)),
+            "y": finite_list(np.asarray(y)), "line": {"color": COLOURS[i % 6], "dash": DASHES[i % 6], "shape": shape},
             "marker": {"color": COLOURS[i % 6], "symbol": "circle-open", "size": 8},
         })
     title = f"{esc(data.get('name', 'series'))}: observations and fitted forms"

@@ -26,6 +26,7 @@ from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit.result import FitResult
 from growthcore.limits import DEFAULT as LIMITS
+from growthcore.numbers import finite_list
 from growthcore.uncertainty.refit import RefitProblem, modified_residuals, refit_problem
 
 Array = np.ndarray
@@ -126,7 +127,7 @@ class BootstrapResult:
 
     def to_dict(self) -> dict[str, Any]:
         """Everything, samples included (failed rows as null), for a browser store or a file."""
-        rows = [[float(v) if math.isfinite(v) else None for v in row] for row in self.samples]
+        rows = [finite_list(row) for row in self.samples]
         return {**self.summary(), "model": self.model, "fit_method": self.method, "names": list(self.names),
                 "estimate": list(self.estimate), "start": self.start, "samples": rows}
 

@@ -17,6 +17,7 @@ import numpy as np
 from growthcore.budget import check_budget
 from growthcore.derived import derived_quantities, time_to_reach
 from growthcore.fit.result import FitResult
+from growthcore.numbers import finite_or_none
 from growthcore.stats import t_quantile
 from growthcore.uncertainty.bootstrap import BootstrapResult
 
@@ -100,7 +101,7 @@ def derived_intervals(
         else:
             ci = delta.get(name)
             how = "delta method (t quantile; normal approximation of the constants)" if ci else None
-        out[name] = {"value": float(value) if math.isfinite(value) else None, "ci95": ci,
+        out[name] = {"value": finite_or_none(value), "ci95": ci,
                      "defined": int(finite.size), "draws": int(draws.size), "refits": total, "method": how}
     return out
 

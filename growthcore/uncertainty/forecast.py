@@ -28,6 +28,7 @@ from growthcore.fit.result import FitResult
 from growthcore.fit.simulate import iterate
 from growthcore.limits import DEFAULT as LIMITS
 from growthcore.models.base import CurveForm, DifferenceForm
+from growthcore.numbers import finite_or_none
 from growthcore.uncertainty.bootstrap import DEFAULT_SEED, BootstrapResult
 from growthcore.uncertainty.caution import FORECAST_CAUTION
 from growthcore.uncertainty.refit import modified_residuals, refit_problem
@@ -60,7 +61,7 @@ class Forecast:
 
     def points(self) -> list[dict[str, float | None]]:
         """[{"t", "p", "lo", "hi"}] for the record and the CSV table."""
-        return [{"t": float(t), "p": _num(p), "lo": _num(lo), "hi": _num(hi)}
+        return [{"t": float(t), "p": finite_or_none(p), "lo": finite_or_none(lo), "hi": finite_or_none(hi)}
                 for t, p, lo, hi in zip(self.t, self.p, self.lo, self.hi, strict=True)]
 
     def to_dict(self) -> dict[str, Any]:
@@ -68,10 +69,6 @@ class Forecast:
                 "warnings": list(self.warnings), "bound": self.bound,
                 "bound_crossing": dict(self.bound_crossing) if self.bound_crossing else None,
                 "caution": self.caution}
-
-
-def _num(x: float) -> float | None:
-    return float(x) if math.isfinite(x) else None
 
 
 def _check_steps(n: int, span: float | None) -> None:
@@ -277,7 +274,7 @@ def _bound(result: FitResult, t: Array, point: Array, lo: Array, hi: Array,
         at_point = _far_crossing(result, t, bound)
     earliest = _first_crossing(t, np.where(np.isfinite(hi), hi, np.inf), bound)
     latest = _first_crossing(t, lo, bound)
-    crossing = {"t": _num(at_point), "earliest": _num(earliest), "latest": _num(latest)}
+    crossing = {"t": finite_or_none(at_point), "earliest": finite_or_none(earliest), "latest": finite_or_none(latest)}
     notes = []
     if math.isfinite(at_point):
         band = ""
