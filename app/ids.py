@@ -136,7 +136,6 @@ FTEST_RESULT = "batch-ftest-result"
 BOOT = "store-bootstrap"           # the bootstrap run in progress: request, partial refits, progress
 BOOT_DONE = "store-bootstrap-done"  # finished (or cancelled) bootstraps, one per fit signature
 BOOT_SUMMARY = "store-bootstrap-summary"  # their counts and intervals only (small: rides along with table updates)
-DYN_GATE = "store-dynamics-gate"   # set in the browser when the fits are at the committed K (not a drag preview)
 FORECAST = "store-forecast"        # the forecast asked for and its band, for the trajectory panel
 DYN_FIT = "dynamics-fit"
 DYN_SENTENCES = "dynamics-sentences"

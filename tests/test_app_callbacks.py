@@ -8,14 +8,16 @@ import os
 
 import pytest
 from dash import no_update
+from dash.exceptions import PreventUpdate
 
 from app import ids
 from app.callbacks.capacity import update_capacity
-from app.callbacks.comparison import draw_comparison, next_sort
+from app.callbacks.comparison import draw_comparison
 from app.callbacks.data import import_source, on_import, refused_message
 from app.callbacks.exclusions import clicked_index, update_exclusions
 from app.callbacks.explore import explore_panels
-from app.callbacks.fits import compute_fits, needs_refit_on_drag, skip_refit
+from app.callbacks.fits import compute_fits, skip_refit
+from app.callbacks.live import View, live_update
 from app.callbacks.panels import draw_panels
 from app.callbacks.settings import build_settings, check_terms, expand_forms
 from app.components.comparison import sort_rows
@@ -155,10 +157,30 @@ def test_fits_store_carries_engine_numbers(demo: dict, settings: dict) -> None:
     assert logistic["parameters"]["K"] == {**logistic["parameters"]["K"], "value": 4.2, "fixed": True}
 
 
-def test_fits_follow_the_drag_only_when_cheap(settings: dict) -> None:
-    assert needs_refit_on_drag(settings)
-    assert not needs_refit_on_drag({**settings, "method": "trajectory"})
-    assert not needs_refit_on_drag({**settings, "k_mode": "fitted"})
+def test_a_typed_k_is_answered_by_one_reply_with_every_panel(demo: dict, settings: dict) -> None:
+    first = live_update(ids.DATA, None, None, None, demo, None, settings, None, None, None, None, View())
+    k0, fits0 = first[0], first[9]
+    assert fits0["capacity"] == k0 and first[10] is not no_update  # new data: panel 1 drawn
+    view = View(dyn_label=first[23], dyn_options=first[22])
+    typed = live_update(ids.K_INPUT, 3.5, None, None, demo, None, settings, k0, demo["key"], fits0, None, view)
+    assert typed[0] == 3.5 and typed[1] is no_update  # the box keeps what the user typed
+    assert typed[9]["capacity"] == 3.5 and typed[9] == compute_fits(demo, None, settings, 3.5)
+    assert typed[10] is no_update  # panel 1 does not depend on K
+    assert all(x is not no_update for x in typed[11:22])  # panel 2, panels 3-5, flag, note, key, table
+    assert "K = 3.5" in str(typed[20]) and "K = 3.5" in str(typed[12])
+    assert typed[22] is no_update and typed[23] is no_update  # the same fit stays described in panel 7
+    assert all(x is not no_update for x in typed[24:33]) and typed[33] is no_update  # no forecast asked for
+    with pytest.raises(PreventUpdate):  # the same K again: nothing to send
+        live_update(ids.K_INPUT, 3.5, None, None, demo, None, settings, 3.5, demo["key"], typed[9], None, view)
+
+
+def test_with_k_fitted_a_moved_k_redraws_only_what_shows_k(demo: dict, settings: dict) -> None:
+    fitted = {**settings, "k_mode": "fitted", "models": ["logistic"]}
+    store = compute_fits(demo, None, fitted, 4.0)
+    out = live_update(ids.K_INPUT, 3.5, None, None, demo, None, fitted, 4.0, demo["key"], store, None, View())
+    assert out[0] == 3.5 and out[9] is no_update  # no refit: the fits do not hold K
+    assert out[13] is not no_update and out[19] is not no_update  # the trajectory's K line and the key
+    assert all(x is no_update for x in (*out[14:19], *out[20:]))
 
 
 def test_fitted_k_mode_reports_profile_intervals(demo: dict, settings: dict) -> None:
@@ -193,9 +215,6 @@ def test_panels_and_table_from_the_store(demo: dict, settings: dict) -> None:
 
 
 def test_sorting_cycles_and_keeps_missing_values_last() -> None:
-    assert next_sort("aicc", None) == {"column": "aicc", "descending": False}
-    assert next_sort("aicc", {"column": "aicc", "descending": False})["descending"] is True
-    assert next_sort("aicc", {"column": "aicc", "descending": True})["column"] is None
     rows = [{"aicc": 3.0}, {"aicc": None}, {"aicc": 1.0}]
     assert [r["aicc"] for r in sort_rows(rows, {"column": "aicc", "descending": True})] == [3.0, 1.0, None]
     assert [r["aicc"] for r in sort_rows(rows, {"column": "aicc", "descending": False})] == [1.0, 3.0, None]

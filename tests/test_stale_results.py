@@ -9,6 +9,7 @@ from __future__ import annotations
 import pytest
 
 from app import ids
+from app.callbacks.live import View, panel_seven
 from app.callbacks.batch_tables import ftest_reply
 from app.callbacks.dynamics import compute_forecast, forecast_is_stale, forecast_request, fresh_inputs
 from app.callbacks.fits import compute_fits
@@ -51,7 +52,10 @@ def test_a_forecast_of_one_file_is_dropped_when_another_is_fitted(app_map: dict)
     assert not forecast_is_stale(store, fits_a)
     fits_b = compute_fits(b, None, SETTINGS, None)
     assert forecast_is_stale(store, fits_b)
-    assert ids.DYN_GATE in _inputs(app_map, f"{ids.FORECAST}.data")
+    # new data reach the forecast in the same reply as the new fits, which drops it
+    live = next(k for k in app_map if f"{ids.FORECAST}.data" in k and f"{ids.FITS}.data" in k)
+    assert ids.DATA in {i["id"] for i in app_map[live]["inputs"]}
+    assert panel_seven(fits_b, None, b, None, View(forecast=store))[-1] is None
 
 
 def test_forecast_level_bound_and_length_reset_on_new_data(app_map: dict) -> None:

@@ -13,11 +13,10 @@ from app.callbacks import export as export_callbacks
 from app.callbacks import dynamics as dynamics_callbacks
 from app.callbacks import population as population_callbacks
 from app.callbacks import series as series_callbacks
-from app.callbacks import (batch_tables, capacity, comparison, data, exclusions, explore, fits, highlight, panels,
-                           settings)
+from app.callbacks import batch_tables, comparison, data, exclusions, explore, highlight, live, panels, settings
 from app.request_budget import BudgetedRegistration
 
-MODULES = (data, settings, capacity, exclusions, explore, fits, panels, comparison, highlight, export_callbacks,
+MODULES = (data, settings, live, exclusions, explore, panels, comparison, highlight, export_callbacks,
            dynamics_callbacks, series_callbacks, batch_tables, population_callbacks)
 
 

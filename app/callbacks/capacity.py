@@ -1,11 +1,12 @@
-"""The capacity estimate K: one value kept in step across the number box, the slider and the K line."""
+"""The capacity estimate K: one value kept in step across the number box, the slider and the K line
+(wired in app/callbacks/live.py, which answers a change of K with every panel in one reply)."""
 
 from __future__ import annotations
 
 import math
 from typing import Any, Mapping
 
-from dash import Dash, Input, Output, State, ctx, no_update
+from dash import no_update
 
 from app import ids
 from app.figures.trajectory import capacity_from_relayout
@@ -83,27 +84,3 @@ def update_capacity(trigger: str | None, k_input: float | None, k_slider: float 
     return (k, k if trigger != ids.K_INPUT else no_update, k, no_update, no_update, no_update, no_update,
             f"{unit}: {flag}" if flag else unit)
 
-
-def register(app: Dash) -> None:
-    @app.callback(
-        Output(ids.CAPACITY, "data"), Output(ids.K_INPUT, "value"), Output(ids.K_SLIDER, "value"),
-        Output(ids.K_SLIDER, "min"), Output(ids.K_SLIDER, "max"), Output(ids.K_SLIDER, "step"),
-        Output(ids.K_SLIDER, "marks"), Output(ids.K_NOTE, "children"),
-        Output(ids.CAPACITY_DATA, "data"),
-        Input(ids.K_INPUT, "value"), Input(ids.K_SLIDER, "value"), Input(ids.G_TRAJECTORY, "relayoutData"),
-        Input(ids.DATA, "data"), Input(ids.K_FROM_FIT, "n_clicks"),
-        State(ids.SETTINGS, "data"), State(ids.EXCLUSIONS, "data"), State(ids.CAPACITY, "data"),
-        State(ids.CAPACITY_DATA, "data"),
-        prevent_initial_call=False,
-    )
-    def _capacity(k_input, k_slider, relayout, data, _clicks, settings, exclusions, current, previous_key):
-        trigger = ctx.triggered_id
-        if f"{ids.DATA}.data" in ctx.triggered_prop_ids:
-            # new data arriving with a plot's relayout event in one call must still set the first guess
-            trigger = ids.DATA
-        if trigger == ids.K_FROM_FIT and not _clicks:
-            trigger = "none"
-        out = update_capacity(trigger, k_input, k_slider, relayout, data, settings, exclusions, current,
-                              previous_key=previous_key)
-        # the K on screen now belongs to these data (read back on the next change of series)
-        return (*out, (data or {}).get("key") if out[0] is not no_update or trigger in (None, ids.DATA) else no_update)

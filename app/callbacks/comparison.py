@@ -1,10 +1,10 @@
-"""Panel 6: the comparison table and its sorting."""
+"""Panel 6: the comparison table and its sorting (the order itself is kept in the browser: assets/live.js)."""
 
 from __future__ import annotations
 
 from typing import Any, Mapping
 
-from dash import ALL, Dash, Input, Output, State, ctx, html, no_update
+from dash import ALL, ClientsideFunction, Dash, Input, Output, State, html
 
 from app import ids
 from app.components.comparison import comparison_table
@@ -21,23 +21,15 @@ def draw_comparison(fits_store: Mapping[str, Any] | None, sort: Mapping[str, Any
     return comparison_table(fits_store["comparison"], fits_store["fits"], sort, boot_intervals(done, fits_store)), notes
 
 
-def next_sort(column: str, current: Mapping[str, Any] | None) -> dict[str, Any]:
-    """First click sorts ascending, the second descending, the third back to the engine's order."""
-    if not current or current.get("column") != column:
-        return {"column": column, "descending": False}
-    if not current.get("descending"):
-        return {"column": column, "descending": True}
-    return {"column": None, "descending": False}
-
-
 def register(app: Dash) -> None:
-    app.callback(Output(ids.COMPARISON, "children"), Output(ids.COMPARISON_NOTES, "children"),
-                 Input(ids.FITS, "data"), Input(ids.SORT, "data"), Input(ids.BOOT_SUMMARY, "data"))(draw_comparison)
+    # new fits redraw the table in app/callbacks/live.py; here: a new order and finished bootstraps
+    app.callback(Output(ids.COMPARISON, "children", allow_duplicate=True),
+                 Output(ids.COMPARISON_NOTES, "children", allow_duplicate=True),
+                 Input(ids.SORT, "data"), Input(ids.BOOT_SUMMARY, "data"), State(ids.FITS, "data"),
+                 prevent_initial_call=True)(lambda sort, summary, fits_store: draw_comparison(fits_store, sort, summary))
 
-    @app.callback(Output(ids.SORT, "data"), Input({"type": ids.SORT_BUTTON, "column": ALL}, "n_clicks"),
-                  State(ids.SORT, "data"), prevent_initial_call=True)
-    def _sort(_clicks, current):
-        trigger = ctx.triggered_id
-        if not isinstance(trigger, dict) or not ctx.triggered or not ctx.triggered[0].get("value"):
-            return no_update
-        return next_sort(trigger["column"], current)
+    # a click on a column header: first ascending, then descending, then the engine's order (in the browser:
+    # the buttons are drawn anew with every table, which must not cost a request)
+    app.clientside_callback(ClientsideFunction(namespace="growthcore_live", function_name="sort"),
+                            Output(ids.SORT, "data"), Input({"type": ids.SORT_BUTTON, "column": ALL}, "n_clicks"),
+                            State(ids.SORT, "data"), prevent_initial_call=True)

@@ -3,8 +3,8 @@
 The fits store holds plain data, so the engine's result of the chosen form is rebuilt by fitting it
 again (the same engine call with the same inputs gives the same numbers); the fit's signature
 (data, points used, K, form, constants) ties every bootstrap and forecast to the fit it belongs to,
-so nothing stale is shown after the data, exclusions or K change. While K is dragged the fits store
-holds a preview at the dragged K; this panel waits until K is committed.
+so nothing stale is shown after the data, exclusions or K change. New fits redraw this panel in the
+same reply as the fits (app/callbacks/live.py).
 """
 
 from __future__ import annotations
@@ -448,41 +448,20 @@ def band_on_trajectory(figure: Mapping[str, Any], store: Mapping[str, Any] | Non
 
 # ----------------------------------------------------------------------------- wiring
 
-#: In the browser: pass the fits on only when they are at the committed K, so a drag of K sends
-#: no request to this panel's callbacks (the drag preview stays with panels 1 to 6).
-GATE_JS = """
-function(fits, capacity) {
-    if (!fits) { return null; }
-    var held = fits.capacity;
-    if (held !== null && held !== undefined && capacity !== null && capacity !== undefined &&
-            Math.abs(held - capacity) > 1e-12 * Math.max(Math.abs(capacity), 1)) {
-        return window.dash_clientside.no_update;
-    }
-    return {key: fits.key, capacity: held, at: Date.now()};
-}
-"""
-
-
 def register(app: Dash) -> None:
     limits = server_limits(app)
     max_resamples = min(MAX_RESAMPLES, limits.max_resamples)
     heavy_run = runner_of(app)
-    app.clientside_callback(GATE_JS, Output(ids.DYN_GATE, "data"), Input(ids.FITS, "data"), Input(ids.CAPACITY, "data"))
-
-    @app.callback(Output(ids.DYN_FIT, "options"), Output(ids.DYN_FIT, "value"),
-                  Input(ids.DYN_GATE, "data"), State(ids.FITS, "data"), State(ids.DYN_FIT, "value"),
-                  State(ids.DYN_FIT, "options"))
-    def _choices(_gate, fits_store, current, old_options):
-        options, value = choose_fit(fits_store, current)
-        return (no_update if options == old_options else options), (no_update if value == current else value)
-
-    @app.callback(Output(ids.DYN_SENTENCES, "children"), Output(ids.DYN_EQUILIBRIA, "children"),
-                  Output(ids.G_COBWEB, "figure"), Output(ids.G_SWEEP, "figure"), Output(ids.DYN_DERIVED, "children"),
-                  Input(ids.DYN_GATE, "data"), Input(ids.DYN_FIT, "value"), Input(ids.BOOT_SUMMARY, "data"),
-                  Input(ids.DYN_LEVEL, "value"),
+    # new fits (a change of K, the data or the choices) redraw this panel in app/callbacks/live.py; the
+    # callbacks here follow the panel's own controls: the fit described, the level, bootstrap and forecast
+    @app.callback(Output(ids.DYN_SENTENCES, "children", allow_duplicate=True),
+                  Output(ids.DYN_EQUILIBRIA, "children", allow_duplicate=True),
+                  Output(ids.G_COBWEB, "figure", allow_duplicate=True), Output(ids.G_SWEEP, "figure", allow_duplicate=True),
+                  Output(ids.DYN_DERIVED, "children", allow_duplicate=True),
+                  Input(ids.DYN_FIT, "value"), Input(ids.BOOT_SUMMARY, "data"), Input(ids.DYN_LEVEL, "value"),
                   State(ids.FITS, "data"), State(ids.CAPACITY, "data"), State(ids.DATA, "data"),
-                  State(ids.EXCLUSIONS, "data"), State(ids.BOOT_DONE, "data"))
-    def _dynamics(_gate, label, _summary, level, fits_store, capacity, data, exclusions, done):
+                  State(ids.EXCLUSIONS, "data"), State(ids.BOOT_DONE, "data"), prevent_initial_call=True)
+    def _dynamics(label, _summary, level, fits_store, capacity, data, exclusions, done):
         out = dynamics_view(fits_store, label, capacity, data, exclusions, done, level)
         if out is None:
             raise PreventUpdate
@@ -505,27 +484,28 @@ def register(app: Dash) -> None:
         summary_out = no_update if done_out is no_update else summaries(done_out)
         return boot_out, done_out, summary_out, (ticks or 0) + 1 if more else (ticks or 0)
 
-    app.callback(Output(ids.BOOT_PROGRESS, "value"), Output(ids.BOOT_PROGRESS, "max"), Output(ids.BOOT_STATUS, "children"),
-                 Output(ids.DYN_INTERVALS, "children"),
-                 Input(ids.BOOT, "data"), Input(ids.BOOT_SUMMARY, "data"), Input(ids.DYN_GATE, "data"),
-                 Input(ids.DYN_FIT, "value"), State(ids.FITS, "data"),
-                 )(lambda boot, summary, _gate, label, fits_store: progress_view(boot, summary, fits_store, label))
+    app.callback(*[Output(i, p, allow_duplicate=True) for i, p in ((ids.BOOT_PROGRESS, "value"), (ids.BOOT_PROGRESS, "max"),
+                                                                   (ids.BOOT_STATUS, "children"),
+                                                                   (ids.DYN_INTERVALS, "children"))],
+                 Input(ids.BOOT, "data"), Input(ids.BOOT_SUMMARY, "data"), Input(ids.DYN_FIT, "value"),
+                 State(ids.FITS, "data"), prevent_initial_call=True,
+                 )(lambda boot, summary, label, fits_store: progress_view(boot, summary, fits_store, label))
 
-    @app.callback(Output(ids.FORECAST, "data"),
-                  Input(ids.FC_RUN, "n_clicks"), Input(ids.FC_CLEAR, "n_clicks"), Input(ids.DYN_GATE, "data"),
+    @app.callback(Output(ids.FORECAST, "data", allow_duplicate=True),
+                  Input(ids.FC_RUN, "n_clicks"), Input(ids.FC_CLEAR, "n_clicks"),
                   Input(ids.DYN_FIT, "value"), Input(ids.BOOT_SUMMARY, "data"),
                   State(ids.FC_MODE, "value"), State(ids.FC_AMOUNT, "value"), State(ids.FC_BOUND, "value"),
                   State(ids.FITS, "data"), State(ids.CAPACITY, "data"), State(ids.DATA, "data"),
                   State(ids.EXCLUSIONS, "data"), State(ids.BOOT_DONE, "data"), State(ids.FORECAST, "data"),
                   prevent_initial_call=True)
-    def _forecast(_run, _clear, _gate, label, _summary, mode, amount, bound, fits_store, capacity, data, exclusions,
+    def _forecast(_run, _clear, label, _summary, mode, amount, bound, fits_store, capacity, data, exclusions,
                   done, current):
         trigger = ctx.triggered_id
         if trigger == ids.FC_CLEAR:
             return None
         if trigger == ids.FC_RUN:
             return compute_forecast(forecast_request(mode, amount, bound), label, fits_store, data, exclusions, done)
-        # a fit, K or bootstrap change redraws a forecast already asked for, once K is committed;
+        # another fit described or a finished bootstrap redraws a forecast already asked for;
         # a forecast of other data (another file or series) is dropped, not carried over
         if current and forecast_is_stale(current, fits_store):
             return None
@@ -536,8 +516,8 @@ def register(app: Dash) -> None:
     app.callback(Output(ids.FC_BOUND, "value"), Output(ids.DYN_LEVEL, "value"), Output(ids.FC_AMOUNT, "value"),
                  Input(ids.DATA, "data"), prevent_initial_call=True)(lambda data: fresh_inputs(data))
 
-    app.callback(Output(ids.FC_NOTES, "children"), Input(ids.FORECAST, "data"), Input(ids.DYN_GATE, "data"),
-                 State(ids.FITS, "data"))(lambda store, _gate, fits_store: forecast_notes(store, fits_store))
+    app.callback(Output(ids.FC_NOTES, "children"), Input(ids.FORECAST, "data"),
+                 State(ids.FITS, "data"))(lambda store, fits_store: forecast_notes(store, fits_store))
 
 
 __all__: Sequence[str] = ("fit_signature", "choose_fit", "committed", "rebuild", "dynamics_view", "start_run",

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any, Mapping
 
-from dash import Dash, Input, Output, ctx, html
+from dash import Dash, Input, Output, State, html
 
 from app import ids
 from app.components.comparison import fmt
@@ -87,15 +87,15 @@ def explore_panels(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any]
 
 
 def register(app: Dash) -> None:
-    @app.callback(
-        Output(ids.G_CHANGE, "figure"), Output(ids.G_CANDIDATE, "figure"), Output(ids.CANDIDATE_SUMMARY, "children"),
-        Input(ids.DATA, "data"), Input(ids.EXCLUSIONS, "data"), Input(ids.SETTINGS, "data"),
-        Input(ids.CAPACITY, "data"), Input(ids.K_SLIDER, "drag_value"), Input(ids.CHANGE_AXIS, "value"),
-        Input(ids.STATE_SCALE, "value"),
-    )
-    def _explore(data, exclusions, settings, capacity, drag, axis, scale):
-        k = drag if ctx.triggered_id == ids.K_SLIDER and drag else capacity
-        return explore_panels(data, exclusions, settings, k, axis, scale)
+    # a change of K, the data or the choices redraws these panels in app/callbacks/live.py
+    app.callback(
+        Output(ids.G_CHANGE, "figure", allow_duplicate=True), Output(ids.G_CANDIDATE, "figure", allow_duplicate=True),
+        Output(ids.CANDIDATE_SUMMARY, "children", allow_duplicate=True),
+        Input(ids.CHANGE_AXIS, "value"), Input(ids.STATE_SCALE, "value"),
+        State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"), State(ids.SETTINGS, "data"), State(ids.CAPACITY, "data"),
+        prevent_initial_call=True,
+    )(lambda axis, scale, data, exclusions, settings, capacity: explore_panels(data, exclusions, settings, capacity,
+                                                                               axis, scale))
 
 
 __all__ = ["Candidate", "explore_panels", "labels_of"]

@@ -1,11 +1,9 @@
-"""Every chosen form fitted to the series; the plain results go to the fits store for the panels."""
+"""Every chosen form fitted to the series; the plain results go to the fits store for the panels
+(called by app/callbacks/live.py)."""
 
 from __future__ import annotations
 
 from typing import Any, Mapping, Sequence
-
-from dash import Dash, Input, Output, State, ctx
-from dash.exceptions import PreventUpdate
 
 from app import ids
 from app.callbacks.capacity import rounded
@@ -16,11 +14,6 @@ from growthcore.data import Series
 from growthcore.fit import FitResult
 from growthcore.fit.forms import fit_forms
 from growthcore.limits import DEFAULT as LIMITS
-
-
-def needs_refit_on_drag(settings: Mapping[str, Any]) -> bool:
-    """Only fits that depend on K and are cheap follow the slider while it moves."""
-    return settings.get("k_mode") == "held" and settings.get("method") == "increments"
 
 
 def held_capacity(settings: Mapping[str, Any], capacity: float | None) -> float | None:
@@ -87,21 +80,3 @@ def skip_refit(trigger: str | None, k: float | None, settings: Mapping[str, Any]
     return bool(previous and k == previous.get("capacity") and trigger in (ids.K_SLIDER, ids.CAPACITY)
                 and previous.get("key") == (data or {}).get("key"))
 
-
-def register(app: Dash) -> None:
-    @app.callback(
-        Output(ids.FITS, "data"),
-        Input(ids.DATA, "data"), Input(ids.EXCLUSIONS, "data"), Input(ids.SETTINGS, "data"),
-        Input(ids.CAPACITY, "data"), Input(ids.K_SLIDER, "drag_value"),
-        State(ids.FITS, "data"), State(ids.PENDING_CAPACITY, "data"),
-    )
-    def _fits(data, exclusions, settings, capacity, drag, previous, pending):
-        trigger = ctx.triggered_id
-        k = capacity
-        if trigger == ids.K_SLIDER:
-            if not drag or settings is None or not needs_refit_on_drag(settings):
-                raise PreventUpdate
-            k = rounded(float(drag))
-        if skip_refit(trigger, k, settings, data, previous, pending):
-            raise PreventUpdate
-        return compute_fits(data, exclusions, settings, k)

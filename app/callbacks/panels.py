@@ -73,12 +73,15 @@ def with_forecast(outputs: tuple[Any, ...], forecast: Mapping[str, Any] | None,
 
 
 def register(app: Dash) -> None:
+    # new fits and a change of K redraw these panels in app/callbacks/live.py; here: the view's own switches
+    # and a forecast drawn or cleared
     app.callback(
-        Output(ids.G_TRAJECTORY, "figure"), Output(ids.G_RESID_TIME, "figure"), Output(ids.G_RESID_FITTED, "figure"),
-        Output(ids.G_OBS_PRED, "figure"), Output(ids.MISFIT_FLAG, "children"), Output(ids.TRAJECTORY_NOTE, "children"),
-        Output(ids.FORM_KEY, "children"),
-        Input(ids.FITS, "data"), Input(ids.CAPACITY, "data"), Input(ids.FORECAST, "data"),
-        Input(ids.STATE_SCALE, "value"), Input(ids.PATH_FROM, "value"),
-        State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"),
-    )(lambda fits_store, capacity, fc, scale, path_from, data, exclusions: with_forecast(
+        *[Output(i, p, allow_duplicate=True) for i, p in ((ids.G_TRAJECTORY, "figure"), (ids.G_RESID_TIME, "figure"),
+                                                          (ids.G_RESID_FITTED, "figure"), (ids.G_OBS_PRED, "figure"),
+                                                          (ids.MISFIT_FLAG, "children"),
+                                                          (ids.TRAJECTORY_NOTE, "children"), (ids.FORM_KEY, "children"))],
+        Input(ids.FORECAST, "data"), Input(ids.STATE_SCALE, "value"), Input(ids.PATH_FROM, "value"),
+        State(ids.FITS, "data"), State(ids.CAPACITY, "data"), State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"),
+        prevent_initial_call=True,
+    )(lambda fc, scale, path_from, fits_store, capacity, data, exclusions: with_forecast(
         draw_panels(fits_store, capacity, data, exclusions, scale, path_from), fc, fits_store))

@@ -68,7 +68,6 @@ def dynamics_section() -> html.Section:
         dcc.Store(id=ids.BOOT, storage_type="memory"),
         dcc.Store(id=ids.BOOT_DONE, storage_type="memory", data={}),
         dcc.Store(id=ids.BOOT_SUMMARY, storage_type="memory", data={}),
-        dcc.Store(id=ids.DYN_GATE, storage_type="memory"),
         dcc.Store(id=ids.FORECAST, storage_type="memory"),
         dcc.Interval(id=ids.BOOT_TICK, interval=TICK_MS, n_intervals=0, max_intervals=0),
         html.Header([html.Span("7", className="panel-number"),

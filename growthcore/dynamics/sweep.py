@@ -20,7 +20,7 @@ Array = np.ndarray
 
 @dataclass(frozen=True)
 class Sweep:
-    """``rate`` × ``states`` are the points to plot (up to ``shown`` late states per rate value);
+    """``rate`` × ``states`` are the points to plot (up to ``shown`` distinct late states per rate value);
     ``grid`` and ``kinds`` give the regime at each rate value."""
 
     parameter: str
@@ -52,6 +52,24 @@ def sweep_range(result: FitResult, parameter: str, interval: tuple[float, float]
     return lo, min(top, spec.upper) if math.isfinite(spec.upper) else top
 
 
+#: Late states of one rate value closer than this (relative to the state scale) are one point on the plot:
+#: a fixed point is drawn once, not ``shown`` times (far below a pixel of any axis).
+DRAWN_TOL = 1e-6
+
+
+def _first_of_equal(late: Array, tol: float) -> Array:
+    """Mask (same shape as ``late``, states × rate values): True for the first of each run of states, per
+    column, that lie within ``tol`` of one another once sorted."""
+    order = np.argsort(late, axis=0, kind="stable")
+    ranked = np.take_along_axis(late, order, axis=0)
+    with np.errstate(invalid="ignore"):
+        new = np.ones(late.shape, dtype=bool)
+        new[1:] = ~(np.abs(np.diff(ranked, axis=0)) <= tol)
+    mask = np.empty_like(new)
+    np.put_along_axis(mask, order, new, axis=0)
+    return mask
+
+
 def sweep(result: FitResult, *, parameter: str | None = None, interval: tuple[float, float] | None = None,
           points: int = 300, shown: int = 64, span: tuple[float, float] | None = None) -> Sweep | None:
     """Long-run states over ``points`` values of the rate; None for curves or forms without a rate.
@@ -70,9 +88,10 @@ def sweep(result: FitResult, *, parameter: str | None = None, interval: tuple[fl
     values[name] = grid
     batch = classify(form, values, result.start_level, scale=state_scale(result), transient=1500, keep=max(shown, 256))
     late = batch.tail[-shown:]
+    scale = state_scale(result)
     rate = np.broadcast_to(grid, late.shape).reshape(-1)
     states = late.reshape(-1)
-    keep = np.isfinite(states) & (np.abs(states) < 1e6 * state_scale(result))
+    keep = np.isfinite(states) & (np.abs(states) < 1e6 * scale) & _first_of_equal(late, DRAWN_TOL * scale).reshape(-1)
     kinds = tuple(KINDS[int(k)] for k in batch.kind)
     periods = tuple(int(p) or None for p in batch.period)
     return Sweep(name, grid, kinds, periods, batch.lyapunov, rate[keep], states[keep],

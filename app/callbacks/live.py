@@ -1,0 +1,154 @@
+"""One round trip from a change of K, the data, the points used or the choices to every panel.
+
+A K typed, released on the slider or dropped with the K line, a new series, an exclusion or a new
+choice of forms is answered by one request whose reply holds all that changes: the committed K and
+its controls, the fits store, panels 1 to 5 and the key, the comparison table, and panel 7 (which
+fit it describes, its dynamics, its bootstrap status and a forecast already asked for). Outputs whose
+inputs did not change are sent as ``no_update``; the drag of the slider is previewed in the browser
+(assets/live.js) and committed here on release.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any, Mapping, Sequence
+
+from dash import Dash, Input, Output, State, ctx, no_update
+from dash.exceptions import PreventUpdate
+
+from app import ids
+from app.callbacks import dynamics as dyn
+from app.callbacks.capacity import update_capacity
+from app.callbacks.comparison import draw_comparison
+from app.callbacks.explore import explore_panels
+from app.callbacks.fits import compute_fits, held_capacity, skip_refit
+from app.callbacks.panels import draw_panels, with_forecast
+from app.state import series_from_store
+
+#: The inputs that move K (the others are the data, the points used and the choices).
+K_TRIGGERS = (ids.K_INPUT, ids.K_SLIDER, ids.G_TRAJECTORY)
+
+
+@dataclass(frozen=True)
+class View:
+    """What the panels are drawn with besides the data and the fits: each control's current value."""
+
+    axis: str | None = None
+    scale: str | None = None
+    path_from: str | None = None
+    sort: Mapping[str, Any] | None = None
+    dyn_label: str | None = None
+    dyn_options: Sequence[Any] | None = None
+    level: float | None = None
+    boot: Mapping[str, Any] | None = None
+    done: Mapping[str, Any] | None = None
+    summary: Mapping[str, Any] | None = None
+    forecast: Mapping[str, Any] | None = None
+
+
+def fits_are_current(previous: Mapping[str, Any] | None, data: Mapping[str, Any] | None,
+                     exclusions: Mapping[str, Any] | None, settings: Mapping[str, Any] | None,
+                     capacity: float | None) -> bool:
+    """Whether the fits store already holds the fits of these data, points, choices and K."""
+    if not previous or not data or settings is None or previous.get("key") != data.get("key"):
+        return False
+    if dict(previous.get("settings") or {}) != dict(settings):
+        return False
+    held = held_capacity(settings, capacity)
+    if (previous.get("capacity") is None) != (held is None) or (
+            held is not None and abs(float(previous["capacity"]) - held) > 1e-12 * max(abs(held), 1.0)):
+        return False
+    return [bool(u) for u in series_from_store(data, exclusions).used] == list(previous.get("used") or [])
+
+
+#: How many outputs the parts after the K controls and the fits store have.
+N_EXPLORE, N_PANELS, N_COMPARISON, N_DYNAMICS = 3, 7, 2, 12
+
+
+def panel_seven(fits_store: Mapping[str, Any], capacity: float | None, data: Mapping[str, Any],
+                exclusions: Mapping[str, Any] | None, view: View) -> tuple[Any, ...]:
+    """Panel 7 for new fits: the picker, the dynamics, the bootstrap status and the forecast."""
+    options, label = dyn.choose_fit(fits_store, view.dyn_label)
+    described = dyn.dynamics_view(fits_store, label, capacity, data, exclusions, view.done, view.level)
+    described = described if described is not None else (no_update,) * 5
+    progress = dyn.progress_view(view.boot, view.summary, fits_store, label)
+    forecast: Any = no_update
+    if view.forecast:
+        forecast = None if dyn.forecast_is_stale(view.forecast, fits_store) else dyn.compute_forecast(
+            view.forecast["request"], label, fits_store, data, exclusions, view.done)
+    return (no_update if list(options) == list(view.dyn_options or []) else options,
+            no_update if label == view.dyn_label else label, *described, *progress, forecast)
+
+
+def live_update(trigger: Any, k_input: float | None, k_slider: float | None, relayout: Mapping[str, Any] | None,
+                data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
+                settings: Mapping[str, Any] | None, current_k: float | None, previous_key: str | None,
+                previous: Mapping[str, Any] | None, pending: Mapping[str, Any] | None, view: View) -> tuple[Any, ...]:
+    """Every output of the reply, in the order :func:`register` lists them (``no_update`` where nothing changed)."""
+    cap = update_capacity(trigger, k_input, k_slider, relayout, data, settings, exclusions, current_k,
+                          previous_key=previous_key)
+    k_moved = cap[0] is not no_update
+    k = cap[0] if k_moved else current_k
+    key_out = (data or {}).get("key") if k_moved or trigger in (None, ids.DATA) else no_update
+    capacity_out = (*cap, key_out)
+    if trigger in K_TRIGGERS and not k_moved and cap[7] is no_update:
+        raise PreventUpdate  # the same K again, or an event of the plot that is not about K
+    if data is None or settings is None:
+        return (*capacity_out, *(no_update,) * (1 + N_EXPLORE + N_PANELS + N_COMPARISON + N_DYNAMICS))
+    refit = not fits_are_current(previous, data, exclusions, settings, k) and not skip_refit(
+        ids.CAPACITY if trigger in K_TRIGGERS else trigger, k, settings, data, previous, pending)
+    fits_store = compute_fits(data, exclusions, settings, k) if refit else previous
+    change, candidate, readout = explore_panels(data, exclusions, settings, k, view.axis or "state", view.scale)
+    explore = (no_update if trigger in K_TRIGGERS else change, candidate, readout)
+    panels = with_forecast(draw_panels(fits_store, k, data, exclusions, view.scale, view.path_from),
+                           view.forecast, fits_store)
+    if not refit:
+        # the fits are as they were: only the trajectory's K line and the key's K mark move
+        panels = (panels[0], *(no_update,) * 5, panels[6])
+        return (*capacity_out, no_update, *explore, *panels, *(no_update,) * (N_COMPARISON + N_DYNAMICS))
+    comparison = draw_comparison(fits_store, view.sort, view.summary)
+    seven = panel_seven(fits_store, k, data, exclusions, view) if fits_store else (no_update,) * N_DYNAMICS
+    return (*capacity_out, fits_store, *explore, *panels, *comparison, *seven)
+
+
+def register(app: Dash) -> None:
+    @app.callback(
+        Output(ids.CAPACITY, "data"), Output(ids.K_INPUT, "value"), Output(ids.K_SLIDER, "value"),
+        Output(ids.K_SLIDER, "min"), Output(ids.K_SLIDER, "max"), Output(ids.K_SLIDER, "step"),
+        Output(ids.K_SLIDER, "marks"), Output(ids.K_NOTE, "children"), Output(ids.CAPACITY_DATA, "data"),
+        Output(ids.FITS, "data"),
+        Output(ids.G_CHANGE, "figure"), Output(ids.G_CANDIDATE, "figure"), Output(ids.CANDIDATE_SUMMARY, "children"),
+        Output(ids.G_TRAJECTORY, "figure"), Output(ids.G_RESID_TIME, "figure"), Output(ids.G_RESID_FITTED, "figure"),
+        Output(ids.G_OBS_PRED, "figure"), Output(ids.MISFIT_FLAG, "children"), Output(ids.TRAJECTORY_NOTE, "children"),
+        Output(ids.FORM_KEY, "children"),
+        Output(ids.COMPARISON, "children"), Output(ids.COMPARISON_NOTES, "children"),
+        Output(ids.DYN_FIT, "options"), Output(ids.DYN_FIT, "value"),
+        Output(ids.DYN_SENTENCES, "children"), Output(ids.DYN_EQUILIBRIA, "children"),
+        Output(ids.G_COBWEB, "figure"), Output(ids.G_SWEEP, "figure"), Output(ids.DYN_DERIVED, "children"),
+        Output(ids.BOOT_PROGRESS, "value"), Output(ids.BOOT_PROGRESS, "max"), Output(ids.BOOT_STATUS, "children"),
+        Output(ids.DYN_INTERVALS, "children"), Output(ids.FORECAST, "data"),
+        Input(ids.K_INPUT, "value"), Input(ids.K_SLIDER, "value"), Input(ids.G_TRAJECTORY, "relayoutData"),
+        Input(ids.DATA, "data"), Input(ids.EXCLUSIONS, "data"), Input(ids.SETTINGS, "data"),
+        Input(ids.K_FROM_FIT, "n_clicks"),
+        State(ids.CAPACITY, "data"), State(ids.CAPACITY_DATA, "data"), State(ids.FITS, "data"),
+        State(ids.PENDING_CAPACITY, "data"),
+        State(ids.CHANGE_AXIS, "value"), State(ids.STATE_SCALE, "value"), State(ids.PATH_FROM, "value"),
+        State(ids.SORT, "data"), State(ids.DYN_FIT, "value"), State(ids.DYN_FIT, "options"),
+        State(ids.DYN_LEVEL, "value"), State(ids.BOOT, "data"), State(ids.BOOT_DONE, "data"),
+        State(ids.BOOT_SUMMARY, "data"), State(ids.FORECAST, "data"),
+        prevent_initial_call=False,
+    )
+    def _live(k_input, k_slider, relayout, data, exclusions, settings, k_clicks, current, previous_key, previous,
+              pending, axis, scale, path_from, sort, label, options, level, boot, done, summary, forecast):
+        trigger = ctx.triggered_id
+        if f"{ids.DATA}.data" in ctx.triggered_prop_ids:
+            # new data arriving with a plot's relayout event in one call must still set the first guess
+            trigger = ids.DATA
+        elif trigger == ids.K_FROM_FIT and not k_clicks:
+            trigger = "none"
+        view = View(axis, scale, path_from, sort, label, options, level, boot, done, summary, forecast)
+        return live_update(trigger, k_input, k_slider, relayout, data, exclusions, settings, current,
+                           previous_key, previous, pending, view)
+
+
+__all__ = ["View", "fits_are_current", "live_update", "panel_seven", "register"]
