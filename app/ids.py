@@ -137,6 +137,7 @@ BOOT = "store-bootstrap"           # the bootstrap run in progress: request, par
 BOOT_DONE = "store-bootstrap-done"  # finished (or cancelled) bootstraps, one per fit signature
 BOOT_SUMMARY = "store-bootstrap-summary"  # their counts and intervals only (small: rides along with table updates)
 FORECAST = "store-forecast"        # the forecast asked for and its band, for the trajectory panel
+PREVIEW = "store-preview"        # what the browser needs to preview a K being dragged (assets/live.js)
 DYN_FIT = "dynamics-fit"
 DYN_SENTENCES = "dynamics-sentences"
 DYN_EQUILIBRIA = "dynamics-equilibria"

@@ -17,6 +17,140 @@
     return {column: null, descending: false};
   }
 
+  /* ---------------------------------------------------------------- the drag preview
+
+     With K held, the increments fit of a form whose change per step is b·g(p; K) is the regression
+     through the origin b = Σ g·Δp / Σ g² (the engine's own numbers come back on release; a browser test
+     compares the two). Only the logistic and Gompertz terms are evaluated here (app/callbacks/live.py,
+     PREVIEW_FORMS); other forms keep their lines until K is released. */
+  var TERMS = {
+    logistic: function (p, K) { return p * (1 - p / K); },
+    gompertz: function (p, K) { return p * Math.log(K / p); }
+  };
+
+  /* K to 4 significant digits, as the controls commit it (app/callbacks/capacity.py, rounded). */
+  function rounded(k) { return (k === 0 || !isFinite(k)) ? k : Number(k.toPrecision(4)); }
+
+  /* Python's "{:.4g}" for the numbers the preview writes into legends. */
+  function g4(x) {
+    if (!isFinite(x)) { return String(x); }
+    if (x === 0) { return "0"; }
+    var e = Math.floor(Math.log10(Math.abs(Number(x.toPrecision(4)))));
+    if (e < -4 || e >= 4) {
+      var m = Number((x / Math.pow(10, e)).toPrecision(4)), sign = e < 0 ? "-" : "+";
+      var digits = String(Math.abs(e)); if (digits.length < 2) { digits = "0" + digits; }
+      return String(m) + "e" + sign + digits;
+    }
+    return String(Number(x.toPrecision(4)));
+  }
+
+  /* Slope and uncentered R² of Δp on g(p; K) through the origin, and g itself. */
+  function regression(model, p, dp, K) {
+    var term = TERMS[model], g = new Array(p.length), sgg = 0, sgd = 0, sdd = 0, sse = 0, i;
+    for (i = 0; i < p.length; i++) { g[i] = term(p[i], K); sgg += g[i] * g[i]; sgd += g[i] * dp[i]; sdd += dp[i] * dp[i]; }
+    var b = sgd / sgg;
+    for (i = 0; i < p.length; i++) { var e = dp[i] - b * g[i]; sse += e * e; }
+    return {slope: b, r2: 1 - sse / sdd, g: g};
+  }
+
+  /* What the preview draws at K, as plain numbers (the browser test compares these with the engine). */
+  function previewNumbers(store, K) {
+    var out = {candidates: {}, fits: {}};
+    (store.candidates || []).forEach(function (c) { out.candidates[c.label] = regression(c.model, c.p, c.dp, K); });
+    (store.fits || []).forEach(function (f) {
+      var r = regression(f.model, store.x, store.dy, K), term = TERMS[f.model];
+      out.fits[f.label] = {slope: r.slope, r2: r.r2,
+                           predicted: store.x.map(function (x) { return x + r.slope * term(x, K); })};
+    });
+    return out;
+  }
+
+  function plotOf(id) {
+    var host = document.getElementById(id);
+    return host ? host.querySelector(".js-plotly-plot") : null;
+  }
+
+  function indexByUid(gd, uid) {
+    for (var i = 0; i < gd.data.length; i++) { if (gd.data[i].uid === uid) { return i; } }
+    return -1;
+  }
+
+  function drawCandidates(store, K, numbers) {
+    var gd = plotOf("panel-candidate");
+    if (!gd || !gd.data || !(store.candidates || []).length) { return; }
+    var data = gd.data.slice();
+    store.candidates.forEach(function (c) {
+      var pts = indexByUid(gd, "candidate-points:" + c.label), line = indexByUid(gd, "candidate-line:" + c.label);
+      var r = numbers.candidates[c.label];
+      if (pts < 0 || line < 0 || !isFinite(r.slope)) { return; }
+      data[pts] = Object.assign({}, data[pts], {x: r.g});
+      var order = r.g.map(function (_, i) { return i; }).sort(function (a, b) { return r.g[a] - r.g[b]; });
+      data[line] = Object.assign({}, data[line], {
+        x: [0].concat(order.map(function (i) { return r.g[i]; })),
+        y: [0].concat(order.map(function (i) { return r.slope * r.g[i]; })),
+        name: "g = " + c.label + ": " + c.slope_name + " = " + g4(r.slope) + ", uncentered R² = " + r.r2.toFixed(3)
+      });
+    });
+    Plotly.react(gd, data, gd.layout);
+  }
+
+  function drawTrajectory(store, K, numbers) {
+    var gd = plotOf("panel-trajectory");
+    if (!gd || !gd.data) { return; }
+    var data = gd.data.slice();
+    data.forEach(function (trace, i) {
+      if (trace.meta === "capacity") { data[i] = Object.assign({}, trace, {y: [K, K]}); }
+    });
+    (store.fits || []).forEach(function (f) {
+      var r = numbers.fits[f.label], term = TERMS[f.model];
+      if (!isFinite(r.slope)) { return; }
+      var step = indexByUid(gd, "one-step:" + f.label), path = indexByUid(gd, "iterated:" + f.label);
+      if (step >= 0) { data[step] = Object.assign({}, data[step], {y: r.predicted}); }
+      if (path >= 0) {
+        var y = data[path].y.slice();
+        for (var k = 1; k < y.length; k++) { y[k] = y[k - 1] + r.slope * term(y[k - 1], K); }
+        data[path] = Object.assign({}, data[path], {y: y});
+      }
+    });
+    var layout = Object.assign({}, gd.layout);
+    var log = layout.yaxis && layout.yaxis.type === "log";
+    if (layout.shapes && layout.shapes.length) {
+      layout.shapes = layout.shapes.slice();
+      layout.shapes[0] = Object.assign({}, layout.shapes[0], {yanchor: K});
+    }
+    if (layout.annotations && layout.annotations.length && /^K = /.test(layout.annotations[0].text || "")) {
+      layout.annotations = layout.annotations.slice();
+      var unit = layout.annotations[0].text.replace(/^K = \S+/, "");
+      layout.annotations[0] = Object.assign({}, layout.annotations[0], {
+        text: "K = " + g4(K) + unit, y: log ? Math.log10(K) : K});
+    }
+    Plotly.react(gd, data, layout);
+  }
+
+  var pending = null;
+
+  /* The slider's drag value: drawn at the next frame (moves faster than frames are coalesced). */
+  function preview(drag, store) {
+    var nu = window.dash_clientside.no_update;
+    if (drag === null || drag === undefined || !store || !window.Plotly) { return nu; }
+    var K = rounded(Number(drag));
+    if (!(K > 0)) { return nu; }
+    var first = pending === null;
+    pending = {store: store, K: K};
+    if (first) {
+      requestAnimationFrame(function () {
+        var job = pending; pending = null;
+        var numbers = previewNumbers(job.store, job.K);
+        drawCandidates(job.store, job.K, numbers);
+        drawTrajectory(job.store, job.K, numbers);
+        window.__gcPreviewK = job.K;
+      });
+    }
+    return nu;  // nothing for Dash to store: a store update per pointer move costs the page a render
+  }
+
   window.dash_clientside = window.dash_clientside || {};
-  window.dash_clientside[NS] = Object.assign(window.dash_clientside[NS] || {}, {sort: sort});
+  window.dash_clientside[NS] = Object.assign(window.dash_clientside[NS] || {},
+                                             {sort: sort, preview: preview, previewNumbers: previewNumbers,
+                                              rounded: rounded, g4: g4});
 })();

@@ -63,13 +63,16 @@ def equilibria(form: ModelForm, values: Mapping[str, float], upper: float) -> li
     at_zero = g[0] if np.isfinite(g[0]) else g[1]
     if np.isfinite(at_zero) and abs(at_zero) <= 1e-12 * max(upper, 1.0):
         roots.append(0.0)
-    for a, b, ga, gb in zip(grid[1:-1], grid[2:], g[1:-1], g[2:], strict=True):
-        if not (np.isfinite(ga) and np.isfinite(gb)):
-            continue
-        if ga == 0.0:
-            roots.append(float(a))
-        elif ga * gb < 0:
-            roots.append(float(brentq(lambda q: float(_rate(form, np.array([q]), values)[0]), a, b, xtol=1e-13 * b)))
+    a, b, ga, gb = grid[1:-1], grid[2:], g[1:-1], g[2:]
+    with np.errstate(all="ignore"):
+        both = np.isfinite(ga) & np.isfinite(gb)
+        zero, change = both & (ga == 0.0), both & (ga != 0.0) & (ga * gb < 0)
+    for i in np.flatnonzero(zero | change):
+        if zero[i]:
+            roots.append(float(a[i]))
+        else:
+            roots.append(float(brentq(lambda q: float(_rate(form, np.array([q]), values)[0]), a[i], b[i],
+                                      xtol=1e-13 * b[i])))
     out = []
     for root in sorted(set(roots)):
         where = root if root > 0 or not form.needs_positive else grid[1]

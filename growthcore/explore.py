@@ -179,6 +179,8 @@ class CandidateFit:
     index: Array = field(default_factory=lambda: np.zeros(0, dtype=int))
     g: Array = field(default_factory=lambda: np.zeros(0))
     dp: Array = field(default_factory=lambda: np.zeros(0))
+    #: the state at the start of each step (g is g(p; K) of it)
+    p: Array = field(default_factory=lambda: np.zeros(0))
     fitted: Array = field(default_factory=lambda: np.zeros(0))
     slope: float | None = None
     slope_name: str = ""
@@ -224,6 +226,7 @@ def candidate_fit(series: Series, candidate: Candidate, capacity: float | None) 
         index=i,
         g=g,
         dp=series.p[i + 1] - x,
+        p=x,
         fitted=coef.value * g,
         slope=coef.value,
         slope_name=coef.name,

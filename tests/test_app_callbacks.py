@@ -180,7 +180,9 @@ def test_with_k_fitted_a_moved_k_redraws_only_what_shows_k(demo: dict, settings:
     out = live_update(ids.K_INPUT, 3.5, None, None, demo, None, fitted, 4.0, demo["key"], store, None, View())
     assert out[0] == 3.5 and out[9] is no_update  # no refit: the fits do not hold K
     assert out[13] is not no_update and out[19] is not no_update  # the trajectory's K line and the key
-    assert all(x is no_update for x in (*out[14:19], *out[20:]))
+    assert all(x is no_update for x in (*out[14:19], *out[20:-1]))
+    # panel 2 still follows a dragged K in the browser; no fit holds K, so none is previewed
+    assert [c["model"] for c in out[-1]["candidates"]] == ["logistic"] and out[-1]["fits"] == []
 
 
 def test_fitted_k_mode_reports_profile_intervals(demo: dict, settings: dict) -> None:

@@ -6,6 +6,7 @@ import numpy as np
 import plotly.graph_objects as go
 import pytest
 
+from app.figures.common import unpacked
 from app.figures.dynamics import cobweb_figure, forecast_band_traces, sweep_figure, with_forecast_band
 from growthcore.data import Series
 from growthcore.dynamics import analyse, cobweb, sweep
@@ -70,6 +71,9 @@ def test_sweep_marks_the_fitted_rate_and_interval() -> None:
     assert all(p == 2 for r, p in zip(sw.grid, sw.periods, strict=True) if 2.05 < r < 2.4)
     fig = sweep_figure(sw.to_dict(), {**LABELS, "rate_unit": "per yr"})
     go.Figure(fig)
+    # the points travel as 32-bit floats: the same points to 7 digits
+    assert unpacked(fig["data"][0]["y"]) == pytest.approx(sw.states.tolist(), rel=1e-6)
+    assert unpacked(fig["data"][0]["x"]) == pytest.approx(sw.rate.tolist(), rel=1e-6)
     shapes = fig["layout"]["shapes"]
     assert shapes[0]["type"] == "rect" and shapes[0]["x0"] == pytest.approx(sw.interval[0])
     assert shapes[1]["x0"] == pytest.approx(res.values["r"])

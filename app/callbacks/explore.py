@@ -29,7 +29,7 @@ def change_to_store(table: Any) -> dict[str, Any]:
 
 def candidate_to_store(c: CandidateFit) -> dict[str, Any]:
     return {"label": c.candidate.label, "model": c.candidate.model, "status": c.status, "message": c.message,
-            "index": [int(i) for i in c.index], "g": c.g.tolist(), "dp": c.dp.tolist(),
+            "index": [int(i) for i in c.index], "g": c.g.tolist(), "dp": c.dp.tolist(), "p": c.p.tolist(),
             "fitted": c.fitted.tolist(), "slope": c.slope, "slope_name": c.slope_name, "slope_se": c.slope_se,
             "slope_ci95": list(c.slope_ci95) if c.slope_ci95 else None, "r2_uncentered": c.r2_uncentered,
             "shape": c.shape, "capacity": c.capacity, "at_bound": list(c.at_bound)}
@@ -67,9 +67,16 @@ def explore_panels(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any]
                    settings: Mapping[str, Any] | None, capacity: float | None, axis: str = "state",
                    scale: str | None = None) -> tuple[Any, ...]:
     """Outputs: the change figure, the candidate figure and the slope/R² readout."""
+    return explore_parts(data, exclusions, settings, capacity, axis, scale)[:3]
+
+
+def explore_parts(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
+                  settings: Mapping[str, Any] | None, capacity: float | None, axis: str = "state",
+                  scale: str | None = None) -> tuple[Any, Any, Any, list[dict[str, Any]]]:
+    """The three outputs of :func:`explore_panels` and the plain candidate fits behind panel 2."""
     if data is None or settings is None:
         blank = message_figure("loading the data…")
-        return blank, blank, []
+        return blank, blank, [], []
     series = series_from_store(data, exclusions)
     table = change_table(series)
     labels = labels_of(data, h=table.h)
@@ -83,7 +90,7 @@ def explore_panels(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any]
     for c in fitted:
         c["style"] = order.get(c["model"], len(order))
     fig2 = candidate_figure(fitted, labels, both=settings.get("method") == "both", notes=notes)
-    return fig1, fig2, candidate_readout(fitted, notes, capacity, data.get("value_unit", ""))
+    return fig1, fig2, candidate_readout(fitted, notes, capacity, data.get("value_unit", "")), fitted
 
 
 def register(app: Dash) -> None:

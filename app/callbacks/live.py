@@ -13,14 +13,14 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any, Mapping, Sequence
 
-from dash import Dash, Input, Output, State, ctx, no_update
+from dash import ClientsideFunction, Dash, Input, Output, State, ctx, no_update
 from dash.exceptions import PreventUpdate
 
 from app import ids
 from app.callbacks import dynamics as dyn
 from app.callbacks.capacity import update_capacity
 from app.callbacks.comparison import draw_comparison
-from app.callbacks.explore import explore_panels
+from app.callbacks.explore import explore_parts
 from app.callbacks.fits import compute_fits, held_capacity, skip_refit
 from app.callbacks.panels import draw_panels, with_forecast
 from app.state import series_from_store
@@ -61,8 +61,32 @@ def fits_are_current(previous: Mapping[str, Any] | None, data: Mapping[str, Any]
     return [bool(u) for u in series_from_store(data, exclusions).used] == list(previous.get("used") or [])
 
 
+#: Forms whose increments fit with K held is a regression through the origin on one term that the browser
+#: evaluates while K is dragged (assets/live.js); the others are redrawn when K is released.
+PREVIEW_FORMS = ("logistic", "gompertz")
+
+
+def preview_inputs(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, settings: Mapping[str, Any],
+                   fits_store: Mapping[str, Any] | None, capacity: float | None,
+                   candidates: Sequence[Mapping[str, Any]]) -> dict[str, Any] | None:
+    """The pairs behind panel 2's lines and behind the increments fits that hold K, for the drag preview."""
+    if capacity is None:
+        return None
+    cands = [{k: c[k] for k in ("label", "model", "slope_name", "p", "dp")} for c in candidates
+             if c.get("status") == "converged" and c.get("model") in PREVIEW_FORMS]
+    fits: list[dict[str, str]] = []
+    x: list[float] = []
+    dy: list[float] = []
+    pairs = series_from_store(data, exclusions).consecutive
+    if held_capacity(settings, capacity) is not None and fits_store and not isinstance(pairs, str):
+        x, dy = pairs[1].tolist(), (pairs[2] - pairs[1]).tolist()
+        fits = [{"label": f["label"], "model": f["model"]} for f in fits_store.get("fits", [])
+                if f.get("method") == "increments" and f.get("status") == "converged" and f["model"] in PREVIEW_FORMS]
+    return {"key": data.get("key"), "capacity": capacity, "candidates": cands, "fits": fits, "x": x, "dy": dy}
+
+
 #: How many outputs the parts after the K controls and the fits store have.
-N_EXPLORE, N_PANELS, N_COMPARISON, N_DYNAMICS = 3, 7, 2, 12
+N_EXPLORE, N_PANELS, N_COMPARISON, N_DYNAMICS = 3, 7, 2, 12  # and the preview's inputs last
 
 
 def panel_seven(fits_store: Mapping[str, Any], capacity: float | None, data: Mapping[str, Any],
@@ -94,24 +118,31 @@ def live_update(trigger: Any, k_input: float | None, k_slider: float | None, rel
     if trigger in K_TRIGGERS and not k_moved and cap[7] is no_update:
         raise PreventUpdate  # the same K again, or an event of the plot that is not about K
     if data is None or settings is None:
-        return (*capacity_out, *(no_update,) * (1 + N_EXPLORE + N_PANELS + N_COMPARISON + N_DYNAMICS))
+        return (*capacity_out, *(no_update,) * (1 + N_EXPLORE + N_PANELS + N_COMPARISON + N_DYNAMICS + 1))
     refit = not fits_are_current(previous, data, exclusions, settings, k) and not skip_refit(
         ids.CAPACITY if trigger in K_TRIGGERS else trigger, k, settings, data, previous, pending)
     fits_store = compute_fits(data, exclusions, settings, k) if refit else previous
-    change, candidate, readout = explore_panels(data, exclusions, settings, k, view.axis or "state", view.scale)
+    change, candidate, readout, fitted = explore_parts(data, exclusions, settings, k, view.axis or "state", view.scale)
     explore = (no_update if trigger in K_TRIGGERS else change, candidate, readout)
     panels = with_forecast(draw_panels(fits_store, k, data, exclusions, view.scale, view.path_from),
                            view.forecast, fits_store)
+    preview = preview_inputs(data, exclusions, settings, fits_store, k, fitted)
     if not refit:
         # the fits are as they were: only the trajectory's K line and the key's K mark move
         panels = (panels[0], *(no_update,) * 5, panels[6])
-        return (*capacity_out, no_update, *explore, *panels, *(no_update,) * (N_COMPARISON + N_DYNAMICS))
+        return (*capacity_out, no_update, *explore, *panels, *(no_update,) * (N_COMPARISON + N_DYNAMICS), preview)
     comparison = draw_comparison(fits_store, view.sort, view.summary)
     seven = panel_seven(fits_store, k, data, exclusions, view) if fits_store else (no_update,) * N_DYNAMICS
-    return (*capacity_out, fits_store, *explore, *panels, *comparison, *seven)
+    return (*capacity_out, fits_store, *explore, *panels, *comparison, *seven, preview)
 
 
 def register(app: Dash) -> None:
+    # the slider being dragged: panel 2's lines, the K line and the increments fits that hold K follow in
+    # the browser (assets/live.js); the value on release comes to the callback below
+    app.clientside_callback(ClientsideFunction(namespace="growthcore_live", function_name="preview"),
+                            Input(ids.K_SLIDER, "drag_value"),
+                            State(ids.PREVIEW, "data"), prevent_initial_call=True)
+
     @app.callback(
         Output(ids.CAPACITY, "data"), Output(ids.K_INPUT, "value"), Output(ids.K_SLIDER, "value"),
         Output(ids.K_SLIDER, "min"), Output(ids.K_SLIDER, "max"), Output(ids.K_SLIDER, "step"),
@@ -126,7 +157,7 @@ def register(app: Dash) -> None:
         Output(ids.DYN_SENTENCES, "children"), Output(ids.DYN_EQUILIBRIA, "children"),
         Output(ids.G_COBWEB, "figure"), Output(ids.G_SWEEP, "figure"), Output(ids.DYN_DERIVED, "children"),
         Output(ids.BOOT_PROGRESS, "value"), Output(ids.BOOT_PROGRESS, "max"), Output(ids.BOOT_STATUS, "children"),
-        Output(ids.DYN_INTERVALS, "children"), Output(ids.FORECAST, "data"),
+        Output(ids.DYN_INTERVALS, "children"), Output(ids.FORECAST, "data"), Output(ids.PREVIEW, "data"),
         Input(ids.K_INPUT, "value"), Input(ids.K_SLIDER, "value"), Input(ids.G_TRAJECTORY, "relayoutData"),
         Input(ids.DATA, "data"), Input(ids.EXCLUSIONS, "data"), Input(ids.SETTINGS, "data"),
         Input(ids.K_FROM_FIT, "n_clicks"),
@@ -151,4 +182,4 @@ def register(app: Dash) -> None:
                            previous_key, previous, pending, view)
 
 
-__all__ = ["View", "fits_are_current", "live_update", "panel_seven", "register"]
+__all__ = ["PREVIEW_FORMS", "View", "preview_inputs", "fits_are_current", "live_update", "panel_seven", "register"]

@@ -63,10 +63,11 @@ def build_settings(forms: Sequence[str] | None, constant: Sequence[str] | None, 
     if k_mode == "fitted":
         live = "K is fitted by each form: moving the estimate changes panels 2 and 3 only."
     elif method == "increments":
-        live = "Every fit follows K live while you drag."
+        live = ("While you drag the slider, the K line, panel 2's lines and the logistic and Gompertz increments "
+                "fits follow; every panel is refitted when you release it, type a value or drop the K line.")
     else:
-        live = ("Panels 1–2 follow K while you drag; trajectory fits are refitted when you release the slider, "
-                "type a value or drop the K line.")
+        live = ("While you drag the slider, the K line and panel 2's lines follow; the fits are refitted when you "
+                "release it, type a value or drop the K line.")
     return settings, notes, live
 
 

@@ -2,11 +2,33 @@
 
 from __future__ import annotations
 
+import base64
 from typing import Any, Mapping, Sequence
+
+import numpy as np
 
 from app import theme
 
 Figure = dict[str, Any]
+
+
+def packed(values: Sequence[float | None]) -> dict[str, str]:
+    """Numbers for plotly.js as a typed array (base64 of 32-bit floats, None as NaN): a quarter of the JSON
+    for point clouds that are only drawn (a float keeps 7 digits, far beyond a pixel)."""
+    a = np.asarray([np.nan if v is None else v for v in values], dtype="<f4")
+    return {"dtype": "f4", "bdata": base64.b64encode(a.tobytes()).decode("ascii")}
+
+
+def preview_uid(role: str, label: str) -> str:
+    """The trace id by which the browser's drag preview (assets/live.js) finds a trace it moves."""
+    return f"{role}:{label}"
+
+
+def unpacked(values: Any) -> list[float]:
+    """The numbers of a trace array, packed (see :func:`packed`) or plain."""
+    if isinstance(values, Mapping) and "bdata" in values:
+        return np.frombuffer(base64.b64decode(values["bdata"]), dtype=f"<{values['dtype']}").astype(float).tolist()
+    return [float("nan") if v is None else float(v) for v in values]
 POINTS = "points"        # meta of traces whose points are observations (customdata = [index, row])
 HIGHLIGHT = "highlight"  # meta of the trace that marks the observation under the pointer
 

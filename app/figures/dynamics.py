@@ -12,7 +12,7 @@ import copy
 from typing import Any, Mapping, Sequence
 
 from app import theme
-from app.figures.common import Figure, axis_title, base_layout, message_figure
+from app.figures.common import Figure, axis_title, base_layout, message_figure, packed
 
 MAP = "#0072B2"        # blue: the fitted map and the sweep points
 PATH = "#E69F00"       # orange: the cobweb staircase
@@ -41,7 +41,7 @@ def cobweb_figure(web: Mapping[str, Any] | None, labels: Mapping[str, Any]) -> F
     traces: list[dict[str, Any]] = [
         {"type": "scatter", "mode": "lines", "x": [0.0, top], "y": [0.0, top], "name": "no change (p_{n+1} = p_n)",
          "line": {"color": theme.REFERENCE, "dash": "dot", "width": 1.5}, "hoverinfo": "skip"},
-        {"type": "scatter", "mode": "lines", "x": p, "y": list(web["f"]), "name": "fitted map f(p)",
+        {"type": "scatter", "mode": "lines", "x": packed(p), "y": packed(web["f"]), "name": "fitted map f(p)",
          "line": {"color": MAP, "width": 2.5},
          "hovertemplate": "p_n = %{x:.4g}<br>p_{n+1} = %{y:.4g}<extra>fitted map</extra>"},
         {"type": "scatter", "mode": "lines", "x": list(web["stairs_x"]), "y": list(web["stairs_y"]),
@@ -79,7 +79,7 @@ def sweep_figure(sweep: Mapping[str, Any] | None, labels: Mapping[str, Any]) -> 
                                                                          labels.get("value_unit", "")),
                          uirevision=labels.get("uirevision"), title=labels.get("title", ""))
     traces: list[dict[str, Any]] = [{
-        "type": "scattergl", "mode": "markers", "x": list(sweep["rate"]), "y": list(sweep["states"]),
+        "type": "scattergl", "mode": "markers", "x": packed(sweep["rate"]), "y": packed(sweep["states"]),
         "name": "long-run states", "marker": {"size": 2, "color": MAP, "opacity": 0.6},
         "hovertemplate": f"{name} = %{{x:.4g}}<br>state = %{{y:.4g}}<extra></extra>",
     }]

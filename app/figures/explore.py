@@ -6,7 +6,8 @@ from typing import Any, Mapping, Sequence
 
 from app import theme
 from app.figures.common import (Figure, axis_title, base_layout, form_style, highlight_trace, message_figure,
-                                non_positive_note, observation_trace, points_marker, rate_unit, state_axis)
+                                non_positive_note, observation_trace, points_marker, preview_uid, rate_unit,
+                                state_axis)
 
 #: What panel 2 says when no chosen form has a single rate term to regress on.
 NO_CANDIDATE = ("This panel regresses the change per step on one rate term, and no chosen form has one{why}. "
@@ -90,12 +91,14 @@ def candidate_figure(candidates: Sequence[Mapping[str, Any]], labels: Mapping[st
         trace["marker"] = points_marker(style)
         trace["legendgroup"] = c["label"]
         trace["showlegend"] = False
+        trace["uid"] = preview_uid("candidate-points", c["label"])
         data.append(trace)
         pairs = sorted(zip(c["g"], c["fitted"]), key=lambda gv: gv[0])
         line_x = [0.0] + [g for g, _ in pairs]
         line_y = [0.0] + [v for _, v in pairs]
         data.append({
             "type": "scatter", "mode": "lines+markers", "x": line_x, "y": line_y, "legendgroup": c["label"],
+            "uid": preview_uid("candidate-line", c["label"]),
             "name": f"g = {c['label']}: {c.get('slope_name', 'b')} = {c['slope']:.4g}, "
                     f"uncentered R² = {c['r2_uncentered']:.3f}",
             "marker": {"size": 0.1, "color": colour},

@@ -7,7 +7,7 @@ from typing import Any, Mapping, Sequence
 
 from app import theme
 from app.figures.common import (Figure, axis_title, base_layout, fit_styles, highlight_trace, non_positive_note,
-                                observation_trace, points_marker, rows_or_positions, state_axis)
+                                observation_trace, points_marker, preview_uid, rows_or_positions, state_axis)
 
 #: ``layout.shapes``: the K line's drag handle comes first; the drag callback reads it. The line is a
 #: trace: a shape on a graph whose shapes can be dragged takes every click along it.
@@ -54,6 +54,7 @@ def trajectory_figure(data: Mapping[str, Any], used: Sequence[bool], fits: Seque
             traces.append({
                 "type": "scatter", "mode": "markers", "x": f["t"], "y": f["predicted"],
                 "name": f"{f['label']}, one step ahead", "marker": points_marker(style, 7), "legendgroup": f["label"],
+                "uid": preview_uid("one-step", f["label"]),
                 "customdata": [[int(i), rows[int(i)]] for i in f.get("index", [])],
                 "hovertemplate": f"{f['label']}<br>one step ahead from the observation before<br>"
                                  f"t = %{{x:.4g}} {tu}<br>p̂ = %{{y:.4g}} {vu}<br>row %{{customdata[1]}}"
@@ -65,7 +66,7 @@ def trajectory_figure(data: Mapping[str, Any], used: Sequence[bool], fits: Seque
                 trace["hovertemplate"] = trace["hovertemplate"].replace(
                     "iterated map<br>", f"map {PATH_NAMES[path_from]}<br>", 1)
                 # in a figure's own key the form's marker stands for both; the title says what lines are
-                trace.update(legendgroup=f["label"], showlegend=False)
+                trace.update(legendgroup=f["label"], showlegend=False, uid=preview_uid("iterated", f["label"]))
                 traces.append(trace)
         elif f.get("path"):
             traces.append(_line(f, style, f["path"], f["label"], tu, vu, width=2))
