@@ -70,6 +70,13 @@
     return host ? host.querySelector(".js-plotly-plot") : null;
   }
 
+  /* The trace id the figure builders give a trace the preview moves (app/figures/common.py, preview_uid). */
+  function uidOf(role, label) {
+    var hex = Array.prototype.map.call(new TextEncoder().encode(label), function (b) {
+      return (b < 16 ? "0" : "") + b.toString(16); }).join("");
+    return role + "-" + hex;
+  }
+
   function indexByUid(gd, uid) {
     for (var i = 0; i < gd.data.length; i++) { if (gd.data[i].uid === uid) { return i; } }
     return -1;
@@ -80,7 +87,7 @@
     if (!gd || !gd.data || !(store.candidates || []).length) { return; }
     var data = gd.data.slice();
     store.candidates.forEach(function (c) {
-      var pts = indexByUid(gd, "candidate-points:" + c.label), line = indexByUid(gd, "candidate-line:" + c.label);
+      var pts = indexByUid(gd, uidOf("candidate-points", c.label)), line = indexByUid(gd, uidOf("candidate-line", c.label));
       var r = numbers.candidates[c.label];
       if (pts < 0 || line < 0 || !isFinite(r.slope)) { return; }
       data[pts] = Object.assign({}, data[pts], {x: r.g});
@@ -104,7 +111,7 @@
     (store.fits || []).forEach(function (f) {
       var r = numbers.fits[f.label], term = TERMS[f.model];
       if (!isFinite(r.slope)) { return; }
-      var step = indexByUid(gd, "one-step:" + f.label), path = indexByUid(gd, "iterated:" + f.label);
+      var step = indexByUid(gd, uidOf("one-step", f.label)), path = indexByUid(gd, uidOf("iterated", f.label));
       if (step >= 0) { data[step] = Object.assign({}, data[step], {y: r.predicted}); }
       if (path >= 0) {
         var y = data[path].y.slice();
@@ -129,10 +136,18 @@
 
   var pending = null;
 
+  /* Only a drag previews: the slider also reports a drag value when the server sets its value, and a
+     preview then would draw over the server's figures. */
+  var dragging = false;
+  document.addEventListener("pointerdown", function (e) {
+    dragging = !!(e.target && e.target.closest && e.target.closest("#model-k-slider"));
+  }, true);
+  document.addEventListener("pointerup", function () { dragging = false; }, true);
+
   /* The slider's drag value: drawn at the next frame (moves faster than frames are coalesced). */
   function preview(drag, store) {
     var nu = window.dash_clientside.no_update;
-    if (drag === null || drag === undefined || !store || !window.Plotly) { return nu; }
+    if (!dragging || drag === null || drag === undefined || !store || !window.Plotly) { return nu; }
     var K = rounded(Number(drag));
     if (!(K > 0)) { return nu; }
     var first = pending === null;

@@ -161,3 +161,14 @@ def test_one_colour_per_form_and_a_dash_per_method(fits: list[dict]) -> None:
     assert len({next(iter(c)) for c in by_model.values()}) == len(by_model)
     dashes = {(f["method"], st["dash"]) for f, st in zip(fits, styles, strict=True)}
     assert dashes == {("increments", "dot"), ("trajectory", "solid")}
+
+
+def test_preview_ids_are_safe_in_css_selectors() -> None:
+    # plotly.js puts a trace's uid into CSS selectors: a label with spaces, parentheses or × must not break it
+    import re
+
+    from app.figures.common import preview_uid
+
+    for label in ("logistic (increments)", "ricker+c (trajectory, log)", "g = p·(1 − p/K)", "1988 × F"):
+        assert re.fullmatch(r"[a-z][a-z-]*-[0-9a-f]+", preview_uid("one-step", label))
+    assert preview_uid("one-step", "a") != preview_uid("one-step", "b")

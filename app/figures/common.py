@@ -20,8 +20,9 @@ def packed(values: Sequence[float | None]) -> dict[str, str]:
 
 
 def preview_uid(role: str, label: str) -> str:
-    """The trace id by which the browser's drag preview (assets/live.js) finds a trace it moves."""
-    return f"{role}:{label}"
+    """The trace id by which the browser's drag preview (assets/live.js) finds a trace it moves; plotly.js
+    uses it in CSS selectors, so the label goes in as the hex digits of its UTF-8 bytes."""
+    return f"{role}-{label.encode('utf-8').hex()}"
 
 
 def unpacked(values: Any) -> list[float]:

@@ -189,8 +189,8 @@ const plot = id => { const h = document.getElementById(id); return h && h.queryS
 const look = () => {
   const t = plot('panel-trajectory'), c = plot('panel-candidate');
   const k = t && t.data && t.data.find(d => d.meta === 'capacity');
-  const line = c && c.data && c.data.find(d => String(d.uid || '').startsWith('candidate-line:'));
-  const step = t && t.data && t.data.find(d => String(d.uid || '').startsWith('one-step:'));
+  const line = c && c.data && c.data.find(d => String(d.uid || '').startsWith('candidate-line-'));
+  const step = t && t.data && t.data.find(d => String(d.uid || '').startsWith('one-step-'));
   return [k ? k.y[0] : null, line ? line.y[line.y.length - 1] : null, step ? step.y[step.y.length - 1] : null];
 };
 window.__gcFrames = {seen: look(), changes: [[], [], []], frames: 0, run: true};

@@ -88,7 +88,7 @@ def test_dragging_the_slider_moves_k_and_panel_two_then_the_release_refits(serve
     look = ("const t = document.querySelector('#panel-trajectory .js-plotly-plot'),"
             " c = document.querySelector('#panel-candidate .js-plotly-plot');"
             "const k = t.data.find(d => d.meta === 'capacity');"
-            "const line = c.data.find(d => String(d.uid || '').startsWith('candidate-line:'));"
+            "const line = c.data.find(d => String(d.uid || '').startsWith('candidate-line-'));"
             "return [k.y[0], line.name];")
     k0, line0 = driver.execute_script(look)
     thumb = driver.find_element(By.CSS_SELECTOR, "#model-k-slider [role=slider]")
