@@ -59,7 +59,9 @@ def build_layout(source: Mapping[str, Any] | None, *, max_upload_bytes: int) -> 
                     html.P("Sort by any numeric column. ΔAICc and Akaike weights compare only fits of the same "
                            "points by the same method and error model.", className="panel-guide"),
                     html.Div(id=ids.COMPARISON_NOTES, className="hint"),
-                    dcc.Loading(html.Div(id=ids.COMPARISON, className="table-box"), type="dot", delay_show=400),
+                    # while a refit is on its way the table stays readable, dimmed, under the spinner
+                    dcc.Loading(html.Div(id=ids.COMPARISON, className="table-box"), type="dot", delay_show=400,
+                                overlay_style={"visibility": "visible", "opacity": 0.55}),
                 ], className="panel panel-table", **{"aria-label": "Comparison"}),
                 overview_section(),
                 html.Div(dynamics_section(), id=ids.DYNAMICS_SLOT),
