@@ -28,8 +28,9 @@ LOG = logging.getLogger("growthcore.app")
 FEWER_POINTS = "fewer points (exclude some, or load a shorter series)"
 #: The first output of a callback -> what the request does, and how to ask for less of it.
 REQUESTS: dict[str, tuple[str, str]] = {
-    ids.FITS: ("Fitting the chosen forms", f"choose fewer forms or one method instead of both, or use {FEWER_POINTS}"),
-    ids.CAPACITY: ("Setting K", f"hold K at a value instead of fitting it, or use {FEWER_POINTS}"),
+    # the reply to a change of K, the data or the choices (app/callbacks/live.py) starts with K
+    ids.CAPACITY: ("Fitting the chosen forms", f"choose fewer forms or one method instead of both, hold K at a value "
+                                               f"instead of fitting it, or use {FEWER_POINTS}"),
     ids.G_CHANGE: ("The change-per-step and candidate-terms panels", f"choose fewer forms or terms, or use {FEWER_POINTS}"),
     ids.G_TRAJECTORY: ("Drawing the fit panels", f"choose fewer forms, or use {FEWER_POINTS}"),
     ids.COMPARISON: ("The comparison table", "choose fewer forms"),

@@ -74,19 +74,20 @@ def post(app: Dash, first_output: str, values: dict[str, Any], changed: str) -> 
 def _requests(stores: dict[str, Any]) -> dict[str, tuple[str, dict[str, Any], str, str]]:
     """name -> (first output, values, changed input, the request the notice names)."""
     data, fits, label = stores["data"], stores["fits"], stores["label"]
-    gate = {"key": fits["key"], "capacity": None, "at": 1}
     return {
-        "every chosen form refitted": (f"{ids.FITS}.data", {f"{ids.DATA}.data": data, f"{ids.SETTINGS}.data": SETTINGS},
+        "every chosen form refitted": (f"{ids.CAPACITY}.data", {f"{ids.DATA}.data": data,
+                                                                f"{ids.SETTINGS}.data": SETTINGS},
                                        f"{ids.DATA}.data", "Fitting the chosen forms"),
         "the candidate-terms panel": (f"{ids.G_CHANGE}.figure", {f"{ids.DATA}.data": data,
                                                                  f"{ids.SETTINGS}.data": SETTINGS,
-                                                                 f"{ids.CAPACITY}.data": 4.0},
-                                      f"{ids.DATA}.data", "The change-per-step and candidate-terms panels"),
+                                                                 f"{ids.CAPACITY}.data": 4.0,
+                                                                 f"{ids.CHANGE_AXIS}.value": "time"},
+                                      f"{ids.CHANGE_AXIS}.value", "The change-per-step and candidate-terms panels"),
         "the dynamics panel": (f"{ids.DYN_SENTENCES}.children", {
-            f"{ids.DYN_GATE}.data": gate, f"{ids.DYN_FIT}.value": label, f"{ids.FITS}.data": fits,
+            f"{ids.DYN_FIT}.value": label, f"{ids.FITS}.data": fits,
             f"{ids.DATA}.data": data}, f"{ids.DYN_FIT}.value", "The dynamics panel"),
         "a forecast": (f"{ids.FORECAST}.data", {
-            f"{ids.FC_RUN}.n_clicks": 1, f"{ids.DYN_GATE}.data": gate, f"{ids.DYN_FIT}.value": label,
+            f"{ids.FC_RUN}.n_clicks": 1, f"{ids.DYN_FIT}.value": label,
             f"{ids.FC_MODE}.value": "steps", f"{ids.FC_AMOUNT}.value": 20, f"{ids.FITS}.data": fits,
             f"{ids.DATA}.data": data}, f"{ids.FC_RUN}.n_clicks", "The forecast"),
     }
@@ -130,7 +131,7 @@ def test_without_a_budget_a_request_never_reads_the_clock(stores, monkeypatch) -
     app = create_app(light_budget_s=None)
     clock = Clock(expire_after=0)
     monkeypatch.setattr(budget_module, "monotonic", clock)
-    body = post(app, f"{ids.FITS}.data", {f"{ids.DATA}.data": stores["data"], f"{ids.SETTINGS}.data": SETTINGS},
+    body = post(app, f"{ids.CAPACITY}.data", {f"{ids.DATA}.data": stores["data"], f"{ids.SETTINGS}.data": SETTINGS},
                 f"{ids.DATA}.data")
     assert body["response"][ids.FITS]["data"]["fits"] and clock.readings == 0
 
