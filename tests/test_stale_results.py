@@ -9,10 +9,10 @@ from __future__ import annotations
 import pytest
 
 from app import ids
-from app.callbacks.live import View, panel_seven
 from app.callbacks.batch_tables import ftest_reply
 from app.callbacks.dynamics import compute_forecast, forecast_is_stale, forecast_request, fresh_inputs
 from app.callbacks.fits import compute_fits
+from app.callbacks.live import View, panel_seven
 from app.server import create_app
 from tests.open_data import lynx, uspop
 

@@ -50,7 +50,8 @@ if (!window.__gc) {
   // work the page does after the last reply (drawing the figures, laying out the table) is waited for too:
   // the end of the last long task (over 50 ms) counts, and the next frame after it
   new PerformanceObserver(list => list.getEntries().forEach(e => {
-    window.__gc.busy = Math.max(window.__gc.busy, e.startTime + e.duration); })).observe({type: 'longtask', buffered: true});
+    window.__gc.busy = Math.max(window.__gc.busy, e.startTime + e.duration);
+  })).observe({type: 'longtask', buffered: true});
   const plain = window.fetch.bind(window);
   window.fetch = async function (...args) {
     const url = String(args[0] && args[0].url || args[0]);

@@ -15,14 +15,14 @@ from functools import partial
 from typing import Any
 
 import pytest
-from tests.browser import page
-from tests.open_data import lynx, uspop
 
 from app.callbacks.data import import_source
 from app.callbacks.explore import explore_parts
 from app.callbacks.fits import compute_fits
 from app.callbacks.live import preview_inputs
 from app.server import DEMO_FILE, read_source
+from tests.browser import page
+from tests.open_data import lynx, uspop
 
 pytestmark = pytest.mark.browser
 
@@ -106,4 +106,5 @@ def test_dragging_the_slider_moves_k_and_panel_two_then_the_release_refits(serve
     wait(driver, lambda d: f"K = {driver.execute_script('return window.__gcPreviewK'):g} (held)"
          in "\n".join(page.comparison_rows(d)))
     page.wait_idle(driver)
-    assert f"K = {driver.execute_script('return window.__gcPreviewK'):g}" in page.text(driver, "panel-candidate-summary")
+    committed = driver.execute_script("return window.__gcPreviewK")
+    assert f"K = {committed:g}" in page.text(driver, "panel-candidate-summary")
