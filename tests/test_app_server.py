@@ -59,20 +59,15 @@ def test_dev_tools_are_off(app) -> None:
 
 def test_a_failing_callback_shows_our_message_not_a_traceback(app) -> None:
     client = app.server.test_client()
-    payload = {
-        "output": f"{ids.FITS}.data",
-        "outputs": {"id": ids.FITS, "property": "data"},
-        "inputs": [
-            {"id": ids.DATA, "property": "data", "value": {"key": "x", "t": "not a list"}},
-            {"id": ids.EXCLUSIONS, "property": "data", "value": None},
-            {"id": ids.SETTINGS, "property": "data", "value": {"models": ["logistic"], "method": "increments"}},
-            {"id": ids.CAPACITY, "property": "data", "value": 3.0},
-            {"id": ids.K_SLIDER, "property": "drag_value", "value": None},
-        ],
-        "state": [{"id": ids.FITS, "property": "data", "value": None},
-                  {"id": ids.PENDING_CAPACITY, "property": "data", "value": None}],
-        "changedPropIds": [f"{ids.DATA}.data"],
-    }
+    # the reply to new data (app/callbacks/live.py), sent data it cannot read
+    key = next(k for k in app.callback_map if k.lstrip(".").startswith(f"{ids.CAPACITY}.data"))
+    cb = next(c for c in app._callback_list if c["output"] == key)
+    values = {f"{ids.DATA}.data": {"key": "x", "t": "not a list"},
+              f"{ids.SETTINGS}.data": {"models": ["logistic"], "method": "increments"}, f"{ids.CAPACITY}.data": 3.0}
+    fill = lambda specs: [{**s, "value": values.get(f"{s['id']}.{s['property']}")} for s in specs]  # noqa: E731
+    outputs = [{"id": i, "property": p} for i, p in (o.rsplit(".", 1) for o in key.strip(".").split("..."))]
+    payload = {"output": key, "outputs": outputs,
+               "inputs": fill(cb["inputs"]), "state": fill(cb["state"]), "changedPropIds": [f"{ids.DATA}.data"]}
     reply = client.post("/_dash-update-component", data=json.dumps(payload), content_type="application/json")
     assert reply.status_code == 200
     body = reply.get_json()
