@@ -138,6 +138,7 @@ BOOT_DONE = "store-bootstrap-done"  # finished (or cancelled) bootstraps, one pe
 BOOT_SUMMARY = "store-bootstrap-summary"  # their counts and intervals only (small: rides along with table updates)
 FORECAST = "store-forecast"        # the forecast asked for and its band, for the trajectory panel
 PREVIEW = "store-preview"        # what the browser needs to preview a K being dragged (assets/live.js)
+K_DROP = "store-k-drop"          # the trajectory's relayout event when it moved the K line (assets/live.js)
 DYN_FIT = "dynamics-fit"
 DYN_SENTENCES = "dynamics-sentences"
 DYN_EQUILIBRIA = "dynamics-equilibria"

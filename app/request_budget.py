@@ -32,7 +32,6 @@ REQUESTS: dict[str, tuple[str, str]] = {
     ids.CAPACITY: ("Fitting the chosen forms", f"choose fewer forms or one method instead of both, hold K at a value "
                                                f"instead of fitting it, or use {FEWER_POINTS}"),
     ids.G_CHANGE: ("The change-per-step and candidate-terms panels", f"choose fewer forms or terms, or use {FEWER_POINTS}"),
-    ids.G_TRAJECTORY: ("Drawing the fit panels", f"choose fewer forms, or use {FEWER_POINTS}"),
     ids.COMPARISON: ("The comparison table", "choose fewer forms"),
     ids.SETTINGS: ("Reading the model settings", "choose fewer forms or terms"),
     ids.EXCLUSIONS: ("Leaving out points", FEWER_POINTS),

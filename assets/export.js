@@ -137,14 +137,6 @@
     return [opts, next];
   }
 
-  function capacity(committed, pending, data) {
-    var nu = window.dash_clientside.no_update;
-    if (!pending || pending.value === null || pending.value === undefined) { return [nu, nu, nu, nu]; }
-    if (!data || data.key !== pending.key) { return [nu, nu, nu, null]; }
-    if (committed === pending.value) { return [nu, nu, nu, null]; }
-    return [pending.value, pending.value, pending.value, null];
-  }
-
   window.dash_clientside = window.dash_clientside || {};
-  window.dash_clientside[NS] = {images: images, forms: forms, capacity: capacity};
+  window.dash_clientside[NS] = {images: images, forms: forms};
 })();

@@ -164,7 +164,18 @@
     return nu;  // nothing for Dash to store: a store update per pointer move costs the page a render
   }
 
+  /* The trajectory's relayout events: only those that moved a shape's anchor (the K line) go to the
+     server. Autosize, zoom and pan events would otherwise start a reply that cancels one in flight. */
+  function kDrop(relayout) {
+    var nu = window.dash_clientside.no_update;
+    if (!relayout) { return nu; }
+    var moved = Object.keys(relayout).some(function (k) { return /^shapes\[\d+\]\.yanchor$/.test(k); }) ||
+      Array.isArray(relayout.shapes);
+    return moved ? relayout : nu;
+  }
+
   window.dash_clientside = window.dash_clientside || {};
   window.dash_clientside[NS] = Object.assign(window.dash_clientside[NS] || {},
-                                             {sort: sort, preview: preview, previewNumbers: previewNumbers});
+                                             {sort: sort, preview: preview, previewNumbers: previewNumbers,
+                                              kDrop: kDrop});
 })();

@@ -16,7 +16,7 @@ from app.callbacks.comparison import draw_comparison
 from app.callbacks.data import import_source, on_import, refused_message
 from app.callbacks.exclusions import clicked_index, update_exclusions
 from app.callbacks.explore import explore_panels
-from app.callbacks.fits import compute_fits, skip_refit
+from app.callbacks.fits import compute_fits
 from app.callbacks.live import View, live_update
 from app.callbacks.panels import draw_panels
 from app.callbacks.settings import build_settings, check_terms, expand_forms
@@ -114,10 +114,10 @@ def test_capacity_initial_then_input_then_drag(demo: dict, settings: dict) -> No
     assert k0 == slider and low == 0 and high > max(demo["p"])
     typed = update_capacity(ids.K_INPUT, 3.5, None, None, demo, settings, None, k0)
     assert typed[0] == 3.5 and typed[1] is no_update and typed[2] == 3.5
-    dragged = update_capacity(ids.G_TRAJECTORY, None, None, {"shapes[0].yanchor": 3.91},
+    dragged = update_capacity(ids.K_DROP, None, None, {"shapes[0].yanchor": 3.91},
                               demo, settings, None, 3.5)
     assert dragged[0] == 3.91 and dragged[1] == 3.91
-    zoom = update_capacity(ids.G_TRAJECTORY, None, None, {"xaxis.range[0]": 3}, demo, settings, None, 3.5)
+    zoom = update_capacity(ids.K_DROP, None, None, {"xaxis.range[0]": 3}, demo, settings, None, 3.5)
     assert zoom[0] is no_update
     bad = update_capacity(ids.K_INPUT, -2, None, None, demo, settings, None, 3.5)
     assert bad[0] is no_update and "positive" in bad[-1]
@@ -180,9 +180,39 @@ def test_with_k_fitted_a_moved_k_redraws_only_what_shows_k(demo: dict, settings:
     out = live_update(ids.K_INPUT, 3.5, None, None, demo, None, fitted, 4.0, demo["key"], store, None, View())
     assert out[0] == 3.5 and out[9] is no_update  # no refit: the fits do not hold K
     assert out[13] is not no_update and out[19] is not no_update  # the trajectory's K line and the key
-    assert all(x is no_update for x in (*out[14:19], *out[20:-1]))
+    assert all(x is no_update for x in (*out[14:19], *out[20:-2]))
     # panel 2 still follows a dragged K in the browser; no fit holds K, so none is previewed
-    assert [c["model"] for c in out[-1]["candidates"]] == ["logistic"] and out[-1]["fits"] == []
+    assert [c["model"] for c in out[-2]["candidates"]] == ["logistic"] and out[-2]["fits"] == []
+
+
+def test_a_reply_cancelled_in_the_browser_is_made_good_by_the_next(demo: dict, settings: dict) -> None:
+    """The browser drops a reply still on its way when the next change starts another (Dash keeps only the
+    newest call of a callback), so a K moved before the first reply landed is answered as the new data."""
+    first = live_update(ids.DATA, None, None, None, demo, None, settings, None, None, None, None, View())
+    after = live_update(ids.K_INPUT, 3.5, None, None, demo, None, settings, None, None, None, None, View())
+    assert after[:10] == first[:10] and after[10] is not no_update  # the first guess, its fits and panel 1
+    dropped_exclusion = {**first[9], "used": [False, *first[9]["used"][1:]]}  # fits of other points on screen
+    same_k = live_update(ids.K_SLIDER, None, first[0], None, demo, None, settings, first[0], demo["key"],
+                         dropped_exclusion, None, View())
+    assert same_k[9] == first[9] and same_k[10] is not no_update  # refitted and redrawn, not skipped
+
+
+def test_a_reopened_records_k_is_fitted_in_the_reply_to_its_data(demo: dict, settings: dict) -> None:
+    """The data of a reopened record come with its K: the reply fits at that K at once and uses it up,
+    even when the data are those already on screen (then the committed K is the only thing that moves)."""
+    first = live_update(ids.DATA, None, None, None, demo, None, settings, None, None, None, None, View())
+    k0, fits0 = first[0], first[9]
+    pending = {"key": demo["key"], "value": 4.3}
+    reopened = live_update(ids.DATA, None, None, None, demo, None, settings, k0, demo["key"], fits0, pending, View())
+    assert reopened[0] == reopened[1] == reopened[2] == 4.3 and "reopened record" in reopened[7]
+    assert reopened[9] == compute_fits(demo, None, settings, 4.3)
+    assert reopened[-1] is None  # used once: a later change of K is the user's own
+    later = live_update(ids.K_INPUT, 3.9, None, None, demo, None, settings, 4.3, demo["key"], reopened[9], None,
+                        View())
+    assert later[9]["capacity"] == 3.9 and later[-1] is no_update
+    other = live_update(ids.DATA, None, None, None, demo, None, settings, None, None, None,
+                        {"key": "another file", "value": 4.3}, View())
+    assert other[0] == k0 and other[-1] is None  # a K meant for other data is dropped, not applied
 
 
 def test_fitted_k_mode_reports_profile_intervals(demo: dict, settings: dict) -> None:
@@ -205,12 +235,10 @@ def test_explore_panels_show_the_engine_slope(demo: dict, settings: dict) -> Non
 def test_panels_and_table_from_the_store(demo: dict, settings: dict) -> None:
     store = compute_fits(demo, None, settings, 4.2)
     traj, rt, rf, op, flag, note, key = draw_panels(store, 4.2, demo, None)
-    assert traj["layout"]["shapes"][0]["yanchor"] == 4.2 and "refitted" not in note and "one step ahead" in note
+    assert traj["layout"]["shapes"][0]["yanchor"] == 4.2 and "one step ahead" in note
     assert "first observation" in draw_panels(store, 4.2, demo, None, path_from="first")[5]
     # the key lists every chosen form once, in the order the forms were chosen
     assert [li.children[1] for li in key[0].children[2:-1]] == [f"{m} (increments)" for m in settings["models"]]
-    stale = draw_panels(store, 4.5, demo, None)[5]
-    assert "refitted" in stale
     table, _ = draw_comparison(store, None)
     text = str(table)
     assert "★ best AICc" in text and "'K = 4.2', className='nowrap'), ' ', Span(children='(held)'" in text
@@ -232,20 +260,6 @@ def test_series_picker_switches_between_series_of_one_file() -> None:
     out = on_import(None, 0, "R2", None, source, first, None, None, None, None, None, trigger=ids.SERIES_PICK)
     assert out[1]["name"] == "R2" and out[1]["key"] != first["key"]
     assert out[0] is no_update  # the file itself is unchanged
-
-
-def test_reopened_record_is_fitted_once_with_its_own_capacity() -> None:
-    """While a record's K is pending, the first guess the capacity control sets for the new data is not fitted."""
-    data = {"key": "abc"}
-    held = {"k_mode": "held", "method": "trajectory"}
-    pending = {"key": "abc", "value": 152.0}
-    assert skip_refit(ids.CAPACITY, 140.0, held, data, None, pending)          # the first guess: wait
-    assert not skip_refit(ids.CAPACITY, 152.0, held, data, None, pending)      # the record's K: fit
-    assert not skip_refit(ids.CAPACITY, 140.0, held, data, None, None)         # nothing pending: fit
-    assert not skip_refit(ids.CAPACITY, 140.0, held, {"key": "other"}, None, pending)  # pending for other data
-    previous = {"key": "abc", "capacity": 152.0}
-    assert skip_refit(ids.CAPACITY, 152.0, held, data, previous, None)          # same K again: nothing to do
-    assert skip_refit(ids.CAPACITY, 99.0, {"k_mode": "fitted"}, data, previous, None)  # K fitted: K changes are moot
 
 
 def test_file_refused_by_the_browser_gets_a_message() -> None:

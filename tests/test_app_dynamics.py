@@ -95,18 +95,11 @@ def test_picker_prefers_the_best_difference_form_and_keeps_a_choice(fits: dict) 
     assert dy.choose_fit(None, None) == ([], None)
 
 
-def test_panel_waits_while_k_is_dragged(demo: dict, k_demo: float, fits: dict) -> None:
-    preview = compute_fits(demo, None, _settings(), rounded(1.05 * k_demo))
-    assert not dy.committed(preview, k_demo)
-    assert dy.dynamics_view(preview, "logistic (increments)", k_demo, demo, None, {}, None) is None
-    assert dy.committed(fits, k_demo) and dy.committed({"capacity": None}, k_demo)
-
-
 # ----------------------------------------------------------------------------- dynamics
 
 def test_logistic_equilibria_multiplier_is_one_minus_r(demo: dict, k_demo: float, fits: dict) -> None:
     sentences, eq_table, cobweb_fig, sweep_fig, derived = dy.dynamics_view(
-        fits, "logistic (increments)", k_demo, demo, None, {}, None)
+        fits, "logistic (increments)", demo, None, {}, None)
     r = fits["fits"][0]["parameters"]["r"]["value"]
     text = _text(sentences)
     assert "steady level" in text and "monotonically" in text
@@ -132,7 +125,7 @@ def test_two_cycle_said_in_words() -> None:
     data = import_source({"filename": "simulated_cycle.csv", "b64": base64.b64encode(csv.encode()).decode(),
                           "max_bytes": 10_000_000})
     store = compute_fits(data, None, _settings(models=["logistic"]), k)
-    out = dy.dynamics_view(store, "logistic (increments)", k, data, None, {}, None)
+    out = dy.dynamics_view(store, "logistic (increments)", data, None, {}, None)
     text = _text(out[0])
     assert "2-cycle between" in text and "rather than a steady level" in text
     # the 2-cycle of x' = a·x(1 − x) is x± = (a + 1 ± √((a + 1)(a − 3))) / (2a); here p = (1 + r)K/r · x, a = 1 + r
@@ -146,14 +139,14 @@ def test_two_cycle_said_in_words() -> None:
 
 def test_curve_form_has_no_cobweb(demo: dict, k_demo: float) -> None:
     store = compute_fits(demo, None, _settings("trajectory", ["logistic-curve"]), k_demo)
-    out = dy.dynamics_view(store, store["fits"][0]["label"], k_demo, demo, None, {}, None)
+    out = dy.dynamics_view(store, store["fits"][0]["label"], demo, None, {}, None)
     assert "closed-form curve" in out[2]["layout"]["meta"]["message"]
     assert "steady level" in _text(out[0])
 
 
 def test_doubling_time_matches_its_closed_form(demo: dict, k_demo: float, fits: dict) -> None:
     """Per-step growth factor g = 1 + r(1 − p_s/K); doubling time = h·ln 2 / ln g (definition)."""
-    out = dy.dynamics_view(fits, "logistic (increments)", k_demo, demo, None, {}, 2.0)
+    out = dy.dynamics_view(fits, "logistic (increments)", demo, None, {}, 2.0)
     r = fits["fits"][0]["parameters"]["r"]["value"]
     p_s, h = demo["p"][0], demo["t"][1] - demo["t"][0]
     expected = h * math.log(2) / math.log(1 + r * (1 - p_s / k_demo))
@@ -220,7 +213,7 @@ def test_chunks_stay_small_enough_for_progress() -> None:
 def test_bootstrap_changes_sentences_and_comparison(demo: dict, k_demo: float, fits: dict) -> None:
     label = "logistic (increments)"
     _, done, _ = _run(dy.start_run(1, 0, 300, 2, label, fits), {}, fits, demo)
-    out = dy.dynamics_view(fits, label, k_demo, demo, None, done, None)
+    out = dy.dynamics_view(fits, label, demo, None, done, None)
     assert "t-based until a bootstrap" not in _text(out[0])
     assert "bootstrap" in json.dumps(out[3]["layout"]) or out[3]["layout"]["shapes"]
     derived = _text(out[4])
@@ -311,7 +304,7 @@ def test_correlation_of_the_estimates_is_shown_as_the_engine_computes_it(demo: d
     diagonal and symmetry) for the fit in the panel, to three significant digits."""
     store = compute_fits(demo, None, _settings(method="trajectory", models=["logistic"]), k_demo)
     label = store["fits"][0]["label"]
-    view = dy.dynamics_view(store, label, k_demo, demo, None, None, None)
+    view = dy.dynamics_view(store, label, demo, None, None, None)
     text = _text(view[4])
     assert "Correlation of the estimates" in text
     _, result = dy.rebuild(demo, None, store, dy.find_fit(store, label))

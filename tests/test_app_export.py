@@ -63,8 +63,7 @@ def _reopened(record: dict[str, Any]) -> tuple[dict[str, Any], dict[str, Any], d
     data, exclusions = out[1], out[2]
     forms, constant, terms, method, error, k_mode = out[7:13]
     settings = build_settings(forms, constant, terms, method, error, k_mode)[0]
-    pending = out[13]
-    capacity = pending["value"] if pending else update_capacity(None, None, None, None, data, settings, None, None)[0]
+    capacity = update_capacity(None, None, None, None, data, settings, None, None, pending=out[13])[0]
     return data, exclusions, settings, capacity
 
 

@@ -31,14 +31,26 @@ def same_file(data: Mapping[str, Any] | None, previous_key: str | None) -> bool:
     return bool(sha and previous_key and previous_key.split(":", 1)[0] == sha and previous_key != data.get("key"))
 
 
+def pending_capacity(pending: Mapping[str, Any] | None, data: Mapping[str, Any] | None) -> float | None:
+    """The K a reopened record brings for these data (finite and positive), or None."""
+    if not pending or not data or pending.get("key") != data.get("key"):
+        return None
+    value = pending.get("value")
+    if not isinstance(value, (int, float)) or not math.isfinite(value) or value <= 0:
+        return None
+    return float(value)
+
+
 def update_capacity(trigger: str | None, k_input: float | None, k_slider: float | None,
                     relayout: Mapping[str, Any] | None, data: Mapping[str, Any] | None,
                     settings: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
-                    current: float | None, *, previous_key: str | None = None) -> tuple[Any, ...]:
+                    current: float | None, *, previous_key: str | None = None,
+                    pending: Mapping[str, Any] | None = None) -> tuple[Any, ...]:
     """Outputs: the committed K, the number box, the slider value, min, max, step, marks and the note.
 
     A K the user holds (``k_mode`` "held") stays when another series of the same file is chosen
     (``previous_key`` is the data key the K on screen was set for); a new file starts from its first guess.
+    New data that come with a reopened record's K (``pending``, see :func:`pending_capacity`) start from it.
     """
     none6 = (no_update,) * 6
     if data is None:
@@ -48,12 +60,14 @@ def update_capacity(trigger: str | None, k_input: float | None, k_slider: float 
         series = series_from_store(data)
         rng = capacity_range(series)
         guess = rounded(rng.estimate)
+        recorded = pending_capacity(pending, data)
         held = (settings or {}).get("k_mode") == "held" and current is not None and math.isfinite(current) \
             and current > 0 and same_file(data, previous_key)
-        k = current if held else guess
+        k = recorded if recorded is not None else current if held else guess
         high = rounded(max(rng.high, 1.5 * k))
         step = rounded((high - rng.low) / 400)
-        note = (f"{unit} (held at your estimate; this series' first guess is {guess:g})" if held else
+        note = (f"{unit} (the reopened record's K; this series' first guess is {guess:g})" if recorded is not None
+                else f"{unit} (held at your estimate; this series' first guess is {guess:g})" if held else
                 f"{unit} (first guess from the data: the minimum of a profile over K at or above the largest value "
                 "when the series rises to it)")
         return (k, k, k, rng.low, high, step, _marks(rng.low, high), note)
@@ -68,7 +82,7 @@ def update_capacity(trigger: str | None, k_input: float | None, k_slider: float 
         k = k_input
     elif trigger == ids.K_SLIDER:
         k = k_slider
-    elif trigger == ids.G_TRAJECTORY:
+    elif trigger == ids.K_DROP:
         k = capacity_from_relayout(relayout)
         if k is None:
             return (no_update, no_update, *none6)

@@ -78,14 +78,6 @@ def choose_fit(fits_store: Mapping[str, Any] | None, current: str | None) -> tup
     return options, (ranked[0]["label"] if ranked else None)
 
 
-def committed(fits_store: Mapping[str, Any] | None, capacity: float | None) -> bool:
-    """False while the fits store holds a preview at a dragged K that is not yet the committed K."""
-    held = (fits_store or {}).get("capacity")
-    if held is None or capacity is None:
-        return True
-    return abs(float(held) - float(capacity)) <= 1e-12 * max(abs(float(capacity)), 1.0)
-
-
 def rebuild(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, fits_store: Mapping[str, Any],
             fit: Mapping[str, Any]) -> tuple[Series, FitResult]:
     """The engine's result behind a plain fit, fitted again from the same inputs (no K profile)."""
@@ -130,15 +122,10 @@ def _derived_rows(derived: Mapping[str, Any], level: float | None) -> list[tuple
     return rows
 
 
-def dynamics_view(fits_store: Mapping[str, Any] | None, label: str | None, capacity: float | None,
+def dynamics_view(fits_store: Mapping[str, Any] | None, label: str | None,
                   data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
-                  done: Mapping[str, Any] | None, level: float | None) -> tuple[Any, ...] | None:
-    """Outputs: sentences, equilibria table, cobweb figure, sweep figure, derived table.
-
-    None while the fits store holds a drag preview (nothing to redraw until K is committed).
-    """
-    if not committed(fits_store, capacity):
-        return None
+                  done: Mapping[str, Any] | None, level: float | None) -> tuple[Any, ...]:
+    """Outputs: sentences, equilibria table, cobweb figure, sweep figure, derived table."""
     fit = find_fit(fits_store, label)
     if data is None or fits_store is None or fit is None or fits_store.get("key") != data.get("key"):
         blank = message_figure("Fit at least one form to see what it implies.")
@@ -459,13 +446,10 @@ def register(app: Dash) -> None:
                   Output(ids.G_COBWEB, "figure", allow_duplicate=True), Output(ids.G_SWEEP, "figure", allow_duplicate=True),
                   Output(ids.DYN_DERIVED, "children", allow_duplicate=True),
                   Input(ids.DYN_FIT, "value"), Input(ids.BOOT_SUMMARY, "data"), Input(ids.DYN_LEVEL, "value"),
-                  State(ids.FITS, "data"), State(ids.CAPACITY, "data"), State(ids.DATA, "data"),
+                  State(ids.FITS, "data"), State(ids.DATA, "data"),
                   State(ids.EXCLUSIONS, "data"), State(ids.BOOT_DONE, "data"), prevent_initial_call=True)
-    def _dynamics(label, _summary, level, fits_store, capacity, data, exclusions, done):
-        out = dynamics_view(fits_store, label, capacity, data, exclusions, done, level)
-        if out is None:
-            raise PreventUpdate
-        return out
+    def _dynamics(label, _summary, level, fits_store, data, exclusions, done):
+        return dynamics_view(fits_store, label, data, exclusions, done, level)
 
     @app.callback(Output(ids.BOOT, "data"), Output(ids.BOOT_DONE, "data"), Output(ids.BOOT_SUMMARY, "data"),
                   Output(ids.BOOT_TICK, "max_intervals"),
@@ -495,11 +479,10 @@ def register(app: Dash) -> None:
                   Input(ids.FC_RUN, "n_clicks"), Input(ids.FC_CLEAR, "n_clicks"),
                   Input(ids.DYN_FIT, "value"), Input(ids.BOOT_SUMMARY, "data"),
                   State(ids.FC_MODE, "value"), State(ids.FC_AMOUNT, "value"), State(ids.FC_BOUND, "value"),
-                  State(ids.FITS, "data"), State(ids.CAPACITY, "data"), State(ids.DATA, "data"),
+                  State(ids.FITS, "data"), State(ids.DATA, "data"),
                   State(ids.EXCLUSIONS, "data"), State(ids.BOOT_DONE, "data"), State(ids.FORECAST, "data"),
                   prevent_initial_call=True)
-    def _forecast(_run, _clear, label, _summary, mode, amount, bound, fits_store, capacity, data, exclusions,
-                  done, current):
+    def _forecast(_run, _clear, label, _summary, mode, amount, bound, fits_store, data, exclusions, done, current):
         trigger = ctx.triggered_id
         if trigger == ids.FC_CLEAR:
             return None
@@ -509,7 +492,7 @@ def register(app: Dash) -> None:
         # a forecast of other data (another file or series) is dropped, not carried over
         if current and forecast_is_stale(current, fits_store):
             return None
-        if not current or not committed(fits_store, capacity):
+        if not current:
             raise PreventUpdate
         return compute_forecast(current["request"], label, fits_store, data, exclusions, done)
 
@@ -520,6 +503,6 @@ def register(app: Dash) -> None:
                  State(ids.FITS, "data"))(lambda store, fits_store: forecast_notes(store, fits_store))
 
 
-__all__: Sequence[str] = ("fit_signature", "choose_fit", "committed", "rebuild", "dynamics_view", "start_run",
+__all__: Sequence[str] = ("fit_signature", "choose_fit", "rebuild", "dynamics_view", "start_run",
                           "bootstrap_step", "summaries", "progress_view", "boot_intervals", "forecast_request", "compute_forecast",
                           "forecast_notes", "band_on_trajectory", "register")

@@ -389,16 +389,9 @@ def register(app: Dash) -> None:
         Output(ids.SERIES_PICK, "options", allow_duplicate=True), Output(ids.SERIES_PICK, "value", allow_duplicate=True),
         Output(ids.FORMS, "value"), Output(ids.CONSTANT, "value"), Output(ids.TERMS, "value"),
         Output(ids.METHOD, "value"), Output(ids.ERROR, "value"), Output(ids.K_MODE, "value"),
-        Output(ids.PENDING_CAPACITY, "data"), Output(ids.DATA_MESSAGE, "children", allow_duplicate=True),
+        Output(ids.PENDING_CAPACITY, "data", allow_duplicate=True),
+        Output(ids.DATA_MESSAGE, "children", allow_duplicate=True),
         Output(ids.RECORD_MESSAGE, "children"),
         Input(ids.RECORD_UPLOAD, "contents"), State(ids.RECORD_UPLOAD, "filename"),
         prevent_initial_call=True,
     )(lambda contents, filename: on_record_upload(contents, filename, run=runner_of(app)))
-    # K of a reopened record, once the capacity callback has set up the controls for the new data
-    app.clientside_callback(
-        ClientsideFunction(namespace="growthcore_export", function_name="capacity"),
-        Output(ids.CAPACITY, "data", allow_duplicate=True), Output(ids.K_INPUT, "value", allow_duplicate=True),
-        Output(ids.K_SLIDER, "value", allow_duplicate=True), Output(ids.PENDING_CAPACITY, "data", allow_duplicate=True),
-        Input(ids.CAPACITY, "data"), State(ids.PENDING_CAPACITY, "data"), State(ids.DATA, "data"),
-        prevent_initial_call=True,
-    )

@@ -5,7 +5,6 @@ from __future__ import annotations
 
 from typing import Any, Mapping, Sequence
 
-from app import ids
 from app.callbacks.capacity import rounded
 from app.state import fit_to_store, rows_to_store, series_from_store
 from growthcore.compare import compare, comparison_notes
@@ -66,17 +65,4 @@ def compute_fits(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] |
         "comparison": rows_to_store(rows),
         "notes": notes,
     }
-
-
-def skip_refit(trigger: str | None, k: float | None, settings: Mapping[str, Any] | None,
-               data: Mapping[str, Any] | None, previous: Mapping[str, Any] | None,
-               pending: Mapping[str, Any] | None) -> bool:
-    """Whether a change leaves the fits as they are (the callback then sends nothing)."""
-    if trigger == ids.CAPACITY and settings is not None and settings.get("k_mode") == "fitted" and previous:
-        return True
-    if pending and pending.get("value") is not None and pending.get("key") == (data or {}).get("key") \
-            and k != pending["value"]:
-        return True  # a reopened record's K is on its way: fits with the first guess would be thrown away
-    return bool(previous and k == previous.get("capacity") and trigger in (ids.K_SLIDER, ids.CAPACITY)
-                and previous.get("key") == (data or {}).get("key"))
 

@@ -18,15 +18,15 @@ from dash.exceptions import PreventUpdate
 
 from app import ids
 from app.callbacks import dynamics as dyn
-from app.callbacks.capacity import update_capacity
+from app.callbacks.capacity import pending_capacity, update_capacity
 from app.callbacks.comparison import draw_comparison
 from app.callbacks.explore import explore_parts
-from app.callbacks.fits import compute_fits, held_capacity, skip_refit
+from app.callbacks.fits import compute_fits, held_capacity
 from app.callbacks.panels import draw_panels, with_forecast
 from app.state import series_from_store
 
 #: The inputs that move K (the others are the data, the points used and the choices).
-K_TRIGGERS = (ids.K_INPUT, ids.K_SLIDER, ids.G_TRAJECTORY)
+K_TRIGGERS = (ids.K_INPUT, ids.K_SLIDER, ids.K_DROP)
 
 
 @dataclass(frozen=True)
@@ -86,15 +86,14 @@ def preview_inputs(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None
 
 
 #: How many outputs the parts after the K controls and the fits store have.
-N_EXPLORE, N_PANELS, N_COMPARISON, N_DYNAMICS = 3, 7, 2, 12  # and the preview's inputs last
+N_EXPLORE, N_PANELS, N_COMPARISON, N_DYNAMICS = 3, 7, 2, 12  # then the preview's inputs and the pending K
 
 
-def panel_seven(fits_store: Mapping[str, Any], capacity: float | None, data: Mapping[str, Any],
+def panel_seven(fits_store: Mapping[str, Any], data: Mapping[str, Any],
                 exclusions: Mapping[str, Any] | None, view: View) -> tuple[Any, ...]:
     """Panel 7 for new fits: the picker, the dynamics, the bootstrap status and the forecast."""
     options, label = dyn.choose_fit(fits_store, view.dyn_label)
-    described = dyn.dynamics_view(fits_store, label, capacity, data, exclusions, view.done, view.level)
-    described = described if described is not None else (no_update,) * 5
+    described = dyn.dynamics_view(fits_store, label, data, exclusions, view.done, view.level)
     progress = dyn.progress_view(view.boot, view.summary, fits_store, label)
     forecast: Any = no_update
     if view.forecast:
@@ -108,37 +107,53 @@ def live_update(trigger: Any, k_input: float | None, k_slider: float | None, rel
                 data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
                 settings: Mapping[str, Any] | None, current_k: float | None, previous_key: str | None,
                 previous: Mapping[str, Any] | None, pending: Mapping[str, Any] | None, view: View) -> tuple[Any, ...]:
-    """Every output of the reply, in the order :func:`register` lists them (``no_update`` where nothing changed)."""
+    """Every output of the reply, in the order :func:`register` lists them (``no_update`` where nothing changed).
+
+    The browser cancels a reply still on its way when the next change starts another, so each reply
+    is worked out from what the page holds, not from the change alone: data whose first K has not
+    arrived (``previous_key`` is another key, or a reopened record's K waits) are answered as new data.
+    """
+    if data and (previous_key != data.get("key") or pending_capacity(pending, data) is not None):
+        trigger = ids.DATA
     cap = update_capacity(trigger, k_input, k_slider, relayout, data, settings, exclusions, current_k,
-                          previous_key=previous_key)
+                          previous_key=previous_key, pending=pending)
     k_moved = cap[0] is not no_update
     k = cap[0] if k_moved else current_k
     key_out = (data or {}).get("key") if k_moved or trigger in (None, ids.DATA) else no_update
     capacity_out = (*cap, key_out)
-    if trigger in K_TRIGGERS and not k_moved and cap[7] is no_update:
-        raise PreventUpdate  # the same K again, or an event of the plot that is not about K
+    if trigger in K_TRIGGERS and not k_moved and cap[7] is no_update and (
+            settings is None or fits_are_current(previous, data, exclusions, settings, k)):
+        raise PreventUpdate  # the same K again, with nothing left to draw
+    # a reopened record's K is used once, by the reply to its data
+    pending_out = None if pending and trigger in (None, ids.DATA) else no_update
     if data is None or settings is None:
-        return (*capacity_out, *(no_update,) * (1 + N_EXPLORE + N_PANELS + N_COMPARISON + N_DYNAMICS + 1))
-    refit = not fits_are_current(previous, data, exclusions, settings, k) and not skip_refit(
-        ids.CAPACITY if trigger in K_TRIGGERS else trigger, k, settings, data, previous, pending)
+        return (*capacity_out, *(no_update,) * (1 + N_EXPLORE + N_PANELS + N_COMPARISON + N_DYNAMICS + 1),
+                pending_out)
+    refit = not fits_are_current(previous, data, exclusions, settings, k)
     fits_store = compute_fits(data, exclusions, settings, k) if refit else previous
     change, candidate, readout, fitted = explore_parts(data, exclusions, settings, k, view.axis or "state", view.scale)
-    explore = (no_update if trigger in K_TRIGGERS else change, candidate, readout)
+    points_drawn = bool(previous) and previous.get("key") == data.get("key") and previous.get("used") == [
+        bool(u) for u in series_from_store(data, exclusions).used]
+    explore = (no_update if trigger in K_TRIGGERS and points_drawn else change, candidate, readout)
     panels = with_forecast(draw_panels(fits_store, k, data, exclusions, view.scale, view.path_from),
                            view.forecast, fits_store)
     preview = preview_inputs(data, exclusions, settings, fits_store, k, fitted)
     if not refit:
         # the fits are as they were: only the trajectory's K line and the key's K mark move
         panels = (panels[0], *(no_update,) * 5, panels[6])
-        return (*capacity_out, no_update, *explore, *panels, *(no_update,) * (N_COMPARISON + N_DYNAMICS), preview)
+        return (*capacity_out, no_update, *explore, *panels, *(no_update,) * (N_COMPARISON + N_DYNAMICS), preview,
+                pending_out)
     comparison = draw_comparison(fits_store, view.sort, view.summary)
-    seven = panel_seven(fits_store, k, data, exclusions, view) if fits_store else (no_update,) * N_DYNAMICS
-    return (*capacity_out, fits_store, *explore, *panels, *comparison, *seven, preview)
+    seven = panel_seven(fits_store, data, exclusions, view) if fits_store else (no_update,) * N_DYNAMICS
+    return (*capacity_out, fits_store, *explore, *panels, *comparison, *seven, preview, pending_out)
 
 
 def register(app: Dash) -> None:
     # the slider being dragged: panel 2's lines, the K line and the increments fits that hold K follow in
     # the browser (assets/live.js); the value on release comes to the callback below
+    app.clientside_callback(ClientsideFunction(namespace="growthcore_live", function_name="kDrop"),
+                            Output(ids.K_DROP, "data"), Input(ids.G_TRAJECTORY, "relayoutData"),
+                            prevent_initial_call=True)
     app.clientside_callback(ClientsideFunction(namespace="growthcore_live", function_name="preview"),
                             Input(ids.K_SLIDER, "drag_value"),
                             State(ids.PREVIEW, "data"), prevent_initial_call=True)
@@ -158,7 +173,8 @@ def register(app: Dash) -> None:
         Output(ids.G_COBWEB, "figure"), Output(ids.G_SWEEP, "figure"), Output(ids.DYN_DERIVED, "children"),
         Output(ids.BOOT_PROGRESS, "value"), Output(ids.BOOT_PROGRESS, "max"), Output(ids.BOOT_STATUS, "children"),
         Output(ids.DYN_INTERVALS, "children"), Output(ids.FORECAST, "data"), Output(ids.PREVIEW, "data"),
-        Input(ids.K_INPUT, "value"), Input(ids.K_SLIDER, "value"), Input(ids.G_TRAJECTORY, "relayoutData"),
+        Output(ids.PENDING_CAPACITY, "data"),
+        Input(ids.K_INPUT, "value"), Input(ids.K_SLIDER, "value"), Input(ids.K_DROP, "data"),
         Input(ids.DATA, "data"), Input(ids.EXCLUSIONS, "data"), Input(ids.SETTINGS, "data"),
         Input(ids.K_FROM_FIT, "n_clicks"),
         State(ids.CAPACITY, "data"), State(ids.CAPACITY_DATA, "data"), State(ids.FITS, "data"),
@@ -173,8 +189,7 @@ def register(app: Dash) -> None:
               pending, axis, scale, path_from, sort, label, options, level, boot, done, summary, forecast):
         trigger = ctx.triggered_id
         if f"{ids.DATA}.data" in ctx.triggered_prop_ids:
-            # new data arriving with a plot's relayout event in one call must still set the first guess
-            trigger = ids.DATA
+            trigger = ids.DATA  # new data arriving with another change in one call: the first guess first
         elif trigger == ids.K_FROM_FIT and not k_clicks:
             trigger = "none"
         view = View(axis, scale, path_from, sort, label, options, level, boot, done, summary, forecast)

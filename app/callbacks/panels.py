@@ -54,10 +54,6 @@ def draw_panels(fits_store: Mapping[str, Any] | None, capacity: float | None, da
     traj = trajectory_figure(data, [bool(u) for u in series.used], fits, capacity, labels, models=models,
                              scale=scale, path_from=path_from or "none")
     note = trajectory_note(fits, path_from)
-    if current and current.get("capacity") is not None and capacity is not None \
-            and abs(current["capacity"] - capacity) > 1e-12 * max(abs(capacity), 1.0):
-        note += (f"The fits are for K = {current['capacity']:.4g}; they are refitted at K = {capacity:.4g} "
-                "when you release the slider.")
     key = form_key_view(form_key(fits, models), capacity=capacity is not None)
     return (traj, residual_time_figure(fits, labels, models=models),
             residual_fitted_figure(fits, labels, models=models, scale=scale),
