@@ -34,6 +34,8 @@ def build_layout(source: Mapping[str, Any] | None, *, max_upload_bytes: int) -> 
         dcc.Store(id=ids.FITS, storage_type="memory"),
         dcc.Store(id=ids.PREVIEW, storage_type="memory"),
         dcc.Store(id=ids.K_DROP, storage_type="memory"),
+        dcc.Store(id=ids.DYN_VISIBLE, storage_type="memory", data=False),
+        dcc.Store(id=ids.DYN_STALE, storage_type="memory", data=False),
         dcc.Store(id=ids.SORT, storage_type="memory", data={"column": None, "descending": False}),
         dcc.Store(id=ids.HIGHLIGHT, storage_type="memory"),
         html.A("Skip to the panels", href="#main", className="skip-link"),

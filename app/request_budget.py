@@ -38,6 +38,7 @@ REQUESTS: dict[str, tuple[str, str]] = {
     ids.SOURCE: ("Loading the file", "use a smaller file"),
     ids.DATA_MESSAGE: ("Loading the file", "use a smaller file"),
     ids.DYN_SENTENCES: ("The dynamics panel", f"choose a fit with fewer constants, or use {FEWER_POINTS}"),
+    ids.DYN_STALE: ("The dynamics panel", f"choose a fit with fewer constants, or use {FEWER_POINTS}"),
     ids.DYN_FIT: ("The dynamics panel", "choose another fit"),
     ids.BOOT: ("The bootstrap", "ask for fewer resamples"),
     ids.BOOT_PROGRESS: ("The bootstrap intervals", "ask for fewer resamples"),

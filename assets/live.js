@@ -174,6 +174,27 @@
     return moved ? relayout : nu;
   }
 
+  /* ---------------------------------------------------------------- panel 7 on screen
+
+     The dynamics panel (its cobweb and sweep are the page's costliest figures) is redrawn for new fits
+     only while it is on screen or near it; the server is told when that changes. */
+  var SLOT = "slot-dynamics", VISIBLE = "store-dynamics-visible";
+  function watchPanelSeven() {
+    var slot = document.getElementById(SLOT);
+    var set = window.dash_clientside && window.dash_clientside.set_props;
+    if (!slot || !set || !window.IntersectionObserver) { setTimeout(watchPanelSeven, 200); return; }
+    var shown = null;
+    new IntersectionObserver(function (entries) {
+      var now = entries[entries.length - 1].isIntersecting;
+      if (now !== shown) { shown = now; set(VISIBLE, {data: now}); }
+    }, {rootMargin: "300px 0px"}).observe(slot);
+  }
+  if (document.readyState === "loading") {
+    document.addEventListener("DOMContentLoaded", watchPanelSeven);
+  } else {
+    watchPanelSeven();
+  }
+
   window.dash_clientside = window.dash_clientside || {};
   window.dash_clientside[NS] = Object.assign(window.dash_clientside[NS] || {},
                                              {sort: sort, preview: preview, previewNumbers: previewNumbers,

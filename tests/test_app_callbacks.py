@@ -197,6 +197,17 @@ def test_a_reply_cancelled_in_the_browser_is_made_good_by_the_next(demo: dict, s
     assert same_k[9] == first[9] and same_k[10] is not no_update  # refitted and redrawn, not skipped
 
 
+def test_panel_seven_off_screen_waits_until_it_comes_into_view(demo: dict, settings: dict) -> None:
+    """The cobweb and sweep are the page's costliest figures: off screen, new fits only mark them stale."""
+    first = live_update(ids.DATA, None, None, None, demo, None, settings, None, None, None, None, View())
+    views = (View(dyn_label=first[23], dyn_options=first[22], visible=visible) for visible in (True, False))
+    on, off = (live_update(ids.K_INPUT, 3.5, None, None, demo, None, settings, first[0], demo["key"], first[9], None,
+                           view) for view in views)
+    assert on[9] == off[9] and str(on[20]) == str(off[20])  # the same fits and table either way
+    assert all(x is not no_update for x in on[24:29]) and on[34] is False
+    assert all(x is no_update for x in off[24:29]) and off[34] is True
+
+
 def test_a_reopened_records_k_is_fitted_in_the_reply_to_its_data(demo: dict, settings: dict) -> None:
     """The data of a reopened record come with its K: the reply fits at that K at once and uses it up,
     even when the data are those already on screen (then the committed K is the only thing that moves)."""

@@ -44,6 +44,7 @@ class View:
     done: Mapping[str, Any] | None = None
     summary: Mapping[str, Any] | None = None
     forecast: Mapping[str, Any] | None = None
+    visible: bool = True  # panel 7 on screen: drawn now, else when it comes into view
 
 
 def fits_are_current(previous: Mapping[str, Any] | None, data: Mapping[str, Any] | None,
@@ -86,21 +87,25 @@ def preview_inputs(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None
 
 
 #: How many outputs the parts after the K controls and the fits store have.
-N_EXPLORE, N_PANELS, N_COMPARISON, N_DYNAMICS = 3, 7, 2, 12  # then the preview's inputs and the pending K
+N_EXPLORE, N_PANELS, N_COMPARISON, N_DYNAMICS = 3, 7, 2, 13  # then the preview's inputs and the pending K
 
 
 def panel_seven(fits_store: Mapping[str, Any], data: Mapping[str, Any],
                 exclusions: Mapping[str, Any] | None, view: View) -> tuple[Any, ...]:
-    """Panel 7 for new fits: the picker, the dynamics, the bootstrap status and the forecast."""
+    """Panel 7 for new fits: the picker, the dynamics, the bootstrap status, the forecast and whether the
+    dynamics wait until the panel comes into view (they are not drawn off screen)."""
     options, label = dyn.choose_fit(fits_store, view.dyn_label)
-    described = dyn.dynamics_view(fits_store, label, data, exclusions, view.done, view.level)
+    if view.visible:
+        described, stale = dyn.dynamics_view(fits_store, label, data, exclusions, view.done, view.level), False
+    else:
+        described, stale = (no_update,) * 5, True
     progress = dyn.progress_view(view.boot, view.summary, fits_store, label)
     forecast: Any = no_update
     if view.forecast:
         forecast = None if dyn.forecast_is_stale(view.forecast, fits_store) else dyn.compute_forecast(
             view.forecast["request"], label, fits_store, data, exclusions, view.done)
     return (no_update if list(options) == list(view.dyn_options or []) else options,
-            no_update if label == view.dyn_label else label, *described, *progress, forecast)
+            no_update if label == view.dyn_label else label, *described, *progress, forecast, stale)
 
 
 def live_update(trigger: Any, k_input: float | None, k_slider: float | None, relayout: Mapping[str, Any] | None,
@@ -172,7 +177,8 @@ def register(app: Dash) -> None:
         Output(ids.DYN_SENTENCES, "children"), Output(ids.DYN_EQUILIBRIA, "children"),
         Output(ids.G_COBWEB, "figure"), Output(ids.G_SWEEP, "figure"), Output(ids.DYN_DERIVED, "children"),
         Output(ids.BOOT_PROGRESS, "value"), Output(ids.BOOT_PROGRESS, "max"), Output(ids.BOOT_STATUS, "children"),
-        Output(ids.DYN_INTERVALS, "children"), Output(ids.FORECAST, "data"), Output(ids.PREVIEW, "data"),
+        Output(ids.DYN_INTERVALS, "children"), Output(ids.FORECAST, "data"), Output(ids.DYN_STALE, "data"),
+        Output(ids.PREVIEW, "data"),
         Output(ids.PENDING_CAPACITY, "data"),
         Input(ids.K_INPUT, "value"), Input(ids.K_SLIDER, "value"), Input(ids.K_DROP, "data"),
         Input(ids.DATA, "data"), Input(ids.EXCLUSIONS, "data"), Input(ids.SETTINGS, "data"),
@@ -182,19 +188,37 @@ def register(app: Dash) -> None:
         State(ids.CHANGE_AXIS, "value"), State(ids.STATE_SCALE, "value"), State(ids.PATH_FROM, "value"),
         State(ids.SORT, "data"), State(ids.DYN_FIT, "value"), State(ids.DYN_FIT, "options"),
         State(ids.DYN_LEVEL, "value"), State(ids.BOOT, "data"), State(ids.BOOT_DONE, "data"),
-        State(ids.BOOT_SUMMARY, "data"), State(ids.FORECAST, "data"),
+        State(ids.BOOT_SUMMARY, "data"), State(ids.FORECAST, "data"), State(ids.DYN_VISIBLE, "data"),
         prevent_initial_call=False,
     )
     def _live(k_input, k_slider, relayout, data, exclusions, settings, k_clicks, current, previous_key, previous,
-              pending, axis, scale, path_from, sort, label, options, level, boot, done, summary, forecast):
+              pending, axis, scale, path_from, sort, label, options, level, boot, done, summary, forecast, visible):
         trigger = ctx.triggered_id
         if f"{ids.DATA}.data" in ctx.triggered_prop_ids:
             trigger = ids.DATA  # new data arriving with another change in one call: the first guess first
         elif trigger == ids.K_FROM_FIT and not k_clicks:
             trigger = "none"
-        view = View(axis, scale, path_from, sort, label, options, level, boot, done, summary, forecast)
+        view = View(axis, scale, path_from, sort, label, options, level, boot, done, summary, forecast, bool(visible))
         return live_update(trigger, k_input, k_slider, relayout, data, exclusions, settings, current,
                            previous_key, previous, pending, view)
+
+
+    # panel 7 coming into view with older fits described, or new fits arriving while it is in view
+    @app.callback(
+        Output(ids.DYN_STALE, "data", allow_duplicate=True),
+        Output(ids.DYN_SENTENCES, "children", allow_duplicate=True),
+        Output(ids.DYN_EQUILIBRIA, "children", allow_duplicate=True),
+        Output(ids.G_COBWEB, "figure", allow_duplicate=True), Output(ids.G_SWEEP, "figure", allow_duplicate=True),
+        Output(ids.DYN_DERIVED, "children", allow_duplicate=True),
+        Input(ids.DYN_VISIBLE, "data"), Input(ids.DYN_STALE, "data"),
+        State(ids.FITS, "data"), State(ids.DYN_FIT, "value"), State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"),
+        State(ids.BOOT_DONE, "data"), State(ids.DYN_LEVEL, "value"),
+        prevent_initial_call=True,
+    )
+    def _seven_in_view(visible, stale, fits_store, label, data, exclusions, done, level):
+        if not (visible and stale):
+            raise PreventUpdate
+        return (False, *dyn.dynamics_view(fits_store, label, data, exclusions, done, level))
 
 
 __all__ = ["PREVIEW_FORMS", "View", "preview_inputs", "fits_are_current", "live_update", "panel_seven", "register"]

@@ -13,7 +13,7 @@ from typing import Any
 import pytest
 
 from tests.browser import page
-from tests.browser.page import shot, text
+from tests.browser.page import scroll_to, shot, text
 
 pytestmark = pytest.mark.browser
 
@@ -41,7 +41,10 @@ def _click(driver: Any, element_id: str) -> None:
 
 
 def _open(driver: Any, url: str) -> None:
+    """Load the app and bring panel 7 into view (off screen it waits to be drawn)."""
     driver.get(url)
+    wait(driver, lambda d: d.execute_script("return !!document.getElementById('slot-dynamics')"))
+    scroll_to(driver, "slot-dynamics")
     wait(driver, lambda d: "implies" in text(d, "dynamics-sentences")
          and "stable" in text(d, "dynamics-equilibria"))
 
@@ -90,3 +93,23 @@ def test_bootstrap_cancel_and_forecast(server_url: str, make_driver: Callable[..
     assert any(n and n.startswith("forecast:") for n in names)
     shot(driver, artifacts, f"dynamics_{width}_forecast", "forecast-run", pause=0.4)
     shot(driver, artifacts, f"dynamics_{width}_trajectory_band", "panel-trajectory", pause=0.4)
+
+
+def test_panel_seven_is_drawn_when_it_comes_into_view(server_url: str, make_driver: Callable[..., Any]) -> None:
+    """Off screen, panel 7 waits; brought into view it describes the fits of the K now committed."""
+    from selenium.webdriver.common.by import By
+    from selenium.webdriver.common.keys import Keys
+
+    driver = make_driver(1280, 800)
+    _open(driver, server_url)
+    driver.execute_script("window.scrollTo(0, 0)")  # the top of the page: panel 7 is far below
+    page.hold_k(driver)
+    described = text(driver, "dynamics-equilibria")
+    box = driver.find_element(By.ID, "model-k-input")
+    box.send_keys(Keys.CONTROL, "a")
+    box.send_keys("3.5", Keys.ENTER)
+    wait(driver, lambda d: "K = 3.5" in "\n".join(page.comparison_rows(d)))
+    page.wait_idle(driver)
+    assert text(driver, "dynamics-equilibria") == described  # not redrawn off screen
+    scroll_to(driver, "slot-dynamics")
+    wait(driver, lambda d: "3.5" in text(d, "dynamics-equilibria") and text(d, "dynamics-equilibria") != described)
