@@ -19,8 +19,9 @@ import pytest
 from scipy import stats
 
 from app.callbacks import batch_tables as B
-from app.callbacks import series as S
 from app.callbacks.data import import_source
+from app.callbacks.series.read import read_all_series, series_from_plain
+from app.callbacks.series.run import merged_fits, run_tick, start_run
 from app.state import fit_label, fit_label_parts
 from growthcore.batch import group_difference_test
 
@@ -50,17 +51,17 @@ def _tanks(tmp_path: Any) -> tuple[dict[str, Any], dict[str, Any]]:
     path = tmp_path / "invented_tanks.csv"
     path.write_text("\n".join(lines) + "\n", encoding="utf-8")
     source = _source(str(path))
-    batch = S.read_all_series(source, import_source(source), None)
+    batch = read_all_series(source, import_source(source), None)
     groups = {"key": batch["key"], "groups": {n: ("fed" if n.startswith("F") else "lean") for n in batch["names"]}}
     return batch, groups
 
 
 def _merged(batch: dict[str, Any]) -> tuple[list[str], dict[str, Any]]:
-    job, fits, progress, *_ = S.start_run(SETTINGS, batch, None, now=0.0)
+    job, fits, progress, *_ = start_run(SETTINGS, batch, None, now=0.0)
     for n in range(1, int(job["chunks"]) + 1):
-        patch, progress, _ = S.run_tick(n, job, batch, None, progress, None, now=float(n))
+        patch, progress, _ = run_tick(n, job, batch, None, progress, None, now=float(n))
         fits["chunks"].update(_apply(patch))
-    return S.merged_fits(fits, job, batch)
+    return merged_fits(fits, job, batch)
 
 
 def test_table_has_one_row_per_series_and_form_with_every_constant(tmp_path: Any) -> None:
@@ -95,7 +96,7 @@ def test_f_test_view_reports_the_engine_test(tmp_path: Any) -> None:
     labels, merged = _merged(batch)
     assert B.testable(labels[0]) == ["r", "K"] and B.testable("logistic-curve (trajectory)") == ["K", "r"]
     view = str(B.ftest_view(batch, groups["groups"], labels[0], "r", merged))
-    series = [S.series_from_plain(d) for d in batch["series"]]
+    series = [series_from_plain(d) for d in batch["series"]]
     engine = group_difference_test(series, [groups["groups"][s.name] for s in series], "logistic", "r")
     assert engine.status == "done" and engine.p_value < 0.05
     assert f"F({engine.df_reduced - engine.df_full}, {engine.df_full}) = {engine.f:.4g}" in view

@@ -14,10 +14,13 @@ import numpy as np
 import pytest
 from dash import no_update
 
-from app.callbacks import dynamics as dy
 from app.callbacks.capacity import rounded
 from app.callbacks.comparison import draw_comparison
 from app.callbacks.data import import_source
+from app.callbacks.dynamics.bootstrap import bootstrap_step, next_chunk, progress_view, start_run, summaries
+from app.callbacks.dynamics.describe import dynamics_view
+from app.callbacks.dynamics.forecast import band_on_trajectory, compute_forecast, forecast_notes, forecast_request
+from app.callbacks.dynamics.which_fit import choose_fit, done_for, find_fit, fit_signature, rebuild
 from app.callbacks.fits import compute_fits
 from app.callbacks.panels import draw_panels
 from app.server import DEMO_FILE, create_app, read_source
@@ -64,7 +67,7 @@ def _run(boot: dict, done: dict, fits_store: dict, data: dict, *, cancel_after: 
     steps = 0
     while True:
         cancel = 1 if cancel_after is not None and steps >= cancel_after else 0
-        b, d, more = dy.bootstrap_step(boot, done, cancel, fits_store, data, None)
+        b, d, more = bootstrap_step(boot, done, cancel, fits_store, data, None)
         boot = b if b is not no_update else boot
         done = d if d is not no_update else done
         steps += 1
@@ -77,28 +80,28 @@ def _run(boot: dict, done: dict, fits_store: dict, data: dict, *, cancel_after: 
 def test_signature_follows_k_exclusions_and_form(demo: dict, k_demo: float, fits: dict) -> None:
     f = fits["fits"][0]
     again = compute_fits(demo, None, _settings(), k_demo)
-    assert dy.fit_signature(fits, f) == dy.fit_signature(again, again["fits"][0])
+    assert fit_signature(fits, f) == fit_signature(again, again["fits"][0])
     other_k = compute_fits(demo, None, _settings(), rounded(1.1 * k_demo))
-    assert dy.fit_signature(fits, f) != dy.fit_signature(other_k, other_k["fits"][0])
+    assert fit_signature(fits, f) != fit_signature(other_k, other_k["fits"][0])
     excl = {"key": demo["key"], "excluded": {"5": "excluded by the user"}, "history": []}
     fewer = compute_fits(demo, excl, _settings(), k_demo)
-    assert dy.fit_signature(fits, f) != dy.fit_signature(fewer, fewer["fits"][0])
-    assert dy.fit_signature(fits, fits["fits"][0]) != dy.fit_signature(fits, fits["fits"][1])
+    assert fit_signature(fits, f) != fit_signature(fewer, fewer["fits"][0])
+    assert fit_signature(fits, fits["fits"][0]) != fit_signature(fits, fits["fits"][1])
 
 
 def test_picker_prefers_the_best_difference_form_and_keeps_a_choice(fits: dict) -> None:
-    options, value = dy.choose_fit(fits, None)
+    options, value = choose_fit(fits, None)
     assert [o["value"] for o in options] == [f["label"] for f in fits["fits"]]
     best = [r for r in fits["comparison"] if r.get("best")]
     assert best and value == f"{best[0]['model']} ({best[0]['method']})"
-    assert dy.choose_fit(fits, "ricker (increments)")[1] == "ricker (increments)"
-    assert dy.choose_fit(None, None) == ([], None)
+    assert choose_fit(fits, "ricker (increments)")[1] == "ricker (increments)"
+    assert choose_fit(None, None) == ([], None)
 
 
 # ----------------------------------------------------------------------------- dynamics
 
 def test_logistic_equilibria_multiplier_is_one_minus_r(demo: dict, k_demo: float, fits: dict) -> None:
-    sentences, eq_table, cobweb_fig, sweep_fig, derived = dy.dynamics_view(
+    sentences, eq_table, cobweb_fig, sweep_fig, derived = dynamics_view(
         fits, "logistic (increments)", demo, None, {}, None)
     r = fits["fits"][0]["parameters"]["r"]["value"]
     text = _text(sentences)
@@ -125,7 +128,7 @@ def test_two_cycle_said_in_words() -> None:
     data = import_source({"filename": "simulated_cycle.csv", "b64": base64.b64encode(csv.encode()).decode(),
                           "max_bytes": 10_000_000})
     store = compute_fits(data, None, _settings(models=["logistic"]), k)
-    out = dy.dynamics_view(store, "logistic (increments)", data, None, {}, None)
+    out = dynamics_view(store, "logistic (increments)", data, None, {}, None)
     text = _text(out[0])
     assert "2-cycle between" in text and "rather than a steady level" in text
     # the 2-cycle of x' = a·x(1 − x) is x± = (a + 1 ± √((a + 1)(a − 3))) / (2a); here p = (1 + r)K/r · x, a = 1 + r
@@ -139,14 +142,14 @@ def test_two_cycle_said_in_words() -> None:
 
 def test_curve_form_has_no_cobweb(demo: dict, k_demo: float) -> None:
     store = compute_fits(demo, None, _settings("trajectory", ["logistic-curve"]), k_demo)
-    out = dy.dynamics_view(store, store["fits"][0]["label"], demo, None, {}, None)
+    out = dynamics_view(store, store["fits"][0]["label"], demo, None, {}, None)
     assert "closed-form curve" in out[2]["layout"]["meta"]["message"]
     assert "steady level" in _text(out[0])
 
 
 def test_doubling_time_matches_its_closed_form(demo: dict, k_demo: float, fits: dict) -> None:
     """Per-step growth factor g = 1 + r(1 − p_s/K); doubling time = h·ln 2 / ln g (definition)."""
-    out = dy.dynamics_view(fits, "logistic (increments)", demo, None, {}, 2.0)
+    out = dynamics_view(fits, "logistic (increments)", demo, None, {}, 2.0)
     r = fits["fits"][0]["parameters"]["r"]["value"]
     p_s, h = demo["p"][0], demo["t"][1] - demo["t"][0]
     expected = h * math.log(2) / math.log(1 + r * (1 - p_s / k_demo))
@@ -158,12 +161,12 @@ def test_doubling_time_matches_its_closed_form(demo: dict, k_demo: float, fits: 
 # ----------------------------------------------------------------------------- bootstrap in chunks
 
 def test_run_refuses_bad_requests(fits: dict) -> None:
-    assert dy.start_run(1, 0, 5, 1, "logistic (increments)", fits)["state"] == "refused"
-    assert dy.start_run(1, 0, 1e9, 1, "logistic (increments)", fits)["state"] == "refused"
-    assert dy.start_run(1, 0, 100, -3, "logistic (increments)", fits)["state"] == "refused"
-    assert dy.start_run(1, 0, 100.5, 3, "logistic (increments)", fits)["state"] == "refused"
-    assert dy.start_run(1, 0, 100, 3, "no such fit", fits)["state"] == "refused"
-    ok = dy.start_run(1, 0, "300", 3, "logistic (increments)", fits)
+    assert start_run(1, 0, 5, 1, "logistic (increments)", fits)["state"] == "refused"
+    assert start_run(1, 0, 1e9, 1, "logistic (increments)", fits)["state"] == "refused"
+    assert start_run(1, 0, 100, -3, "logistic (increments)", fits)["state"] == "refused"
+    assert start_run(1, 0, 100.5, 3, "logistic (increments)", fits)["state"] == "refused"
+    assert start_run(1, 0, 100, 3, "no such fit", fits)["state"] == "refused"
+    ok = start_run(1, 0, "300", 3, "logistic (increments)", fits)
     assert ok["state"] == "running" and ok["requested"] == 300
 
 
@@ -171,15 +174,15 @@ def test_chunked_run_equals_one_engine_call(demo: dict, k_demo: float, fits: dic
     """The seeded draws do not depend on the chunking (engine contract), so the merged chunks repeat
     one bootstrap of the same fit; the percentile interval is numpy's 2.5 and 97.5 percentiles."""
     label = "ricker (increments)"
-    boot, done, steps = _run(dy.start_run(1, 0, 400, 11, label, fits), {}, fits, demo)
+    boot, done, steps = _run(start_run(1, 0, 400, 11, label, fits), {}, fits, demo)
     assert boot["state"] == "complete" and boot["done"] == 400 and steps >= 3  # progress in several steps
-    series, result = dy.rebuild(demo, None, fits, dy.find_fit(fits, label))
+    series, result = rebuild(demo, None, fits, find_fit(fits, label))
     direct = bootstrap(result, series=series, resamples=400, seed=11)
-    sig = dy.fit_signature(fits, dy.find_fit(fits, label))
-    stored = dy.done_for(done, sig)
+    sig = fit_signature(fits, find_fit(fits, label))
+    stored = done_for(done, sig)
     np.testing.assert_allclose(stored.samples, direct.samples, rtol=1e-12)
     lo, hi = np.percentile(direct.good()["r"], [2.5, 97.5])
-    value, top, status, table = dy.progress_view(boot, dy.summaries(done), fits, label)
+    value, top, status, table = progress_view(boot, summaries(done), fits, label)
     assert (value, top) == ("400", "400") and status.startswith("Done: 400 of 400")
     assert f"{lo:.4g} to {hi:.4g}" in _text(table)
     t_ci = fits["fits"][2]["parameters"]["r"]["ci95"]
@@ -188,56 +191,56 @@ def test_chunked_run_equals_one_engine_call(demo: dict, k_demo: float, fits: dic
 
 def test_cancel_keeps_the_refits_done(demo: dict, fits: dict) -> None:
     label = "gompertz (increments)"
-    boot, done, steps = _run(dy.start_run(1, 0, 2000, 5, label, fits), {}, fits, demo, cancel_after=2)
+    boot, done, steps = _run(start_run(1, 0, 2000, 5, label, fits), {}, fits, demo, cancel_after=2)
     assert boot["state"] == "cancelled" and 0 < boot["done"] < 2000 and steps == 3
-    value, top, status, table = dy.progress_view(boot, dy.summaries(done), fits, label)
+    value, top, status, table = progress_view(boot, summaries(done), fits, label)
     assert status.startswith(f"Cancelled: {boot['done']} of 2000") and "only the refits done" in status
     assert f"partial: {boot['done']} of 2000" in _text(table)
 
 
 def test_a_changed_fit_stops_the_run(demo: dict, k_demo: float, fits: dict) -> None:
-    boot, _, more = dy.bootstrap_step(dy.start_run(1, 0, 1000, 5, "logistic (increments)", fits), {}, 0,
+    boot, _, more = bootstrap_step(start_run(1, 0, 1000, 5, "logistic (increments)", fits), {}, 0,
                                       fits, demo, None)
     assert more
     moved = compute_fits(demo, None, _settings(), rounded(0.9 * k_demo))
-    boot, done, more = dy.bootstrap_step(boot, {}, 0, moved, demo, None)
+    boot, done, more = bootstrap_step(boot, {}, 0, moved, demo, None)
     assert not more and boot["state"] == "stopped" and "fit changed" in boot["message"]
 
 
 def test_chunks_stay_small_enough_for_progress() -> None:
-    assert dy.next_chunk(50, 0.001, 1000) == 50       # capped at a twentieth of the run
-    assert dy.next_chunk(500, 4.0, 100_000) == 50     # slow answers shrink the next chunk
-    assert dy.next_chunk(50, 100.0, 1000) == 10
+    assert next_chunk(50, 0.001, 1000) == 50       # capped at a twentieth of the run
+    assert next_chunk(500, 4.0, 100_000) == 50     # slow answers shrink the next chunk
+    assert next_chunk(50, 100.0, 1000) == 10
 
 
 def test_bootstrap_changes_sentences_and_comparison(demo: dict, k_demo: float, fits: dict) -> None:
     label = "logistic (increments)"
-    _, done, _ = _run(dy.start_run(1, 0, 300, 2, label, fits), {}, fits, demo)
-    out = dy.dynamics_view(fits, label, demo, None, done, None)
+    _, done, _ = _run(start_run(1, 0, 300, 2, label, fits), {}, fits, demo)
+    out = dynamics_view(fits, label, demo, None, done, None)
     assert "t-based until a bootstrap" not in _text(out[0])
     assert "bootstrap" in json.dumps(out[3]["layout"]) or out[3]["layout"]["shapes"]
     derived = _text(out[4])
     assert "run the bootstrap" not in derived and " to " in derived
-    table, _ = draw_comparison(fits, None, dy.summaries(done))
+    table, _ = draw_comparison(fits, None, summaries(done))
     assert "r bootstrap [" in _text(table)
     moved = compute_fits(demo, None, _settings(), rounded(0.9 * k_demo))
     # stale intervals are not shown
-    assert "bootstrap [" not in _text(draw_comparison(moved, None, dy.summaries(done))[0])
+    assert "bootstrap [" not in _text(draw_comparison(moved, None, summaries(done))[0])
 
 
 # ----------------------------------------------------------------------------- forecast
 
 def test_forecast_requests_are_checked() -> None:
-    assert dy.forecast_request("steps", 0, None)["error"].startswith("Steps ahead")
-    assert dy.forecast_request("steps", 2.5, None)["error"].startswith("Steps ahead")
-    assert dy.forecast_request("span", -1, None)["error"].startswith("The time span")
-    assert dy.forecast_request("steps", 5, -2)["error"].startswith("The plausibility bound")
-    assert dy.forecast_request("span", 30, "") == {"mode": "span", "amount": 30.0, "bound": None}
+    assert forecast_request("steps", 0, None)["error"].startswith("Steps ahead")
+    assert forecast_request("steps", 2.5, None)["error"].startswith("Steps ahead")
+    assert forecast_request("span", -1, None)["error"].startswith("The time span")
+    assert forecast_request("steps", 5, -2)["error"].startswith("The plausibility bound")
+    assert forecast_request("span", 30, "") == {"mode": "span", "amount": 30.0, "bound": None}
 
 
 def test_forecast_band_on_the_trajectory(demo: dict, k_demo: float, fits: dict) -> None:
     label = "logistic (increments)"
-    store = dy.compute_forecast(dy.forecast_request("steps", 8, 5.0), label, fits, demo, None, {})
+    store = compute_forecast(forecast_request("steps", 8, 5.0), label, fits, demo, None, {})
     pts = store["points"]
     h = demo["t"][1] - demo["t"][0]
     assert len(pts) == 8 and pts[0]["t"] == pytest.approx(demo["t"][-1] + h)
@@ -245,21 +248,21 @@ def test_forecast_band_on_the_trajectory(demo: dict, k_demo: float, fits: dict) 
     assert any("past the last observation" in w for w in store["warnings"])
     assert store["caution"].startswith("Forecasts from a fitted growth law")
     assert "plausibility bound 5" in " ".join(store["warnings"])
-    notes = _text(dy.forecast_notes(store, fits))
+    notes = _text(forecast_notes(store, fits))
     assert "95% prediction band" in notes and "normal approximation" in notes
     figure = draw_panels(fits, k_demo, demo, None)[0]
-    with_band = dy.band_on_trajectory(figure, store, fits)
+    with_band = band_on_trajectory(figure, store, fits)
     assert len(with_band["data"]) == len(figure["data"]) + 3
     assert any(s.get("x0") == demo["t"][-1] for s in with_band["layout"]["shapes"])
     preview = compute_fits(demo, None, _settings(), rounded(1.05 * k_demo))
-    assert dy.band_on_trajectory(figure, store, preview) is figure  # hidden while the fit differs
-    assert "redrawn" in _text(dy.forecast_notes(store, preview))
+    assert band_on_trajectory(figure, store, preview) is figure  # hidden while the fit differs
+    assert "redrawn" in _text(forecast_notes(store, preview))
 
 
 def test_forecast_errors_are_messages(demo: dict, fits: dict) -> None:
-    store = dy.compute_forecast(dy.forecast_request("span", 1.0, None), "logistic (increments)", fits, demo, None, {})
+    store = compute_forecast(forecast_request("span", 1.0, None), "logistic (increments)", fits, demo, None, {})
     assert "shorter than one step" in store["error"]
-    assert "flag-warn" in repr(dy.forecast_notes(store, fits))
+    assert "flag-warn" in repr(forecast_notes(store, fits))
 
 
 def test_registered_on_the_app() -> None:
@@ -271,8 +274,8 @@ def test_registered_on_the_app() -> None:
 
 def test_summaries_leave_the_refits_out(demo: dict, fits: dict) -> None:
     """What rides along with every table update stays small: counts and intervals, no refits."""
-    _, done, _ = _run(dy.start_run(1, 0, 1000, 4, "logistic (increments)", fits), {}, fits, demo)
-    small = dy.summaries(done)
+    _, done, _ = _run(start_run(1, 0, 1000, 4, "logistic (increments)", fits), {}, fits, demo)
+    small = summaries(done)
     assert len(json.dumps(small)) < 2000 < len(json.dumps(done))
     entry = next(iter(small.values()))
     assert entry["summary"]["done"] == 1000 and "result" not in entry
@@ -284,15 +287,15 @@ def test_export_record_carries_the_panel_bootstrap_and_forecast(demo: dict, k_de
     from app.callbacks import export as ex
 
     label = "ricker (increments)"
-    boot, done, _ = _run(dy.start_run(1, 0, 200, 5, label, fits), {}, fits, demo)
-    request = dy.forecast_request("steps", 6, None)
-    store = dy.compute_forecast(request, label, fits, demo, None, done)
+    boot, done, _ = _run(start_run(1, 0, 200, 5, label, fits), {}, fits, demo)
+    request = forecast_request("steps", 6, None)
+    store = compute_forecast(request, label, fits, demo, None, done)
     settings = _settings()
     record = ex.session_record(demo, None, settings, k_demo, forms=["ricker"], forecast_store=store, boot_done=done)
     (ricker,) = [f for f in record["fits"] if f["model"] == "ricker"]
     assert record["settings"]["bootstrap"] == 200 and record["settings"]["seed"] == 5
     assert record["settings"]["forecast_steps"] == 6
-    panel = dy.done_for(done, dy.fit_signature(fits, dy.find_fit(fits, label)))
+    panel = done_for(done, fit_signature(fits, find_fit(fits, label)))
     lo, hi = panel.interval("r")
     assert ricker["parameters"]["r"]["ci95_bootstrap"] == pytest.approx([lo, hi], rel=1e-9)
     assert len(ricker["forecast"]) == 6
@@ -304,10 +307,10 @@ def test_correlation_of_the_estimates_is_shown_as_the_engine_computes_it(demo: d
     diagonal and symmetry) for the fit in the panel, to three significant digits."""
     store = compute_fits(demo, None, _settings(method="trajectory", models=["logistic"]), k_demo)
     label = store["fits"][0]["label"]
-    view = dy.dynamics_view(store, label, demo, None, None, None)
+    view = dynamics_view(store, label, demo, None, None, None)
     text = _text(view[4])
     assert "Correlation of the estimates" in text
-    _, result = dy.rebuild(demo, None, store, dy.find_fit(store, label))
+    _, result = rebuild(demo, None, store, find_fit(store, label))
     corr = result.correlation
     np.testing.assert_allclose(np.diag(corr), 1.0, rtol=1e-12)
     np.testing.assert_allclose(corr, corr.T, rtol=1e-12)

@@ -17,8 +17,9 @@ import pytest
 
 from app import ids
 from app.callbacks.data import import_source, on_import
-from app.callbacks.dynamics import bootstrap_step, compute_forecast
-from app.callbacks.series import compute_groups
+from app.callbacks.dynamics.bootstrap import bootstrap_step
+from app.callbacks.dynamics.forecast import compute_forecast
+from app.callbacks.series.groups import compute_groups
 from app.heavy import HeavyConfig, HeavyRefused, HeavyRunner
 from app.server import allowed_hosts_for, create_app
 from growthcore.errors import ImportFailure
@@ -97,7 +98,7 @@ def _fit_store() -> tuple[dict, dict]:
 def test_forged_bootstrap_run_is_refused() -> None:
     data, fits = _fit_store()
     label = fits["fits"][0]["label"]
-    from app.callbacks.dynamics import find_fit, fit_signature
+    from app.callbacks.dynamics.which_fit import find_fit, fit_signature
 
     sig = fit_signature(fits, find_fit(fits, label))
     for forged in ({"requested": 1_000_000, "chunk": 50}, {"requested": 100, "chunk": 10**7}):

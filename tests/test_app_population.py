@@ -12,7 +12,7 @@ import pytest
 from scipy.special import expit
 
 from app.callbacks.population import constant_choices, fit_request, lr_test, render, run_population
-from app.callbacks.series import series_to_plain
+from app.callbacks.series.read import series_to_plain
 from app.figures.population import forest_plot, population_curves
 from growthcore.data import Series
 from growthcore.mixed import PopulationFit, fit_population

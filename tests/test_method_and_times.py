@@ -14,7 +14,7 @@ import math
 import numpy as np
 import pytest
 
-from app.callbacks.dynamics import bootstrap_step, start_run
+from app.callbacks.dynamics.bootstrap import bootstrap_step, start_run
 from app.components.dynamics import derived_table
 from growthcore.batch import fit_batch
 from growthcore.batch.dataset import BatchData
@@ -92,7 +92,7 @@ def test_monomolecular_has_no_doubling_time_and_says_why() -> None:
 
 
 def test_bootstrap_time_is_the_time_waited(monkeypatch) -> None:
-    import app.callbacks.dynamics as D
+    import app.callbacks.dynamics.bootstrap as D
     from app.callbacks.fits import compute_fits
 
     s = uspop()

@@ -10,7 +10,7 @@ import pytest
 
 from app import ids
 from app.callbacks.batch_tables import ftest_reply
-from app.callbacks.dynamics import compute_forecast, forecast_is_stale, forecast_request, fresh_inputs
+from app.callbacks.dynamics.forecast import compute_forecast, forecast_is_stale, forecast_request, fresh_inputs
 from app.callbacks.fits import compute_fits
 from app.callbacks.live import View, panel_seven
 from app.server import create_app

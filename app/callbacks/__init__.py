@@ -1,4 +1,5 @@
-"""Callbacks, one module per concern; :func:`register_all` wires them onto an app.
+"""Callbacks, one module per concern (panel 7 in dynamics/, the many-series view in series/);
+:func:`register_all` wires them onto an app.
 
 Each module keeps its work in plain functions (called directly by the tests and the benchmark)
 and a ``register(app)`` that connects them to component ids. Every callback registered here runs
@@ -10,14 +11,14 @@ from __future__ import annotations
 from dash import Dash
 
 from app.callbacks import export as export_callbacks
-from app.callbacks import dynamics as dynamics_callbacks
 from app.callbacks import population as population_callbacks
-from app.callbacks import series as series_callbacks
 from app.callbacks import batch_tables, comparison, data, exclusions, explore, highlight, live, panels, settings
+from app.callbacks.dynamics import bootstrap, describe, forecast
+from app.callbacks.series import choose, groups, overview, read, run
 from app.request_budget import BudgetedRegistration
 
 MODULES = (data, settings, live, exclusions, explore, panels, comparison, highlight, export_callbacks,
-           dynamics_callbacks, series_callbacks, batch_tables, population_callbacks)
+           describe, bootstrap, forecast, read, groups, run, overview, choose, batch_tables, population_callbacks)
 
 
 def register_all(app: Dash) -> None:

@@ -14,7 +14,8 @@ from dash import Dash, Input, Output, State, ctx, dcc, html, no_update
 from dash.exceptions import PreventUpdate
 
 from app import ids
-from app.callbacks.series import merged_fits, series_from_plain
+from app.callbacks.series.read import series_from_plain
+from app.callbacks.series.run import merged_fits
 from app.heavy import bounded_of, direct
 from app.state import fit_label_parts
 from growthcore.batch import group_difference_test

@@ -7,6 +7,7 @@ from typing import Any, Mapping
 from dash import ALL, ClientsideFunction, Dash, Input, Output, State, html
 
 from app import ids
+from app.callbacks.dynamics.bootstrap import boot_intervals
 from app.components.comparison import comparison_table
 
 
@@ -15,8 +16,6 @@ def draw_comparison(fits_store: Mapping[str, Any] | None, sort: Mapping[str, Any
     """The table and its notes; ``done`` holds the bootstrap summaries of panel 7 (their intervals join the table)."""
     if not fits_store:
         return html.P("Fitting…", className="muted"), []
-    from app.callbacks.dynamics import boot_intervals
-
     notes = [html.P(n) for n in fits_store.get("notes", [])]
     return comparison_table(fits_store["comparison"], fits_store["fits"], sort, boot_intervals(done, fits_store)), notes
 

@@ -17,9 +17,12 @@ from dash import ClientsideFunction, Dash, Input, Output, State, ctx, no_update
 from dash.exceptions import PreventUpdate
 
 from app import ids
-from app.callbacks import dynamics as dyn
 from app.callbacks.capacity import pending_capacity, update_capacity
 from app.callbacks.comparison import draw_comparison
+from app.callbacks.dynamics.bootstrap import progress_view
+from app.callbacks.dynamics.describe import dynamics_view
+from app.callbacks.dynamics.forecast import compute_forecast, forecast_is_stale
+from app.callbacks.dynamics.which_fit import choose_fit
 from app.callbacks.explore import explore_parts
 from app.callbacks.fits import compute_fits, held_capacity
 from app.callbacks.panels import draw_panels, with_forecast
@@ -94,15 +97,15 @@ def panel_seven(fits_store: Mapping[str, Any], data: Mapping[str, Any],
                 exclusions: Mapping[str, Any] | None, view: View) -> tuple[Any, ...]:
     """Panel 7 for new fits: the picker, the dynamics, the bootstrap status, the forecast and whether the
     dynamics wait until the panel comes into view (they are not drawn off screen)."""
-    options, label = dyn.choose_fit(fits_store, view.dyn_label)
+    options, label = choose_fit(fits_store, view.dyn_label)
     if view.visible:
-        described, stale = dyn.dynamics_view(fits_store, label, data, exclusions, view.done, view.level), False
+        described, stale = dynamics_view(fits_store, label, data, exclusions, view.done, view.level), False
     else:
         described, stale = (no_update,) * 5, True
-    progress = dyn.progress_view(view.boot, view.summary, fits_store, label)
+    progress = progress_view(view.boot, view.summary, fits_store, label)
     forecast: Any = no_update
     if view.forecast:
-        forecast = None if dyn.forecast_is_stale(view.forecast, fits_store) else dyn.compute_forecast(
+        forecast = None if forecast_is_stale(view.forecast, fits_store) else compute_forecast(
             view.forecast["request"], label, fits_store, data, exclusions, view.done)
     return (no_update if list(options) == list(view.dyn_options or []) else options,
             no_update if label == view.dyn_label else label, *described, *progress, forecast, stale)
@@ -218,7 +221,7 @@ def register(app: Dash) -> None:
     def _seven_in_view(visible, stale, fits_store, label, data, exclusions, done, level):
         if not (visible and stale):
             raise PreventUpdate
-        return (False, *dyn.dynamics_view(fits_store, label, data, exclusions, done, level))
+        return (False, *dynamics_view(fits_store, label, data, exclusions, done, level))
 
 
 __all__ = ["PREVIEW_FORMS", "View", "preview_inputs", "fits_are_current", "live_update", "panel_seven", "register"]

@@ -7,6 +7,7 @@ from typing import Any, Mapping
 from dash import Dash, Input, Output, State, html
 
 from app import ids
+from app.callbacks.dynamics.forecast import band_on_trajectory
 from app.callbacks.explore import labels_of
 from app.components.form_key import form_key_view
 from app.figures.common import form_key, message_figure
@@ -63,8 +64,6 @@ def draw_panels(fits_store: Mapping[str, Any] | None, capacity: float | None, da
 def with_forecast(outputs: tuple[Any, ...], forecast: Mapping[str, Any] | None,
                   fits_store: Mapping[str, Any] | None) -> tuple[Any, ...]:
     """The panels with the forecast band (panel 7) drawn on the trajectory, when it belongs to these fits."""
-    from app.callbacks.dynamics import band_on_trajectory
-
     return (band_on_trajectory(outputs[0], forecast, fits_store), *outputs[1:])
 
 

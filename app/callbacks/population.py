@@ -14,7 +14,7 @@ from dash.exceptions import PreventUpdate
 
 from app import ids
 from app.callbacks.data import server_limits
-from app.callbacks.series import series_from_plain
+from app.callbacks.series.read import series_from_plain
 from app.heavy import direct, runner_of
 from app.figures.population import forest_plot, population_curves
 from growthcore.errors import GrowthcoreInputError

@@ -1,0 +1,125 @@
+"""Choosing a series: a click on the grid or the plate map, or the previous and next buttons, opens it
+in the panels; the frame on the grid and the map follows the series shown."""
+
+from __future__ import annotations
+
+from typing import Any, Mapping, Sequence
+
+from dash import Dash, Input, Output, Patch, State, ctx, no_update
+from dash.exceptions import PreventUpdate
+
+from app import ids
+from app.callbacks.series.groups import members
+from app.callbacks.series.overview import highlight_shape, plate_highlight
+from app.components.series import ALL_GROUPS
+
+
+def clicked_series(click: Mapping[str, Any] | None) -> str | None:
+    """The series id a click on a grid panel or a plate cell carries (None for an empty well)."""
+    points = (click or {}).get("points") or []
+    if not points:
+        return None
+    sid = points[0].get("customdata")
+    if isinstance(sid, list):
+        sid = sid[0] if sid else None
+    return str(sid) if sid is not None else None
+
+
+def step_series(current: str | None, order: Sequence[str], step: int) -> str | None:
+    """The series ``step`` places from ``current`` in ``order``, wrapping round; the first when absent."""
+    if not order:
+        return None
+    if current not in order:
+        return order[0] if step > 0 else order[-1]
+    return order[(list(order).index(current) + step) % len(order)]
+
+
+def choose_series(trigger: str | None, grid_click: Any, plate_click: Any, data: Mapping[str, Any] | None,
+                  batch: Mapping[str, Any] | None, groups: Mapping[str, Any] | None, group: str | None) -> Any:
+    """The value for the series dropdown (which reads the series into the panels), or no_update."""
+    if not batch:
+        raise PreventUpdate
+    current = (data or {}).get("name")
+    if trigger == ids.GRID:
+        target = clicked_series(grid_click)
+    elif trigger == ids.PLATE:
+        target = clicked_series(plate_click)
+    elif trigger in (ids.SERIES_PREV, ids.SERIES_NEXT):
+        target = step_series(current, members(batch, groups, group), -1 if trigger == ids.SERIES_PREV else 1)
+    else:
+        raise PreventUpdate
+    if target is None or target == current or target not in batch["names"]:
+        raise PreventUpdate
+    return target
+
+
+def position_text(data: Mapping[str, Any] | None, batch: Mapping[str, Any] | None, groups: Mapping[str, Any] | None,
+                  group: str | None) -> str:
+    if not batch or not data:
+        return ""
+    order = members(batch, groups, group)
+    name = data.get("name")
+    where = f"group {group}" if group and group != ALL_GROUPS else "the file"
+    if name in order:
+        return f"{name}: {order.index(name) + 1} of {len(order)} in {where}"
+    return f"{name} (not in {where})"
+
+
+def highlight_patches(data: Mapping[str, Any] | None, view: Mapping[str, Any] | None,
+                      batch: Mapping[str, Any] | None) -> tuple[Any, Any]:
+    """Patches that move the frame of the grid and the plate map to the series now in the panels.
+
+    Only when the grid on screen was drawn for the file now shown; a new file redraws both anyway.
+    """
+    if not batch or not data or not view or view.get("key") != batch.get("key") \
+            or not str(batch.get("key", "")).startswith(f"{data.get('sha256')}|"):
+        raise PreventUpdate
+    name = data.get("name")
+    grid = Patch()
+    grid["layout"]["shapes"][0] = highlight_shape(view.get("boxes", {}).get(name))
+    plate: Any = no_update
+    if batch.get("plate"):
+        plate = Patch()
+        plate["layout"]["shapes"][0] = plate_highlight(name)
+    return grid, plate
+
+
+SCROLL_TO_PANELS = """
+function(gridClick, plateClick) {
+    var main = document.getElementById('main');
+    if (main) { main.scrollIntoView({block: 'start'}); }
+    return window.dash_clientside.no_update;
+}
+"""
+
+
+def register(app: Dash) -> None:
+    @app.callback(
+        Output(ids.SERIES_PICK, "value", allow_duplicate=True),
+        Input(ids.GRID, "clickData"), Input(ids.PLATE, "clickData"), Input(ids.SERIES_PREV, "n_clicks"),
+        Input(ids.SERIES_NEXT, "n_clicks"),
+        State(ids.DATA, "data"), State(ids.BATCH_SERIES, "data"), State(ids.BATCH_GROUPS, "data"),
+        State(ids.GROUP_FILTER, "value"),
+        prevent_initial_call=True,
+    )
+    def _choose(grid_click, plate_click, _prev, _next, data, batch, groups, group):
+        return choose_series(ctx.triggered_id, grid_click, plate_click, data, batch, groups, group)
+
+    app.clientside_callback(SCROLL_TO_PANELS, Input(ids.GRID, "clickData"), Input(ids.PLATE, "clickData"),
+                            prevent_initial_call=True)
+
+    # the frame around the shown series moves without redrawing the grid or the map
+    @app.callback(
+        Output(ids.GRID, "figure", allow_duplicate=True), Output(ids.PLATE, "figure", allow_duplicate=True),
+        Input(ids.DATA, "data"),
+        State(ids.GRID_VIEW, "data"), State(ids.BATCH_SERIES, "data"),
+        prevent_initial_call=True,
+    )
+    def _highlight(data, view, batch):
+        return highlight_patches(data, view, batch)
+
+    app.callback(
+        Output(ids.SERIES_POSITION, "children"),
+        Input(ids.DATA, "data"), Input(ids.BATCH_SERIES, "data"), Input(ids.BATCH_GROUPS, "data"),
+        Input(ids.GROUP_FILTER, "value"),
+    )(position_text)
