@@ -14,6 +14,7 @@ from app.callbacks.data import server_limits
 from app.callbacks.dynamics.which_fit import find_fit, fit_signature, rebuild
 from app.components.dynamics import MAX_RESAMPLES, intervals_table
 from app.heavy import direct, runner_of
+from app.ticks import allow_next_tick, cancel_pressed, seconds_since
 from growthcore.errors import GrowthcoreInputError
 from growthcore.uncertainty import BootstrapResult, bootstrap
 
@@ -89,7 +90,7 @@ def bootstrap_step(boot: Mapping[str, Any] | None, done: Mapping[str, Any] | Non
     if not boot or boot.get("state") != "running":
         return no_update, no_update, False
     boot = dict(boot)
-    if int(cancel_clicks or 0) > int(boot.get("cancel_seen", 0)):
+    if cancel_pressed(cancel_clicks, boot.get("cancel_seen", 0)):
         return (*_finish(boot, done, "cancelled", f"Cancelled at {boot['done']} of {boot['requested']} resamples."),
                 False)
     fit = find_fit(fits_store, boot["label"])
@@ -115,7 +116,7 @@ def bootstrap_step(boot: Mapping[str, Any] | None, done: Mapping[str, Any] | Non
     so_far = BootstrapResult.from_dict(boot["result"]).merge(part) if boot.get("result") else part
     took = time.perf_counter() - t0
     # the time the user waited (wall clock since the run began), not only the server's share of it
-    waited = time.time() - float(boot.get("started", time.time() - took))
+    waited = seconds_since(boot.get("started", time.time() - took))
     boot.update(result=so_far.to_dict(), done=so_far.done, elapsed=max(waited, 0.0),
                 computing=float(boot.get("computing", 0.0)) + took, chunk=next_chunk(int(boot["chunk"]), took, n))
     if so_far.done >= n:
@@ -197,15 +198,15 @@ def register(app: Dash) -> None:
                   State(ids.FITS, "data"), State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"),
                   State(ids.BOOT, "data"), State(ids.BOOT_DONE, "data"), prevent_initial_call=True)
     def _bootstrap(run, ticks, cancel, resamples, seed, label, fits_store, data, exclusions, boot, done):
-        # the timer fires once per answer: each answer allows exactly one more tick (max_intervals)
+        # the timer fires once per answer: each answer allows exactly one more tick (app/ticks.py)
         trigger = ctx.triggered_id
         if trigger == ids.BOOT_RUN:
             new = start_run(run, cancel, resamples, seed, label, fits_store)
-            return new, no_update, no_update, (ticks or 0) + 1 if new["state"] == "running" else no_update
+            return new, no_update, no_update, allow_next_tick(ticks) if new["state"] == "running" else no_update
         boot_out, done_out, more = bootstrap_step(boot, done, cancel, fits_store, data, exclusions, run=heavy_run,
                                                   max_resamples=max_resamples)
         summary_out = no_update if done_out is no_update else summaries(done_out)
-        return boot_out, done_out, summary_out, (ticks or 0) + 1 if more else (ticks or 0)
+        return boot_out, done_out, summary_out, allow_next_tick(ticks, more)
 
     app.callback(*[Output(i, p, allow_duplicate=True) for i, p in ((ids.BOOT_PROGRESS, "value"), (ids.BOOT_PROGRESS, "max"),
                                                                    (ids.BOOT_STATUS, "children"),

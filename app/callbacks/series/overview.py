@@ -14,6 +14,7 @@ from app.callbacks.series.groups import members
 from app.callbacks.series.read import series_from_plain
 from app.callbacks.series.run import merged_fits
 from app.figures.batch import data_ranges, overview_grid, plate_map
+from app.ticks import stopped
 from growthcore.batch import parse_well
 from growthcore.batch.table import METRICS
 from growthcore.numbers import finite_or_none
@@ -205,7 +206,7 @@ def register(app: Dash) -> None:
         page_options, page, many = page_choice(len(shown), page)
         running = bool(job and progress and progress.get("run") == job.get("run")
                        and progress.get("done", 0) < job.get("total", 0) and not progress.get("error")
-                       and not (cancel and cancel.get("run") == job.get("run")))
+                       and not stopped(cancel, job.get("run")))
         if ctx.triggered_id == ids.BATCH_FITS and running and redraw_too_soon(view, job):
             raise PreventUpdate
         fig, view = grid_figure(batch, labels, merged, label, shown, page, (data or {}).get("name"), running=running)

@@ -18,6 +18,7 @@ from app import ids
 from app.callbacks.series.read import series_from_plain
 from app.heavy import direct, runner_of
 from app.state import fit_label
+from app.ticks import allow_next_tick, seconds_since, stopped
 from growthcore.batch import fit_batch, from_series
 from growthcore.batch.table import METRICS, row
 from growthcore.batch.views import overview_panels
@@ -53,9 +54,9 @@ def start_run(settings: Mapping[str, Any] | None, batch: Mapping[str, Any] | Non
     }
     if not job["models"]:
         progress = {"run": run, "done": 0, "error": "Choose at least one form in the Model section first."}
-        return job, {"run": run, "chunks": {}}, progress, True, 0, 0
+        return job, {"run": run, "chunks": {}}, progress, True, 0, allow_next_tick(0, more=False)
     progress = {"run": run, "done": 0, "chunks_done": 0, "failed": 0, "elapsed": 0.0, "error": None}
-    return job, {"run": run, "chunks": {}}, progress, False, 0, 1
+    return job, {"run": run, "chunks": {}}, progress, False, 0, allow_next_tick(0)
 
 
 def _thin(t: Sequence[float], p: Sequence[float | None]) -> tuple[list[float], list[float | None]]:
@@ -115,7 +116,7 @@ def run_tick(n_intervals: int | None, job: Mapping[str, Any] | None, batch: Mapp
     """One tick: fit the next chunk. Outputs: fits-store Patch, progress, tick max_intervals."""
     if not n_intervals or not job or not batch:
         raise PreventUpdate
-    if cancel and cancel.get("run") == job["run"]:
+    if stopped(cancel, job["run"]):
         raise PreventUpdate
     index = int(n_intervals) - 1
     if index >= int(job["chunks"]):
@@ -134,9 +135,8 @@ def run_tick(n_intervals: int | None, job: Mapping[str, Any] | None, batch: Mapp
     patch["chunks"][f"{job['run']}:{index}"] = out
     done = min(int(job["total"]), (index + 1) * int(job["chunk"]))
     base.update(done=done, chunks_done=index + 1, failed=int(base.get("failed", 0)) + out["failed"],
-                elapsed=round((time.time() if now is None else now) - float(job["started"]), 2))
-    more = index + 1 < int(job["chunks"])
-    return patch, base, (int(n_intervals) + 1 if more else int(n_intervals))
+                elapsed=round(seconds_since(job["started"], now), 2))
+    return patch, base, allow_next_tick(n_intervals, index + 1 < int(job["chunks"]))
 
 
 def stop_run(job: Mapping[str, Any] | None) -> tuple[Any, Any]:
@@ -179,7 +179,7 @@ def progress_view(job: Mapping[str, Any] | None, progress: Mapping[str, Any] | N
     if progress.get("error"):
         return str(done), str(total), html.Span([html.Strong("Stopped. "), progress["error"]],
                                                 className="batch-error"), True
-    if cancel and cancel.get("run") == job["run"]:
+    if stopped(cancel, job["run"]):
         return (str(done), str(total), f"Stopped by you after {done} of {total} series ({seconds:.1f} s){failed_text}; "
                 "the rest are not fitted.", True)
     if done >= total:
