@@ -85,7 +85,7 @@ def _requests(stores: dict[str, Any]) -> dict[str, tuple[str, dict[str, Any], st
                                       f"{ids.CHANGE_AXIS}.value", "The change-per-step and candidate-terms panels"),
         "the dynamics panel": (f"{ids.DYN_SENTENCES}.children", {
             f"{ids.DYN_FIT}.value": label, f"{ids.FITS}.data": fits,
-            f"{ids.DATA}.data": data}, f"{ids.DYN_FIT}.value", "The dynamics panel"),
+            f"{ids.DATA}.data": data, f"{ids.DYN_VISIBLE}.data": True}, f"{ids.DYN_FIT}.value", "The dynamics panel"),
         "a forecast": (f"{ids.FORECAST}.data", {
             f"{ids.FC_RUN}.n_clicks": 1, f"{ids.DYN_FIT}.value": label,
             f"{ids.FC_MODE}.value": "steps", f"{ids.FC_AMOUNT}.value": 20, f"{ids.FITS}.data": fits,

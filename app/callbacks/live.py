@@ -206,22 +206,4 @@ def register(app: Dash) -> None:
                            previous_key, previous, pending, view)
 
 
-    # panel 7 coming into view with older fits described, or new fits arriving while it is in view
-    @app.callback(
-        Output(ids.DYN_STALE, "data", allow_duplicate=True),
-        Output(ids.DYN_SENTENCES, "children", allow_duplicate=True),
-        Output(ids.DYN_EQUILIBRIA, "children", allow_duplicate=True),
-        Output(ids.G_COBWEB, "figure", allow_duplicate=True), Output(ids.G_SWEEP, "figure", allow_duplicate=True),
-        Output(ids.DYN_DERIVED, "children", allow_duplicate=True),
-        Input(ids.DYN_VISIBLE, "data"), Input(ids.DYN_STALE, "data"),
-        State(ids.FITS, "data"), State(ids.DYN_FIT, "value"), State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"),
-        State(ids.BOOT_DONE, "data"), State(ids.DYN_LEVEL, "value"),
-        prevent_initial_call=True,
-    )
-    def _seven_in_view(visible, stale, fits_store, label, data, exclusions, done, level):
-        if not (visible and stale):
-            raise PreventUpdate
-        return (False, *dynamics_view(fits_store, label, data, exclusions, done, level))
-
-
 __all__ = ["PREVIEW_FORMS", "View", "preview_inputs", "fits_are_current", "live_update", "panel_seven", "register"]

@@ -6,7 +6,8 @@ from __future__ import annotations
 import math
 from typing import Any, Callable, Mapping, Sequence
 
-from dash import Dash, Input, Output, State, html
+from dash import Dash, Input, Output, State, html, no_update
+from dash.exceptions import PreventUpdate
 
 from app import ids
 from app.callbacks.dynamics.which_fit import done_for, find_fit, fit_signature, rebuild
@@ -97,16 +98,38 @@ def dynamics_view(fits_store: Mapping[str, Any] | None, label: str | None,
 
 def register(app: Dash) -> None:
     # new fits (a change of K, the data or the choices) redraw this panel in app/callbacks/live.py; the
-    # callback here follows the panel's own controls: the fit described, the level and a finished bootstrap
+    # callback here follows the panel's own controls: the fit described, the level and a finished bootstrap.
+    # Off screen the panel is only marked stale (its cobweb and sweep are the page's costliest figures)
     @app.callback(Output(ids.DYN_SENTENCES, "children", allow_duplicate=True),
                   Output(ids.DYN_EQUILIBRIA, "children", allow_duplicate=True),
                   Output(ids.G_COBWEB, "figure", allow_duplicate=True), Output(ids.G_SWEEP, "figure", allow_duplicate=True),
                   Output(ids.DYN_DERIVED, "children", allow_duplicate=True),
+                  Output(ids.DYN_STALE, "data", allow_duplicate=True),
                   Input(ids.DYN_FIT, "value"), Input(ids.BOOT_SUMMARY, "data"), Input(ids.DYN_LEVEL, "value"),
                   State(ids.FITS, "data"), State(ids.DATA, "data"),
-                  State(ids.EXCLUSIONS, "data"), State(ids.BOOT_DONE, "data"), prevent_initial_call=True)
-    def _dynamics(label, _summary, level, fits_store, data, exclusions, done):
-        return dynamics_view(fits_store, label, data, exclusions, done, level)
+                  State(ids.EXCLUSIONS, "data"), State(ids.BOOT_DONE, "data"), State(ids.DYN_VISIBLE, "data"),
+                  prevent_initial_call=True)
+    def _dynamics(label, _summary, level, fits_store, data, exclusions, done, visible):
+        if not visible:
+            return (*(no_update,) * 5, True)
+        return (*dynamics_view(fits_store, label, data, exclusions, done, level), False)
+
+    # the panel coming into view while it describes older fits, or marked stale while in view
+    @app.callback(
+        Output(ids.DYN_STALE, "data", allow_duplicate=True),
+        Output(ids.DYN_SENTENCES, "children", allow_duplicate=True),
+        Output(ids.DYN_EQUILIBRIA, "children", allow_duplicate=True),
+        Output(ids.G_COBWEB, "figure", allow_duplicate=True), Output(ids.G_SWEEP, "figure", allow_duplicate=True),
+        Output(ids.DYN_DERIVED, "children", allow_duplicate=True),
+        Input(ids.DYN_VISIBLE, "data"), Input(ids.DYN_STALE, "data"),
+        State(ids.FITS, "data"), State(ids.DYN_FIT, "value"), State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"),
+        State(ids.BOOT_DONE, "data"), State(ids.DYN_LEVEL, "value"),
+        prevent_initial_call=True,
+    )
+    def _in_view(visible, stale, fits_store, label, data, exclusions, done, level):
+        if not (visible and stale):
+            raise PreventUpdate
+        return (False, *dynamics_view(fits_store, label, data, exclusions, done, level))
 
 
 __all__: Sequence[str] = ("axis_point_text", "dynamics_view", "register")
