@@ -1,4 +1,8 @@
-"""Plain-data forms of engine objects for dcc.Store, and back. No numerics here: only copying."""
+"""Plain-data forms of engine objects for dcc.Store, and back. No numerics here: only copying.
+
+A fit's plain form, its label and the quantity's name are the figure builders' own
+(:mod:`growthcore.figures.plain`); this module holds what only the dashboard keeps in the tab.
+"""
 
 from __future__ import annotations
 
@@ -9,34 +13,12 @@ import numpy as np
 
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
-from growthcore.explore import observation_index
-from growthcore.fit import FitResult
+from growthcore.figures.plain import quantity_name
 from growthcore.io import ImportResult
 from growthcore.limits import DEFAULT as LIMITS
+from growthcore.numbers import finite_list
 
 USER_REASON = "excluded by the user"
-#: Grid steps an increments fit's map is iterated past the last observation when asked to start there
-#: (the forecast panel's default reach).
-STEPS_AHEAD = 10
-
-
-def _num(x: float | None) -> float | None:
-    return float(x) if x is not None and math.isfinite(float(x)) else None
-
-
-def _list(a: np.ndarray) -> list[float | None]:
-    return [_num(v) for v in np.asarray(a, dtype=float)]
-
-
-def quantity_name(column: str, unit: str) -> str:
-    """'Dry weight (g/L)' with unit 'g/L' -> 'Dry weight': the quantity without its unit mark."""
-    text = column.strip()
-    if unit:
-        for left, right in ("()", "[]"):
-            mark = f"{left}{unit}{right}"
-            if text.endswith(mark):
-                return text[: -len(mark)].strip() or text
-    return text
 
 
 def data_to_store(imported: ImportResult, series: Series, *, source: str) -> dict[str, Any]:
@@ -47,8 +29,8 @@ def data_to_store(imported: ImportResult, series: Series, *, source: str) -> dic
         "source": source,
         "sha256": report.sha256,
         "name": series.name,
-        "t": _list(series.t),
-        "p": _list(series.p),
+        "t": finite_list(series.t),
+        "p": finite_list(series.p),
         "rows": list(series.rows) if series.rows is not None else None,
         "time_unit": series.time_unit,
         "value_unit": series.value_unit,
@@ -127,61 +109,6 @@ def undo_exclusion(state: Mapping[str, Any]) -> dict[str, Any]:
         return dict(state)
     previous = history.pop()
     return {"key": state.get("key"), "excluded": previous, "history": history}
-
-
-def fit_label(result: FitResult | Mapping[str, Any]) -> str:
-    model = result["model"] if isinstance(result, Mapping) else result.model
-    method = result["method"] if isinstance(result, Mapping) else result.method
-    error = result["error"] if isinstance(result, Mapping) else result.error
-    extra = ", log error" if method == "trajectory" and error == "log" else ""
-    return f"{model} ({method}{extra})"
-
-
-def fit_label_parts(label: str) -> tuple[str, str]:
-    """(form id, error model) back from a :func:`fit_label` such as ``logistic (trajectory, log error)``."""
-    return label.split(" (", 1)[0], "log" if label.endswith(", log error)") else "additive"
-
-
-def fit_to_store(result: FitResult, series: Series, *, t_end: float | None = None) -> dict[str, Any]:
-    """What the panels and the table need from one fit, as JSON-ready data."""
-    out: dict[str, Any] = {
-        "label": fit_label(result),
-        "model": result.model,
-        "method": result.method,
-        "error": result.error,
-        "status": result.status,
-        "message": result.message,
-        "equation": result.form.equation if result.form is not None else "",
-        "notes": list(result.notes),
-    }
-    if not result.success:
-        return out
-    index = observation_index(series, result)
-    out.update(
-        parameters={p.name: p.to_dict() for p in result.parameters},
-        metrics=result.metrics.to_dict() if result.metrics else None,
-        diagnostics=result.diagnostics.to_dict() if result.diagnostics else None,
-        index=[int(i) for i in index],
-        t=_list(result.t),
-        observed=_list(result.observed),
-        predicted=_list(result.predicted),
-        residuals=_list(result.residuals),
-        profile_interval=([_num(v) for v in (*result.profile.interval, *result.profile.interval_lr)]
-                          if result.profile is not None else None),
-    )
-    end = float(series.t[-1]) if t_end is None else float(t_end)
-    try:
-        path_t, path_p = result.path(end)
-        out["path"] = {"t": _list(path_t), "p": _list(path_p)}
-    except (ValueError, ArithmeticError):
-        out["path"] = None
-    if result.method == "increments" and result.grid is not None and len(result.t):
-        try:
-            ahead_t, ahead_p = result.iterated_path("last", float(result.t[-1]) + STEPS_AHEAD * result.grid.h)
-            out["path_last"] = {"t": _list(ahead_t), "p": _list(ahead_p)}
-        except (ValueError, ArithmeticError, GrowthcoreInputError):
-            out["path_last"] = None
-    return out
 
 
 def rows_to_store(rows: Sequence[Any]) -> list[dict[str, Any]]:

@@ -70,7 +70,7 @@
     return host ? host.querySelector(".js-plotly-plot") : null;
   }
 
-  /* The trace id the figure builders give a trace the preview moves (app/figures/common.py, preview_uid). */
+  /* The trace id the figure builders give a trace the preview moves (growthcore/figures/common.py, preview_uid). */
   function uidOf(role, label) {
     var hex = Array.prototype.map.call(new TextEncoder().encode(label), function (b) {
       return (b < 16 ? "0" : "") + b.toString(16); }).join("");

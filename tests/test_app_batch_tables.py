@@ -22,8 +22,8 @@ from app.callbacks import batch_tables as B
 from app.callbacks.data import import_source
 from app.callbacks.series.read import read_all_series, series_from_plain
 from app.callbacks.series.run import merged_fits, run_tick, start_run
-from app.state import fit_label, fit_label_parts
 from growthcore.batch import group_difference_test
+from growthcore.figures.plain import fit_label, fit_label_parts
 
 SETTINGS = {"models": ["logistic"], "terms": [], "method": "trajectory", "error": "additive", "k_mode": "held"}
 

@@ -9,13 +9,13 @@ import plotly.graph_objects as go
 import pytest
 
 from app.callbacks.explore import candidate_to_store, change_to_store, labels_of
-from app.figures.common import message_figure
-from app.figures.explore import candidate_figure, change_figure
-from app.figures.residuals import observed_predicted_figure, residual_fitted_figure, residual_time_figure
-from app.figures.trajectory import capacity_from_relayout, trajectory_figure
-from app.state import fit_to_store
 from growthcore.data import Series
 from growthcore.explore import Candidate, candidate_fit, change_table
+from growthcore.figures.common import message_figure
+from growthcore.figures.explore import candidate_figure, change_figure
+from growthcore.figures.plain import fit_to_store
+from growthcore.figures.residuals import observed_predicted_figure, residual_fitted_figure, residual_time_figure
+from growthcore.figures.trajectory import capacity_from_relayout, trajectory_figure
 from growthcore.fit.forms import fit_forms
 
 
@@ -151,7 +151,7 @@ def test_panels_without_fits_say_so(data: dict) -> None:
 
 
 def test_one_colour_per_form_and_a_dash_per_method(fits: list[dict]) -> None:
-    from app.figures.common import fit_styles
+    from growthcore.figures.common import fit_styles
 
     styles = fit_styles(fits)
     by_model: dict[str, set[str]] = {}
@@ -167,7 +167,7 @@ def test_preview_ids_are_safe_in_css_selectors() -> None:
     # plotly.js puts a trace's uid into CSS selectors: a label with spaces, parentheses or × must not break it
     import re
 
-    from app.figures.common import preview_uid
+    from growthcore.figures.common import preview_uid
 
     for label in ("logistic (increments)", "ricker+c (trajectory, log)", "g = p·(1 − p/K)", "1988 × F"):
         assert re.fullmatch(r"[a-z][a-z-]*-[0-9a-f]+", preview_uid("one-step", label))

@@ -13,8 +13,8 @@ from scipy.special import expit
 
 from app.callbacks.population import constant_choices, fit_request, lr_test, render, run_population
 from app.callbacks.series.read import series_to_plain
-from app.figures.population import forest_plot, population_curves
 from growthcore.data import Series
+from growthcore.figures.population import forest_plot, population_curves
 from growthcore.mixed import PopulationFit, fit_population
 from growthcore.mixed.curves import forest_rows, population_band, population_view
 

@@ -6,11 +6,11 @@ import numpy as np
 import plotly.graph_objects as go
 import pytest
 
-from app.figures.batch import overview_grid, plate_map
 from growthcore.batch import fit_batch, from_series, well_name
 from growthcore.batch.views import overview_panels, plate_values
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
+from growthcore.figures.batch import overview_grid, plate_map
 
 
 @pytest.fixture(scope="module")

@@ -6,10 +6,10 @@ import numpy as np
 import plotly.graph_objects as go
 import pytest
 
-from app.figures.common import unpacked
-from app.figures.dynamics import cobweb_figure, forecast_band_traces, sweep_figure, with_forecast_band
 from growthcore.data import Series
 from growthcore.dynamics import analyse, cobweb, sweep
+from growthcore.figures.common import unpacked
+from growthcore.figures.dynamics import cobweb_figure, forecast_band_traces, sweep_figure, with_forecast_band
 from growthcore.fit import fit
 from growthcore.fit.simulate import iterate
 from growthcore.models.catalogue import get_form

@@ -14,10 +14,10 @@ from app.callbacks import export as ex
 from app.callbacks.capacity import update_capacity
 from app.callbacks.data import import_source
 from app.callbacks.settings import build_settings
-from app.figures.common import fit_styles, form_key
 from app.server import DEMO_FILE, read_source
 from app.state import series_from_store
 from growthcore.errors import GrowthcoreInputError
+from growthcore.figures.common import fit_styles, form_key
 from growthcore.fit import fit
 from growthcore.report.panels import comparison_columns, key_constant_columns, summary_sheets, table_pages
 
@@ -95,7 +95,7 @@ def test_long_tables_continue_on_further_images_with_their_header() -> None:
 def test_two_error_scales_get_an_axis_each() -> None:
     from app.callbacks.explore import labels_of
     from app.callbacks.fits import compute_fits
-    from app.figures.residuals import residual_time_figure
+    from growthcore.figures.residuals import residual_time_figure
 
     data, exclusions, settings, k = _stores(["logistic"], "both", "log")
     fits = compute_fits(data, exclusions, settings, k)["fits"]

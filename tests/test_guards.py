@@ -11,8 +11,8 @@ import numpy as np
 
 from app import ids
 from app.callbacks.capacity import update_capacity
-from app.figures.trajectory import trajectory_figure
 from growthcore.explore import capacity_from_fit
+from growthcore.figures.trajectory import trajectory_figure
 from growthcore.fit import fit
 from growthcore.uncertainty import forecast
 from tests.open_data import lynx, uspop

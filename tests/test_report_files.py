@@ -14,11 +14,12 @@ import plotly.graph_objects as go
 import pytest
 
 import growthcore.cli as cli
+from growthcore.figures.plain import fit_label
 from growthcore.reopen import load_record, parse_record
 from growthcore.report import residual_csv_text, write_pngs
 from growthcore.report.images import NO_BROWSER, ImageExportError, find_browser, png_size, with_dpi
 from growthcore.report.page import report_html
-from growthcore.report.panels import panel_figures, summary_sheet
+from growthcore.report.panels import panel_figures, summary_sheet, summary_sheets
 from growthcore.schemas import record_errors
 from tests.record_cases import FIXTURES, SAMPLES, record_cases
 
@@ -99,6 +100,24 @@ def test_panels_show_the_record_numbers() -> None:
     assert f"{k['value']:.6g}" in table[2]
     residuals = [t for t in figures["residuals"]["data"] if t.get("name", "").startswith("logistic (trajectory")]
     assert residuals and residuals[0]["y"] == [r["residual"] for r in record["fits"][1]["residuals"]]
+
+
+def test_every_exported_plot_names_a_form_by_its_one_label() -> None:
+    """Data, residual and profile panels and the sheet call a form what the screen calls it."""
+    seen = 0
+    for case, record in record_cases().items():
+        labels = {fit_label(f) for f in record["fits"]}
+        figures = [*panel_figures(record).values(), *summary_sheets(record)]
+        names = {t["name"].replace("<br>", " ") for fig in figures for t in fig["data"]
+                 if t.get("type") != "table" and t.get("name")}
+        named = {n for n in names if any(n.startswith(f"{f['model']} (") for f in record["fits"])}
+        odd = {n for n in named if not any(n == lab or n.startswith(f"{lab}, ") for lab in labels)}
+        assert not odd, (case, odd)
+        seen += len(named)
+    assert seen
+    profiled = record_cases()["census-both-methods"]
+    names = [t["name"] for t in panel_figures(profiled)["profile"]["data"] if t.get("showlegend", True)]
+    assert names and set(names) <= {fit_label(f) for f in profiled["fits"]}
 
 
 def test_html_is_self_contained_and_escapes_user_text() -> None:

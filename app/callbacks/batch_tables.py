@@ -17,10 +17,10 @@ from app import ids
 from app.callbacks.series.read import series_from_plain
 from app.callbacks.series.run import merged_fits
 from app.heavy import bounded_of, direct
-from app.state import fit_label_parts
 from growthcore.batch import group_difference_test
 from growthcore.batch.summary import summarise_groups
 from growthcore.errors import GrowthcoreInputError
+from growthcore.figures.plain import fit_label_parts
 from growthcore.io import csv_text
 from growthcore.models.catalogue import get_form
 

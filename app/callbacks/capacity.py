@@ -9,9 +9,9 @@ from typing import Any, Mapping
 from dash import no_update
 
 from app import ids
-from app.figures.trajectory import capacity_from_relayout
 from app.state import series_from_store
 from growthcore.explore import capacity_flag, capacity_from_fit, capacity_range
+from growthcore.figures.trajectory import capacity_from_relayout
 
 
 def _marks(low: float, high: float) -> dict[str, str]:

@@ -6,10 +6,11 @@ from __future__ import annotations
 from typing import Any, Mapping, Sequence
 
 from app.callbacks.capacity import rounded
-from app.state import fit_to_store, rows_to_store, series_from_store
+from app.state import rows_to_store, series_from_store
 from growthcore.compare import compare, comparison_notes
 from growthcore.errors import GrowthcoreInputError
 from growthcore.data import Series
+from growthcore.figures.plain import fit_to_store
 from growthcore.fit import FitResult
 from growthcore.fit.forms import fit_forms
 from growthcore.limits import DEFAULT as LIMITS

@@ -10,10 +10,11 @@ from app import ids
 from app.callbacks.dynamics.forecast import band_on_trajectory
 from app.callbacks.explore import labels_of
 from app.components.form_key import form_key_view
-from app.figures.common import form_key, message_figure
-from app.figures.residuals import observed_predicted_figure, residual_fitted_figure, residual_time_figure
-from app.figures.trajectory import PATH_NAMES, trajectory_figure
-from app.state import STEPS_AHEAD, series_from_store
+from app.state import series_from_store
+from growthcore.figures.common import form_key, message_figure
+from growthcore.figures.plain import STEPS_AHEAD
+from growthcore.figures.residuals import observed_predicted_figure, residual_fitted_figure, residual_time_figure
+from growthcore.figures.trajectory import PATH_NAMES, trajectory_figure
 
 
 def misfit_flag(fits: list[Mapping[str, Any]]) -> list[Any]:

@@ -16,8 +16,8 @@ from app import ids
 from app.callbacks.data import server_limits
 from app.callbacks.series.read import series_from_plain
 from app.heavy import direct, runner_of
-from app.figures.population import forest_plot, population_curves
 from growthcore.errors import GrowthcoreInputError
+from growthcore.figures.population import forest_plot, population_curves
 from growthcore.limits import DEFAULT, refuse
 from growthcore.mixed import PopulationFit, fit_population, likelihood_ratio_test
 from growthcore.mixed.curves import forest_rows, population_view

@@ -10,7 +10,7 @@ from typing import Any, Mapping, Sequence
 
 from dash import html
 
-from app import theme
+from growthcore.figures import theme
 
 #: Unicode marks for plotly's marker symbols (filled, and open for "-open").
 GLYPHS = {"circle": ("●", "○"), "square": ("■", "□"), "diamond": ("◆", "◇"), "triangle-up": ("▲", "△"),

@@ -12,20 +12,19 @@ import re
 from collections.abc import Mapping, Sequence
 from typing import Any
 
-import numpy as np
-
+from growthcore.figures.common import EXPORT_LEGEND, Figure, fit_styles, wrap
+from growthcore.figures.plain import fit_label, fit_to_store, quantity_name
+from growthcore.figures.residuals import observed_predicted_figure, residual_fitted_figure, residual_time_figure
+from growthcore.figures.theme import GRID, INK, MUTED
+from growthcore.figures.trajectory import trajectory_figure
 from growthcore.fit.result import FitResult
-from growthcore.numbers import finite_list
-from growthcore.reopen import fits_from_record
+from growthcore.reopen import fits_from_record, series_from_record
 
-Figure = dict[str, Any]
-#: Okabe–Ito colours (Okabe & Ito 2008), distinguishable under common colour-vision deficiencies.
-COLOURS = ("#0072B2", "#E69F00", "#009E73", "#CC79A7", "#56B4E9", "#D55E00")
-DASHES = ("solid", "dash", "dot", "dashdot", "longdash", "longdashdot")
-INK, MUTED, GRID = "#1f2a30", "#6b7780", "#e3e7ea"
+#: The type of the report's own tables and pages (as on the HTML page); the row heights of a table
+#: are estimated from these faces' widths (see :func:`_row_heights`).
 FONT = "Helvetica Neue, Arial, sans-serif"
-#: Panel names in the order they are exported; the two residual views after ``residuals`` come from
-#: the app's builders, ``profile`` exists only when a fit profiled K.
+#: Panel names in the order they are exported; the plots are the dashboard's own figures,
+#: ``profile`` exists only when a fit profiled K.
 PANEL_NAMES = ("data", "residuals", "residuals-fitted", "observed-predicted", "comparison", "parameters", "profile")
 TITLES = {
     "data": "Observations and fitted forms",
@@ -41,6 +40,7 @@ def esc(text: Any) -> str:
 
 
 def label(f: Mapping[str, Any]) -> str:
+    """A form's row name in the report's tables, under the header 'form (method, error)'."""
     return f"{f['model']} ({f['method']}, {f['error']})"
 
 
@@ -59,72 +59,6 @@ def _layout(title: str, x: str, y: str) -> dict[str, Any]:
         "legend": {"orientation": "h", "yanchor": "bottom", "y": 1.0, "x": 0.0, "font": {"size": 11}},
         "hovermode": "closest",
     }
-
-
-def _with_unit(name: str, unit: str) -> str:
-    return f"{esc(name)} [{esc(unit)}]" if unit else esc(name)
-
-
-def data_figure(record: Mapping[str, Any], fits: Sequence[FitResult] | None = None) -> Figure:
-    """Observations (used and left out, with the reason on hover) and each converged fitted path."""
-    data = record["data"]
-    fits = list(fits) if fits is not None else fits_from_record(record)
-    pts = data["points"]
-    used = [p for p in pts if p["used"]]
-    left = [p for p in pts if not p["used"] and p["p"] is not None]
-    traces: list[dict[str, Any]] = [{
-        "type": "scatter", "mode": "markers", "name": "observed", "x": [p["t"] for p in used],
-        "y": [p["p"] for p in used], "marker": {"color": INK, "size": 7},
-    }]
-    if left:
-        traces.append({
-            "type": "scatter", "mode": "markers", "name": "left out", "x": [p["t"] for p in left],
-            "y": [p["p"] for p in left], "text": [esc(p["reason"]) for p in left],
-            "hovertemplate": "t = %{x}<br>p = %{y}<br>%{text}<extra>left out</extra>",
-            "marker": {"color": MUTED, "size": 8, "symbol": "x-thin", "line": {"width": 2, "color": MUTED}},
-        })
-    t_end = max(p["t"] for p in pts)
-    for i, (f, d) in enumerate(zip(fits, record["fits"], strict=True)):
-        if not f.success or f.form is None:
-            continue
-        try:
-            t, y = f.path(t_end)
-        except (ValueError, ArithmeticError):
-            continue
-        shape = "hv" if f.form.kind == "difference" else "linear"
-        if f.method == "increments":  # one-step-ahead predictions, not a path: show them as such
-            t, y, mode = f.t, f.predicted, "markers"
-        else:
-            mode = "lines"
-        traces.append({
-            "type": "scatter", "mode": mode, "name": esc(label(d)), "x": finite_list(np.asarray(t)),
-            "y": finite_list(np.asarray(y)), "line": {"color": COLOURS[i % 6], "dash": DASHES[i % 6], "shape": shape},
-            "marker": {"color": COLOURS[i % 6], "symbol": "circle-open", "size": 8},
-        })
-    title = f"{esc(data.get('name', 'series'))}: observations and fitted forms"
-    layout = _layout(title, _with_unit(data["time"]["column"], data["time"]["unit"]),
-                     _with_unit(data["value"]["column"], data["value"]["unit"]))
-    return {"data": traces, "layout": layout}
-
-
-def residual_figure(record: Mapping[str, Any]) -> Figure:
-    """Residuals on each fit's error scale against time, with the zero line."""
-    data = record["data"]
-    traces = []
-    for i, f in enumerate(record["fits"]):
-        if f["status"] != "converged" or not f.get("residuals"):
-            continue
-        res = f["residuals"]
-        traces.append({
-            "type": "scatter", "mode": "lines+markers", "name": esc(label(f)), "x": [r["t"] for r in res],
-            "y": [r["residual"] for r in res], "line": {"color": COLOURS[i % 6], "dash": DASHES[i % 6], "width": 1},
-            "marker": {"color": COLOURS[i % 6], "size": 6},
-        })
-    layout = _layout("Residuals (observed − predicted, on each fit's error scale)",
-                     _with_unit(data["time"]["column"], data["time"]["unit"]), "residual")
-    layout["shapes"] = [{"type": "line", "xref": "paper", "x0": 0, "x1": 1, "y0": 0, "y1": 0,
-                         "line": {"color": MUTED, "width": 1}}]
-    return {"data": traces, "layout": layout}
 
 
 def _fmt(v: Any, spec: str = ".4g") -> str:
@@ -244,18 +178,14 @@ def table_pages(name: str, header: list[str], cols: list[list[str]], widths: Seq
 def profile_figure(record: Mapping[str, Any], view: Mapping[str, Any] | None = None) -> Figure | None:
     """SSE against a fixed K for each fit that profiled K, with its threshold; None when none did."""
     traces = []
-    try:  # each form in the app's colour and dash, as in every other panel
-        from app.figures.common import fit_styles
-
-        styles = [(st["colour"], st["dash"]) for st in fit_styles(record["fits"], _models(record, view))]
-    except ImportError:
-        styles = [(COLOURS[i % 6], DASHES[i % 6]) for i in range(len(record["fits"]))]
+    # each form in its colour, dash and label as in every other panel
+    styles = [(st["colour"], st["dash"]) for st in fit_styles(record["fits"], _models(record, view))]
     for i, f in enumerate(record["fits"]):
         prof = f.get("capacity_profile")
         if not prof:
             continue
         colour, dash = styles[i]
-        traces.append({"type": "scatter", "mode": "lines", "name": esc(label(f)), "x": prof["K"], "y": prof["sse"],
+        traces.append({"type": "scatter", "mode": "lines", "name": esc(fit_label(f)), "x": prof["K"], "y": prof["sse"],
                        "line": {"color": colour, "dash": dash}})
         if prof.get("threshold") is not None:
             traces.append({"type": "scatter", "mode": "lines", "showlegend": False, "hoverinfo": "skip",
@@ -278,22 +208,13 @@ def _models(record: Mapping[str, Any], view: Mapping[str, Any] | None) -> list[s
 
 
 def app_panels(record: Mapping[str, Any], fits: Sequence[FitResult],
-               view: Mapping[str, Any] | None = None) -> dict[str, Figure] | None:
+               view: Mapping[str, Any] | None = None) -> dict[str, Figure]:
     """The dashboard's own plot panels for the record, so that exported figures match the app.
 
     ``view`` holds the screen's choices: ``scale`` ('log' or 'linear' state axes), ``path_from``
     (how increments fits' maps are drawn) and ``models`` (the chosen forms, whose order fixes each
-    form's colour and marker). None when the app's figure builders are not importable (an
-    engine-only install).
+    form's colour and marker).
     """
-    try:
-        from app.figures.residuals import observed_predicted_figure, residual_fitted_figure, residual_time_figure
-        from app.figures.trajectory import trajectory_figure
-        from app.state import fit_to_store, quantity_name
-    except ImportError:
-        return None
-    from growthcore.reopen import series_from_record
-
     view = view or {}
     series = series_from_record(record)
     data = record["data"]
@@ -329,8 +250,6 @@ LEGEND_CHARS = 44
 def export_view(fig: Figure, title: str) -> Figure:
     """An app figure made fit for a file, in place: no hover ring or K handle, a title, and the key
     beside the plot area (never over the plot or the title), with long names wrapped."""
-    from app.figures.common import EXPORT_LEGEND, wrap
-
     fig["data"] = [t for t in fig["data"] if t.get("meta") != "highlight"]
     for t in fig["data"]:
         if t.get("name"):
@@ -358,7 +277,7 @@ def panel_figures(record: Mapping[str, Any], *, view: Mapping[str, Any] | None =
     is split into pages: 'parameters', 'parameters-2', ... each with its header, so no row is cut.
     """
     fits = fits_from_record(record)
-    out = app_panels(record, fits, view) or {"data": data_figure(record, fits), "residuals": residual_figure(record)}
+    out = app_panels(record, fits, view)
     if size is None:
         out.update({"comparison": comparison_figure(record), "parameters": parameter_figure(record)})
     else:
@@ -462,8 +381,7 @@ def summary_sheets(record: Mapping[str, Any], *, width: int | None = None, heigh
     pw, ph = w - _PAGE_MARGIN["l"] - _PAGE_MARGIN["r"], h - _PAGE_MARGIN["t"] - _PAGE_MARGIN["b"]
     fits = fits_from_record(record)
     app_figs = app_panels(record, fits, view)
-    data_fig = app_figs["data"] if app_figs else data_figure(record, fits)
-    res_fig = app_figs["residuals"] if app_figs else residual_figure(record)
+    data_fig, res_fig = app_figs["data"], app_figs["residuals"]
     if landscape:
         plot_x, key_x = [0.0, 0.36], 0.38
         d_dom, r_dom = (plot_x, [0.42, 0.9]), (plot_x, [0.0, 0.3])

@@ -13,10 +13,10 @@ from app import ids
 from app.callbacks.dynamics.which_fit import done_for, find_fit, fit_signature, rebuild
 from app.callbacks.explore import labels_of
 from app.components.dynamics import DERIVED_ROWS, correlation_table, derived_table, equilibria_table
-from app.figures.common import message_figure, rate_unit
-from app.figures.dynamics import cobweb_figure, sweep_figure
 from growthcore.dynamics import analyse, cobweb, sweep
 from growthcore.errors import GrowthcoreInputError
+from growthcore.figures.common import message_figure, rate_unit
+from growthcore.figures.dynamics import cobweb_figure, sweep_figure
 from growthcore.models.base import DifferenceForm
 from growthcore.timeaxis import calendar_origin, is_calendar_years, time_point_text
 from growthcore.uncertainty import derived_intervals

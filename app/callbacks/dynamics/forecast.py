@@ -12,9 +12,9 @@ from dash.exceptions import PreventUpdate
 from app import ids
 from app.callbacks.dynamics.which_fit import done_for, find_fit, fit_signature, rebuild
 from app.components.dynamics import fmt
-from app.figures.common import fit_styles
-from app.figures.dynamics import with_forecast_band
 from growthcore.errors import GrowthcoreInputError
+from growthcore.figures.common import fit_styles
+from growthcore.figures.dynamics import with_forecast_band
 from growthcore.uncertainty import forecast
 
 MAX_FORECAST_STEPS = 2000

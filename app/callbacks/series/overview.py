@@ -13,10 +13,10 @@ from app import ids
 from app.callbacks.series.groups import members
 from app.callbacks.series.read import series_from_plain
 from app.callbacks.series.run import merged_fits
-from app.figures.batch import data_ranges, overview_grid, plate_map
 from app.ticks import stopped
 from growthcore.batch import parse_well
 from growthcore.batch.table import METRICS
+from growthcore.figures.batch import data_ranges, overview_grid, plate_map
 from growthcore.numbers import finite_or_none
 
 PAGE = 96               # panels per page of the overview grid

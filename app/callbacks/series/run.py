@@ -17,12 +17,12 @@ from dash.exceptions import PreventUpdate
 from app import ids
 from app.callbacks.series.read import series_from_plain
 from app.heavy import direct, runner_of
-from app.state import fit_label
 from app.ticks import allow_next_tick, seconds_since, stopped
 from growthcore.batch import fit_batch, from_series
 from growthcore.batch.table import METRICS, row
 from growthcore.batch.views import overview_panels
 from growthcore.errors import GrowthcoreInputError
+from growthcore.figures.plain import fit_label
 from growthcore.limits import DEFAULT as DEFAULT_LIMITS
 
 CHUNK_MIN = 16          # series per tick at least ...

@@ -8,10 +8,12 @@ plate cell carries the series id in ``customdata`` so that a click can open that
 from __future__ import annotations
 
 import math
-from typing import Any, Callable, Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
+from typing import Any
 
-from app import theme
 from growthcore.batch.plate import parse_well, plate_format, well_name
+from growthcore.figures import theme
+from growthcore.numbers import finite_or_none
 
 Figure = dict[str, Any]
 Scales = tuple[tuple[float, float], tuple[float, float]]  # (time range, value range)
@@ -81,7 +83,7 @@ def overview_grid(panels: Sequence[Mapping[str, Any]], *, columns: int = 8, max_
         failed = panel.get("status") == "failed"
         fitted = not failed and bool(panel.get("fit_t"))
         if fitted:
-            for t, p in zip(panel["fit_t"], panel["fit_p"]):
+            for t, p in zip(panel["fit_t"], panel["fit_p"], strict=True):
                 ok = _finite(t) and _finite(p)
                 fit_x.append(to_x(t) if ok else None)
                 fit_y.append(to_y(p) if ok else None)
@@ -94,7 +96,8 @@ def overview_grid(panels: Sequence[Mapping[str, Any]], *, columns: int = 8, max_
         label = f"{sid} · fit failed" if failed else sid
         layout["annotations"].append({
             "text": label, "showarrow": False, "xref": "paper", "yref": "paper", "x": x0, "y": y1,
-            "xanchor": "left", "yanchor": "bottom", "font": {"size": 10, "color": theme.CAPACITY if failed else theme.INK},
+            "xanchor": "left", "yanchor": "bottom",
+            "font": {"size": 10, "color": theme.CAPACITY if failed else theme.INK},
             "hovertext": str(panel.get("message", "")) if failed else None,
         })
         if failed:
@@ -160,7 +163,8 @@ def _pad(span: tuple[float, float], pad: float) -> tuple[float, float]:
 
 
 def _finite(v: float | None) -> bool:
-    return v is not None and math.isfinite(v)
+    """True for a finite number (a point that can be placed); False for None, NaN and infinity."""
+    return finite_or_none(v) is not None
 
 
 def plate_map(values: Mapping[str, Mapping[str, Any]], *, quantity: str, title: str = "") -> Figure:
@@ -202,7 +206,8 @@ def plate_map(values: Mapping[str, Mapping[str, Any]], *, quantity: str, title: 
     if failed_ids:
         data.append({
             "type": "scatter", "mode": "markers", "x": failed_x, "y": failed_y, "customdata": failed_ids,
-            "marker": {"symbol": "x-thin", "size": 12 if n_cols == 12 else 7, "line": {"width": 2, "color": theme.CAPACITY}},
+            "marker": {"symbol": "x-thin", "size": 12 if n_cols == 12 else 7,
+                       "line": {"width": 2, "color": theme.CAPACITY}},
             "name": "fit failed", "hovertemplate": "%{customdata}: fit failed<extra></extra>", "meta": "failed",
         })
     layout = {

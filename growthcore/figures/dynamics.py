@@ -3,16 +3,17 @@ forecast band drawn on the trajectory panel.
 
 Pure functions of the plain dicts the engine writes (``Cobweb.to_dict``, ``Sweep.to_dict``,
 ``Forecast.points``), so they are tested without a browser. Colours are from the Okabe–Ito palette
-in app.theme; stable and unstable equilibria differ by marker fill as well as colour.
+in growthcore.figures.theme; stable and unstable equilibria differ by marker fill as well as colour.
 """
 
 from __future__ import annotations
 
 import copy
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
-from app import theme
-from app.figures.common import Figure, axis_title, base_layout, message_figure, packed
+from growthcore.figures import theme
+from growthcore.figures.common import Figure, axis_title, base_layout, message_figure, packed
 
 MAP = "#0072B2"        # blue: the fitted map and the sweep points
 PATH = "#E69F00"       # orange: the cobweb staircase

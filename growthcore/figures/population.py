@@ -7,9 +7,10 @@ Both take the plain data of :func:`growthcore.mixed.curves.population_view` and
 
 from __future__ import annotations
 
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
-from app import theme
+from growthcore.figures import theme
 
 Figure = dict[str, Any]
 POPULATION_COLOUR = theme.INK

@@ -7,11 +7,21 @@ each, stacked, so that no axis mixes two units.
 
 from __future__ import annotations
 
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
-from app import theme
-from app.figures.common import (Figure, axis_title, base_layout, fit_styles, highlight_trace, message_figure,
-                                non_positive_note, points_marker, state_axis)
+from growthcore.figures import theme
+from growthcore.figures.common import (
+    Figure,
+    axis_title,
+    base_layout,
+    fit_styles,
+    highlight_trace,
+    message_figure,
+    non_positive_note,
+    points_marker,
+    state_axis,
+)
 
 _NONE = ("No converged fit to show. Choose at least one form in the Model section; when a fit failed, "
          "the comparison table (panel 6) says why.")

@@ -3,11 +3,12 @@
 from __future__ import annotations
 
 import base64
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
 import numpy as np
 
-from app import theme
+from growthcore.figures import theme
 
 Figure = dict[str, Any]
 
@@ -108,7 +109,7 @@ def observation_trace(x: Sequence[float | None], y: Sequence[float | None], inde
         "name": name,
         "x": list(x),
         "y": list(y),
-        "customdata": [[int(i), int(r)] for i, r in zip(index, rows)],
+        "customdata": [[int(i), int(r)] for i, r in zip(index, rows, strict=True)],
         "marker": {
             "size": 7,
             "color": [theme.INK if u else theme.MUTED for u in used],
@@ -166,7 +167,7 @@ def form_key(fits: Sequence[Mapping[str, Any]], models: Sequence[str] | None = N
     """One entry per fit for the key beside the panels: label, style and whether it is drawn."""
     return [{"label": f["label"], "model": f["model"], "method": f["method"], **style,
              "drawn": f.get("status") == "converged", "status": f.get("status", "")}
-            for f, style in zip(fits, fit_styles(fits, models))]
+            for f, style in zip(fits, fit_styles(fits, models), strict=True)]
 
 
 def points_marker(style: Mapping[str, str], size: float = 6) -> dict[str, Any]:

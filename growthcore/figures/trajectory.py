@@ -3,11 +3,23 @@
 from __future__ import annotations
 
 import math
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
-from app import theme
-from app.figures.common import (Figure, axis_title, base_layout, fit_styles, highlight_trace, non_positive_note,
-                                observation_trace, points_marker, preview_uid, rows_or_positions, state_axis)
+from growthcore.figures import theme
+from growthcore.figures.common import (
+    Figure,
+    axis_title,
+    base_layout,
+    fit_styles,
+    highlight_trace,
+    non_positive_note,
+    observation_trace,
+    points_marker,
+    preview_uid,
+    rows_or_positions,
+    state_axis,
+)
 
 #: ``layout.shapes``: the K line's drag handle comes first; the drag callback reads it. The line is a
 #: trace: a shape on a graph whose shapes can be dragged takes every click along it.
@@ -26,7 +38,7 @@ def trajectory_figure(data: Mapping[str, Any], used: Sequence[bool], fits: Seque
                       scale: str | None = None, path_from: str = "none", editable: bool = True) -> Figure:
     """Observations (open circles when excluded), each fit as what it fits, and K as a line.
 
-    ``fits`` are the plain fits of :func:`app.state.fit_to_store`. A trajectory fit is drawn as its
+    ``fits`` are the plain fits of :func:`growthcore.figures.plain.fit_to_store`. A trajectory fit is drawn as its
     path (a difference form's map iterated on its grid, or the closed-form curve). An increments fit
     predicts each observation from the one before, so it is drawn as those one-step-ahead predictions;
     ``path_from`` ('first' or 'last') adds its map iterated from the first observation or from the
@@ -161,6 +173,3 @@ def data_range_guard(observed: Sequence[float | None], capacity: float | None,
     pad = 0.05 * ((top - bottom) or 1.0)
     return [max(bottom - pad, 0.0) if bottom >= 0 else bottom - pad, top + pad]
 
-
-def capacity_shape(capacity: float, unit: str) -> dict[str, Any]:
-    """The horizontal K line; editable so that dragging it reports a new ``y0`` through relayoutData."""

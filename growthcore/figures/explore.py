@@ -2,12 +2,24 @@
 
 from __future__ import annotations
 
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
-from app import theme
-from app.figures.common import (Figure, axis_title, base_layout, form_style, highlight_trace, message_figure,
-                                non_positive_note, observation_trace, points_marker, preview_uid, rate_unit,
-                                state_axis)
+from growthcore.figures import theme
+from growthcore.figures.common import (
+    Figure,
+    axis_title,
+    base_layout,
+    form_style,
+    highlight_trace,
+    message_figure,
+    non_positive_note,
+    observation_trace,
+    points_marker,
+    preview_uid,
+    rate_unit,
+    state_axis,
+)
 
 #: What panel 2 says when no chosen form has a single rate term to regress on.
 NO_CANDIDATE = ("This panel regresses the change per step on one rate term, and no chosen form has one{why}. "
@@ -93,7 +105,7 @@ def candidate_figure(candidates: Sequence[Mapping[str, Any]], labels: Mapping[st
         trace["showlegend"] = False
         trace["uid"] = preview_uid("candidate-points", c["label"])
         data.append(trace)
-        pairs = sorted(zip(c["g"], c["fitted"]), key=lambda gv: gv[0])
+        pairs = sorted(zip(c["g"], c["fitted"], strict=True), key=lambda gv: gv[0])
         line_x = [0.0] + [g for g, _ in pairs]
         line_y = [0.0] + [v for _, v in pairs]
         data.append({

@@ -1,4 +1,4 @@
-"""Colours and type of the app, shared by the stylesheet's figures and the figure builders.
+"""Colours and type of the figures, shared by the dashboard (its key beside the panels) and the figure builders.
 
 The form colours are the Okabe–Ito palette (Okabe & Ito 2008, "Color Universal Design"), chosen
 because it stays distinguishable under the common colour-vision deficiencies; line dashes repeat
