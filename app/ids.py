@@ -76,6 +76,7 @@ SORT_BUTTON = "comparison-sort"    # pattern-matching type: {"type": SORT_BUTTON
 ERROR_BANNER = "app-error"
 ERROR_TEXT = "app-error-text"
 ERROR_DISMISS = "app-error-dismiss"
+MAIN = "main"                      # the column of panels (a chosen series scrolls it into view)
 EXPORT_SLOT = "slot-export"        # export actions (records, figures, reports)
 
 # Export and reopening (inside EXPORT_SLOT)

@@ -69,6 +69,6 @@ def build_layout(source: Mapping[str, Any] | None, *, max_upload_bytes: int) -> 
                 overview_section(),
                 html.Div(dynamics_section(), id=ids.DYNAMICS_SLOT),
                 html.Div(export_section(), id=ids.EXPORT_SLOT),
-            ], id="main", className="main"),
+            ], id=ids.MAIN, className="main"),
         ], className="workspace"),
     ], className="page")

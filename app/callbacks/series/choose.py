@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from typing import Any, Mapping, Sequence
 
-from dash import Dash, Input, Output, Patch, State, ctx, no_update
+from dash import ClientsideFunction, Dash, Input, Output, Patch, State, ctx, no_update
 from dash.exceptions import PreventUpdate
 
 from app import ids
@@ -84,15 +84,6 @@ def highlight_patches(data: Mapping[str, Any] | None, view: Mapping[str, Any] | 
     return grid, plate
 
 
-SCROLL_TO_PANELS = """
-function(gridClick, plateClick) {
-    var main = document.getElementById('main');
-    if (main) { main.scrollIntoView({block: 'start'}); }
-    return window.dash_clientside.no_update;
-}
-"""
-
-
 def register(app: Dash) -> None:
     @app.callback(
         Output(ids.SERIES_PICK, "value", allow_duplicate=True),
@@ -105,7 +96,9 @@ def register(app: Dash) -> None:
     def _choose(grid_click, plate_click, _prev, _next, data, batch, groups, group):
         return choose_series(ctx.triggered_id, grid_click, plate_click, data, batch, groups, group)
 
-    app.clientside_callback(SCROLL_TO_PANELS, Input(ids.GRID, "clickData"), Input(ids.PLATE, "clickData"),
+    # the panels scroll into view in the browser (assets/series.js)
+    app.clientside_callback(ClientsideFunction(namespace="growthcore_series", function_name="scrollToPanels"),
+                            Input(ids.GRID, "clickData"), Input(ids.PLATE, "clickData"), State(ids.MAIN, "id"),
                             prevent_initial_call=True)
 
     # the frame around the shown series moves without redrawing the grid or the map
