@@ -204,8 +204,11 @@ def test_panel_seven_off_screen_waits_until_it_comes_into_view(demo: dict, setti
     on, off = (live_update(ids.K_INPUT, 3.5, None, None, demo, None, settings, first[0], demo["key"], first[9], None,
                            view) for view in views)
     assert on[9] == off[9] and str(on[20]) == str(off[20])  # the same fits and table either way
-    assert all(x is not no_update for x in on[24:29]) and on[34] is False
+    assert all(x is not no_update for x in on[24:29]) and on[34] is no_update  # drawn, and not stale before
     assert all(x is no_update for x in off[24:29]) and off[34] is True
+    again = live_update(ids.K_INPUT, 3.6, None, None, demo, None, settings, 3.5, demo["key"], off[9], None,
+                        View(dyn_label=first[23], dyn_options=first[22], visible=False, stale=True))
+    assert again[34] is no_update  # already marked: nothing for the browser to pass on
 
 
 def test_a_reopened_records_k_is_fitted_in_the_reply_to_its_data(demo: dict, settings: dict) -> None:

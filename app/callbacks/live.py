@@ -48,6 +48,7 @@ class View:
     summary: Mapping[str, Any] | None = None
     forecast: Mapping[str, Any] | None = None
     visible: bool = True  # panel 7 on screen: drawn now, else when it comes into view
+    stale: bool = False  # panel 7 describes older fits already
 
 
 def fits_are_current(previous: Mapping[str, Any] | None, data: Mapping[str, Any] | None,
@@ -108,7 +109,8 @@ def panel_seven(fits_store: Mapping[str, Any], data: Mapping[str, Any],
         forecast = None if forecast_is_stale(view.forecast, fits_store) else compute_forecast(
             view.forecast["request"], label, fits_store, data, exclusions, view.done)
     return (no_update if list(options) == list(view.dyn_options or []) else options,
-            no_update if label == view.dyn_label else label, *described, *progress, forecast, stale)
+            no_update if label == view.dyn_label else label, *described, *progress, forecast,
+            no_update if stale == view.stale else stale)
 
 
 def live_update(trigger: Any, k_input: float | None, k_slider: float | None, relayout: Mapping[str, Any] | None,
@@ -192,16 +194,19 @@ def register(app: Dash) -> None:
         State(ids.SORT, "data"), State(ids.DYN_FIT, "value"), State(ids.DYN_FIT, "options"),
         State(ids.DYN_LEVEL, "value"), State(ids.BOOT, "data"), State(ids.BOOT_DONE, "data"),
         State(ids.BOOT_SUMMARY, "data"), State(ids.FORECAST, "data"), State(ids.DYN_VISIBLE, "data"),
+        State(ids.DYN_STALE, "data"),
         prevent_initial_call=False,
     )
     def _live(k_input, k_slider, relayout, data, exclusions, settings, k_clicks, current, previous_key, previous,
-              pending, axis, scale, path_from, sort, label, options, level, boot, done, summary, forecast, visible):
+              pending, axis, scale, path_from, sort, label, options, level, boot, done, summary, forecast, visible,
+              stale):
         trigger = ctx.triggered_id
         if f"{ids.DATA}.data" in ctx.triggered_prop_ids:
             trigger = ids.DATA  # new data arriving with another change in one call: the first guess first
         elif trigger == ids.K_FROM_FIT and not k_clicks:
             trigger = "none"
-        view = View(axis, scale, path_from, sort, label, options, level, boot, done, summary, forecast, bool(visible))
+        view = View(axis, scale, path_from, sort, label, options, level, boot, done, summary, forecast, bool(visible),
+                    bool(stale))
         return live_update(trigger, k_input, k_slider, relayout, data, exclusions, settings, current,
                            previous_key, previous, pending, view)
 
