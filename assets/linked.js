@@ -1,11 +1,12 @@
 /* Linked highlighting: the observation under the pointer is ringed in every panel.
    Works on the plotted figures directly (Plotly.restyle of one marker trace per panel), so a
    hover never costs a trip to the server. Point traces carry meta "points" and customdata
-   [index, row]; each panel has one empty trace with meta "highlight" that receives the ring. */
+   [index, row]; each panel has one empty trace with meta "highlight" that receives the ring.
+   The panels are the graphs whose hovers are the callback's inputs (app/callbacks/highlight.py,
+   ids.GRAPHS): their ids come with each call, so they are written in one place only. */
 (function () {
   "use strict";
-  var GRAPHS = ["panel-change", "panel-candidate", "panel-trajectory", "panel-residual-time",
-                "panel-residual-fitted", "panel-observed-predicted"];
+  var NS = "growthcore_linked";
 
   function plotOf(id) {
     var host = document.getElementById(id);
@@ -37,21 +38,21 @@
     if (targets.length) { window.Plotly.restyle(gd, {x: xs, y: ys}, targets); }
   }
 
-  window.dash_clientside = Object.assign({}, window.dash_clientside, {
-    growthcore: {
-      highlight: function () {
-        var ctx = window.dash_clientside.callback_context;
-        var index = null;
-        if (ctx && ctx.triggered && ctx.triggered.length) {
-          var value = ctx.triggered[0].value;
-          if (value && value.points && value.points.length) {
-            index = indexOf(value.points[0].customdata);
-            if (index === undefined) { index = null; }
-          }
-        }
-        GRAPHS.forEach(function (id) { ring(plotOf(id), index); });
-        return index;
+  /* The point under the pointer (null when it leaves), ringed in every linked panel. */
+  function highlight() {
+    var ctx = window.dash_clientside.callback_context;
+    var index = null;
+    if (ctx && ctx.triggered && ctx.triggered.length) {
+      var value = ctx.triggered[0].value;
+      if (value && value.points && value.points.length) {
+        index = indexOf(value.points[0].customdata);
+        if (index === undefined) { index = null; }
       }
     }
-  });
+    ((ctx && ctx.inputs_list) || []).forEach(function (input) { ring(plotOf(input.id), index); });
+    return index;
+  }
+
+  window.dash_clientside = window.dash_clientside || {};
+  window.dash_clientside[NS] = Object.assign(window.dash_clientside[NS] || {}, {highlight: highlight});
 })();

@@ -1,4 +1,5 @@
-"""Hovering an observation marks it in every panel; done in the browser (assets/linked.js)."""
+"""Hovering an observation marks it in every panel; done in the browser (assets/linked.js), which
+rings the point in each graph whose hover is an input here (ids.GRAPHS)."""
 
 from __future__ import annotations
 
@@ -9,7 +10,7 @@ from app import ids
 
 def register(app: Dash) -> None:
     app.clientside_callback(
-        ClientsideFunction(namespace="growthcore", function_name="highlight"),
+        ClientsideFunction(namespace="growthcore_linked", function_name="highlight"),
         Output(ids.HIGHLIGHT, "data"),
         *[Input(g, "hoverData") for g in ids.GRAPHS],
         prevent_initial_call=True,
