@@ -9,7 +9,13 @@ import pytest
 from growthcore.data import Series
 from growthcore.dynamics import analyse, cobweb, sweep
 from growthcore.figures.common import unpacked
-from growthcore.figures.dynamics import cobweb_figure, forecast_band_traces, sweep_figure, with_forecast_band
+from growthcore.figures.dynamics import (
+    SVG_POINTS,
+    cobweb_figure,
+    forecast_band_traces,
+    sweep_figure,
+    with_forecast_band,
+)
 from growthcore.fit import fit
 from growthcore.fit.simulate import iterate
 from growthcore.models.catalogue import get_form
@@ -74,6 +80,10 @@ def test_sweep_marks_the_fitted_rate_and_interval() -> None:
     # the points travel as 32-bit floats: the same points to 7 digits
     assert unpacked(fig["data"][0]["y"]) == pytest.approx(sw.states.tolist(), rel=1e-6)
     assert unpacked(fig["data"][0]["x"]) == pytest.approx(sw.rate.tolist(), rel=1e-6)
+    # drawn as SVG at this size (every browser shows it), with WebGL only for very many states
+    assert fig["data"][0]["type"] == "scatter" and len(sw.rate) <= SVG_POINTS
+    many = {**sw.to_dict(), "rate": [1.0] * (SVG_POINTS + 1), "states": [1.0] * (SVG_POINTS + 1)}
+    assert sweep_figure(many, LABELS)["data"][0]["type"] == "scattergl"
     shapes = fig["layout"]["shapes"]
     assert shapes[0]["type"] == "rect" and shapes[0]["x0"] == pytest.approx(sw.interval[0])
     assert shapes[1]["x0"] == pytest.approx(res.values["r"])

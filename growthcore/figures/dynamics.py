@@ -70,6 +70,11 @@ def cobweb_figure(web: Mapping[str, Any] | None, labels: Mapping[str, Any]) -> F
     return {"data": traces, "layout": layout}
 
 
+#: Sweeps of up to this many drawn states are drawn as SVG, which every browser shows (WebGL is
+#: missing in some remote desktops and virtual machines) and which plotly.js draws about as fast at this size.
+SVG_POINTS = 5000
+
+
 def sweep_figure(sweep: Mapping[str, Any] | None, labels: Mapping[str, Any]) -> Figure:
     """Long-run states against the rate, with the fitted value (line) and its 95% interval (shaded)."""
     if not sweep or not sweep.get("rate"):
@@ -80,7 +85,8 @@ def sweep_figure(sweep: Mapping[str, Any] | None, labels: Mapping[str, Any]) -> 
                                                                          labels.get("value_unit", "")),
                          uirevision=labels.get("uirevision"), title=labels.get("title", ""))
     traces: list[dict[str, Any]] = [{
-        "type": "scattergl", "mode": "markers", "x": packed(sweep["rate"]), "y": packed(sweep["states"]),
+        "type": "scatter" if len(sweep["rate"]) <= SVG_POINTS else "scattergl", "mode": "markers",
+        "x": packed(sweep["rate"]), "y": packed(sweep["states"]),
         "name": "long-run states", "marker": {"size": 2, "color": MAP, "opacity": 0.6},
         "hovertemplate": f"{name} = %{{x:.4g}}<br>state = %{{y:.4g}}<extra></extra>",
     }]
