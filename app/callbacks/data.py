@@ -10,6 +10,7 @@ from typing import Any, Mapping
 from dash import Dash, Input, Output, State, ctx, html, no_update
 
 from app import ids
+from app.callbacks.exclusions import update_exclusions
 from app.heavy import direct, runner_of
 from app.state import data_to_store
 from growthcore.errors import ChoiceNotFound, GrowthcoreInputError, ImportFailure
@@ -188,6 +189,15 @@ def refused_message(refused: Mapping[str, Any] | None, previous: Mapping[str, An
                            "split it or raise the limit (growthcore serve --max-upload-mb)", previous)
 
 
+def exclusions_for(data: Any, current: Mapping[str, Any] | None) -> Any:
+    """The exclusions that go with new data in the same reply: none for another series or file, the
+    current ones when the key is the same (``no_update`` when nothing changes)."""
+    if not isinstance(data, Mapping):
+        return no_update
+    fresh = update_exclusions(ids.DATA, current, data)
+    return no_update if fresh is None else fresh
+
+
 def register(app: Dash) -> None:
     max_bytes = int(app.server.config.get("GROWTHCORE_MAX_UPLOAD", DEFAULT_MAX_BYTES))
     limits = dataclasses.replace(server_limits(app), max_bytes=max_bytes)
@@ -207,19 +217,22 @@ def register(app: Dash) -> None:
         Output(ids.SERIES_PICK, "options"), Output(ids.SERIES_PICK, "value"), Output(ids.MAP_COLUMNS, "children"),
         Output(ids.MAP_TIME, "value"), Output(ids.MAP_VALUE, "value"), Output(ids.MAP_SERIES, "value"),
         Output(ids.MAP_TIME_UNIT, "value"), Output(ids.MAP_SHEET, "value"), Output(ids.MAP_REPLICATES, "value"),
-        Output(ids.UPLOAD, "contents"),
+        Output(ids.UPLOAD, "contents"), Output(ids.EXCLUSIONS, "data", allow_duplicate=True),
         Input(ids.UPLOAD, "contents"), Input(ids.MAP_APPLY, "n_clicks"), Input(ids.SERIES_PICK, "value"),
         State(ids.UPLOAD, "filename"), State(ids.SOURCE, "data"), State(ids.DATA, "data"),
         State(ids.MAP_TIME, "value"), State(ids.MAP_VALUE, "value"), State(ids.MAP_SERIES, "value"),
         State(ids.MAP_TIME_UNIT, "value"), State(ids.MAP_SHEET, "value"), State(ids.MAP_REPLICATES, "value"),
+        State(ids.EXCLUSIONS, "data"),
+        prevent_initial_call="initial_duplicate",
     )
     def _import(contents, apply, pick, filename, source, previous, time, value, series_column, time_unit, sheet,
-                replicates):
+                replicates, exclusions):
         previous_pick = previous.get("name") if previous else None
         if ctx.triggered_id == ids.SERIES_PICK and pick == previous_pick:
-            return (no_update,) * 15
+            return (no_update,) * 16
         if ctx.triggered_id == ids.UPLOAD and contents is None:
-            return (no_update,) * 15  # the contents cleared after the last read
-        return on_import(contents, apply, pick, filename, source, previous, time, value, series_column,
-                         time_unit, sheet, replicates, trigger=ctx.triggered_id, max_bytes=max_bytes, limits=limits,
-                         run=run)
+            return (no_update,) * 16  # the contents cleared after the last read
+        out = on_import(contents, apply, pick, filename, source, previous, time, value, series_column,
+                        time_unit, sheet, replicates, trigger=ctx.triggered_id, max_bytes=max_bytes, limits=limits,
+                        run=run)
+        return (*out, exclusions_for(out[1], exclusions))

@@ -65,15 +65,17 @@ def register(app: Dash) -> None:
     @app.callback(
         Output(ids.EXCLUSIONS, "data"),
         *[Output(g, "clickData") for g in ids.GRAPHS],
-        Input(ids.DATA, "data"),
         *[Input(g, "clickData") for g in ids.GRAPHS],
         Input(ids.EXCLUSION_UNDO, "n_clicks"), Input(ids.EXCLUSION_CLEAR, "n_clicks"),
         Input({"type": ids.RESTORE, "index": ALL}, "n_clicks"), Input(ids.EXCLUDE_ROW_BUTTON, "n_clicks"),
-        State(ids.EXCLUSIONS, "data"), State(ids.EXCLUDE_ROW, "value"),
+        State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"), State(ids.EXCLUDE_ROW, "value"),
+        prevent_initial_call=True,
     )
-    def _exclusions(data, *args):
+    def _exclusions(*args):
+        # new data bring their own (empty) exclusions in the same reply (app/callbacks/data.py), so that
+        # the reply to new data need not wait for a second round trip
         clicks = args[: len(ids.GRAPHS)]
-        undo, clear, _restores, by_row, state, row = args[len(ids.GRAPHS):]
+        undo, clear, _restores, by_row, data, state, row = args[len(ids.GRAPHS):]
         trigger = ctx.triggered_id
         click = None
         restore_index = None

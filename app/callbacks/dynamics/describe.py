@@ -6,8 +6,7 @@ from __future__ import annotations
 import math
 from typing import Any, Callable, Mapping, Sequence
 
-from dash import Dash, Input, Output, State, html, no_update
-from dash.exceptions import PreventUpdate
+from dash import ClientsideFunction, Dash, Input, Output, State, html, no_update
 
 from app import ids
 from app.callbacks.dynamics.which_fit import done_for, find_fit, fit_signature, rebuild
@@ -114,21 +113,24 @@ def register(app: Dash) -> None:
             return (*(no_update,) * 5, True)
         return (*dynamics_view(fits_store, label, data, exclusions, done, level), False)
 
-    # the panel coming into view while it describes older fits, or marked stale while in view
+    # the panel coming into view while it describes older fits, or marked stale while in view: the browser
+    # decides (assets/live.js), so that a stale mark off screen costs no request
+    app.clientside_callback(ClientsideFunction(namespace="growthcore_live", function_name="drawWhenSeen"),
+                            Output(ids.DYN_DRAW, "data"), Input(ids.DYN_VISIBLE, "data"), Input(ids.DYN_STALE, "data"),
+                            prevent_initial_call=True)
+
     @app.callback(
         Output(ids.DYN_STALE, "data", allow_duplicate=True),
         Output(ids.DYN_SENTENCES, "children", allow_duplicate=True),
         Output(ids.DYN_EQUILIBRIA, "children", allow_duplicate=True),
         Output(ids.G_COBWEB, "figure", allow_duplicate=True), Output(ids.G_SWEEP, "figure", allow_duplicate=True),
         Output(ids.DYN_DERIVED, "children", allow_duplicate=True),
-        Input(ids.DYN_VISIBLE, "data"), Input(ids.DYN_STALE, "data"),
+        Input(ids.DYN_DRAW, "data"),
         State(ids.FITS, "data"), State(ids.DYN_FIT, "value"), State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"),
         State(ids.BOOT_DONE, "data"), State(ids.DYN_LEVEL, "value"),
         prevent_initial_call=True,
     )
-    def _in_view(visible, stale, fits_store, label, data, exclusions, done, level):
-        if not (visible and stale):
-            raise PreventUpdate
+    def _in_view(_draw, fits_store, label, data, exclusions, done, level):
         return (False, *dynamics_view(fits_store, label, data, exclusions, done, level))
 
 

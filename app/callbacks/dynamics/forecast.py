@@ -6,7 +6,7 @@ from __future__ import annotations
 import math
 from typing import Any, Mapping, Sequence
 
-from dash import Dash, Input, Output, State, ctx, html
+from dash import Dash, Input, Output, State, ctx, html, no_update
 from dash.exceptions import PreventUpdate
 
 from app import ids
@@ -76,12 +76,15 @@ def forecast_is_stale(store: Mapping[str, Any], fits_store: Mapping[str, Any] | 
 DEFAULT_AMOUNT = 10
 
 
-def fresh_inputs(data: Mapping[str, Any] | None) -> tuple[Any, Any, Any]:
+def fresh_inputs(data: Mapping[str, Any] | None, bound: Any = None, level: Any = None,
+                 amount: Any = None) -> tuple[Any, ...]:
     """Outputs on new data (another file or series): no plausibility bound, no level to reach, the default
-    forecast length: values typed for the earlier data say nothing about these."""
+    forecast length: values typed for the earlier data say nothing about these. A field already at its
+    fresh value is left alone, so that panel 7 is not redrawn for nothing."""
     if data is None:
         raise PreventUpdate
-    return None, None, DEFAULT_AMOUNT
+    return tuple(no_update if now == fresh else fresh
+                 for now, fresh in zip((bound, level, amount), (None, None, DEFAULT_AMOUNT), strict=True))
 
 
 def forecast_notes(store: Mapping[str, Any] | None, fits_store: Mapping[str, Any] | None) -> list[Any]:
@@ -140,7 +143,8 @@ def register(app: Dash) -> None:
         return compute_forecast(current["request"], label, fits_store, data, exclusions, done)
 
     app.callback(Output(ids.FC_BOUND, "value"), Output(ids.DYN_LEVEL, "value"), Output(ids.FC_AMOUNT, "value"),
-                 Input(ids.DATA, "data"), prevent_initial_call=True)(lambda data: fresh_inputs(data))
+                 Input(ids.DATA, "data"), State(ids.FC_BOUND, "value"), State(ids.DYN_LEVEL, "value"),
+                 State(ids.FC_AMOUNT, "value"), prevent_initial_call=True)(fresh_inputs)
 
     app.callback(Output(ids.FC_NOTES, "children"), Input(ids.FORECAST, "data"),
                  State(ids.FITS, "data"))(lambda store, fits_store: forecast_notes(store, fits_store))
