@@ -63,7 +63,14 @@ def fits_are_current(previous: Mapping[str, Any] | None, data: Mapping[str, Any]
     if (previous.get("capacity") is None) != (held is None) or (
             held is not None and abs(float(previous["capacity"]) - held) > 1e-12 * max(abs(held), 1.0)):
         return False
-    return [bool(u) for u in series_from_store(data, exclusions).used] == list(previous.get("used") or [])
+    return same_points(previous, data, exclusions)
+
+
+def same_points(previous: Mapping[str, Any] | None, data: Mapping[str, Any],
+                exclusions: Mapping[str, Any] | None) -> bool:
+    """Whether the fits store was made from these data with these points used (panel 1 shows them)."""
+    return bool(previous) and previous.get("key") == data.get("key") and list(previous.get("used") or []) == [
+        bool(u) for u in series_from_store(data, exclusions).used]
 
 
 #: Forms whose increments fit with K held is a regression through the origin on one term that the browser
@@ -142,9 +149,8 @@ def live_update(trigger: Any, k_input: float | None, k_slider: float | None, rel
     refit = not fits_are_current(previous, data, exclusions, settings, k)
     fits_store = compute_fits(data, exclusions, settings, k) if refit else previous
     change, candidate, readout, fitted = explore_parts(data, exclusions, settings, k, view.axis or "state", view.scale)
-    points_drawn = bool(previous) and previous.get("key") == data.get("key") and previous.get("used") == [
-        bool(u) for u in series_from_store(data, exclusions).used]
-    explore = (no_update if trigger in K_TRIGGERS and points_drawn else change, candidate, readout)
+    explore = (no_update if trigger in K_TRIGGERS and same_points(previous, data, exclusions) else change,
+               candidate, readout)
     panels = with_forecast(draw_panels(fits_store, k, data, exclusions, view.scale, view.path_from),
                            view.forecast, fits_store)
     preview = preview_inputs(data, exclusions, settings, fits_store, k, fitted)
@@ -211,4 +217,5 @@ def register(app: Dash) -> None:
                            previous_key, previous, pending, view)
 
 
-__all__ = ["PREVIEW_FORMS", "View", "preview_inputs", "fits_are_current", "live_update", "panel_seven", "register"]
+__all__ = ["PREVIEW_FORMS", "View", "preview_inputs", "fits_are_current", "same_points", "live_update", "panel_seven",
+           "register"]
