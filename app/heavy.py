@@ -30,8 +30,8 @@ from growthcore.errors import GrowthcoreInputError
 
 #: Modules the worker server imports once, so that each job starts without importing them again.
 PRELOAD = ["numpy", "scipy.optimize", "growthcore.io", "growthcore.batch", "growthcore.uncertainty",
-           "app.callbacks.data", "app.callbacks.series.read", "app.callbacks.series.run",
-           "app.callbacks.dynamics.bootstrap", "app.callbacks.batch_tables"]
+           "growthcore.app.callbacks.data", "growthcore.app.callbacks.series.read", "growthcore.app.callbacks.series.run",
+           "growthcore.app.callbacks.dynamics.bootstrap", "growthcore.app.callbacks.batch_tables"]
 
 
 class HeavyRefused(GrowthcoreInputError):

@@ -6,14 +6,14 @@ from typing import Any, Mapping
 
 from dash import dcc, html
 
-from app import ids
-from app.components.data_panel import data_section
-from app.components.dynamics import dynamics_section
-from app.components.exclusions import exclusions_section
-from app.components.export import export_section
-from app.components.model_panel import model_section
-from app.components.panels import panels_section
-from app.components.series import overview_section
+from . import ids
+from .components.data_panel import data_section
+from .components.dynamics import dynamics_section
+from .components.exclusions import exclusions_section
+from .components.export import export_section
+from .components.model_panel import model_section
+from .components.panels import panels_section
+from .components.series import overview_section
 
 CAUTION = (
     "Forecasts and derived times from a fitted growth law are unreliable outside the observed range of "

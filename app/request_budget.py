@@ -17,8 +17,9 @@ from typing import Any, Callable, Iterable
 
 from dash import Output, ctx, no_update, set_props
 
-from app import ids
 from growthcore.budget import BudgetExceeded, time_budget
+
+from . import ids
 
 #: Seconds a light request may take unless the server is created with another budget.
 DEFAULT_LIGHT_BUDGET_S = 20.0

@@ -17,15 +17,16 @@ from typing import Any, Iterable
 from dash import Dash, Input, Output, set_props
 from flask import Response, request
 
-from app import ids
-from app.callbacks import register_all
-from app.heavy import HeavyConfig, HeavyRunner
-from app.layout import build_layout
-from app.request_budget import CONFIG_KEY as LIGHT_BUDGET_KEY
-from app.request_budget import DEFAULT_LIGHT_BUDGET_S, check_light_budget, describe_request, show_ran_out
 from growthcore.budget import BudgetExceeded
 from growthcore.limits import DEFAULT as DEFAULT_LIMITS
 from growthcore.limits import Limits
+
+from . import ids
+from .callbacks import register_all
+from .heavy import HeavyConfig, HeavyRunner
+from .layout import build_layout
+from .request_budget import CONFIG_KEY as LIGHT_BUDGET_KEY
+from .request_budget import DEFAULT_LIGHT_BUDGET_S, check_light_budget, describe_request, show_ran_out
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 ROOT = os.path.dirname(HERE)

@@ -18,10 +18,10 @@ import pandas as pd
 import pytest
 from scipy import stats
 
-from app.callbacks import batch_tables as B
-from app.callbacks.data import import_source
-from app.callbacks.series.read import read_all_series, series_from_plain
-from app.callbacks.series.run import merged_fits, run_tick, start_run
+from growthcore.app.callbacks import batch_tables as B
+from growthcore.app.callbacks.data import import_source
+from growthcore.app.callbacks.series.read import read_all_series, series_from_plain
+from growthcore.app.callbacks.series.run import merged_fits, run_tick, start_run
 from growthcore.batch import group_difference_test
 from growthcore.figures.plain import fit_label, fit_label_parts
 

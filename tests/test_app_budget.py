@@ -16,12 +16,12 @@ from dash import Dash, Input, Output, html
 from dash.exceptions import PreventUpdate
 
 import growthcore.budget as budget_module
-from app import ids
-from app.callbacks.data import import_source
-from app.callbacks.fits import compute_fits
-from app.heavy import HeavyConfig, HeavyRunner
-from app.request_budget import CONFIG_KEY, DEFAULT_LIGHT_BUDGET_S, BudgetedRegistration
-from app.server import DEMO_FILE, create_app, read_source
+from growthcore.app import ids
+from growthcore.app.callbacks.data import import_source
+from growthcore.app.callbacks.fits import compute_fits
+from growthcore.app.heavy import HeavyConfig, HeavyRunner
+from growthcore.app.request_budget import CONFIG_KEY, DEFAULT_LIGHT_BUDGET_S, BudgetedRegistration
+from growthcore.app.server import DEMO_FILE, create_app, read_source
 from growthcore.budget import BudgetExceeded, check_budget, current_budget, time_budget
 from growthcore.errors import GrowthcoreInputError
 

@@ -10,19 +10,19 @@ import pytest
 from dash import no_update
 from dash.exceptions import PreventUpdate
 
-from app import ids
-from app.callbacks.capacity import update_capacity
-from app.callbacks.comparison import draw_comparison
-from app.callbacks.data import import_source, on_import, refused_message
-from app.callbacks.exclusions import clicked_index, update_exclusions
-from app.callbacks.explore import explore_panels
-from app.callbacks.fits import compute_fits
-from app.callbacks.live import View, live_update
-from app.callbacks.panels import draw_panels
-from app.callbacks.settings import build_settings, check_terms, expand_forms
-from app.components.comparison import sort_rows
-from app.server import DEMO_FILE, read_source
-from app.state import series_from_store
+from growthcore.app import ids
+from growthcore.app.callbacks.capacity import update_capacity
+from growthcore.app.callbacks.comparison import draw_comparison
+from growthcore.app.callbacks.data import import_source, on_import, refused_message
+from growthcore.app.callbacks.exclusions import clicked_index, update_exclusions
+from growthcore.app.callbacks.explore import explore_panels
+from growthcore.app.callbacks.fits import compute_fits
+from growthcore.app.callbacks.live import View, live_update
+from growthcore.app.callbacks.panels import draw_panels
+from growthcore.app.callbacks.settings import build_settings, check_terms, expand_forms
+from growthcore.app.components.comparison import sort_rows
+from growthcore.app.server import DEMO_FILE, read_source
+from growthcore.app.state import series_from_store
 from growthcore.compare import compare
 from growthcore.explore import Candidate, candidate_fit
 from growthcore.fit.forms import fit_forms

@@ -14,17 +14,22 @@ import numpy as np
 import pytest
 from dash import no_update
 
-from app.callbacks.capacity import rounded
-from app.callbacks.comparison import draw_comparison
-from app.callbacks.data import import_source
-from app.callbacks.dynamics.bootstrap import bootstrap_step, next_chunk, progress_view, start_run, summaries
-from app.callbacks.dynamics.describe import dynamics_view
-from app.callbacks.dynamics.forecast import band_on_trajectory, compute_forecast, forecast_notes, forecast_request
-from app.callbacks.dynamics.which_fit import choose_fit, done_for, find_fit, fit_signature, rebuild
-from app.callbacks.fits import compute_fits
-from app.callbacks.panels import draw_panels
-from app.server import DEMO_FILE, create_app, read_source
-from app.state import series_from_store
+from growthcore.app.callbacks.capacity import rounded
+from growthcore.app.callbacks.comparison import draw_comparison
+from growthcore.app.callbacks.data import import_source
+from growthcore.app.callbacks.dynamics.bootstrap import bootstrap_step, next_chunk, progress_view, start_run, summaries
+from growthcore.app.callbacks.dynamics.describe import dynamics_view
+from growthcore.app.callbacks.dynamics.forecast import (
+    band_on_trajectory,
+    compute_forecast,
+    forecast_notes,
+    forecast_request,
+)
+from growthcore.app.callbacks.dynamics.which_fit import choose_fit, done_for, find_fit, fit_signature, rebuild
+from growthcore.app.callbacks.fits import compute_fits
+from growthcore.app.callbacks.panels import draw_panels
+from growthcore.app.server import DEMO_FILE, create_app, read_source
+from growthcore.app.state import series_from_store
 from growthcore.explore import capacity_range
 from growthcore.uncertainty import bootstrap
 
@@ -284,7 +289,7 @@ def test_summaries_leave_the_refits_out(demo: dict, fits: dict) -> None:
 def test_export_record_carries_the_panel_bootstrap_and_forecast(demo: dict, k_demo: float, fits: dict) -> None:
     """What panel 7 shows is what the exported record holds: the bootstrap is reproduced from its seed
     and count (resample b is seeded by (seed, b): engine contract), the forecast from its request."""
-    from app.callbacks import export as ex
+    from growthcore.app.callbacks import export as ex
 
     label = "ricker (increments)"
     boot, done, _ = _run(start_run(1, 0, 200, 5, label, fits), {}, fits, demo)

@@ -20,13 +20,13 @@ from typing import Any
 import jsonschema
 import pytest
 
-from app.callbacks import export as ex
-from app.callbacks.capacity import update_capacity
-from app.callbacks.data import import_source
-from app.callbacks.fits import compute_fits
-from app.callbacks.settings import build_settings
-from app.server import DEMO_FILE, read_source
-from app.state import toggle_exclusion
+from growthcore.app.callbacks import export as ex
+from growthcore.app.callbacks.capacity import update_capacity
+from growthcore.app.callbacks.data import import_source
+from growthcore.app.callbacks.fits import compute_fits
+from growthcore.app.callbacks.settings import build_settings
+from growthcore.app.server import DEMO_FILE, read_source
+from growthcore.app.state import toggle_exclusion
 from growthcore.cli import main
 from growthcore.record import seal
 from growthcore.report.images import PANEL_SIZES, SHEET_SIZES

@@ -8,7 +8,7 @@ import numpy as np
 import plotly.graph_objects as go
 import pytest
 
-from app.callbacks.explore import candidate_to_store, change_to_store, labels_of
+from growthcore.app.callbacks.explore import candidate_to_store, change_to_store, labels_of
 from growthcore.data import Series
 from growthcore.explore import Candidate, candidate_fit, change_table
 from growthcore.figures.common import message_figure

@@ -15,13 +15,13 @@ import time
 
 import pytest
 
-from app import ids
-from app.callbacks.data import import_source, on_import
-from app.callbacks.dynamics.bootstrap import bootstrap_step
-from app.callbacks.dynamics.forecast import compute_forecast
-from app.callbacks.series.groups import compute_groups
-from app.heavy import HeavyConfig, HeavyRefused, HeavyRunner
-from app.server import allowed_hosts_for, create_app
+from growthcore.app import ids
+from growthcore.app.callbacks.data import import_source, on_import
+from growthcore.app.callbacks.dynamics.bootstrap import bootstrap_step
+from growthcore.app.callbacks.dynamics.forecast import compute_forecast
+from growthcore.app.callbacks.series.groups import compute_groups
+from growthcore.app.heavy import HeavyConfig, HeavyRefused, HeavyRunner
+from growthcore.app.server import allowed_hosts_for, create_app
 from growthcore.errors import ImportFailure
 from growthcore.limits import DEFAULT, Limits
 
@@ -87,7 +87,7 @@ def test_upload_byte_limit_is_the_servers_not_the_tabs() -> None:
 
 
 def _fit_store() -> tuple[dict, dict]:
-    from app.callbacks.fits import compute_fits
+    from growthcore.app.callbacks.fits import compute_fits
 
     data = import_source({"filename": "c.csv", "b64": _b64(_culture())})
     settings = {"models": ["logistic"], "methods": ["trajectory"], "method": "trajectory", "error": "additive",
@@ -98,7 +98,7 @@ def _fit_store() -> tuple[dict, dict]:
 def test_forged_bootstrap_run_is_refused() -> None:
     data, fits = _fit_store()
     label = fits["fits"][0]["label"]
-    from app.callbacks.dynamics.which_fit import find_fit, fit_signature
+    from growthcore.app.callbacks.dynamics.which_fit import find_fit, fit_signature
 
     sig = fit_signature(fits, find_fit(fits, label))
     for forged in ({"requested": 1_000_000, "chunk": 50}, {"requested": 100, "chunk": 10**7}):
@@ -158,20 +158,20 @@ def test_heavy_jobs_beyond_the_slots_wait_then_are_refused() -> None:
 
 
 def test_defaults_meet_the_app_limits() -> None:
-    from app.components.dynamics import MAX_RESAMPLES
+    from growthcore.app.components.dynamics import MAX_RESAMPLES
 
     assert MAX_RESAMPLES <= DEFAULT.max_resamples  # the box's maximum is one the engine accepts
 
 
 def test_the_app_reopens_every_record_the_command_line_reopens(app) -> None:
-    from app.callbacks.export import MAX_RECORD_UPLOAD
+    from growthcore.app.callbacks.export import MAX_RECORD_UPLOAD
 
     assert MAX_RECORD_UPLOAD * 3 // 4 >= DEFAULT.max_record_bytes  # base64 carries 3 bytes in 4 characters
     assert app.server.config["MAX_CONTENT_LENGTH"] > MAX_RECORD_UPLOAD
 
 
 def test_forged_settings_cannot_ask_for_unbounded_fits() -> None:
-    from app.callbacks.fits import compute_fits
+    from growthcore.app.callbacks.fits import compute_fits
     from growthcore.errors import GrowthcoreInputError
 
     data = import_source({"filename": "c.csv", "b64": _b64(_culture())})

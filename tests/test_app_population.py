@@ -11,8 +11,8 @@ import numpy as np
 import pytest
 from scipy.special import expit
 
-from app.callbacks.population import constant_choices, fit_request, lr_test, render, run_population
-from app.callbacks.series.read import series_to_plain
+from growthcore.app.callbacks.population import constant_choices, fit_request, lr_test, render, run_population
+from growthcore.app.callbacks.series.read import series_to_plain
 from growthcore.data import Series
 from growthcore.figures.population import forest_plot, population_curves
 from growthcore.mixed import PopulationFit, fit_population

@@ -16,14 +16,14 @@ import pytest
 from dash import no_update
 from dash.exceptions import PreventUpdate
 
-from app import ids
-from app.callbacks.data import import_source
-from app.callbacks.series.choose import choose_series, highlight_patches, position_text, step_series
-from app.callbacks.series.groups import compute_groups, members
-from app.callbacks.series.overview import grid_figure, page_choice, plate_figure, quantity_options
-from app.callbacks.series.read import read_all_series, series_from_plain, series_to_plain
-from app.callbacks.series.run import merged_fits, progress_view, run_tick, start_run, stop_run
-from app.components.series import ALL_GROUPS
+from growthcore.app import ids
+from growthcore.app.callbacks.data import import_source
+from growthcore.app.callbacks.series.choose import choose_series, highlight_patches, position_text, step_series
+from growthcore.app.callbacks.series.groups import compute_groups, members
+from growthcore.app.callbacks.series.overview import grid_figure, page_choice, plate_figure, quantity_options
+from growthcore.app.callbacks.series.read import read_all_series, series_from_plain, series_to_plain
+from growthcore.app.callbacks.series.run import merged_fits, progress_view, run_tick, start_run, stop_run
+from growthcore.app.components.series import ALL_GROUPS
 from growthcore.batch import fit_batch, from_series
 from growthcore.data import Series
 
@@ -301,7 +301,7 @@ def test_highlight_moves_only_on_the_grid_of_the_file_shown(tmp_path: Any) -> No
 
 def test_nothing_of_the_batch_listens_to_k() -> None:
     """K changes (typing, dragging) must not wake any of the many-series callbacks."""
-    from app.server import create_app
+    from growthcore.app.server import create_app
 
     app = create_app()
     mine = {ids.BATCH_SERIES, ids.BATCH_GROUPS, ids.BATCH_JOB, ids.BATCH_FITS, ids.BATCH_PROGRESS, ids.BATCH_CANCEL,

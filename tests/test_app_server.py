@@ -12,8 +12,8 @@ import urllib.request
 
 import pytest
 
-from app import ids
-from app.server import create_app, is_loopback, serve
+from growthcore.app import ids
+from growthcore.app.server import create_app, is_loopback, serve
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from app.ticks import allow_next_tick, cancel_pressed, seconds_since, stopped
+from growthcore.app.ticks import allow_next_tick, cancel_pressed, seconds_since, stopped
 
 
 def test_each_answer_allows_one_more_tick_while_work_is_left() -> None:

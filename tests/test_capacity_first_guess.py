@@ -11,9 +11,9 @@ import numpy as np
 import pytest
 from scipy.optimize import curve_fit
 
-from app import ids
-from app.callbacks.capacity import update_capacity
-from app.components.model_panel import model_section
+from growthcore.app import ids
+from growthcore.app.callbacks.capacity import update_capacity
+from growthcore.app.components.model_panel import model_section
 from growthcore.explore import capacity_range
 from tests.open_data import data_store, loblolly, lynx, soybean, uspop
 

@@ -10,12 +10,12 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from app.callbacks import export as ex
-from app.callbacks.capacity import update_capacity
-from app.callbacks.data import import_source
-from app.callbacks.settings import build_settings
-from app.server import DEMO_FILE, read_source
-from app.state import series_from_store
+from growthcore.app.callbacks import export as ex
+from growthcore.app.callbacks.capacity import update_capacity
+from growthcore.app.callbacks.data import import_source
+from growthcore.app.callbacks.settings import build_settings
+from growthcore.app.server import DEMO_FILE, read_source
+from growthcore.app.state import series_from_store
 from growthcore.errors import GrowthcoreInputError
 from growthcore.figures.common import fit_styles, form_key
 from growthcore.fit import fit
@@ -93,8 +93,8 @@ def test_long_tables_continue_on_further_images_with_their_header() -> None:
 
 
 def test_two_error_scales_get_an_axis_each() -> None:
-    from app.callbacks.explore import labels_of
-    from app.callbacks.fits import compute_fits
+    from growthcore.app.callbacks.explore import labels_of
+    from growthcore.app.callbacks.fits import compute_fits
     from growthcore.figures.residuals import residual_time_figure
 
     data, exclusions, settings, k = _stores(["logistic"], "both", "log")

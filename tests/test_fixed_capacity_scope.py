@@ -7,7 +7,7 @@ import json
 import numpy as np
 import pytest
 
-from app.callbacks.fits import session_fits
+from growthcore.app.callbacks.fits import session_fits
 from growthcore.cli import main
 from growthcore.fit import fit
 from growthcore.fit.forms import fit_forms

@@ -9,8 +9,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from app import ids
-from app.callbacks.capacity import update_capacity
+from growthcore.app import ids
+from growthcore.app.callbacks.capacity import update_capacity
 from growthcore.explore import capacity_from_fit
 from growthcore.figures.trajectory import trajectory_figure
 from growthcore.fit import fit

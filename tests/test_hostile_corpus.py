@@ -82,8 +82,8 @@ def rss_mb():
         return int(fh.read().split()[1]) * os.sysconf("SC_PAGE_SIZE") / 2**20
 
 def main():
-    from app.callbacks.data import import_source
-    from app.heavy import HeavyConfig, HeavyRunner
+    from growthcore.app.callbacks.data import import_source
+    from growthcore.app.heavy import HeavyConfig, HeavyRunner
     from growthcore.errors import GrowthcoreInputError
     runner = HeavyRunner(HeavyConfig(budget_s=60))
     folder = sys.argv[2]

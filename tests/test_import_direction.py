@@ -2,9 +2,10 @@
 
 Layers, lowest first: the engine (``growthcore.*`` but the three below), ``growthcore.figures``
 (plain figure dicts), ``growthcore.report`` (files from a record), ``growthcore.cli`` (the command
-line) and ``app`` (the dashboard). A module may import its own layer and those below it. Nothing
-under growthcore imports dash. Every ``import`` and ``from … import`` node of every file is read
-with ``ast`` (relative imports resolved against the file's package); nothing is imported.
+line) and ``growthcore.app`` (the dashboard, from the app/ folder). A module may import its own layer
+and those below it. Nothing under growthcore imports dash. Every ``import`` and ``from … import``
+node of every file is read with ``ast`` (relative imports resolved against the file's package);
+nothing is imported.
 """
 
 from __future__ import annotations
@@ -20,7 +21,7 @@ LAYERS = ("engine", "figures", "report", "cli", "app")
 RANK = {name: k for k, name in enumerate(LAYERS)}
 #: The one upward import allowed: (file, enclosing function, imported module) -> why.
 ALLOWED = {
-    ("growthcore/cli/serve_cmd.py", "run", "app.server"):
+    ("growthcore/cli/serve_cmd.py", "run", "growthcore.app.server"):
         "`growthcore serve` starts the dashboard; the import sits in the function that starts it, so that "
         "no other command loads dash",
 }
@@ -29,11 +30,11 @@ ALLOWED = {
 def layer_of(module: str) -> str | None:
     """The layer of a module of this project by its dotted name; None for any other package."""
     parts = module.split(".")
-    if parts[0] == "app":
+    if parts[0] == "app":  # the folder's own name, which nothing should import by: still the top layer
         return "app"
     if parts[0] != "growthcore":
         return None
-    if parts[1:2] in (["figures"], ["report"], ["cli"]):
+    if parts[1:2] in (["figures"], ["report"], ["cli"], ["app"]):
         return parts[1]
     if parts[1:2] == ["__main__"]:  # `python -m growthcore` is the command line's entry point
         return "cli"
@@ -41,8 +42,11 @@ def layer_of(module: str) -> str | None:
 
 
 def module_of(path: str) -> tuple[str, str]:
-    """(dotted module name, its package) of a file path relative to the repository root."""
+    """(dotted module name, its package) of a file path relative to the repository root (app/ installs
+    as growthcore.app)."""
     parts = list(Path(path).with_suffix("").parts)
+    if parts[0] == "app":
+        parts.insert(0, "growthcore")
     if parts[-1] == "__init__":
         parts.pop()
         return ".".join(parts), ".".join(parts)
@@ -124,6 +128,8 @@ def test_the_one_allowed_upward_import_is_still_there() -> None:
 @pytest.mark.parametrize(("path", "source", "expected"), [
     # an engine module reaching up, at the top, in a function, under TYPE_CHECKING
     ("growthcore/fit/x.py", "from growthcore.report import panels\n", ["growthcore/fit/x.py:1:"]),
+    ("growthcore/fit/x.py", "from growthcore.app.state import a\n",
+     ["growthcore/fit/x.py:1: from growthcore.app.state import a"]),
     ("growthcore/fit/x.py", "from app.state import a, b\n", ["growthcore/fit/x.py:1: from app.state import a, b"]),
     ("growthcore/stats.py", "def f():\n    import app.state\n", ["growthcore/stats.py:2: import app.state"]),
     ("growthcore/data.py", "from typing import TYPE_CHECKING\nif TYPE_CHECKING:\n    from growthcore.figures "
@@ -134,18 +140,20 @@ def test_the_one_allowed_upward_import_is_still_there() -> None:
     ("growthcore/figures/__init__.py", "from ..cli import main\n", ["growthcore/figures/__init__.py:1:"]),
     ("growthcore/figures/batch.py", "from . import theme\nfrom ..batch import plate\n", []),
     ("growthcore/report/panels.py", "from .. import cli\n", ["growthcore/report/panels.py:1:"]),
+    ("app/callbacks/live.py", "from ..state import series_from_store\nfrom ... import cli\n", []),
     # dash: never under growthcore, the app may
     ("growthcore/figures/common.py", "import dash\n", ["growthcore/figures/common.py:1: import dash"]),
     ("growthcore/fit/lm.py", "def f():\n    from dash import html\n", ["growthcore/fit/lm.py:2:"]),
     ("app/layout.py", "from dash import html\nfrom growthcore.cli import main\n", []),
     # the command line: the report below it is fine, the app only where `serve` starts it
     ("growthcore/cli/fit_cmd.py", "from growthcore.report import write_pngs\n", []),
-    ("growthcore/cli/serve_cmd.py", "def run(a):\n    from app.server import serve\n", []),
-    ("growthcore/cli/serve_cmd.py", "def register(a):\n    from app.server import serve\n",
+    ("growthcore/cli/serve_cmd.py", "def run(a):\n    from growthcore.app.server import serve\n", []),
+    ("growthcore/cli/serve_cmd.py", "def register(a):\n    from growthcore.app.server import serve\n",
      ["growthcore/cli/serve_cmd.py:2:"]),
     ("growthcore/cli/serve_cmd.py", "def run(a):\n    from app.state import fit_to_store\n",
      ["growthcore/cli/serve_cmd.py:2:"]),
-    ("growthcore/cli/fit_cmd.py", "def run(a):\n    from app.server import serve\n", ["growthcore/cli/fit_cmd.py:2:"]),
+    ("growthcore/cli/fit_cmd.py", "def run(a):\n    from growthcore.app.server import serve\n",
+     ["growthcore/cli/fit_cmd.py:2:"]),
     ("growthcore/__main__.py", "from growthcore.cli import main\n", []),
     ("growthcore/__init__.py", "import growthcore.cli\n", ["growthcore/__init__.py:1:"]),
 ])

@@ -15,8 +15,8 @@ from dataclasses import replace
 import numpy as np
 import pytest
 
-from app.components.comparison import COLUMNS, comparison_table
-from app.components.dynamics import equilibria_table
+from growthcore.app.components.comparison import COLUMNS, comparison_table
+from growthcore.app.components.dynamics import equilibria_table
 from growthcore.cli import main
 from growthcore.compare import compare
 from growthcore.dynamics import analyse

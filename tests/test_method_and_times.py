@@ -14,8 +14,8 @@ import math
 import numpy as np
 import pytest
 
-from app.callbacks.dynamics.bootstrap import bootstrap_step, start_run
-from app.components.dynamics import derived_table
+from growthcore.app.callbacks.dynamics.bootstrap import bootstrap_step, start_run
+from growthcore.app.components.dynamics import derived_table
 from growthcore.batch import fit_batch
 from growthcore.batch.dataset import BatchData
 from growthcore.batch.ftest import difference_test_for_batch
@@ -92,8 +92,8 @@ def test_monomolecular_has_no_doubling_time_and_says_why() -> None:
 
 
 def test_bootstrap_time_is_the_time_waited(monkeypatch) -> None:
-    import app.callbacks.dynamics.bootstrap as D
-    from app.callbacks.fits import compute_fits
+    import growthcore.app.callbacks.dynamics.bootstrap as D
+    from growthcore.app.callbacks.fits import compute_fits
 
     s = uspop()
     data = {"key": "k", "t": list(s.t), "p": list(s.p), "name": s.name}

@@ -64,8 +64,8 @@ def test_trajectory_profile_end_is_a_root_of_the_profile() -> None:
 
 
 def test_the_screen_names_both_cuts() -> None:
-    from app.callbacks.fits import compute_fits
-    from app.components.comparison import parameter_lines
+    from growthcore.app.callbacks.fits import compute_fits
+    from growthcore.app.components.comparison import parameter_lines
 
     s = uspop()
     data = {"key": "k", "t": list(s.t), "p": list(s.p), "name": s.name}

@@ -9,12 +9,17 @@ from __future__ import annotations
 import pytest
 from dash import no_update
 
-from app import ids
-from app.callbacks.batch_tables import ftest_reply
-from app.callbacks.dynamics.forecast import compute_forecast, forecast_is_stale, forecast_request, fresh_inputs
-from app.callbacks.fits import compute_fits
-from app.callbacks.live import View, panel_seven
-from app.server import create_app
+from growthcore.app import ids
+from growthcore.app.callbacks.batch_tables import ftest_reply
+from growthcore.app.callbacks.dynamics.forecast import (
+    compute_forecast,
+    forecast_is_stale,
+    forecast_request,
+    fresh_inputs,
+)
+from growthcore.app.callbacks.fits import compute_fits
+from growthcore.app.callbacks.live import View, panel_seven
+from growthcore.app.server import create_app
 from tests.open_data import data_store, lynx, uspop
 
 SETTINGS = {"models": ["ricker"], "method": "increments", "error": "additive", "k_mode": "fitted", "terms": []}

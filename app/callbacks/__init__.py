@@ -10,12 +10,12 @@ from __future__ import annotations
 
 from dash import Dash
 
-from app.callbacks import export as export_callbacks
-from app.callbacks import population as population_callbacks
-from app.callbacks import batch_tables, comparison, data, exclusions, explore, highlight, live, panels, settings
-from app.callbacks.dynamics import bootstrap, describe, forecast
-from app.callbacks.series import choose, groups, overview, read, run
-from app.request_budget import BudgetedRegistration
+from ..request_budget import BudgetedRegistration
+from . import batch_tables, comparison, data, exclusions, explore, highlight, live, panels, settings
+from . import export as export_callbacks
+from . import population as population_callbacks
+from .dynamics import bootstrap, describe, forecast
+from .series import choose, groups, overview, read, run
 
 MODULES = (data, settings, live, exclusions, explore, panels, comparison, highlight, export_callbacks,
            describe, bootstrap, forecast, read, groups, run, overview, choose, batch_tables, population_callbacks)

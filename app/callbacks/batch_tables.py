@@ -13,16 +13,17 @@ from typing import Any, Mapping, Sequence
 from dash import Dash, Input, Output, State, ctx, dcc, html, no_update
 from dash.exceptions import PreventUpdate
 
-from app import ids
-from app.callbacks.series.read import series_from_plain
-from app.callbacks.series.run import merged_fits
-from app.heavy import bounded_of, direct
 from growthcore.batch import group_difference_test
 from growthcore.batch.summary import summarise_groups
 from growthcore.errors import GrowthcoreInputError
 from growthcore.figures.plain import fit_label_parts
 from growthcore.io import csv_text
 from growthcore.models.catalogue import get_form
+
+from .. import ids
+from ..heavy import bounded_of, direct
+from .series.read import series_from_plain
+from .series.run import merged_fits
 
 LEAD = ("series", "group", "form", "status", "message")
 LARGE_TEST = 96  # series above which the F test's reply points to the command line as well

@@ -8,10 +8,11 @@ from typing import Any, Mapping
 
 from dash import no_update
 
-from app import ids
-from app.state import series_from_store
 from growthcore.explore import capacity_flag, capacity_from_fit, capacity_range
 from growthcore.figures.trajectory import capacity_from_relayout
+
+from .. import ids
+from ..state import series_from_store
 
 
 def _marks(low: float, high: float) -> dict[str, str]:

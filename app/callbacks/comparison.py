@@ -6,9 +6,9 @@ from typing import Any, Mapping
 
 from dash import ALL, ClientsideFunction, Dash, Input, Output, State, html
 
-from app import ids
-from app.callbacks.dynamics.bootstrap import boot_intervals
-from app.components.comparison import comparison_table
+from .. import ids
+from ..components.comparison import comparison_table
+from .dynamics.bootstrap import boot_intervals
 
 
 def draw_comparison(fits_store: Mapping[str, Any] | None, sort: Mapping[str, Any] | None,

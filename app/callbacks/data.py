@@ -9,14 +9,15 @@ from typing import Any, Mapping
 
 from dash import Dash, Input, Output, State, ctx, html, no_update
 
-from app import ids
-from app.callbacks.exclusions import update_exclusions
-from app.heavy import direct, runner_of
-from app.state import data_to_store
 from growthcore.errors import ChoiceNotFound, GrowthcoreInputError, ImportFailure
 from growthcore.io import load_bytes
 from growthcore.limits import DEFAULT as DEFAULT_LIMITS
 from growthcore.limits import Limits
+
+from .. import ids
+from ..heavy import direct, runner_of
+from ..state import data_to_store
+from .exclusions import update_exclusions
 
 DEFAULT_MAX_BYTES = 10_000_000
 

@@ -6,9 +6,9 @@ from typing import Any, Mapping
 
 from dash import ALL, Dash, Input, Output, State, ctx, no_update
 
-from app import ids
-from app.components.exclusions import exclusion_items
-from app.state import empty_exclusions, restore_exclusion, toggle_exclusion, undo_exclusion
+from .. import ids
+from ..components.exclusions import exclusion_items
+from ..state import empty_exclusions, restore_exclusion, toggle_exclusion, undo_exclusion
 
 
 def clicked_index(click: Mapping[str, Any] | None) -> int | None:

@@ -6,13 +6,14 @@ from typing import Any, Mapping
 
 from dash import Dash, Input, Output, State, html
 
-from app import ids
-from app.components.comparison import fmt
-from app.state import series_from_store
 from growthcore.errors import GrowthcoreInputError
 from growthcore.explore import Candidate, CandidateFit, candidate_fit, candidates_for, change_table
 from growthcore.figures.common import message_figure
 from growthcore.figures.explore import candidate_figure, change_figure
+
+from .. import ids
+from ..components.comparison import fmt
+from ..state import series_from_store
 
 
 def labels_of(data: Mapping[str, Any], *, h: float | None = None) -> dict[str, Any]:

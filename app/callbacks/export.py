@@ -18,24 +18,25 @@ from typing import Any, Mapping, Sequence
 
 from dash import ClientsideFunction, Dash, Input, Output, State, html, no_update
 
-from app import ids
-from app.heavy import runner_of
-from app.callbacks.data import summary
-from app.callbacks.fits import held_capacity, session_fits
-from app.callbacks.settings import expand_forms
-from app.state import data_to_store, empty_exclusions
 from growthcore.cli import fit_uncertainty
 from growthcore.compare import compare, comparison_notes
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.io.report import ImportResult
+from growthcore.limits import DEFAULT as LIMITS
 from growthcore.record import DataSource, build_record, seal
 from growthcore.reopen import RecordError, parse_record, reopen
 from growthcore.report.images import PANEL_SIZES, SHEET_SIZES
-from growthcore.report.panels import export_view, panel_figures, summary_sheets
 from growthcore.report.page import report_html
-from growthcore.limits import DEFAULT as LIMITS
+from growthcore.report.panels import export_view, panel_figures, summary_sheets
 from growthcore.report.tables import residual_csv_text
+
+from .. import ids
+from ..heavy import runner_of
+from ..state import data_to_store, empty_exclusions
+from .data import summary
+from .fits import held_capacity, session_fits
+from .settings import expand_forms
 
 #: The dashboard's exploration panels have no counterpart in the record; they are drawn from the
 #: session as the screen shows them (a panel with nothing to show is left out, and not announced).
@@ -147,7 +148,7 @@ def view_options(scale: str | None = None, path_from: str | None = None, change_
 def live_figures(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, settings: Mapping[str, Any],
                  capacity: float | None, view: Mapping[str, Any]) -> dict[str, Any]:
     """Panels 1 and 2 as the screen draws them, titled for a file; a panel with nothing to show is left out."""
-    from app.callbacks.explore import explore_panels
+    from .explore import explore_panels
 
     change, candidate, _readout = explore_panels(data, exclusions, settings, capacity, view["change_axis"],
                                                  view["scale"])

@@ -5,15 +5,16 @@ from __future__ import annotations
 
 from typing import Any, Mapping, Sequence
 
-from app.callbacks.capacity import rounded
-from app.state import rows_to_store, series_from_store
 from growthcore.compare import compare, comparison_notes
-from growthcore.errors import GrowthcoreInputError
 from growthcore.data import Series
+from growthcore.errors import GrowthcoreInputError
 from growthcore.figures.plain import fit_to_store
 from growthcore.fit import FitResult
 from growthcore.fit.forms import fit_forms
 from growthcore.limits import DEFAULT as LIMITS
+
+from ..state import rows_to_store, series_from_store
+from .capacity import rounded
 
 
 def held_capacity(settings: Mapping[str, Any], capacity: float | None) -> float | None:

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from dash import ClientsideFunction, Dash, Input, Output
 
-from app import ids
+from .. import ids
 
 
 def register(app: Dash) -> None:

@@ -16,17 +16,17 @@ from typing import Any, Mapping, Sequence
 from dash import ClientsideFunction, Dash, Input, Output, State, ctx, no_update
 from dash.exceptions import PreventUpdate
 
-from app import ids
-from app.callbacks.capacity import pending_capacity, update_capacity
-from app.callbacks.comparison import draw_comparison
-from app.callbacks.dynamics.bootstrap import progress_view
-from app.callbacks.dynamics.describe import dynamics_view
-from app.callbacks.dynamics.forecast import compute_forecast, forecast_is_stale
-from app.callbacks.dynamics.which_fit import choose_fit
-from app.callbacks.explore import explore_parts
-from app.callbacks.fits import compute_fits, held_capacity
-from app.callbacks.panels import draw_panels, with_forecast
-from app.state import series_from_store
+from .. import ids
+from ..state import series_from_store
+from .capacity import pending_capacity, update_capacity
+from .comparison import draw_comparison
+from .dynamics.bootstrap import progress_view
+from .dynamics.describe import dynamics_view
+from .dynamics.forecast import compute_forecast, forecast_is_stale
+from .dynamics.which_fit import choose_fit
+from .explore import explore_parts
+from .fits import compute_fits, held_capacity
+from .panels import draw_panels, with_forecast
 
 #: The inputs that move K (the others are the data, the points used and the choices).
 K_TRIGGERS = (ids.K_INPUT, ids.K_SLIDER, ids.K_DROP)

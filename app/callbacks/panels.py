@@ -6,15 +6,16 @@ from typing import Any, Mapping
 
 from dash import Dash, Input, Output, State, html
 
-from app import ids
-from app.callbacks.dynamics.forecast import band_on_trajectory
-from app.callbacks.explore import labels_of
-from app.components.form_key import form_key_view
-from app.state import series_from_store
 from growthcore.figures.common import form_key, message_figure
 from growthcore.figures.plain import STEPS_AHEAD
 from growthcore.figures.residuals import observed_predicted_figure, residual_fitted_figure, residual_time_figure
 from growthcore.figures.trajectory import PATH_NAMES, trajectory_figure
+
+from .. import ids
+from ..components.form_key import form_key_view
+from ..state import series_from_store
+from .dynamics.forecast import band_on_trajectory
+from .explore import labels_of
 
 
 def misfit_flag(fits: list[Mapping[str, Any]]) -> list[Any]:

@@ -12,16 +12,17 @@ from typing import Any, Mapping, Sequence
 from dash import Dash, Input, Output, State, html
 from dash.exceptions import PreventUpdate
 
-from app import ids
-from app.callbacks.data import server_limits
-from app.callbacks.series.read import series_from_plain
-from app.heavy import direct, runner_of
 from growthcore.errors import GrowthcoreInputError
 from growthcore.figures.population import forest_plot, population_curves
 from growthcore.limits import DEFAULT, refuse
 from growthcore.mixed import PopulationFit, fit_population, likelihood_ratio_test
 from growthcore.mixed.curves import forest_rows, population_view
 from growthcore.models import get_form
+
+from .. import ids
+from ..heavy import direct, runner_of
+from .data import server_limits
+from .series.read import series_from_plain
 
 EMPTY = {"data": [], "layout": {}}
 

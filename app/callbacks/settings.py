@@ -6,10 +6,11 @@ from typing import Any, Sequence
 
 from dash import Dash, Input, Output, html
 
-from app import ids
 from growthcore.errors import ExpressionError, GrowthcoreInputError
 from growthcore.expr import parse_term
 from growthcore.models import get_form
+
+from .. import ids
 
 
 def check_terms(text: str | None) -> tuple[list[str], list[str]]:

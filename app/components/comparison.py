@@ -7,7 +7,7 @@ from typing import Any, Mapping, Sequence
 
 from dash import html
 
-from app import ids
+from .. import ids
 
 #: Sortable columns: key in a comparison row, header text, and what the header's tooltip says.
 COLUMNS: tuple[tuple[str, str, str], ...] = (

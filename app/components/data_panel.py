@@ -4,9 +4,10 @@ from __future__ import annotations
 
 from dash import dcc, html
 
-from app import ids
-from app.components.series import picker
 from growthcore.io.loader import TIME_UNITS
+
+from .. import ids
+from .series import picker
 
 #: The replicate rules as the page offers them.
 REPLICATE_CHOICES = (

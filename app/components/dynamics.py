@@ -8,10 +8,11 @@ from typing import Any, Callable, Mapping, Sequence
 
 from dash import dcc, html
 
-from app import ids
-from app.components.panels import GRAPH_CONFIG
 from growthcore.timeaxis import is_time_point
 from growthcore.uncertainty import DEFAULT_RESAMPLES, DEFAULT_SEED, FORECAST_CAUTION
+
+from .. import ids
+from .panels import GRAPH_CONFIG
 
 #: Upper limit of resamples one run may ask for (the refits travel through the browser store).
 MAX_RESAMPLES = 10_000

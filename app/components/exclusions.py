@@ -6,7 +6,7 @@ from typing import Any, Mapping
 
 from dash import dcc, html
 
-from app import ids
+from .. import ids
 
 
 def exclusions_section() -> html.Section:

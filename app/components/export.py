@@ -4,8 +4,9 @@ from __future__ import annotations
 
 from dash import dcc, html
 
-from app import ids
 from growthcore.report.images import PANEL_SIZES, SHEET_SIZES
+
+from .. import ids
 
 FILES = (
     ("record", "fit record (JSON)"),

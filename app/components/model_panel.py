@@ -4,8 +4,9 @@ from __future__ import annotations
 
 from dash import dcc, html
 
-from app import ids
 from growthcore.models import catalogue
+
+from .. import ids
 
 DEFAULT_FORMS = ("logistic", "gompertz", "ricker", "beverton-holt")
 METHOD_OPTIONS = (

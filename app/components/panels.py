@@ -6,7 +6,7 @@ from typing import Any
 
 from dash import dcc, html
 
-from app import ids
+from .. import ids
 
 GRAPH_CONFIG: dict[str, Any] = {
     "displaylogo": False,

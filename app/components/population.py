@@ -4,9 +4,10 @@ from __future__ import annotations
 
 from dash import dcc, html
 
-from app import ids
-from app.components.panels import GRAPH_CONFIG
 from growthcore.models.curves import CURVE_FORMS
+
+from .. import ids
+from .panels import GRAPH_CONFIG
 
 DEFAULT_FORM = "logistic-mid-curve"
 

@@ -7,9 +7,9 @@ from __future__ import annotations
 
 from dash import dcc, html
 
-from app import ids
-from app.components.panels import GRAPH_CONFIG
-from app.components.population import population_box
+from .. import ids
+from .panels import GRAPH_CONFIG
+from .population import population_box
 
 GROUP_MODES = (
     ("none", "none"),

@@ -28,7 +28,7 @@ def run(args: argparse.Namespace) -> int:
         raise GrowthcoreInputError(f"--port must be between 1 and 65535; got {args.port}")
     if args.max_upload_mb <= 0:
         raise GrowthcoreInputError(f"--max-upload-mb must be positive; got {args.max_upload_mb:g}")
-    from app.server import create_app, serve  # the dashboard loads only for this command
+    from growthcore.app.server import create_app, serve  # the dashboard loads only for this command
 
     app = create_app(args.data, max_upload_bytes=int(args.max_upload_mb * 1_000_000))
     try:

@@ -278,7 +278,7 @@ def main() -> int:
     args = ap.parse_args()
     from waitress import create_server
 
-    from app.server import create_app
+    from growthcore.app.server import create_app
 
     app = create_app()
     port = _free_port()

@@ -21,13 +21,13 @@ import numpy as np
 
 sys.path.insert(0, os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__)))))
 
-from app import ids  # noqa: E402
-from app.callbacks.capacity import update_capacity  # noqa: E402
-from app.callbacks.comparison import draw_comparison  # noqa: E402
-from app.callbacks.explore import explore_panels  # noqa: E402
-from app.callbacks.fits import compute_fits  # noqa: E402
-from app.callbacks.panels import draw_panels  # noqa: E402
-from app.callbacks.settings import build_settings  # noqa: E402
+from growthcore.app import ids  # noqa: E402
+from growthcore.app.callbacks.capacity import update_capacity  # noqa: E402
+from growthcore.app.callbacks.comparison import draw_comparison  # noqa: E402
+from growthcore.app.callbacks.explore import explore_panels  # noqa: E402
+from growthcore.app.callbacks.fits import compute_fits  # noqa: E402
+from growthcore.app.callbacks.panels import draw_panels  # noqa: E402
+from growthcore.app.callbacks.settings import build_settings  # noqa: E402
 
 FORMS = ["logistic", "gompertz", "ricker", "beverton-holt"]
 LIVE_TARGET_MS = 50.0

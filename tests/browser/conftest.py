@@ -80,7 +80,7 @@ def free_port() -> int:
 def server_url() -> Iterator[str]:
     from waitress import create_server
 
-    from app.server import create_app
+    from growthcore.app.server import create_app
 
     app = create_app()
     port = free_port()

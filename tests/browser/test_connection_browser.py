@@ -30,7 +30,7 @@ def own_server():
     """A server of this test's own, so that it can be stopped while the tab stays open."""
     from waitress import create_server
 
-    from app.server import create_app
+    from growthcore.app.server import create_app
 
     app = create_app()
     port = free_port()

@@ -13,11 +13,11 @@ from typing import Any
 
 import pytest
 
-from app.callbacks import export as ex
-from app.callbacks.capacity import update_capacity
-from app.callbacks.data import import_source
-from app.callbacks.settings import build_settings
-from app.server import DEMO_FILE, read_source
+from growthcore.app.callbacks import export as ex
+from growthcore.app.callbacks.capacity import update_capacity
+from growthcore.app.callbacks.data import import_source
+from growthcore.app.callbacks.settings import build_settings
+from growthcore.app.server import DEMO_FILE, read_source
 from growthcore.report.panels import comparison_columns, key_constant_columns
 from tests.browser.page import wait
 

@@ -16,11 +16,11 @@ from typing import Any
 
 import pytest
 
-from app.callbacks.data import import_source
-from app.callbacks.explore import explore_parts
-from app.callbacks.fits import compute_fits
-from app.callbacks.live import preview_inputs
-from app.server import DEMO_FILE, read_source
+from growthcore.app.callbacks.data import import_source
+from growthcore.app.callbacks.explore import explore_parts
+from growthcore.app.callbacks.fits import compute_fits
+from growthcore.app.callbacks.live import preview_inputs
+from growthcore.app.server import DEMO_FILE, read_source
 from tests.browser import page
 from tests.open_data import data_store, lynx, uspop
 

@@ -9,14 +9,15 @@ from typing import Any, Mapping, Sequence
 
 from dash import Dash, Input, Output, State, ctx, html, no_update
 
-from app import ids
-from app.callbacks.data import server_limits
-from app.callbacks.dynamics.which_fit import find_fit, fit_signature, rebuild
-from app.components.dynamics import MAX_RESAMPLES, intervals_table
-from app.heavy import direct, runner_of
-from app.ticks import allow_next_tick, cancel_pressed, seconds_since
 from growthcore.errors import GrowthcoreInputError
 from growthcore.uncertainty import BootstrapResult, bootstrap
+
+from ... import ids
+from ...components.dynamics import MAX_RESAMPLES, intervals_table
+from ...heavy import direct, runner_of
+from ...ticks import allow_next_tick, cancel_pressed, seconds_since
+from ..data import server_limits
+from .which_fit import find_fit, fit_signature, rebuild
 
 #: First chunk of a run; later chunks are sized so that each answer takes about TARGET_SECONDS.
 FIRST_CHUNK = 50

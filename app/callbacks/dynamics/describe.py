@@ -8,10 +8,6 @@ from typing import Any, Callable, Mapping, Sequence
 
 from dash import ClientsideFunction, Dash, Input, Output, State, html, no_update
 
-from app import ids
-from app.callbacks.dynamics.which_fit import done_for, find_fit, fit_signature, rebuild
-from app.callbacks.explore import labels_of
-from app.components.dynamics import DERIVED_ROWS, correlation_table, derived_table, equilibria_table
 from growthcore.dynamics import analyse, cobweb, sweep
 from growthcore.errors import GrowthcoreInputError
 from growthcore.figures.common import message_figure, rate_unit
@@ -19,6 +15,11 @@ from growthcore.figures.dynamics import cobweb_figure, sweep_figure
 from growthcore.models.base import DifferenceForm
 from growthcore.timeaxis import calendar_origin, is_calendar_years, time_point_text
 from growthcore.uncertainty import derived_intervals
+
+from ... import ids
+from ...components.dynamics import DERIVED_ROWS, correlation_table, derived_table, equilibria_table
+from ..explore import labels_of
+from .which_fit import done_for, find_fit, fit_signature, rebuild
 
 
 def _units(data: Mapping[str, Any]) -> dict[str, str]:

@@ -9,13 +9,14 @@ from typing import Any, Mapping, Sequence
 from dash import Dash, Input, Output, State, ctx, html, no_update
 from dash.exceptions import PreventUpdate
 
-from app import ids
-from app.callbacks.dynamics.which_fit import done_for, find_fit, fit_signature, rebuild
-from app.components.dynamics import fmt
 from growthcore.errors import GrowthcoreInputError
 from growthcore.figures.common import fit_styles
 from growthcore.figures.dynamics import with_forecast_band
 from growthcore.uncertainty import forecast
+
+from ... import ids
+from ...components.dynamics import fmt
+from .which_fit import done_for, find_fit, fit_signature, rebuild
 
 MAX_FORECAST_STEPS = 2000
 

@@ -12,12 +12,13 @@ import hashlib
 import json
 from typing import Any, Mapping, Sequence
 
-from app.state import series_from_store
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import FitResult
 from growthcore.fit.forms import fit_forms
 from growthcore.uncertainty import BootstrapResult
+
+from ...state import series_from_store
 
 
 def fit_signature(fits_store: Mapping[str, Any], fit: Mapping[str, Any]) -> str:

@@ -8,10 +8,10 @@ from typing import Any, Mapping, Sequence
 from dash import ClientsideFunction, Dash, Input, Output, Patch, State, ctx, no_update
 from dash.exceptions import PreventUpdate
 
-from app import ids
-from app.callbacks.series.groups import members
-from app.callbacks.series.overview import highlight_shape, plate_highlight
-from app.components.series import ALL_GROUPS
+from ... import ids
+from ...components.series import ALL_GROUPS
+from .groups import members
+from .overview import highlight_shape, plate_highlight
 
 
 def clicked_series(click: Mapping[str, Any] | None) -> str | None:

@@ -6,14 +6,15 @@ from typing import Any, Mapping
 
 from dash import Dash, Input, Output, html
 
-from app import ids
-from app.callbacks.data import server_limits
-from app.components.series import ALL_GROUPS
 from growthcore.batch import groups_from_conditions, groups_from_pattern
 from growthcore.errors import GrowthcoreInputError
 from growthcore.io import ImportReport
 from growthcore.limits import DEFAULT as DEFAULT_LIMITS
 from growthcore.limits import Limits
+
+from ... import ids
+from ...components.series import ALL_GROUPS
+from ..data import server_limits
 
 
 def compute_groups(mode: str | None, text: str | None, batch: Mapping[str, Any] | None, *,

@@ -9,15 +9,16 @@ from typing import Any, Mapping, Sequence
 from dash import Dash, Input, Output, State, ctx, html
 from dash.exceptions import PreventUpdate
 
-from app import ids
-from app.callbacks.series.groups import members
-from app.callbacks.series.read import series_from_plain
-from app.callbacks.series.run import merged_fits
-from app.ticks import stopped
 from growthcore.batch import parse_well
 from growthcore.batch.table import METRICS
 from growthcore.figures.batch import data_ranges, overview_grid, plate_map
 from growthcore.numbers import finite_or_none
+
+from ... import ids
+from ...ticks import stopped
+from .groups import members
+from .read import series_from_plain
+from .run import merged_fits
 
 PAGE = 96               # panels per page of the overview grid
 GRID_REDRAW_S = 3.0     # while a run goes on, the grid (slow to draw in the browser) is redrawn at most this often

@@ -10,16 +10,17 @@ import numpy as np
 from dash import Dash, Input, Output, State
 from dash.exceptions import PreventUpdate
 
-from app import ids
-from app.callbacks.data import DEFAULT_MAX_BYTES, decode_source, server_limits, value_columns
-from app.heavy import direct, runner_of
-from app.state import check_points
 from growthcore.batch import plate_format
 from growthcore.data import Series
 from growthcore.io import load_bytes
 from growthcore.limits import DEFAULT as DEFAULT_LIMITS
 from growthcore.limits import Limits
 from growthcore.numbers import finite_or_none
+
+from ... import ids
+from ...heavy import direct, runner_of
+from ...state import check_points
+from ..data import DEFAULT_MAX_BYTES, decode_source, server_limits, value_columns
 
 
 def series_to_plain(s: Series) -> dict[str, Any]:

@@ -14,16 +14,17 @@ import numpy as np
 from dash import Dash, Input, Output, Patch, State, html, no_update
 from dash.exceptions import PreventUpdate
 
-from app import ids
-from app.callbacks.series.read import series_from_plain
-from app.heavy import direct, runner_of
-from app.ticks import allow_next_tick, seconds_since, stopped
 from growthcore.batch import fit_batch, from_series
 from growthcore.batch.table import METRICS, row
 from growthcore.batch.views import overview_panels
 from growthcore.errors import GrowthcoreInputError
 from growthcore.figures.plain import fit_label
 from growthcore.limits import DEFAULT as DEFAULT_LIMITS
+
+from ... import ids
+from ...heavy import direct, runner_of
+from ...ticks import allow_next_tick, seconds_since, stopped
+from .read import series_from_plain
 
 CHUNK_MIN = 16          # series per tick at least ...
 CHUNK_TICKS = 12        # ... and about this many ticks for a large file
