@@ -32,3 +32,21 @@ class ChoiceNotFound(ImportFailure):
 
     def __reduce__(self) -> tuple[type, tuple[str, str]]:  # crosses to and from worker processes
         return (type(self), (str(self), self.choice))
+
+
+class PlanError(GrowthcoreInputError):
+    """A choice of an analysis plan out of range. ``settings`` are the names of the choices the message
+    speaks of (as a record's settings name them); ``template`` holds ``{0}``, ``{1}``, … where they stand,
+    so that the command line can say the same in its option names (see :meth:`named`)."""
+
+    def __init__(self, template: str, *settings: str) -> None:
+        self.template = template
+        self.settings = settings
+        super().__init__(template.format(*settings))
+
+    def named(self, names: dict[str, str]) -> str:
+        """The message with each setting called by its name in ``names`` (setting → name)."""
+        return self.template.format(*(names.get(s, s) for s in self.settings))
+
+    def __reduce__(self) -> tuple[type, tuple[str, ...]]:  # crosses to and from worker processes
+        return (type(self), (self.template, *self.settings))

@@ -37,7 +37,7 @@ RTOL = 1e-6
 _TEXT_KEYS = frozenset({"message", "notes", "equation", "description", "unit", "warnings"})
 #: How a fit reached its optimum, not what the optimum is: not compared (older records lack them).
 _HOW_KEYS = frozenset({"solver", "nfev"})
-#: Members written by steps after the fit (growthcore.cli.fit_uncertainty); a plain refit does not
+#: Members written by the steps after the fit (growthcore.workflow); a plain refit does not
 #: remake them.
 LATER_KEYS = frozenset({"dynamics", "forecast", "forecast_notes", "bootstrap", "derived_intervals", "ci95_bootstrap"})
 
