@@ -11,11 +11,11 @@ from functools import cache
 from pathlib import Path
 from typing import Any
 
-from growthcore.cli.fit_cmd import run_fits
 from growthcore.compare import compare, comparison_notes
 from growthcore.data import Series
 from growthcore.io import load_file
 from growthcore.record import DataSource, build_record, seal
+from growthcore.workflow import Plan, fit_plan
 
 ROOT = Path(__file__).resolve().parent.parent
 SAMPLES = ROOT / "sample_data"
@@ -27,7 +27,9 @@ def make_record(series: Series, models: list[str], methods: list[str], *, error:
                 profile: bool = True) -> dict[str, Any]:
     """The record ``growthcore fit`` writes (without the later uncertainty members), as parsed JSON."""
     terms = terms or []
-    fits = run_fits(series, models, methods, error=error, capacity=capacity, terms=terms, profile=profile)
+    plan = Plan(models=tuple(models), method="both" if len(methods) > 1 else methods[0], error=error,
+                capacity=capacity, terms=tuple(terms), profile=profile)
+    fits = list(fit_plan(series, plan).results)
     settings = {"models": models, "methods": methods, "error": error, "capacity": capacity, "terms": terms,
                 "profile": profile}
     record = build_record(series, fits, source=source, settings=settings)

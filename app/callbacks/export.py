@@ -1,13 +1,12 @@
 """Export of the chosen fits (record, PNGs, residual CSV, HTML report) and reopening a record.
 
-The record is made exactly as ``growthcore fit`` makes it (same fits, comparison, dynamics and
-settings) from the session's stores, so the command line can recompute it. PNGs are drawn in the
+The record is made by the one workflow ``growthcore fit`` takes (growthcore.workflow), from the plan
+of the session's stores, so the command line can recompute it. PNGs are drawn in the
 browser by plotly.js (assets/export.js); the server only sends the figures and their sizes.
 """
 
 from __future__ import annotations
 
-import argparse
 import base64
 import binascii
 import dataclasses
@@ -18,24 +17,25 @@ from typing import Any, Mapping, Sequence
 
 from dash import ClientsideFunction, Dash, Input, Output, State, html, no_update
 
-from growthcore.cli import fit_uncertainty
-from growthcore.compare import compare, comparison_notes
+from growthcore import workflow
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.io.report import ImportResult
 from growthcore.limits import DEFAULT as LIMITS
-from growthcore.record import DataSource, build_record, seal
+from growthcore.record import DataSource
 from growthcore.reopen import RecordError, parse_record, reopen
 from growthcore.report.images import PANEL_SIZES, SHEET_SIZES
 from growthcore.report.page import report_html
 from growthcore.report.panels import export_view, panel_figures, summary_sheets
 from growthcore.report.tables import residual_csv_text
+from growthcore.uncertainty import DEFAULT_SEED
+from growthcore.workflow import Extras
 
 from .. import ids
 from ..heavy import runner_of
-from ..state import data_to_store, empty_exclusions
+from ..state import data_to_store, empty_exclusions, series_from_store
 from .data import summary
-from .fits import held_capacity, session_fits
+from .fits import session_plan
 from .settings import expand_forms
 
 #: The dashboard's exploration panels have no counterpart in the record; they are drawn from the
@@ -54,61 +54,42 @@ MAX_RECORD_UPLOAD = 4 * (LIMITS.max_record_bytes // 3 + 1)
 # The record of a session
 
 
-def record_settings(settings: Mapping[str, Any], capacity: float | None, models: Sequence[str]) -> dict[str, Any]:
-    """The run-wide settings in the command line's terms, plus the K shown in the exploration panels."""
-    method = settings.get("method", "increments")
-    return {
-        "models": list(models),
-        "methods": ["increments", "trajectory"] if method == "both" else [method],
-        "error": settings.get("error", "additive"),
-        "capacity": held_capacity(settings, capacity),
-        "terms": list(settings.get("terms", [])),
-        "profile": settings.get("k_mode", "fitted") != "held",
-        "capacity_estimate": float(capacity) if capacity is not None else None,
-    }
-
-
 def later_steps(forecast_store: Mapping[str, Any] | None = None,
-                boot_done: Mapping[str, Any] | None = None) -> argparse.Namespace:
-    """The ``fit`` options of the uncertainty step that reproduce what the dynamics panel shows.
+                boot_done: Mapping[str, Any] | None = None) -> Extras:
+    """The later steps of the plan that reproduce what the dynamics panel shows.
 
     Its latest finished (or cancelled) bootstrap gives the resamples done and the seed; resample b is
     seeded by (seed, b), so the record's refits are the panel's. Its drawn forecast gives the steps or
     span and the bound. As on the command line, both apply to every exported form.
     """
-    args = argparse.Namespace(bootstrap=None, seed=fit_uncertainty.DEFAULT_SEED, forecast=None,
-                              forecast_span=None, bound=None, level=[])
+    resamples, seed = None, DEFAULT_SEED
     finished = [entry.get("summary") or {} for entry in (boot_done or {}).values()]
     finished = [s for s in finished if s.get("done")]
     if finished:
-        args.bootstrap = int(finished[-1]["done"])
-        args.seed = int(finished[-1].get("seed", args.seed))
+        resamples = int(finished[-1]["done"])
+        seed = int(finished[-1].get("seed", seed))
     request = (forecast_store or {}).get("request") or {}
-    if request.get("mode") == "steps":
-        args.forecast = int(request["amount"])
-    elif request.get("mode") == "span":
-        args.forecast_span = float(request["amount"])
-    if request:
-        args.bound = request.get("bound")
-    return args
+    steps = int(request["amount"]) if request.get("mode") == "steps" else None
+    span = float(request["amount"]) if request.get("mode") == "span" else None
+    return Extras(bootstrap=resamples, seed=seed, forecast_steps=steps, forecast_span=span,
+                  bound=request.get("bound") if request else None)
 
 
 def session_record(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, settings: Mapping[str, Any],
                    capacity: float | None, *, forms: Sequence[str] | None = None,
                    created: _dt.datetime | None = None, forecast_store: Mapping[str, Any] | None = None,
                    boot_done: Mapping[str, Any] | None = None) -> dict[str, Any]:
-    """The sealed fit record of the session's chosen forms: the same members ``growthcore fit`` writes."""
-    series, fits, _notes = session_fits(data, exclusions, settings, capacity, forms)
-    models = [m for m in settings.get("models", []) if forms is None or m in forms]
+    """The sealed fit record of the session's chosen forms: the plan of the stores, carried out as
+    ``growthcore fit`` carries out the plan of its options (a form the engine refuses is left out)."""
+    plan = session_plan(settings, capacity, forms=forms, extras=later_steps(forecast_store, boot_done))
     report = data.get("report") or {}
     source = DataSource(str(report.get("source", data.get("source", ""))), str(data.get("sha256", "")),
                         dict(report) if report else None)
-    run = {**record_settings(settings, capacity, models),
-           "replicates": report.get("replicates", (data.get("choices") or {}).get("replicates", "all"))}
-    record = build_record(series, fits, source=source, settings=run, created=created)
-    record["comparison"] = {"rows": [r.to_dict() for r in compare(fits)], "notes": comparison_notes(fits)}
-    fit_uncertainty.apply(later_steps(forecast_store, boot_done), series, fits, record, quiet=True)
-    return seal(record)
+    # the K shown in the exploration panels, and how replicates were read: beside the plan's settings
+    provenance = {"capacity_estimate": float(capacity) if capacity is not None else None,
+                  "replicates": report.get("replicates", (data.get("choices") or {}).get("replicates", "all"))}
+    return workflow.run(series_from_store(data, exclusions), plan, source=source, provenance=provenance,
+                        created=created, skip_refused=True).record
 
 
 # --------------------------------------------------------------------------------------------

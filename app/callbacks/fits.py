@@ -10,8 +10,8 @@ from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.figures.plain import fit_to_store
 from growthcore.fit import FitResult
-from growthcore.fit.forms import fit_forms
 from growthcore.limits import DEFAULT as LIMITS
+from growthcore.workflow import Extras, Plan, fit_plan
 
 from ..state import rows_to_store, series_from_store
 from .capacity import rounded
@@ -23,6 +23,17 @@ def held_capacity(settings: Mapping[str, Any], capacity: float | None) -> float 
     return capacity if held and capacity is not None and capacity > 0 else None
 
 
+def session_plan(settings: Mapping[str, Any], capacity: float | None, *, forms: Sequence[str] | None = None,
+                 extras: Extras | None = None) -> Plan:
+    """The plan of the session's choices for the chosen ``forms`` (all when None): K held at ``capacity``
+    with no profile when K is held, else fitted and profiled."""
+    held = settings.get("k_mode", "fitted") == "held"
+    return Plan(models=tuple(m for m in settings.get("models", []) if forms is None or m in forms),
+                method=settings.get("method", "increments"), error=settings.get("error", "additive"),
+                capacity=held_capacity(settings, capacity), terms=tuple(settings.get("terms", [])),
+                profile=not held, extras=extras or Extras())
+
+
 def session_fits(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, settings: Mapping[str, Any],
                  capacity: float | None, forms: Sequence[str] | None = None) -> tuple[Series, list[FitResult], list[str]]:
     """The series and the fits of the chosen ``forms`` (all when None), as the panels show them.
@@ -30,19 +41,8 @@ def session_fits(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, 
     Returns the fits and a note per form the engine refused (as the comparison notes show it).
     """
     series = series_from_store(data, exclusions)
-    k = held_capacity(settings, capacity)
-    held = settings.get("k_mode", "fitted") == "held"
-    chosen = [m for m in settings.get("models", []) if forms is None or m in forms]
-    fits: list[FitResult] = []
-    notes: list[str] = []
-    for model in chosen:
-        try:
-            fits.extend(fit_forms(series, [model], method=settings.get("method", "increments"),
-                                  error=settings.get("error", "additive"), capacity=k,
-                                  terms=settings.get("terms", []), profile=not held))
-        except GrowthcoreInputError as exc:
-            notes.append(f"{model}: {str(exc).splitlines()[0]}")
-    return series, fits, notes
+    fitted = fit_plan(series, session_plan(settings, capacity, forms=forms), skip_refused=True)
+    return series, list(fitted.results), list(fitted.refused)
 
 
 def compute_fits(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,

@@ -1,27 +1,29 @@
-"""``growthcore fit``: fit one or more forms to a spreadsheet series and write the fit record."""
+"""``growthcore fit``: fit one or more forms to a spreadsheet series and write the fit record.
+
+The options make a :class:`~growthcore.workflow.Plan`; :func:`growthcore.workflow.run` carries it out.
+"""
 
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import json
-import math
 import sys
 from collections.abc import Sequence
 
+from growthcore import workflow
 from growthcore.cli import fit_export, fit_uncertainty
 from growthcore.cli.import_options import add_replicates_option
-from growthcore.compare import ComparisonRow, compare, comparison_notes
+from growthcore.compare import ComparisonRow, compare
 from growthcore.data import Series
-from growthcore.errors import ChoiceNotFound, GrowthcoreInputError
+from growthcore.errors import ChoiceNotFound, GrowthcoreInputError, PlanError
 from growthcore.fit import ERROR_MODELS, FitResult
-from growthcore.fit.forms import fit_forms
 from growthcore.io import ImportResult, load_file
 from growthcore.io.writer import atomic_write_text
-from growthcore.limits import DEFAULT as LIMITS
-from growthcore.record import DataSource, build_record
+from growthcore.record import DataSource
+from growthcore.workflow import METHOD_CHOICES, Plan
 
-METHOD_CHOICES = ("increments", "trajectory", "both")
-#: Modules that add options to ``fit`` and work on the record before it is written.
+#: Modules that add options to ``fit``: the later steps of the plan, and the files written beside the record.
 EXTENSIONS = (fit_uncertainty, fit_export)
 
 
@@ -78,22 +80,20 @@ def pick_series(found: Sequence[Series], wanted: str | None, source: str) -> Ser
     return found[0]
 
 
-def check_capacity(capacity: float | None) -> None:
-    """``--capacity`` must be a finite K above 0 (checked before any fit is run)."""
-    if capacity is not None and not (math.isfinite(capacity) and capacity > 0):
-        raise GrowthcoreInputError(f"--capacity must be a finite number above 0; got {capacity:g}")
+#: The plan's settings and the ``fit`` options that set them.
+OPTION_NAMES = {"models": "--model", "method": "--method", "error": "--error", "capacity": "--capacity",
+                "terms": "--term", **fit_uncertainty.OPTION_NAMES}
 
 
-def run_fits(series: Series, models: Sequence[str], methods: Sequence[str], *, error: str,
-             capacity: float | None, terms: Sequence[str], profile: bool) -> list[FitResult]:
-    """Every form by every method (``both`` skips the increments fit of curves), as the app fits them."""
-    check_capacity(capacity)
-    if len(models) * len(methods) > LIMITS.max_fits:
-        raise GrowthcoreInputError(f"{len(models)} form(s) × {len(methods)} method(s) is "
-                                   f"{len(models) * len(methods)} fits, over the limit of {LIMITS.max_fits} "
-                                   "fits in one record: refused")
-    method = "both" if len(methods) > 1 else methods[0]
-    return fit_forms(series, models, method=method, error=error, capacity=capacity, terms=terms, profile=profile)
+def plan_from_args(args: argparse.Namespace) -> Plan:
+    """The plan the options ask for, refused before any work in the options' names."""
+    models = tuple(m.strip() for m in args.model.split(",") if m.strip())
+    try:
+        plan = Plan(models=models, method=args.method, error=args.error, capacity=args.capacity,
+                    terms=tuple(args.term), profile=not args.no_profile)
+    except PlanError as exc:
+        raise GrowthcoreInputError(exc.named(OPTION_NAMES)) from None
+    return dataclasses.replace(plan, extras=fit_uncertainty.extras_from_args(args))
 
 
 #: What each figure is called wherever it is printed.
@@ -143,32 +143,26 @@ def run(args: argparse.Namespace) -> int:
         return fit_export.run_from_record(args)
     if not args.file:
         raise GrowthcoreInputError("give a data FILE, or --from-record RECORD.json to repeat the fits of a record")
-    check_capacity(args.capacity)
+    plan = plan_from_args(args)
+    fit_export.check_artefacts_possible(args)
     imported, wanted = _load(args)
     series = pick_series(imported.series, wanted, args.file)
-    models = [m.strip() for m in args.model.split(",") if m.strip()]
-    methods = ("increments", "trajectory") if args.method == "both" else (args.method,)
-    fits = run_fits(series, models, methods, error=args.error, capacity=args.capacity, terms=args.term,
-                    profile=not args.no_profile)
     report = imported.report.to_dict()
-    record = build_record(
-        series, fits,
-        source=DataSource(report.get("source", args.file), report.get("sha256", ""), report),
-        settings={"models": models, "methods": list(methods), "error": args.error, "capacity": args.capacity,
-                  "terms": list(args.term), "profile": not args.no_profile, "replicates": args.replicates},
-    )
-    record["comparison"] = {"rows": [r.to_dict() for r in compare(fits)], "notes": comparison_notes(fits)}
-    for extension in EXTENSIONS:
-        extension.apply(args, series, fits, record)
-    text = json.dumps(record, indent=2, allow_nan=False)
+    analysis = workflow.run(series, plan, source=DataSource(report.get("source", args.file), report.get("sha256", ""),
+                                                            report),
+                            provenance={"replicates": args.replicates})
+    fit_uncertainty.print_lines(analysis.extras, plan.extras)
+    # Messages go to stderr when the record itself goes to stdout.
+    fit_export.write_artefacts(args, analysis.record, out=sys.stderr if args.out == "-" else sys.stdout)
+    text = json.dumps(analysis.record, indent=2, allow_nan=False)
     if args.out == "-":
         sys.stdout.write(text + "\n")
-        for line in summary_lines(fits):
+        for line in summary_lines(analysis.fits):
             print(line, file=sys.stderr)
     else:
         atomic_write_text(args.out, text + "\n")
         print(f"{series.name}: {int(series.used.sum())} points used of {len(series)}; {series.step().message}")
-        for line in summary_lines(fits):
+        for line in summary_lines(analysis.fits):
             print(line)
         print(f"record written to {args.out}")
-    return 0 if any(f.success for f in fits) else 1
+    return 0 if analysis.success else 1

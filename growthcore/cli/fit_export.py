@@ -1,8 +1,6 @@
-"""Options of ``growthcore fit`` for figures, tables and reports written beside the record.
+"""Options of ``growthcore fit`` for figures, tables and reports written beside the sealed record.
 
-This module is the last extension of ``fit``: it seals the record (integrity hash over its final
-content) before anything is written. ``--from-record`` repeats the fits of a record instead of
-reading a spreadsheet.
+``--from-record`` repeats the fits of a record instead of reading a spreadsheet.
 """
 
 from __future__ import annotations
@@ -13,11 +11,12 @@ import sys
 from collections.abc import Mapping, Sequence
 from typing import Any
 
+from growthcore.cli import fit_uncertainty
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import FitResult
 from growthcore.io.writer import atomic_write_text
-from growthcore.record import seal
+from growthcore.workflow import extend_record
 
 
 def add_artefact_options(p: argparse.ArgumentParser) -> None:
@@ -71,31 +70,8 @@ def write_artefacts(args: argparse.Namespace, record: Mapping[str, Any], *, out:
     return lines
 
 
-def apply(args: argparse.Namespace, series: Series, fits: Sequence[FitResult], record: dict[str, Any]) -> None:
-    """Seal the record (it is complete now) and write the figures, table and report asked for."""
-    seal(record)
-    check_artefacts_possible(args)
-    # Messages go to stderr when the record itself goes to stdout.
-    write_artefacts(args, record, out=sys.stderr if args.out == "-" else sys.stdout)
-
-
-#: Record settings written by the uncertainty step and the ``fit`` options they came from.
-RECORDED_OPTIONS = {"bootstrap": "bootstrap", "seed": "seed", "forecast_steps": "forecast",
-                    "forecast_span": "forecast_span", "bound": "bound", "levels": "level"}
-
-
-def _recorded_args(args: argparse.Namespace, settings: Mapping[str, Any]) -> argparse.Namespace:
-    """``args`` with the options that made the record's later members, as the record states them."""
-    ns = argparse.Namespace(**vars(args))
-    for key, option in RECORDED_OPTIONS.items():
-        if key in settings:
-            setattr(ns, option, list(settings[key]) if isinstance(settings[key], list) else settings[key])
-    return ns
-
-
 def run_from_record(args: argparse.Namespace) -> int:
     """``fit --from-record``: check the record, refit, list differences; 0 when all numbers agree."""
-    from growthcore.cli import fit_cmd
     from growthcore.reopen import RTOL, RecordError, load_record, recompute
 
     if args.file:
@@ -107,19 +83,14 @@ def run_from_record(args: argparse.Namespace) -> int:
         print(f"growthcore fit: {exc}", file=sys.stderr)
         return 1
     check_artefacts_possible(args)
-    later = [e for e in fit_cmd.EXTENSIONS if e.__name__ != __name__]
-    ns = _recorded_args(args, record.get("settings", {}))
-    from growthcore.cli import fit_uncertainty
-
-    try:
-        fit_uncertainty.check(ns)  # the record's settings meet the same limits as the options, before any refit
+    try:  # the record's settings meet the same limits as the options, before any refit
+        extras = fit_uncertainty.extras_from_args(args, recorded=record.get("settings", {}))
     except GrowthcoreInputError as exc:
         print(f"growthcore fit: {args.from_record}: the record's settings: {exc}", file=sys.stderr)
         return 1
 
     def extend(series: Series, fits: Sequence[FitResult], new: dict[str, Any]) -> None:
-        for extension in later:
-            extension.apply(ns, series, fits, new)
+        fit_uncertainty.print_lines(extend_record(new, series, fits, extras), extras)
 
     result = recompute(record, name=args.from_record, extend=extend)
     n = len(result.fits)
