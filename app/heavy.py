@@ -22,8 +22,9 @@ import multiprocessing as mp
 import pickle
 import threading
 import time
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Any, Callable
+from typing import Any
 
 from growthcore.budget import budget_paused
 from growthcore.errors import GrowthcoreInputError

@@ -13,7 +13,8 @@ from __future__ import annotations
 import functools
 import inspect
 import logging
-from typing import Any, Callable, Iterable
+from collections.abc import Callable, Iterable
+from typing import Any
 
 from dash import Output, ctx, no_update, set_props
 

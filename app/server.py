@@ -12,7 +12,8 @@ import sys
 import threading
 import traceback
 import webbrowser
-from typing import Any, Iterable
+from collections.abc import Iterable
+from typing import Any
 
 from dash import Dash, Input, Output, set_props
 from flask import Response, request

@@ -7,7 +7,8 @@ A fit's plain form, its label and the quantity's name are the figure builders' o
 from __future__ import annotations
 
 import math
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
 import numpy as np
 

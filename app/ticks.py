@@ -9,7 +9,8 @@ both run this way; what a chunk does and how progress reads are theirs.
 from __future__ import annotations
 
 import time
-from typing import Any, Mapping
+from collections.abc import Mapping
+from typing import Any
 
 
 def allow_next_tick(n_intervals: int | None, more: bool = True) -> int:

@@ -5,7 +5,8 @@ from __future__ import annotations
 import base64
 import binascii
 import dataclasses
-from typing import Any, Mapping
+from collections.abc import Mapping
+from typing import Any
 
 from dash import Dash, Input, Output, State, ctx, html, no_update
 

@@ -13,7 +13,8 @@ import dataclasses
 import datetime as _dt
 import json
 import re
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
 from dash import ClientsideFunction, Dash, Input, Output, State, html, no_update
 

@@ -3,7 +3,8 @@
 
 from __future__ import annotations
 
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
 from growthcore.compare import compare, comparison_notes
 from growthcore.data import Series
@@ -14,7 +15,6 @@ from growthcore.limits import DEFAULT as LIMITS
 from growthcore.workflow import Extras, Plan, fit_plan
 
 from ..state import rows_to_store, series_from_store
-from .capacity import rounded
 
 
 def held_capacity(settings: Mapping[str, Any], capacity: float | None) -> float | None:

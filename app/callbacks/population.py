@@ -7,7 +7,8 @@ kept in the tab (dcc.Store). The size limit is the server's own configuration.
 
 from __future__ import annotations
 
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
 from dash import Dash, Input, Output, State, html
 from dash.exceptions import PreventUpdate

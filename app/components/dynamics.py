@@ -4,7 +4,8 @@ derived times and the forecast with its band (drawn on the trajectory panel)."""
 from __future__ import annotations
 
 import math
-from typing import Any, Callable, Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
+from typing import Any
 
 from dash import dcc, html
 

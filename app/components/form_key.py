@@ -6,7 +6,8 @@ form is recognised in all panels, in the exports and in the report by the same m
 
 from __future__ import annotations
 
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
 from dash import html
 

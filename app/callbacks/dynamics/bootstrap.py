@@ -5,7 +5,8 @@ from __future__ import annotations
 
 import math
 import time
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
 from dash import Dash, Input, Output, State, ctx, html, no_update
 

@@ -4,7 +4,8 @@
 from __future__ import annotations
 
 import math
-from typing import Any, Callable, Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
+from typing import Any
 
 from dash import ClientsideFunction, Dash, Input, Output, State, html, no_update
 

@@ -3,7 +3,8 @@ in the panels; the frame on the grid and the map follows the series shown."""
 
 from __future__ import annotations
 
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
 from dash import ClientsideFunction, Dash, Input, Output, Patch, State, ctx, no_update
 from dash.exceptions import PreventUpdate

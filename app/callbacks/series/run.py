@@ -8,7 +8,8 @@ from __future__ import annotations
 
 import math
 import time
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from typing import Any
 
 import numpy as np
 from dash import Dash, Input, Output, Patch, State, html, no_update
