@@ -31,7 +31,8 @@ from growthcore.errors import GrowthcoreInputError
 
 #: Modules the worker server imports once, so that each job starts without importing them again.
 PRELOAD = ["numpy", "scipy.optimize", "growthcore.io", "growthcore.batch", "growthcore.uncertainty",
-           "growthcore.app.callbacks.data", "growthcore.app.callbacks.series.read", "growthcore.app.callbacks.series.run",
+           "growthcore.app.callbacks.data", "growthcore.app.callbacks.series.read",
+           "growthcore.app.callbacks.series.run",
            "growthcore.app.callbacks.dynamics.bootstrap", "growthcore.app.callbacks.batch_tables"]
 
 

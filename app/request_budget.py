@@ -33,7 +33,8 @@ REQUESTS: dict[str, tuple[str, str]] = {
     # the reply to a change of K, the data or the choices (app/callbacks/live.py) starts with K
     ids.CAPACITY: ("Fitting the chosen forms", f"choose fewer forms or one method instead of both, hold K at a value "
                                                f"instead of fitting it, or use {FEWER_POINTS}"),
-    ids.G_CHANGE: ("The change-per-step and candidate-terms panels", f"choose fewer forms or terms, or use {FEWER_POINTS}"),
+    ids.G_CHANGE: ("The change-per-step and candidate-terms panels",
+                   f"choose fewer forms or terms, or use {FEWER_POINTS}"),
     ids.COMPARISON: ("The comparison table", "choose fewer forms"),
     ids.SETTINGS: ("Reading the model settings", "choose fewer forms or terms"),
     ids.EXCLUSIONS: ("Leaving out points", FEWER_POINTS),

@@ -96,7 +96,8 @@ def summary_view(label: str | None, merged: Mapping[str, Mapping[str, Any]], gro
     if not groups:
         return html.P("Make replicate groups (in the series picker above) to see group means here.", className="hint")
     rows = summary_rows(label, merged, groups, order)
-    head = html.Tr([html.Th(h) for h in ("constant", "group", "fits", "failed", "mean", "SD", "95% interval of the mean")])
+    head = html.Tr([html.Th(h) for h in ("constant", "group", "fits", "failed", "mean", "SD",
+                                         "95% interval of the mean")])
     body = [html.Tr([html.Td(r["constant"]), html.Td(r["group"]), html.Td(str(r["n"])), html.Td(str(r["failed"])),
                      html.Td(_fmt(r["mean"])), html.Td(_fmt(r["sd"])),
                      html.Td(f"{_fmt(r['ci'][0])} to {_fmt(r['ci'][1])}" if r["ci"] else "–")]) for r in rows]
@@ -129,7 +130,8 @@ def ftest_view(batch: Mapping[str, Any] | None, groups: Mapping[str, str], label
     if test.status != "done" or test.full is None:
         return html.Div(["The F test could not be made: ", test.message], className="message message-error")
     estimates = [html.Li(f"{g}: {constant} = {_fmt(test.full.value(constant, g))}") for g in test.groups]
-    verdict = ("the groups differ" if test.p_value < 0.05 else "no evidence that the groups differ") + " at the 5% level"
+    verdict = ("the groups differ" if test.p_value < 0.05
+               else "no evidence that the groups differ") + " at the 5% level"
     notes = [html.P(f"Left out (in no group or their own fit failed): {', '.join(left[:10])}"
                     + (" ..." if len(left) > 10 else ""), className="hint")] if left else []
     if len(chosen) > LARGE_TEST:
@@ -137,7 +139,8 @@ def ftest_view(batch: Mapping[str, Any] | None, groups: Mapping[str, str], label
                             f"--test {constant} --out RESULT.json makes the same test from the command line.",
                             className="hint"))
     return html.Div([
-        html.P([html.Strong(f"F({test.df_reduced - test.df_full}, {test.df_full}) = {test.f:.4g}, p = {test.p_value:.3g}: "),
+        html.P([html.Strong(f"F({test.df_reduced - test.df_full}, {test.df_full}) = {test.f:.4g}, "
+                            f"p = {test.p_value:.3g}: "),
                 verdict, "."]),
         html.P(f"Joint fits of the whole paths ({error} error) of {len(chosen)} series: every group has its own "
                f"{', '.join(n for n in get_form(model).param_names if n != constant)} and each series its own "

@@ -26,7 +26,8 @@ def register(app: Dash) -> None:
     app.callback(Output(ids.COMPARISON, "children", allow_duplicate=True),
                  Output(ids.COMPARISON_NOTES, "children", allow_duplicate=True),
                  Input(ids.SORT, "data"), Input(ids.BOOT_SUMMARY, "data"), State(ids.FITS, "data"),
-                 prevent_initial_call=True)(lambda sort, summary, fits_store: draw_comparison(fits_store, sort, summary))
+                 prevent_initial_call=True)(
+        lambda sort, summary, fits_store: draw_comparison(fits_store, sort, summary))
 
     # a click on a column header: first ascending, then descending, then the engine's order (in the browser:
     # the buttons are drawn anew with every table, which must not cost a request)

@@ -160,7 +160,8 @@ def on_import(contents: str | None, _apply: int, pick: str | None, filename: str
                    keep_what_fits=new_upload, **mapping)
     except GrowthcoreInputError as exc:
         message = str(exc).splitlines()[0]
-        return (stored, no_update, failure_message(message, previous, retry=bool(new_upload or trigger == ids.MAP_APPLY)),
+        retry = bool(new_upload or trigger == ids.MAP_APPLY)
+        return (stored, no_update, failure_message(message, previous, retry=retry),
                 no_update, no_update, no_update, no_update, no_update, *keep, reset)
     names = data["series_names"]
     # every column of the file, so that the mapping fields can offer the ones the import did not pick

@@ -33,7 +33,8 @@ def index_of_row(data: Mapping[str, Any], row: int) -> int | None:
 
 
 def update_exclusions(trigger: Any, state: Mapping[str, Any] | None, data: Mapping[str, Any] | None,
-                      click: Mapping[str, Any] | None = None, restore_index: int | None = None) -> dict[str, Any] | None:
+                      click: Mapping[str, Any] | None = None, restore_index: int | None = None
+                      ) -> dict[str, Any] | None:
     """The new exclusions state, or None when nothing changes.
 
     ``restore_index`` is the point to restore for the list's buttons, and the typed row number for
@@ -90,7 +91,8 @@ def register(app: Dash) -> None:
             if not by_row or row is None:
                 return (no_update,) * (1 + len(ids.GRAPHS))
             restore_index = int(row)
-        elif trigger in (ids.EXCLUSION_UNDO, ids.EXCLUSION_CLEAR) and not (undo if trigger == ids.EXCLUSION_UNDO else clear):
+        elif (trigger in (ids.EXCLUSION_UNDO, ids.EXCLUSION_CLEAR)
+              and not (undo if trigger == ids.EXCLUSION_UNDO else clear)):
             return (no_update,) * (1 + len(ids.GRAPHS))
         new = update_exclusions(trigger, state, data, click, restore_index)
         resets = tuple(None if g == trigger else no_update for g in ids.GRAPHS)

@@ -101,7 +101,8 @@ def register(app: Dash) -> None:
         Output(ids.G_CHANGE, "figure", allow_duplicate=True), Output(ids.G_CANDIDATE, "figure", allow_duplicate=True),
         Output(ids.CANDIDATE_SUMMARY, "children", allow_duplicate=True),
         Input(ids.CHANGE_AXIS, "value"), Input(ids.STATE_SCALE, "value"),
-        State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"), State(ids.SETTINGS, "data"), State(ids.CAPACITY, "data"),
+        State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"), State(ids.SETTINGS, "data"),
+        State(ids.CAPACITY, "data"),
         prevent_initial_call=True,
     )(lambda axis, scale, data, exclusions, settings, capacity: explore_panels(data, exclusions, settings, capacity,
                                                                                axis, scale))

@@ -135,7 +135,7 @@ def live_figures(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, 
     change, candidate, _readout = explore_panels(data, exclusions, settings, capacity, view["change_axis"],
                                                  view["scale"])
     out = {}
-    for (_graph, name, title), fig in zip(LIVE_PANELS, (change, candidate)):
+    for (_graph, name, title), fig in zip(LIVE_PANELS, (change, candidate), strict=True):
         if fig.get("data"):
             out[name] = export_view(fig, title)
     return out
@@ -339,9 +339,11 @@ def on_record_upload(contents: str | None, filename: str | None, *, run: Any = N
         text += f" The controls also fit {', '.join(also)}, which the record does not hold."
     data_message = html.Div(f"Data from the fit record {name} (first read from {data['source']}).",
                             className="message message-ok")
-    return (None, data, exclusions, summary(data), data["report_text"], [{"label": data["name"], "value": data["name"]}],
+    return (None, data, exclusions, summary(data), data["report_text"],
+            [{"label": data["name"], "value": data["name"]}],
             data["name"], controls["forms"], controls["constant"], controls["terms"], controls["method"],
-            controls["error"], controls["k_mode"], pending, data_message, html.Div(text, className="message message-ok"))
+            controls["error"], controls["k_mode"], pending, data_message,
+            html.Div(text, className="message message-ok"))
 
 
 def register(app: Dash) -> None:
@@ -368,8 +370,10 @@ def register(app: Dash) -> None:
     app.callback(
         Output(ids.SOURCE, "data", allow_duplicate=True), Output(ids.DATA, "data", allow_duplicate=True),
         Output(ids.EXCLUSIONS, "data", allow_duplicate=True),
-        Output(ids.DATA_SUMMARY, "children", allow_duplicate=True), Output(ids.REPORT, "children", allow_duplicate=True),
-        Output(ids.SERIES_PICK, "options", allow_duplicate=True), Output(ids.SERIES_PICK, "value", allow_duplicate=True),
+        Output(ids.DATA_SUMMARY, "children", allow_duplicate=True),
+        Output(ids.REPORT, "children", allow_duplicate=True),
+        Output(ids.SERIES_PICK, "options", allow_duplicate=True),
+        Output(ids.SERIES_PICK, "value", allow_duplicate=True),
         Output(ids.FORMS, "value"), Output(ids.CONSTANT, "value"), Output(ids.TERMS, "value"),
         Output(ids.METHOD, "value"), Output(ids.ERROR, "value"), Output(ids.K_MODE, "value"),
         Output(ids.PENDING_CAPACITY, "data", allow_duplicate=True),

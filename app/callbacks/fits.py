@@ -35,7 +35,8 @@ def session_plan(settings: Mapping[str, Any], capacity: float | None, *, forms: 
 
 
 def session_fits(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None, settings: Mapping[str, Any],
-                 capacity: float | None, forms: Sequence[str] | None = None) -> tuple[Series, list[FitResult], list[str]]:
+                 capacity: float | None, forms: Sequence[str] | None = None
+                 ) -> tuple[Series, list[FitResult], list[str]]:
     """The series and the fits of the chosen ``forms`` (all when None), as the panels show them.
 
     Returns the fits and a note per form the engine refused (as the comparison notes show it).

@@ -26,7 +26,8 @@ def misfit_flag(fits: list[Mapping[str, Any]]) -> list[Any]:
     if not flagged:
         return [html.Div("No sign of systematic misfit (runs test and Durbin–Watson).", className="flag flag-ok")]
     return [html.Div([html.Strong("⚠ Systematic misfit: "),
-                      "; ".join(f"{f['label']} — {f['diagnostics']['message'].replace('residuals look systematic: ', '')}"
+                      "; ".join(f"{f['label']} — "
+                                f"{f['diagnostics']['message'].replace('residuals look systematic: ', '')}"
                                 for f in flagged)], className="flag flag-warn")]
 
 
@@ -77,7 +78,8 @@ def register(app: Dash) -> None:
         *[Output(i, p, allow_duplicate=True) for i, p in ((ids.G_TRAJECTORY, "figure"), (ids.G_RESID_TIME, "figure"),
                                                           (ids.G_RESID_FITTED, "figure"), (ids.G_OBS_PRED, "figure"),
                                                           (ids.MISFIT_FLAG, "children"),
-                                                          (ids.TRAJECTORY_NOTE, "children"), (ids.FORM_KEY, "children"))],
+                                                          (ids.TRAJECTORY_NOTE, "children"),
+                                                          (ids.FORM_KEY, "children"))],
         Input(ids.FORECAST, "data"), Input(ids.STATE_SCALE, "value"), Input(ids.PATH_FROM, "value"),
         State(ids.FITS, "data"), State(ids.CAPACITY, "data"), State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"),
         prevent_initial_call=True,

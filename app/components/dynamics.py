@@ -53,7 +53,8 @@ def _graph(graph_id: str, height: int = 300) -> dcc.Graph:
 ROW = {"display": "flex", "flexWrap": "wrap", "alignItems": "flex-end", "gap": "8px 16px", "margin": "6px 0"}
 FIELD = {"display": "flex", "flexDirection": "column", "gap": "2px"}
 BLOCK = {"marginTop": "14px"}
-INPUT = {"width": "160px", "font": "inherit", "padding": "4px 6px", "border": "1px solid #c9d1d6", "borderRadius": "4px"}
+INPUT = {"width": "160px", "font": "inherit", "padding": "4px 6px", "border": "1px solid #c9d1d6",
+         "borderRadius": "4px"}
 TABLE = {"width": "auto", "minWidth": "min(100%, 640px)"}
 CAUTION_STYLE = {"margin": "8px 0", "padding": "6px 10px", "fontSize": "12.5px", "borderLeft": "3px solid #D55E00",
                  "background": "#fbf1ea"}
@@ -78,7 +79,8 @@ def dynamics_section() -> html.Section:
                "forecast for one fitted form at a time.", className="panel-guide"),
         html.Div([
             _field("Fitted form", dcc.Dropdown(id=ids.DYN_FIT, options=[], value=None, clearable=False,
-                                               searchable=False, className="dyn-pick", style={"minWidth": "320px"}), ids.DYN_FIT),
+                                               searchable=False, className="dyn-pick", style={"minWidth": "320px"}),
+                   ids.DYN_FIT),
         ], className="dyn-controls", style=ROW),
         html.Div(id=ids.DYN_SENTENCES, className="dyn-sentences", role="status", **{"aria-live": "polite"}),
         html.Div([
@@ -105,7 +107,8 @@ def dynamics_section() -> html.Section:
                 html.Button("Run bootstrap", id=ids.BOOT_RUN, n_clicks=0, className="button", type="button"),
                 html.Button("Cancel", id=ids.BOOT_CANCEL, n_clicks=0, className="button button-small", type="button"),
             ], className="dyn-controls", style=ROW),
-            html.Progress(id=ids.BOOT_PROGRESS, value="0", max=str(DEFAULT_RESAMPLES), className="dyn-progress", style={"width": "100%", "maxWidth": "480px", "height": "14px"},
+            html.Progress(id=ids.BOOT_PROGRESS, value="0", max=str(DEFAULT_RESAMPLES), className="dyn-progress",
+                          style={"width": "100%", "maxWidth": "480px", "height": "14px"},
                           **{"aria-label": "bootstrap progress"}),
             html.Div(id=ids.BOOT_STATUS, className="hint", role="status", **{"aria-live": "polite"}),
             html.Div(id=ids.DYN_INTERVALS, className="table-box"),
@@ -152,8 +155,10 @@ def equilibria_table(equilibria: Sequence[Mapping[str, Any]], unit: str) -> html
         word = "stable" if stable else "unstable" if stable is False else "–"
         rows.append(html.Tr([html.Td(fmt(e.get("value")), className="num"),
                              html.Td(fmt(e.get("rate_slope" if flow else "multiplier"), 3), className="num"),
-                             html.Td(word, className="status-ok" if stable else "misfit-yes" if stable is False else "")]))
-    return html.Table([html.Caption(f"Stability rule: {rule}", className="muted"), html.Thead(head), html.Tbody(rows)],
+                             html.Td(word, className="status-ok" if stable
+                                     else "misfit-yes" if stable is False else "")]))
+    return html.Table([html.Caption(f"Stability rule: {rule}", className="muted"), html.Thead(head),
+                       html.Tbody(rows)],
                       className="comparison dyn-table", style=TABLE)
 
 
@@ -171,7 +176,7 @@ def correlation_table(names: Sequence[str], matrix: Sequence[Sequence[float | No
                      *(html.Td(fmt(v, 3), className="num",
                                style={"fontWeight": "bold"} if i != j and _strong(v) else None)
                        for j, v in enumerate(row))])
-            for i, (n, row) in enumerate(zip(names, matrix))]
+            for i, (n, row) in enumerate(zip(names, matrix, strict=True))]
     return html.Div([
         html.H4("Correlation of the estimates", className="dyn-subtitle"),
         html.Table([html.Thead(head), html.Tbody(rows)], className="comparison dyn-table", style=TABLE),
@@ -191,7 +196,8 @@ def intervals_table(parameters: Mapping[str, Mapping[str, Any]],
     for name, p in parameters.items():
         if p.get("fixed"):
             rows.append(html.Tr([html.Th(name, scope="row"), html.Td(fmt(p.get("value")), className="num"),
-                                 html.Td("held at the estimate: its uncertainty is in neither interval", colSpan=2, className="muted")]))
+                                 html.Td("held at the estimate: its uncertainty is in neither interval", colSpan=2,
+                                         className="muted")]))
             continue
         b = (boot or {}).get(name)
         rows.append(html.Tr([html.Th(name, scope="row"), html.Td(fmt(p.get("value")), className="num"),

@@ -161,7 +161,8 @@ def progress_view(boot: Mapping[str, Any] | None, summary: Mapping[str, Any] | N
         value, top = str(info["done"]), str(info["requested"])
         words = {"complete": "Done", "cancelled": "Cancelled", "stopped": "Stopped"}.get(state, state.capitalize())
         status = (f"{words}: {info['done']} of {info['requested']} resamples (seed {info['seed']}), "
-                  f"{info['succeeded']} refits converged, {info['failed']} failed, in {entry.get('elapsed', 0.0):.1f} s.")
+                  f"{info['succeeded']} refits converged, {info['failed']} failed, "
+                  f"in {entry.get('elapsed', 0.0):.1f} s.")
         if info["done"] < info["requested"]:
             status += " The intervals use only the refits done; run again for all of them."
         if info.get("message"):
@@ -195,7 +196,8 @@ def register(app: Dash) -> None:
 
     @app.callback(Output(ids.BOOT, "data"), Output(ids.BOOT_DONE, "data"), Output(ids.BOOT_SUMMARY, "data"),
                   Output(ids.BOOT_TICK, "max_intervals"),
-                  Input(ids.BOOT_RUN, "n_clicks"), Input(ids.BOOT_TICK, "n_intervals"), Input(ids.BOOT_CANCEL, "n_clicks"),
+                  Input(ids.BOOT_RUN, "n_clicks"), Input(ids.BOOT_TICK, "n_intervals"),
+                  Input(ids.BOOT_CANCEL, "n_clicks"),
                   State(ids.BOOT_N, "value"), State(ids.BOOT_SEED, "value"), State(ids.DYN_FIT, "value"),
                   State(ids.FITS, "data"), State(ids.DATA, "data"), State(ids.EXCLUSIONS, "data"),
                   State(ids.BOOT, "data"), State(ids.BOOT_DONE, "data"), prevent_initial_call=True)
@@ -210,7 +212,8 @@ def register(app: Dash) -> None:
         summary_out = no_update if done_out is no_update else summaries(done_out)
         return boot_out, done_out, summary_out, allow_next_tick(ticks, more)
 
-    app.callback(*[Output(i, p, allow_duplicate=True) for i, p in ((ids.BOOT_PROGRESS, "value"), (ids.BOOT_PROGRESS, "max"),
+    app.callback(*[Output(i, p, allow_duplicate=True) for i, p in ((ids.BOOT_PROGRESS, "value"),
+                                                                   (ids.BOOT_PROGRESS, "max"),
                                                                    (ids.BOOT_STATUS, "children"),
                                                                    (ids.DYN_INTERVALS, "children"))],
                  Input(ids.BOOT, "data"), Input(ids.BOOT_SUMMARY, "data"), Input(ids.DYN_FIT, "value"),

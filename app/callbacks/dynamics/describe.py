@@ -103,7 +103,8 @@ def register(app: Dash) -> None:
     # Off screen the panel is only marked stale (its cobweb and sweep are the page's costliest figures)
     @app.callback(Output(ids.DYN_SENTENCES, "children", allow_duplicate=True),
                   Output(ids.DYN_EQUILIBRIA, "children", allow_duplicate=True),
-                  Output(ids.G_COBWEB, "figure", allow_duplicate=True), Output(ids.G_SWEEP, "figure", allow_duplicate=True),
+                  Output(ids.G_COBWEB, "figure", allow_duplicate=True),
+                  Output(ids.G_SWEEP, "figure", allow_duplicate=True),
                   Output(ids.DYN_DERIVED, "children", allow_duplicate=True),
                   Output(ids.DYN_STALE, "data", allow_duplicate=True),
                   Input(ids.DYN_FIT, "value"), Input(ids.BOOT_SUMMARY, "data"), Input(ids.DYN_LEVEL, "value"),

@@ -101,7 +101,8 @@ def forecast_notes(store: Mapping[str, Any] | None, fits_store: Mapping[str, Any
     pts = store.get("points", [])
     last = pts[-1] if pts else {}
     head = (f"{store['label']}: {len(pts)} points to t = {fmt(last.get('t'))}; at the end {fmt(last.get('p'))} "
-            f"with a {100 * store.get('level', 0.95):.0f}% prediction band {fmt(last.get('lo'))} to {fmt(last.get('hi'))}. "
+            f"with a {100 * store.get('level', 0.95):.0f}% prediction band "
+            f"{fmt(last.get('lo'))} to {fmt(last.get('hi'))}. "
             f"The band holds the uncertainty of the constants ({store.get('source', '')}) and the residual noise.")
     warnings = [html.Li(w) for w in store.get("warnings", [])]
     return [html.P(head), html.Ul(warnings, className="flag flag-warn dyn-warnings") if warnings else None]

@@ -43,7 +43,8 @@ def compute_groups(mode: str | None, text: str | None, batch: Mapping[str, Any] 
         else:
             groups, notes = groups_from_conditions(ImportReport.from_dict(batch["report"]), text)
     except GrowthcoreInputError as exc:
-        message = html.Div([html.Strong("Groups not made. "), str(exc).splitlines()[0]], className="message message-error")
+        message = html.Div([html.Strong("Groups not made. "), str(exc).splitlines()[0]],
+                           className="message message-error")
         return {"key": batch["key"], "groups": {}}, message, everything, ALL_GROUPS
     labels = list(dict.fromkeys(groups[n] for n in names if n in groups))
     counts = {g: sum(1 for n in names if groups.get(n) == g) for g in labels}

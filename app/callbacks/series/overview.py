@@ -175,7 +175,8 @@ def plate_highlight(current: str | None) -> dict[str, Any]:
 
 def failed_list(merged: Mapping[str, Mapping[str, Any]], label: str | None, shown_ids: Sequence[str]) -> Any:
     entries = merged.get(label or "", {})
-    bad = [(sid, entries[sid]["message"]) for sid in shown_ids if sid in entries and entries[sid]["status"] != "converged"]
+    bad = [(sid, entries[sid]["message"]) for sid in shown_ids
+           if sid in entries and entries[sid]["status"] != "converged"]
     if not bad:
         return None
     items = [html.Li([html.Strong(sid), f": {msg}"]) for sid, msg in bad[:30]]

@@ -46,7 +46,8 @@ def series_from_plain(d: Mapping[str, Any]) -> Series:
 
 def _mapping(choices: Mapping[str, Any]) -> dict[str, Any]:
     """The import options of the choices the shown series was read with (see ``import_source``)."""
-    return {"time": choices.get("time") or None, "value": value_columns(choices.get("value")), "series": choices.get("series_column") or None,
+    return {"time": choices.get("time") or None, "value": value_columns(choices.get("value")),
+            "series": choices.get("series_column") or None,
             "time_unit": choices.get("time_unit") or None, "sheet": choices.get("sheet") or None,
             "replicates": choices.get("replicates") or "all"}
 
@@ -87,7 +88,8 @@ def plain_series(source: Mapping[str, Any], mapping: Mapping[str, Any], limits: 
     report = imported.report
     return {"names": names, "series": [series_to_plain(s) for s in imported.series],
             "plate": list(fmt) if fmt else None, "time_unit": first.time_unit, "value_unit": first.value_unit,
-            "report": report.to_dict(), "conditions": list(report.columns_with("condition") + report.columns_with("covariate"))}
+            "report": report.to_dict(),
+            "conditions": list(report.columns_with("condition") + report.columns_with("covariate"))}
 
 
 def register(app: Dash) -> None:

@@ -41,7 +41,8 @@ def chunk_size(n: int) -> int:
     return max(CHUNK_MIN, math.ceil(n / CHUNK_TICKS))
 
 
-def start_run(settings: Mapping[str, Any] | None, batch: Mapping[str, Any] | None, previous_job: Mapping[str, Any] | None,
+def start_run(settings: Mapping[str, Any] | None, batch: Mapping[str, Any] | None,
+              previous_job: Mapping[str, Any] | None,
               *, now: float | None = None) -> tuple[Any, ...]:
     """Outputs: job, fits store, progress, tick disabled, tick n_intervals, tick max_intervals."""
     if not batch or not settings:
@@ -50,7 +51,8 @@ def start_run(settings: Mapping[str, Any] | None, batch: Mapping[str, Any] | Non
     n = len(batch["names"])
     size = chunk_size(n)
     job = {
-        "run": run, "key": batch["key"], "models": list(settings.get("models", [])), "terms": list(settings.get("terms", [])),
+        "run": run, "key": batch["key"], "models": list(settings.get("models", [])),
+        "terms": list(settings.get("terms", [])),
         "methods": methods_of(settings), "error": settings.get("error", "additive"), "total": n, "chunk": size,
         "chunks": math.ceil(n / size), "started": time.time() if now is None else now,
     }
@@ -82,7 +84,8 @@ def fit_chunk(job: Mapping[str, Any], batch: Mapping[str, Any], groups: Mapping[
                                    "makes: start the run again")
     fits_asked = len(job["models"]) * len(job["methods"])
     if fits_asked > DEFAULT_LIMITS.max_fits:
-        raise GrowthcoreInputError(f"{fits_asked} fits per series, over the limit of {DEFAULT_LIMITS.max_fits}: refused")
+        raise GrowthcoreInputError(f"{fits_asked} fits per series, over the limit of {DEFAULT_LIMITS.max_fits}: "
+                                   "refused")
     chunk = [series_from_plain(d) for d in batch["series"][index * size:(index + 1) * size]]
     mapping = groups.get("groups", {}) if groups and groups.get("key") == batch.get("key") else {}
     data = from_series(chunk, groups={n: g for n, g in mapping.items()})
@@ -187,7 +190,8 @@ def progress_view(job: Mapping[str, Any] | None, progress: Mapping[str, Any] | N
     if done >= total:
         return (str(done), str(total), f"All {total} series fitted with {n_forms} form(s) in {seconds:.1f} s"
                 f"{failed_text}.", True)
-    return str(done), str(total), f"Fitting … {done} of {total} series × {n_forms} form(s) ({seconds:.1f} s){failed_text}.", False
+    return (str(done), str(total),
+            f"Fitting … {done} of {total} series × {n_forms} form(s) ({seconds:.1f} s){failed_text}.", False)
 
 
 def register(app: Dash) -> None:
