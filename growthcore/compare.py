@@ -7,7 +7,7 @@ scale, so ΔAICc and Akaike weights are computed within groups of equal method, 
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -42,6 +42,12 @@ class ComparisonRow:
 
     def to_dict(self) -> dict[str, Any]:
         return dict(self.__dict__, warnings=list(self.warnings), missing=dict(self.missing or {}))
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> ComparisonRow:
+        """The row a :meth:`to_dict` wrote (a record's comparison row)."""
+        return cls(**{**d, "parameters": {str(k): dict(v) for k, v in dict(d["parameters"]).items()},
+                      "warnings": tuple(str(w) for w in d["warnings"]), "missing": dict(d.get("missing") or {})})
 
 
 #: ΔAICc values this close to zero (relative to the AICc) are round-off of equal criteria.

@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from functools import cached_property
+from typing import Any
 
 import numpy as np
 
@@ -41,6 +42,14 @@ class StepInfo:
     def to_dict(self) -> dict[str, object]:
         return {"regular": self.regular, "h": self.h, "tolerance": self.tolerance, "decimals": self.decimals,
                 "message": self.message}
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> StepInfo:
+        """The step a :meth:`to_dict` wrote; each point's grid position is not in the dict (``index`` is
+        None: :meth:`Series.step` finds it again from the times)."""
+        h, tolerance, decimals = d.get("h"), d.get("tolerance"), d.get("decimals")
+        return cls(bool(d["regular"]), None if h is None else float(h), None, str(d["message"]),
+                   None if tolerance is None else float(tolerance), None if decimals is None else int(decimals))
 
 
 def written_decimals(t: np.ndarray) -> int | None:

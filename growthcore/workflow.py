@@ -215,6 +215,11 @@ class Comparison:
     def to_dict(self) -> dict[str, Any]:
         return {"rows": [r.to_dict() for r in self.rows], "notes": list(self.notes)}
 
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> Comparison:
+        """The comparison a :meth:`to_dict` wrote (a record's ``comparison``)."""
+        return cls(rows=tuple(ComparisonRow.from_dict(r) for r in d["rows"]), notes=tuple(str(n) for n in d["notes"]))
+
 
 def comparison_of(fits: Sequence[FitResult]) -> Comparison:
     return Comparison(rows=tuple(compare(fits)), notes=tuple(comparison_notes(fits)))

@@ -126,3 +126,127 @@ def test_finite_or_none() -> None:
     assert finite_or_none(np.float64(2.5)) == 2.5 and type(finite_or_none(np.float64(2.5))) is float
     assert finite_or_none(3) == 3.0
     assert finite_list(np.array([1.0, math.nan, math.inf])) == [1.0, None, None]
+
+
+# ---------------------------------------------------------------------------------------------
+# from_dict beside every to_dict: the dict read back writes the same dict (an identity of the code)
+
+
+def _json(d: dict) -> dict:
+    return json.loads(json.dumps(d, allow_nan=False))
+
+
+def _again(obj, **context) -> tuple[dict, object]:
+    """``obj``'s dict through JSON, read back with its own class's from_dict."""
+    d = _json(obj.to_dict())
+    back = type(obj).from_dict(d, **context)
+    assert back.to_dict() == d
+    return d, back
+
+
+def _plates() -> list[Series]:
+    """Invented replicate series of two groups (logistic curves with multiplicative noise)."""
+    rng = np.random.default_rng(5)
+    t = np.arange(0.0, 24.0, 2.0)
+    out = []
+    for g, k in (("a", 80.0), ("b", 120.0)):
+        for rep in range(3):
+            p = k / (1 + (k / 4.0 - 1) * np.exp(-0.5 * t))
+            out.append(Series(t, p * np.exp(rng.normal(0.0, 0.02, t.size)), name=f"{g}_{rep + 1}"))
+    return out
+
+
+def test_batch_results_round_trip() -> None:
+    from growthcore.batch import group_difference_test, joint_fit
+    from growthcore.batch.summary import summarise_groups
+
+    series = _plates()
+    labels = ["a", "a", "a", "b", "b", "b"]
+    test = group_difference_test(series, labels, "logistic-curve", "K")
+    _d, back = _again(test)
+    assert test.status == "done" and back.full is None and back.p_value == test.p_value
+    joint = joint_fit(series, "logistic-curve", scopes={"K": "group"}, groups=labels)
+    _d, back = _again(joint)
+    assert back.success and back.sse == pytest.approx(joint.sse, rel=1e-15)
+    assert back.value("K", "a") == joint.value("K", "a")
+    failed_test = group_difference_test(series[:3] + series[3:4], ["a", "a", "a", "b"], "logistic-curve", "K")
+    _again(failed_test)  # whatever its status, NaN figures come back as NaN
+    summaries = summarise_groups("logistic", ["r", "K"], {"a": ["s1", "s2"], "b": ["s3"]},
+                                 {"s1": {"r": 0.5, "K": 80.0}, "s2": {"r": 0.6, "K": 82.0}, "s3": None})
+    for row in summaries:
+        _d, back = _again(row)
+        assert back == row
+
+
+def test_comparison_and_step_round_trip() -> None:
+    from growthcore.compare import compare
+    from growthcore.data import StepInfo
+    from growthcore.workflow import Comparison, comparison_of
+
+    s = _series()
+    fits = [fit(s, "logistic", method="trajectory"), fit(s, "gompertz", method="trajectory"),
+            fit(Series([0.0, 1.0], [1.0, 2.0]), "logistic")]
+    for row in compare(fits):
+        _again(row)
+    comparison = comparison_of(fits)
+    _d, back = _again(comparison)
+    assert isinstance(back, Comparison) and back.notes == comparison.notes
+    for series in (s, Series([0.0, 1.0, 3.5], [1.0, 2.0, 3.0])):
+        step = series.step()
+        _d, back = _again(step)
+        assert isinstance(back, StepInfo) and (back.regular, back.h, back.message) == (step.regular, step.h,
+                                                                                       step.message)
+        assert back.index is None  # the grid positions are not in the dict
+
+
+def test_dynamics_results_round_trip() -> None:
+    from growthcore.dynamics import LongRun, analyse, cobweb, sweep
+    from growthcore.uncertainty import bootstrap
+
+    s = _series()
+    result = fit(s, "logistic", method="trajectory")
+    boot = bootstrap(result, series=s, resamples=40, seed=2)
+    dyn = analyse(result, samples=boot.good())
+    assert dyn is not None and dyn.regimes is not None
+    _d, back = _again(dyn, model=result.model, method=result.method)
+    assert back.long_run == dyn.long_run and back.regimes == dyn.regimes
+    _d, back = _again(dyn.long_run)
+    assert back == dyn.long_run
+    _again(dyn.regimes)
+    _again(LongRun("chaos", None, float("nan"), (1.0, 2.5), 3.0))  # no finite exponent: None, read as None
+    web = cobweb(result.form, result.values, 5.0, upper=150.0, steps=20, equilibria=tuple(dyn.equilibria))
+    _d, back = _again(web)
+    np.testing.assert_array_equal(back.orbit, web.orbit)
+    swept = sweep(result, points=40, shown=8)
+    assert swept is not None
+    _d, back = _again(swept)
+    np.testing.assert_array_equal(back.grid, swept.grid)
+    assert back.periods == swept.periods and back.kinds == swept.kinds
+
+
+def test_forecast_round_trips() -> None:
+    from growthcore.uncertainty import Forecast, forecast
+
+    s = _series()
+    result = fit(s, "logistic", method="trajectory")
+    fc = forecast(result, steps=5, series=s, bound=90.0, draws=200)
+    _d, back = _again(fc, model=result.model, method=result.method)
+    assert isinstance(back, Forecast) and back.warnings == fc.warnings
+    np.testing.assert_array_equal(back.t, fc.t)
+    np.testing.assert_allclose(back.hi, fc.hi, rtol=0, atol=0)
+
+
+def test_import_report_parts_and_mixed_test_round_trip() -> None:
+    from growthcore.io.report import ColumnRole, LeftOut
+    from growthcore.mixed.lrtest import LikelihoodRatioTest
+
+    for part in (LeftOut(4, "OD", "n/a", "not a number"), LeftOut(None, "OD", "", "blank"),
+                 ColumnRole("Time (h)", "time", "the first column of increasing numbers")):
+        _d, back = _again(part)
+        assert back == part
+    done = LikelihoodRatioTest("done", "", 3.2, 1, 0.074, "random K", "random K,r (full)")
+    _d, back = _again(done)
+    assert back == done
+    refused = LikelihoodRatioTest("failed", "both fits must have converged", reduced="a", full="b")
+    _d, back = _again(refused)
+    assert math.isnan(back.statistic) and back.df == 0

@@ -16,7 +16,7 @@ F reference is approximate).
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
 from typing import Any
 
@@ -26,7 +26,7 @@ from growthcore.batch.pooled import JointFit, joint_fit
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.models.catalogue import get_form
-from growthcore.numbers import finite_or_none
+from growthcore.numbers import finite_or_none, nan_if_none
 
 
 @dataclass(frozen=True)
@@ -57,6 +57,14 @@ class GroupDifferenceTest:
                 "f": finite_or_none(self.f), "df_numerator": self.df_reduced - self.df_full,
                 "p_value": finite_or_none(self.p_value),
                 "method": self.method}
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> GroupDifferenceTest:
+        """The test a :meth:`to_dict` wrote (the joint fits it compared are not in the dict)."""
+        return cls(str(d["model"]), str(d["parameter"]), tuple(str(g) for g in d["groups"]), str(d["status"]),
+                   str(d["message"]), nan_if_none(d["sse_full"]), int(d["df_full"]), nan_if_none(d["sse_reduced"]),
+                   int(d["df_reduced"]), nan_if_none(d["f"]), nan_if_none(d["p_value"]),
+                   method=str(d.get("method", "trajectory")))
 
 
 def group_difference_test(series: Sequence[Series], groups: Sequence[str], model: str, parameter: str, *,

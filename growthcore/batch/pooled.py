@@ -26,8 +26,9 @@ from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import fit
 from growthcore.fit.nls import solve
 from growthcore.fit.problem import Problem, build_result
-from growthcore.fit.result import FitResult, as_error_model, failed
+from growthcore.fit.result import FitResult, ParameterEstimate, as_error_model, as_status, failed
 from growthcore.models.catalogue import get_form
+from growthcore.stats import Diagnostics, Metrics
 
 SCOPES: tuple[str, ...] = ("all", "group", "series")
 Array = np.ndarray
@@ -79,6 +80,20 @@ class JointFit:
             "diagnostics": r.diagnostics.to_dict() if r.diagnostics else None,
             "notes": list(r.notes),
         }
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> JointFit:
+        """The joint fit a :meth:`to_dict` wrote: its constants, metrics, diagnostics and notes (no paths)."""
+        metrics, diagnostics = d.get("metrics"), d.get("diagnostics")
+        result = FitResult(
+            model=str(d["model"]), method="trajectory", error=as_error_model(str(d["error"])),
+            status=as_status(str(d["status"])), message=str(d["message"]),
+            parameters=tuple(ParameterEstimate.from_dict(n, p) for n, p in dict(d["parameters"]).items()),
+            metrics=None if metrics is None else Metrics.from_dict(metrics),
+            diagnostics=None if diagnostics is None else Diagnostics.from_dict(diagnostics),
+            notes=tuple(str(n) for n in d.get("notes", ())))
+        return cls(str(d["model"]), str(d["error"]), tuple(str(s) for s in d["series"]),
+                   tuple(str(g) for g in d["groups"]), {str(k): str(v) for k, v in dict(d["scopes"]).items()}, result)
 
 
 def _singles(preps: Sequence[Prepared], series: Sequence[Series], model: str,

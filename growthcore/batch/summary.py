@@ -37,6 +37,12 @@ class GroupParameterSummary:
                 "n_failed": self.n_failed, "mean": self.mean, "sd": self.sd, "se_mean": self.se_mean,
                 "ci95_low": self.ci95[0] if self.ci95 else None, "ci95_high": self.ci95[1] if self.ci95 else None}
 
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> GroupParameterSummary:
+        lo, hi = d.get("ci95_low"), d.get("ci95_high")
+        return cls(str(d["group"]), str(d["model"]), str(d["parameter"]), int(d["n"]), int(d["n_failed"]),
+                   d["mean"], d["sd"], d["se_mean"], None if lo is None or hi is None else (float(lo), float(hi)))
+
 
 def summarise(values: np.ndarray) -> tuple[float | None, float | None, float | None, tuple[float, float] | None]:
     """(mean, SD, SE of the mean, 95% interval) of finite values; None where n is too small."""

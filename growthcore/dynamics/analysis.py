@@ -40,6 +40,15 @@ class Dynamics:
             "sentences": list(self.sentences),
         }
 
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any], *, model: str, method: str) -> Dynamics:
+        """The dynamics a :meth:`to_dict` wrote for the fit of ``model`` by ``method`` (a record's fit
+        entry holds both beside its ``dynamics``)."""
+        regimes = d.get("regimes")
+        return cls(model, method, tuple(dict(e) for e in d["equilibria"]), LongRun.from_dict(d["long_run"]),
+                   d.get("rate_parameter"), None if regimes is None else RegimeShares.from_dict(regimes),
+                   tuple(str(s) for s in d["sentences"]))
+
 
 def _curve_long_run(result: FitResult, form: CurveForm) -> LongRun:
     """A scalar autonomous ODE moves monotonically: it settles, dies out or grows without bound."""

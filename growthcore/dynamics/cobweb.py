@@ -10,7 +10,7 @@ import numpy as np
 
 from growthcore.fit.simulate import iterate
 from growthcore.models.base import DifferenceForm
-from growthcore.numbers import finite_list
+from growthcore.numbers import finite_list, nan_list
 
 Array = np.ndarray
 
@@ -30,6 +30,15 @@ class Cobweb:
         return {"p": finite_list(self.p), "f": finite_list(self.f), "stairs_x": finite_list(self.stairs_x),
                 "stairs_y": finite_list(self.stairs_y), "orbit": finite_list(self.orbit),
                 "equilibria": [dict(e) for e in self.equilibria]}
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> Cobweb:
+        """The cobweb a :meth:`to_dict` wrote (a number written as None is NaN again)."""
+        def arr(key: str) -> Array:
+            return np.array(nan_list(d[key]), dtype=float)
+
+        return cls(arr("p"), arr("f"), arr("stairs_x"), arr("stairs_y"), arr("orbit"),
+                   tuple(dict(e) for e in d["equilibria"]))
 
 
 def cobweb(form: DifferenceForm, values: Mapping[str, float], start: float, *, upper: float, steps: int = 60,

@@ -53,6 +53,13 @@ class LongRun:
         return {"kind": self.kind, "period": self.period, "lyapunov": finite_or_none(self.lyapunov),
                 "states": [float(s) for s in self.states], "start": float(self.start)}
 
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> LongRun:
+        period, lyapunov = d.get("period"), d.get("lyapunov")
+        return cls(str(d["kind"]), None if period is None else int(period),
+                   None if lyapunov is None else float(lyapunov), tuple(float(s) for s in d["states"]),
+                   float(d["start"]))
+
 
 @dataclass(frozen=True)
 class LongRunBatch:

@@ -63,6 +63,13 @@ class RegimeShares:
                 "shares": dict(self.shares), "source": self.source, "count": self.count,
                 "stepped": list(self.stepped) if self.stepped else None}
 
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> RegimeShares:
+        interval, stepped = d.get("interval"), d.get("stepped")
+        return cls(str(d["parameter"]), None if interval is None else (float(interval[0]), float(interval[1])),
+                   {str(k): float(v) for k, v in dict(d["shares"]).items()}, str(d["source"]), int(d["count"]),
+                   None if stepped is None else (float(stepped[0]), float(stepped[1])))
+
 
 def _shares(kinds: Array, periods: Array) -> dict[str, float]:
     labels = [regime_label(KINDS[int(k)], int(p) or None) for k, p in zip(kinds, periods, strict=True)]

@@ -4,6 +4,7 @@ their estimates, with the fitted value and its interval to be marked."""
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
 
@@ -13,7 +14,7 @@ from growthcore.dynamics.longrun import KINDS, classify
 from growthcore.dynamics.regimes import rate_parameter, state_scale
 from growthcore.fit.result import FitResult
 from growthcore.models.base import DifferenceForm
-from growthcore.numbers import finite_list
+from growthcore.numbers import finite_list, nan_list
 
 Array = np.ndarray
 
@@ -38,6 +39,18 @@ class Sweep:
                 "periods": list(self.periods), "lyapunov": finite_list(self.lyapunov), "rate": finite_list(self.rate),
                 "states": finite_list(self.states), "estimate": self.estimate,
                 "interval": list(self.interval) if self.interval else None}
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> Sweep:
+        """The sweep a :meth:`to_dict` wrote (a number written as None is NaN again)."""
+        def arr(key: str) -> Array:
+            return np.array(nan_list(d[key]), dtype=float)
+
+        interval = d.get("interval")
+        return cls(str(d["parameter"]), arr("grid"), tuple(str(k) for k in d["kinds"]),
+                   tuple(None if q is None else int(q) for q in d["periods"]), arr("lyapunov"), arr("rate"),
+                   arr("states"), float(d["estimate"]),
+                   None if interval is None else (float(interval[0]), float(interval[1])))
 
 
 def sweep_range(result: FitResult, parameter: str, interval: tuple[float, float] | None) -> tuple[float, float]:

@@ -23,6 +23,10 @@ class LeftOut:
     def to_dict(self) -> dict[str, Any]:
         return {"row": self.row, "column": self.column, "value": self.value, "reason": self.reason}
 
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> LeftOut:
+        return cls(d.get("row"), str(d["column"]), str(d["value"]), str(d["reason"]))
+
 
 @dataclass(frozen=True)
 class ColumnRole:
@@ -35,6 +39,10 @@ class ColumnRole:
 
     def to_dict(self) -> dict[str, str]:
         return {"column": self.column, "role": self.role, "reason": self.reason}
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> ColumnRole:
+        return cls(str(d["column"]), str(d["role"]), str(d["reason"]))
 
 
 #: How repeated times within a series (replicates) are read: every point, their mean, or the first.
@@ -160,12 +168,11 @@ class ImportReport:
             layout=str(d["layout"]),
             rows_read=int(d["rows_read"]),
             series=tuple(SeriesSummary.from_dict(s) for s in d["series"]),
-            left_out=tuple(LeftOut(x.get("row"), str(x["column"]), str(x["value"]), str(x["reason"]))
-                           for x in d["left_out"]),
+            left_out=tuple(LeftOut.from_dict(x) for x in d["left_out"]),
             notes=tuple(str(n) for n in d["notes"]),
             columns=tuple(str(c) for c in d.get("columns", [])),
             not_read=tuple((str(x["series"]), str(x["reason"])) for x in d.get("not_read", [])),
-            roles=tuple(ColumnRole(str(x["column"]), str(x["role"]), str(x["reason"])) for x in d.get("roles", [])),
+            roles=tuple(ColumnRole.from_dict(x) for x in d.get("roles", [])),
             replicates=str(d.get("replicates", "all")),
         )
 

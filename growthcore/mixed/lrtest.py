@@ -3,13 +3,14 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
 
 from scipy.stats import chi2
 
 from growthcore.mixed.result import PopulationFit
-from growthcore.numbers import finite_or_none
+from growthcore.numbers import finite_or_none, nan_if_none
 
 
 @dataclass(frozen=True)
@@ -31,6 +32,11 @@ class LikelihoodRatioTest:
         return {"status": self.status, "message": self.message, "statistic": finite_or_none(self.statistic),
                 "df": self.df,
                 "p_value": finite_or_none(self.p_value), "reduced": self.reduced, "full": self.full}
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> LikelihoodRatioTest:
+        return cls(str(d["status"]), str(d["message"]), nan_if_none(d["statistic"]), int(d["df"]),
+                   nan_if_none(d["p_value"]), str(d["reduced"]), str(d["full"]))
 
 
 def describe(fit: PopulationFit) -> str:

@@ -28,7 +28,7 @@ from growthcore.fit.result import FitResult
 from growthcore.fit.simulate import iterate
 from growthcore.limits import DEFAULT as LIMITS
 from growthcore.models.base import CurveForm, DifferenceForm
-from growthcore.numbers import finite_or_none
+from growthcore.numbers import finite_or_none, nan_list
 from growthcore.uncertainty.bootstrap import DEFAULT_SEED, BootstrapResult
 from growthcore.uncertainty.caution import FORECAST_CAUTION
 from growthcore.uncertainty.refit import modified_residuals, refit_problem
@@ -69,6 +69,18 @@ class Forecast:
                 "warnings": list(self.warnings), "bound": self.bound,
                 "bound_crossing": dict(self.bound_crossing) if self.bound_crossing else None,
                 "caution": self.caution}
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any], *, model: str, method: str) -> Forecast:
+        """The forecast a :meth:`to_dict` wrote for the fit of ``model`` by ``method`` (a number written
+        as None is NaN again)."""
+        points = d["points"]
+        crossing = d.get("bound_crossing")
+        return cls(model, method, np.array([float(q["t"]) for q in points]),
+                   np.array(nan_list(q["p"] for q in points)), np.array(nan_list(q["lo"] for q in points)),
+                   np.array(nan_list(q["hi"] for q in points)), float(d["level"]), str(d["source"]),
+                   int(d["draws"]), tuple(str(w) for w in d["warnings"]), d.get("bound"),
+                   None if crossing is None else dict(crossing), str(d.get("caution", FORECAST_CAUTION)))
 
 
 def _check_steps(n: int, span: float | None) -> None:
