@@ -8,6 +8,7 @@ The public API, for scripts and notebooks::
     fits = [gc.fit_model(imported.series[0], m) for m in ("logistic", "gompertz")]
     print(fits[0].summary())                      # constants, goodness of fit, diagnostics, notes
     table = gc.comparison_frame(fits)             # a pandas DataFrame ranked by AICc
+    figures = gc.fit_figures(imported.series[0], fits)  # the app's fit panels as plotly figures
 
     batch = gc.fit_batch(gc.load_batch("plate.csv", groups="Strain"), ["logistic-curve"])
     frame = gc.batch_frame(batch)
@@ -37,6 +38,7 @@ _EXPORTS = {
     "load_batch": ("growthcore.batch", "load_batch"),
     "fit_batch": ("growthcore.batch", "fit_batch"),
     "batch_frame": ("growthcore.frames", "batch_frame"),
+    "fit_figures": ("growthcore.figures.fits", "fit_figures"),
     "catalogue": ("growthcore.models.catalogue", "catalogue"),
 }
 

@@ -22,12 +22,32 @@ def test_the_readme_example_runs(tmp_path) -> None:
     (code,) = re.findall(r"### In Python.*?```python\n(.*?)```", readme, flags=re.S)
     script = tmp_path / "readme_example.py"
     script.write_text(code + "\nimport json\nprint(json.dumps({'ranked': list(ranked.columns), "
-                      "'series': list(table['series'])}))\n", encoding="utf-8")
+                      "'series': list(table['series']), 'figures': sorted(figures)}))\n", encoding="utf-8")
     out = subprocess.run([sys.executable, str(script)], capture_output=True, text=True, cwd=ROOT, check=True,
                          env={**os.environ, "PYTHONPATH": ROOT + os.pathsep + os.environ.get("PYTHONPATH", "")})
     made = json.loads(out.stdout.strip().splitlines()[-1])
     assert {"aicc", "K", "K_se"} <= set(made["ranked"])
     assert made["series"] == ["R1", "R2", "R3"]
+    assert made["figures"] == sorted(["trajectory", "residuals", "residuals-fitted", "observed-predicted"])
+
+
+def test_fit_figures_are_the_dashboards_panels_as_plotly_figures() -> None:
+    """The same builders as the app: each fit drawn under its label, its residuals as the fit reports them."""
+    import plotly.graph_objects as go
+
+    from growthcore.figures.common import unpacked
+    from growthcore.figures.plain import fit_label
+
+    series = gc.load(os.path.join(ROOT, "sample_data", "algae_photobioreactor.csv")).series[0]
+    fits = [gc.fit_model(series, "logistic", method="trajectory"), gc.fit_model(series, "gompertz-curve")]
+    figures = gc.fit_figures(series, fits, capacity=4.0)
+    assert all(isinstance(f, go.Figure) for f in figures.values())
+    names = [t.name for t in figures["trajectory"].data]
+    assert all(any(n and n.startswith(fit_label(f)) for n in names) for f in fits)
+    for fit in fits:
+        trace = next(t for t in figures["residuals"].data if t.name and t.name.startswith(fit_label(fit)))
+        y = unpacked(trace.y) if isinstance(trace.y, dict) else list(trace.y)
+        assert y == pytest.approx([r for r in fit.residuals if r == r], rel=1e-6)
 
 
 def test_summary_tables_hold_the_fit_numbers() -> None:
