@@ -149,7 +149,7 @@ def _curve_summary(result: FitResult, form: CurveForm, values: Mapping[str, floa
     if "p0" in values:
         p0 = float(values["p0"])
     else:  # a curve without p0 starts from its own value at the first time
-        t_first = float(result.settings.get("t_first", result.time_origin))
+        t_first = result.first_time(result.time_origin)
         p0 = float(form.value(np.array([t_first - result.time_origin]), values)[0])
     with np.errstate(all="ignore"):
         specific = float(form.rate(np.array([p0]), values)[0] / p0) if p0 > 0 else math.nan
@@ -214,7 +214,7 @@ def time_to_reach(result: FitResult, level: float, *, horizon: float | None = No
     """First time the fitted path reaches ``level`` (NaN when it does not within the horizon)."""
     if not result.success or result.form is None:
         return math.nan
-    t_first = float(result.settings.get("t_first", 0.0))
+    t_first = result.first_time(0.0)
     span = float(np.ptp(result.t)) if result.t.size else 1.0
     end = horizon if horizon is not None else t_first + 100.0 * max(span, 1e-9)
     if result.form.kind == "difference":

@@ -90,8 +90,8 @@ def fit_request(result: FitResult, settings: Mapping[str, Any] | None = None) ->
     none of its own (a failed fit records no settings).
     """
     run = dict(settings or {})
-    own = dict(result.settings or {})
-    fixed = {str(k): float(v) for k, v in dict(own.get("fixed") or {}).items()}
+    own = result.settings
+    fixed = {str(k): float(v) for k, v in dict(own.fixed or {}).items()}
     capacity = run.get("capacity")
     if capacity is not None and fixed.get("K") == float(capacity):
         fixed.pop("K")
@@ -102,10 +102,10 @@ def fit_request(result: FitResult, settings: Mapping[str, Any] | None = None) ->
         "error": error if error in ("additive", "log") else result.error,
         "capacity": None if capacity is None else float(capacity),
         "fixed": fixed,
-        "start": {str(k): float(v) for k, v in dict(own.get("start") or {}).items()},
+        "start": {str(k): float(v) for k, v in dict(own.start or {}).items()},
         "terms": _terms(result, run),
         "profile": bool(run.get("profile", result.profile is not None)),
-        "time_origin": float(own["time_origin"]) if own.get("time_origin") is not None else None,
+        "time_origin": own.time_origin,
     }
     return request
 

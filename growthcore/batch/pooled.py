@@ -26,7 +26,15 @@ from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import fit
 from growthcore.fit.nls import solve
 from growthcore.fit.problem import Problem, build_result
-from growthcore.fit.result import FitResult, ParameterEstimate, as_error_model, as_status, failed
+from growthcore.fit.result import (
+    FitResult,
+    FitSettings,
+    JointLayout,
+    ParameterEstimate,
+    as_error_model,
+    as_status,
+    failed,
+)
 from growthcore.models.catalogue import get_form
 from growthcore.stats import Diagnostics, Metrics
 
@@ -163,7 +171,7 @@ def joint_fit(
 
     problem = Problem(form.id, "trajectory", as_error_model(error), form, specs, tuple(joint_names), {}, predict,
                       np.concatenate([p.problem.t for p in preps]), np.concatenate([p.problem.observed for p in preps]),
-                      settings={"fixed": {}, "joint": {"series": list(names), "points": sizes, "scopes": dict(scoped)}})
+                      settings=FitSettings(fixed={}, joint=JointLayout(tuple(names), tuple(sizes), dict(scoped))))
     x0 = _joint_start(preps, series, form.id, error, base, index, len(joint_names), start, joint_names)
     lower, upper = problem.lower, problem.upper
     x0 = np.array([problem.spec(n).clip(v) for n, v in zip(joint_names, x0, strict=True)])

@@ -21,7 +21,7 @@ import numpy as np
 
 from growthcore.data import Series
 from growthcore.fit.problem import P0_DIFFERENCE, Problem
-from growthcore.fit.result import Grid, as_error_model
+from growthcore.fit.result import FitSettings, Grid, as_error_model
 from growthcore.fit.simulate import iterate
 from growthcore.fit.starts import _linearised, capacity_start, curve_starts, mid_time
 from growthcore.fit.trajectory import curve_origin, curve_problem
@@ -112,7 +112,7 @@ def _difference(series: Series, form: DifferenceForm, *, model: str, error: str,
 
     problem = Problem(model, "trajectory", as_error_model(error), form, specs, free, dict(fixed), predict, t, p,
                       grid=Grid(float(series.t[0]), float(step.h)),
-                      settings={"fixed": dict(fixed), "t_first": float(series.t[0])})
+                      settings=FitSettings(fixed=dict(fixed), t_first=float(series.t[0])))
     first = float(series.p[0]) if used[0] else float(p[0])
     k0 = capacity_start(p)
     defaults = {"r": 0.5, "K": k0, "lambda": 1.6, "theta": 1.0,

@@ -19,7 +19,7 @@ import numpy as np
 from growthcore.data import Series
 from growthcore.fit.nls import solve
 from growthcore.fit.problem import Problem, build_result
-from growthcore.fit.result import FitResult, Grid, failed
+from growthcore.fit.result import FitResult, FitSettings, Grid, failed
 from growthcore.fit.starts import capacity_start
 from growthcore.models.base import DifferenceForm
 from growthcore.stats import OriginRegression, regression_through_origin
@@ -74,8 +74,8 @@ def fit_increments(
 
     problem = Problem(model, "increments", "additive", form, form.params, free, dict(fixed), predict,
                       t_next, y_next, grid=grid, terms=terms,
-                      settings={"fixed": dict(fixed), "pairs": int(x.size), "t_first": grid.t0,
-                                "p_first": float(series.p[series.used][0])})
+                      settings=FitSettings(fixed=dict(fixed), pairs=int(x.size), t_first=grid.t0,
+                                          p_first=float(series.p[series.used][0])))
     dy = y_next - x
     if form.basis is not None and form.linear:
         return _fit_linear(problem, form, x, dy, start)

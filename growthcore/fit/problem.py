@@ -6,13 +6,12 @@ import math
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, replace
 from functools import cached_property
-from typing import Any
 
 import numpy as np
 
 from growthcore.fit.lm import Evaluation
 from growthcore.fit.nls import jacobian
-from growthcore.fit.result import ErrorModel, FitResult, Grid, Method, ParameterEstimate, SolverName
+from growthcore.fit.result import ErrorModel, FitResult, FitSettings, Grid, Method, ParameterEstimate, SolverName
 from growthcore.models.base import ModelForm, ParamSpec
 from growthcore.numbers import finite_or_none
 from growthcore.stats import (
@@ -50,13 +49,14 @@ class Problem:
     observed: Array
     grid: Grid | None = None
     terms: tuple[str, ...] = ()
-    settings: Mapping[str, Any] | None = None
+    settings: FitSettings = FitSettings()
     exact: Evaluation | None = None
 
     @property
     def time_origin(self) -> float:
         """The time from which curve forms measure t (0 for difference forms)."""
-        return float((self.settings or {}).get("time_origin", 0.0))
+        origin = self.settings.time_origin
+        return 0.0 if origin is None else origin
 
     @cached_property
     def lower(self) -> Array:
@@ -167,7 +167,6 @@ def build_result(
     if lof is not None:
         notes_out.append(lof.message)
     corr = correlation(cov) if k and cov_finite else None
-    settings = dict(problem.settings or {})
     return FitResult(
         model=problem.model,
         method=problem.method,
@@ -186,7 +185,7 @@ def build_result(
         notes=tuple(notes_out),
         grid=problem.grid,
         terms=problem.terms,
-        settings=settings,
+        settings=problem.settings,
         solver=solver,
         nfev=nfev,
     )

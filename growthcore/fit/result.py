@@ -162,8 +162,80 @@ class Grid:
 
 
 @dataclass(frozen=True)
+class JointLayout:
+    """How a joint fit stacks its series: their names, the points of each, and each constant's scope."""
+
+    series: tuple[str, ...] = ()
+    points: tuple[int, ...] = ()
+    scopes: Mapping[str, str] = field(default_factory=dict)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"series": list(self.series), "points": list(self.points), "scopes": dict(self.scopes)}
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> JointLayout:
+        return cls(tuple(str(s) for s in d.get("series") or ()), tuple(int(n) for n in d.get("points") or ()),
+                   {str(k): str(v) for k, v in dict(d.get("scopes") or {}).items()})
+
+
+@dataclass(frozen=True)
+class FitSettings:
+    """How a fit was set up, as its record entry's ``settings`` member holds it.
+
+    Each field is None where the fit does not set it, and :meth:`to_dict` leaves it out, so the
+    member keeps the keys (and their order) a fit has always written: ``fixed`` (the constants
+    held), ``pairs`` (consecutive pairs an increments fit regressed), ``t_first`` (the first used
+    time), ``p_first`` (the first used observation of an increments fit), ``time_origin`` (the
+    time at which a curve's p0 applies), ``start`` (starting values) and ``joint`` (a joint fit's
+    layout). A failed fit sets none. Keys this class does not know are not read.
+    """
+
+    fixed: Mapping[str, float] | None = None
+    pairs: int | None = None
+    t_first: float | None = None
+    p_first: float | None = None
+    time_origin: float | None = None
+    start: Mapping[str, float] | None = None
+    joint: JointLayout | None = None
+
+    def to_dict(self) -> dict[str, Any]:
+        out: dict[str, Any] = {}
+        if self.fixed is not None:
+            out["fixed"] = dict(self.fixed)
+        if self.pairs is not None:
+            out["pairs"] = self.pairs
+        for name in ("t_first", "p_first", "time_origin"):
+            value = getattr(self, name)
+            if value is not None:
+                out[name] = value
+        if self.start is not None:
+            out["start"] = dict(self.start)
+        if self.joint is not None:
+            out["joint"] = self.joint.to_dict()
+        return out
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any] | None) -> FitSettings:
+        """The settings a :meth:`to_dict` wrote (an empty or missing member gives none)."""
+        d = d or {}
+        fixed, start, joint, pairs = d.get("fixed"), d.get("start"), d.get("joint"), d.get("pairs")
+        return cls(
+            fixed=None if fixed is None else {str(k): float(v) for k, v in dict(fixed).items()},
+            pairs=None if pairs is None else int(pairs),
+            t_first=_optional(d.get("t_first")), p_first=_optional(d.get("p_first")),
+            time_origin=_optional(d.get("time_origin")),
+            start=None if start is None else {str(k): float(v) for k, v in dict(start).items()},
+            joint=None if joint is None else JointLayout.from_dict(joint),
+        )
+
+
+@dataclass(frozen=True)
 class FitResult:
-    """What one fit of one form by one method found. ``status`` is ``converged`` or ``failed``."""
+    """What one fit of one form by one method found. ``status`` is ``converged`` or ``failed``.
+
+    ``settings`` (a :class:`FitSettings`) says how the fit was set up: the constants held, the first
+    used time and state, a curve's time origin, a joint fit's layout.
+    """
 
     model: str
     method: Method
@@ -183,7 +255,7 @@ class FitResult:
     notes: tuple[str, ...] = ()
     grid: Grid | None = None
     terms: tuple[str, ...] = ()
-    settings: Mapping[str, Any] = field(default_factory=dict)
+    settings: FitSettings = field(default_factory=FitSettings)
     solver: SolverName | None = None  # None when no solver ran (a fit that failed before)
     nfev: int | None = None  # residual evaluations the solver made; None where it does not count them
 
@@ -205,13 +277,21 @@ class FitResult:
     @property
     def time_origin(self) -> float:
         """The time at which a curve's p0 applies (0 for difference forms, which start at their grid)."""
-        return float(self.settings.get("time_origin", 0.0))
+        origin = self.settings.time_origin
+        return 0.0 if origin is None else origin
 
     @property
     def start_level(self) -> float:
         """The state the fitted path starts from: p0 when fitted, else the first used observation."""
         values = self.values
-        return float(values["p0"]) if "p0" in values else float(self.settings.get("p_first", math.nan))
+        if "p0" in values:
+            return float(values["p0"])
+        return math.nan if self.settings.p_first is None else self.settings.p_first
+
+    def first_time(self, default: float) -> float:
+        """The first time the fit used, or ``default`` where its settings do not say."""
+        t_first = self.settings.t_first
+        return default if t_first is None else t_first
 
     def summary(self) -> FitSummary:
         """Constants, goodness of fit and diagnostics as tables with numbered notes (text or HTML)."""
@@ -255,7 +335,7 @@ class FitResult:
             steps = max(int(math.floor((t_end - self.grid.t0) / self.grid.h + 1e-9)), 0)
             t = self.grid.t0 + self.grid.h * np.arange(steps + 1)
         else:
-            t0 = float(self.settings.get("t_first", self.time_origin))
+            t0 = self.first_time(self.time_origin)
             t = np.linspace(min(self.time_origin, t0), t_end, points)
         return t, self.predict(t)
 
@@ -291,7 +371,7 @@ class FitResult:
             "nfev": self.nfev,
             "equation": self.form.equation if self.form is not None else None,
             "terms": list(self.terms),
-            "settings": dict(self.settings),
+            "settings": self.settings.to_dict(),
             "parameters": {p.name: p.to_dict() for p in self.parameters},
             "metrics": self.metrics.to_dict() if self.metrics else None,
             "diagnostics": self.diagnostics.to_dict() if self.diagnostics else None,
@@ -348,7 +428,7 @@ class FitResult:
             notes=tuple(str(n) for n in d.get("notes", ())),
             grid=None if grid is None else Grid.from_dict(grid),
             terms=terms if d["model"] == "custom" else (),
-            settings=dict(d.get("settings") or {}),
+            settings=FitSettings.from_dict(d.get("settings")),
             solver=None if solver is None else as_solver(str(solver)),
             nfev=None if nfev is None else int(nfev),
         )

@@ -21,7 +21,7 @@ from growthcore.fit.increments import consecutive_pairs, fit_increments
 from growthcore.fit.lm import Evaluation, solve_exact
 from growthcore.fit.nls import NLSOutcome, solve
 from growthcore.fit.problem import P0_DIFFERENCE, Problem, build_result, is_at_bound
-from growthcore.fit.result import FitResult, Grid, as_error_model, failed
+from growthcore.fit.result import FitResult, FitSettings, Grid, as_error_model, failed
 from growthcore.fit.sensitivity import path_jacobian
 from growthcore.fit.simulate import iterate, path_of
 from growthcore.fit.starts import capacity_start, curve_starts
@@ -135,7 +135,7 @@ def curve_problem(t: Array, p: Array, form: CurveForm, *, model: str, error: str
 
     exact = _curve_evaluation(form, free, fixed, elapsed, p, error) if form.value_partials is not None else None
     problem = Problem(model, "trajectory", as_error_model(error), form, form.params, free, dict(fixed), predict, t, p,
-                      settings={"fixed": dict(fixed), "t_first": t_first, "time_origin": origin}, exact=exact)
+                      settings=FitSettings(fixed=dict(fixed), t_first=t_first, time_origin=origin), exact=exact)
     return problem
 
 
@@ -196,7 +196,7 @@ def _fit_difference(series: Series, form: DifferenceForm, *, model: str, error: 
     grid = Grid(float(series.t[0]), float(step.h))
     problem = Problem(model, "trajectory", as_error_model(error), form, specs, free, dict(fixed), predict, t, p,
                       grid=grid,
-                      terms=terms, settings={"fixed": dict(fixed), "t_first": float(series.t[0])},
+                      terms=terms, settings=FitSettings(fixed=dict(fixed), t_first=float(series.t[0])),
                       exact=_path_evaluation(form, free, fixed, steps, offset, p, error))
     first = float(series.p[0]) if used[0] else float(p[0])
     k0 = capacity_start(p)

@@ -75,7 +75,7 @@ def derived_intervals(
         return {}
     targets = _targets(result, levels, fractions)
     if horizon is None and result.t.size > 1:
-        t_first = float(result.settings.get("t_first", result.t[0]))
+        t_first = result.first_time(float(result.t[0]))
         horizon = t_first + HORIZON_SPANS * float(np.ptp(result.t))
     point = _quantities(result, targets, horizon)
     rows: list[dict[str, float]] = []

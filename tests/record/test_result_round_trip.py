@@ -7,18 +7,29 @@ practice.
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import math
 
 import numpy as np
 import pytest
 
+from growthcore.batch.pooled import joint_fit
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.fit import fit
 from growthcore.fit.lm import solve_exact
 from growthcore.fit.nls import CONVERGED, STATUS_MESSAGES, NLSOutcome, solve, status_message
-from growthcore.fit.result import CapacityProfile, FitResult, Grid, ParameterEstimate, as_method, as_solver
+from growthcore.fit.result import (
+    CapacityProfile,
+    FitResult,
+    FitSettings,
+    Grid,
+    JointLayout,
+    ParameterEstimate,
+    as_method,
+    as_solver,
+)
 from growthcore.fit.simulate import iterate
 from growthcore.models.catalogue import get_form
 from growthcore.numbers import finite_list, finite_or_none
@@ -57,6 +68,31 @@ def test_the_solver_that_ran_is_recorded() -> None:
     assert concentrated.solver == "minpack" and concentrated.nfev is not None and concentrated.nfev > 0
     too_few = fit(Series([0.0, 1.0], [1.0, 2.0]), "logistic")
     assert too_few.status == "failed" and too_few.solver is None and too_few.to_dict()["solver"] is None
+
+
+def test_fit_settings_keep_every_key_in_its_order() -> None:
+    """Each fit writes its settings keys in one order; read back, they write the same JSON text."""
+    s = _series()
+    late = Series(s.t + 5.0, s.p)
+    written = [fit(s, "logistic", method="increments").settings.to_dict(),
+               fit(s, "logistic", method="trajectory", fixed={"K": 100.0}).settings.to_dict(),
+               fit(s, "logistic-curve", method="trajectory").settings.to_dict(),
+               joint_fit([s, late], "logistic-curve").result.settings.to_dict(),
+               fit(Series([0.0, 1.0], [1.0, 2.0]), "logistic").settings.to_dict()]
+    assert [list(d) for d in written] == [["fixed", "pairs", "t_first", "p_first"], ["fixed", "t_first"],
+                                          ["fixed", "t_first", "time_origin"], ["fixed", "joint"], []]
+    assert written[1]["fixed"] == {"K": 100.0} and list(written[3]["joint"]) == ["series", "points", "scopes"]
+    for d in written:
+        assert json.dumps(FitSettings.from_dict(_json(d)).to_dict()) == json.dumps(d)
+    everything = FitSettings(fixed={"K": 100.0}, pairs=29, t_first=1994.0, p_first=14.0, time_origin=1990.0,
+                             start={"r": 0.5}, joint=JointLayout(("a", "b"), (10, 12), {"r": "all", "K": "series"}))
+    every_key = everything.to_dict()
+    assert set(every_key) == {f.name for f in dataclasses.fields(FitSettings)}  # a field to_dict drops fails here
+    assert FitSettings.from_dict(_json(every_key)) == everything
+    fixture = json.loads((FIXTURES / "fit-record-v1.json").read_text(encoding="utf-8"))
+    for entry in fixture["fits"]:
+        assert json.dumps(FitResult.from_dict(entry).to_dict()["settings"]) == json.dumps(entry["settings"])
+    assert FitSettings.from_dict({"fixed": {}, "from_elsewhere": 1}).to_dict() == {"fixed": {}}  # still reads
 
 
 def test_parts_round_trip() -> None:
