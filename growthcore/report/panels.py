@@ -13,10 +13,9 @@ from collections.abc import Mapping, Sequence
 from typing import Any
 
 from growthcore.figures.common import EXPORT_LEGEND, Figure, fit_styles, wrap
-from growthcore.figures.plain import fit_label, fit_to_store, quantity_name
-from growthcore.figures.residuals import observed_predicted_figure, residual_fitted_figure, residual_time_figure
+from growthcore.figures.fits import fit_figure_dicts
+from growthcore.figures.plain import fit_label
 from growthcore.figures.theme import GRID, INK, MUTED
-from growthcore.figures.trajectory import trajectory_figure
 from growthcore.fit.result import FitResult
 from growthcore.reopen import fits_from_record, series_from_record
 
@@ -216,23 +215,10 @@ def app_panels(record: Mapping[str, Any], fits: Sequence[FitResult],
     form's colour and marker).
     """
     view = view or {}
-    series = series_from_record(record)
-    data = record["data"]
-    rows = [int(p["row"]) for p in data["points"]] if all("row" in p for p in data["points"]) else None
-    plain = {"t": [p["t"] for p in data["points"]], "p": [p["p"] for p in data["points"]], "rows": rows}
-    labels = {"quantity": quantity_name(data["value"]["column"], data["value"]["unit"]),
-              "value_unit": data["value"]["unit"], "time_unit": data["time"]["unit"], "rows": rows,
-              "uirevision": None, "h": None}
-    stored = [fit_to_store(f, series) for f in fits]
-    capacity = (record.get("settings") or {}).get("capacity")
-    models, scale = _models(record, view), view.get("scale")
-    figures = {
-        "data": trajectory_figure(plain, [bool(u) for u in series.used], stored, capacity, labels, models=models,
-                                  scale=scale, path_from=view.get("path_from", "none"), editable=False),
-        "residuals": residual_time_figure(stored, labels, models=models),
-        "residuals-fitted": residual_fitted_figure(stored, labels, models=models, scale=scale),
-        "observed-predicted": observed_predicted_figure(stored, labels, models=models, scale=scale),
-    }
+    panels = fit_figure_dicts(series_from_record(record), fits, capacity=(record.get("settings") or {}).get("capacity"),
+                              scale=view.get("scale"), path_from=view.get("path_from", "none"),
+                              models=_models(record, view))
+    figures = {"data" if name == "trajectory" else name: fig for name, fig in panels.items()}
     for name, fig in figures.items():
         title = TITLES[name]
         if name == "data" and view.get("path_from") in ("first", "last") and any(
