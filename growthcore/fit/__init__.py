@@ -11,10 +11,11 @@ import numpy as np
 from growthcore.budget import check_budget
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
-from growthcore.fit.increments import fit_increments
-from growthcore.fit.profile import capacity_profile
+from growthcore.fit.increments import fit_increments, solve_increments
+from growthcore.fit.problem import Solved
+from growthcore.fit.profile import Refit, capacity_profile
 from growthcore.fit.result import ERROR_MODELS, METHODS, CapacityProfile, FitResult, ParameterEstimate, failed
-from growthcore.fit.trajectory import fit_trajectory
+from growthcore.fit.trajectory import fit_trajectory, solve_trajectory
 from growthcore.models.base import ModelForm
 from growthcore.models.catalogue import get_form
 
@@ -93,6 +94,16 @@ def fit(
         return fit_trajectory(series, form, model=model_id, error=error, fixed=fixed_now, start=start_now,
                               terms=terms_t, time_origin=time_origin)
 
+    def refit_with_k(k: float, start_now: Mapping[str, float]) -> Refit:
+        fixed_now = {**fixed_all, "K": k}
+        if method == "increments":
+            assert form.kind == "difference"
+            solved = solve_increments(series, form, model=model_id, fixed=fixed_now, start=start_now, terms=terms_t)
+        else:
+            solved = solve_trajectory(series, form, model=model_id, error=error, fixed=fixed_now, start=start_now,
+                                      terms=terms_t, time_origin=time_origin)
+        return (solved.sse, solved.values) if isinstance(solved, Solved) else None
+
     if np.count_nonzero(series.used) < 3:
         return failed(model_id, method, error, f"only {int(series.used.sum())} usable points: a fit needs at least 3",
                       form=form)
@@ -100,7 +111,7 @@ def fit(
         with np.errstate(all="ignore"):  # numerical trouble is reported through the status, not warnings
             result = run(fixed_all, start)
             if profile and result.success and "K" in result.values and "K" not in fixed_all:
-                prof = capacity_profile(result, lambda k, s: run({**fixed_all, "K": k}, s))
+                prof = capacity_profile(result, refit_with_k)
                 if prof is not None:
                     result = replace(result, profile=prof)
     except (FloatingPointError, OverflowError, ZeroDivisionError, ValueError, ArithmeticError) as exc:

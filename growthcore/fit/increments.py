@@ -11,15 +11,18 @@ are not linear in any constant (Ricker, Beverton–Holt) fit p_{n+1} on p_n by n
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import replace
+from typing import Any
 
 import numpy as np
 
 from growthcore.data import Series
+from growthcore.fit.lm import Evaluation, evaluation
 from growthcore.fit.nls import solve
-from growthcore.fit.problem import Problem, build_result
+from growthcore.fit.problem import Problem, Solved, solve_problem
 from growthcore.fit.result import FitResult, FitSettings, Grid, failed
+from growthcore.fit.sensitivity import central_partial
 from growthcore.fit.starts import capacity_start
 from growthcore.models.base import DifferenceForm
 from growthcore.stats import OriginRegression, regression_through_origin
@@ -42,11 +45,27 @@ def fit_increments(
     terms: tuple[str, ...] = (),
 ) -> FitResult:
     """Fit ``form`` to the change per step of ``series`` (of its mean per time where it has replicates)."""
+    solved = solve_increments(series, form, model=model, fixed=fixed, start=start, terms=terms)
+    result = solved if isinstance(solved, FitResult) else solved.result()
     if series.has_replicates:
-        result = fit_increments(series.means_per_time(), form, model=model, fixed=fixed, start=start, terms=terms)
         note = (f"the increments method needs one value a step: it regresses the change of the mean at each time "
                 f"({series.replicate_times} time(s) with replicates, {len(series)} points in all)")
         return replace(result, notes=(note, *result.notes))
+    return result
+
+
+def solve_increments(
+    series: Series,
+    form: DifferenceForm,
+    *,
+    model: str,
+    fixed: Mapping[str, float],
+    start: Mapping[str, float],
+    terms: tuple[str, ...] = (),
+) -> Solved | FitResult:
+    """The optimum of :func:`fit_increments` before its result is built, or the failed result."""
+    if series.has_replicates:
+        series = series.means_per_time()
     pairs = consecutive_pairs(series)
     if isinstance(pairs, str):
         return failed(model, "increments", "additive", pairs, form=form)
@@ -75,7 +94,9 @@ def fit_increments(
     problem = Problem(model, "increments", "additive", form, form.params, free, dict(fixed), predict,
                       t_next, y_next, grid=grid, terms=terms,
                       settings=FitSettings(fixed=dict(fixed), pairs=int(x.size), t_first=grid.t0,
-                                          p_first=float(series.p[series.used][0])))
+                                          p_first=float(series.p[series.used][0])),
+                      exact=None if form.basis is not None and form.linear else
+                      _pairs_evaluation(form, free, fixed, x, y_next))
     dy = y_next - x
     if form.basis is not None and form.linear:
         return _fit_linear(problem, form, x, dy, start)
@@ -108,7 +129,8 @@ def _linear_solution(
     return dict(zip(names, (float(c) for c in reg.coef), strict=True)), reg.residuals, reg
 
 
-def _fit_linear(problem: Problem, form: DifferenceForm, x: Array, dy: Array, start: Mapping[str, float]) -> FitResult:
+def _fit_linear(problem: Problem, form: DifferenceForm, x: Array, dy: Array,
+                start: Mapping[str, float]) -> Solved | FitResult:
     free_shape = tuple(n for n in form.shape if n in problem.free)
     shape_fixed = {n: problem.fixed[n] for n in form.shape if n in problem.fixed}
     if free_shape:
@@ -158,9 +180,8 @@ def _fit_linear(problem: Problem, form: DifferenceForm, x: Array, dy: Array, sta
     message = "closed-form least squares through the origin" if not free_shape else \
         f"least squares through the origin, {', '.join(free_shape)} by minimising the concentrated SSE"
     if free_shape:
-        return build_result(problem, xvec, message=message, jac=jac, r2_uncentered=r2u,
-                            solver=outcome.solver, nfev=outcome.nfev)
-    return build_result(problem, xvec, message=message, jac=jac, r2_uncentered=r2u, solver="linear")
+        return Solved(problem, xvec, sse, message, outcome.solver, nfev=outcome.nfev, r2_uncentered=r2u)
+    return Solved(problem, xvec, sse, message, "linear", jac=jac, r2_uncentered=r2u)
 
 
 def _column(form: DifferenceForm, problem: Problem, x: Array, values: Mapping[str, float], name: str) -> Array:
@@ -184,7 +205,8 @@ def _shape_start(name: str, start: Mapping[str, float], observed: Array, x: Arra
     return 1.0
 
 
-def _fit_nonlinear(problem: Problem, form: DifferenceForm, x: Array, start: Mapping[str, float]) -> FitResult:
+def _fit_nonlinear(problem: Problem, form: DifferenceForm, x: Array,
+                   start: Mapping[str, float]) -> Solved | FitResult:
     states = np.concatenate([x, problem.observed[-1:]])
     k0 = capacity_start(states)
     growth = float(np.median(problem.observed / np.where(x != 0, x, np.nan)))
@@ -196,7 +218,7 @@ def _fit_nonlinear(problem: Problem, form: DifferenceForm, x: Array, start: Mapp
         candidates.append(np.array([problem.spec(n).clip(base.get(n, 1.0)) for n in problem.free]))
     best = None
     for x0 in candidates:
-        outcome = solve(problem.residuals, x0, problem.lower, problem.upper, scale=problem.scale)
+        outcome = solve_problem(problem, x0)
         if outcome.finite and (best is None or outcome.sse < best.sse):
             best = outcome
         if outcome.success:
@@ -207,5 +229,27 @@ def _fit_nonlinear(problem: Problem, form: DifferenceForm, x: Array, start: Mapp
     if not best.success:
         return failed(problem.model, "increments", "additive",
                       f"nonlinear least squares of p_{{n+1}} on p_n did not converge: {best.message}", form=form)
-    return build_result(problem, best.x, message=f"nonlinear least squares of p_{{n+1}} on p_n ({best.message})",
-                        solver=best.solver, nfev=best.nfev)
+    return Solved(problem, best.x, best.sse, f"nonlinear least squares of p_{{n+1}} on p_n ({best.message})",
+                  best.solver, nfev=best.nfev, jac=best.jac, predicted=best.predicted)
+
+
+def _pairs_evaluation(form: DifferenceForm, free: tuple[str, ...], fixed: Mapping[str, float], x: Array,
+                      y_next: Array) -> Evaluation | None:
+    """p_{n+1} predicted from p_n and, on demand, its exact Jacobian (∂Δ/∂θ; central differences for a
+    constant the form has no closed-form partial for); None for a form without partials."""
+    partials = form.increment_partials
+    if partials is None:
+        return None
+
+    def at(values: dict[str, Any]) -> tuple[Array, Callable[[], Array]]:
+        # numpy scalars, not Python floats: a division by zero gives inf (a rejected step), not an error
+        v = {n: np.float64(value) for n, value in values.items()}
+
+        def states_jacobian() -> Array:
+            known = partials(x, v)
+            return np.array([np.broadcast_to(known[n] if n in known else central_partial(form, x, v, n), x.shape)
+                             for n in free]).T
+
+        return np.broadcast_to(x + form.increment(x, v), x.shape), states_jacobian
+
+    return evaluation(free, fixed, y_next, "additive", at)

@@ -11,7 +11,7 @@ does not converge.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from operator import mul
 from typing import Any
 
@@ -95,6 +95,35 @@ def solve_exact(
         growth = 2.0
     return NLSOutcome(x=np.array(x), residuals=last[0], sse=sse, status=5, solver="exact-lm", nfev=nfev, finite=True,
                       jac=jac, predicted=last[3])
+
+
+def evaluation(free: tuple[str, ...], fixed: Mapping[str, float], observed: Array, error: str,
+                at: Callable[[dict[str, Any]], tuple[Array, Callable[[], Array]]]) -> Evaluation:
+    """An :data:`Evaluation` from ``at(values)`` = (predicted states, d states / d free constants).
+
+    Residuals and the Jacobian are on the error scale. Runs under the caller's ``np.errstate``
+    (:func:`growthcore.fit.fit` silences numpy warnings).
+    """
+    log = error == "log"
+    target = np.log(observed) if log else observed
+    base = dict(fixed)
+
+    def evaluate(x: Sequence[float]) -> tuple[Array, float, Callable[[], Array], Array] | None:
+        values = dict(base)
+        values.update(zip(free, x, strict=True))
+        predicted, states_jacobian = at(values)
+        residuals = target - (np.log(predicted) if log else predicted)
+        sse = float(residuals @ residuals)
+        if not math.isfinite(sse):
+            return None
+
+        def jacobian() -> Array:
+            jac = states_jacobian()
+            return jac / predicted[:, None] if log else jac
+
+        return residuals, sse, jacobian, predicted
+
+    return evaluate
 
 
 def _normal_equations(jac: Array, r: Array) -> tuple[list[list[float]], list[float]] | None:

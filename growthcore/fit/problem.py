@@ -9,8 +9,8 @@ from functools import cached_property
 
 import numpy as np
 
-from growthcore.fit.lm import Evaluation
-from growthcore.fit.nls import jacobian
+from growthcore.fit.lm import Evaluation, solve_exact
+from growthcore.fit.nls import NLSOutcome, jacobian, solve
 from growthcore.fit.result import ErrorModel, FitResult, FitSettings, Grid, Method, ParameterEstimate, SolverName
 from growthcore.models.base import ModelForm, ParamSpec
 from growthcore.numbers import finite_or_none
@@ -101,6 +101,45 @@ class Problem:
     @property
     def scale(self) -> float:
         return float(np.max(np.abs(self.scaled(self.observed)))) or 1.0
+
+
+def solve_problem(problem: Problem, x0: Array) -> NLSOutcome:
+    """The exact-Jacobian solver where the problem has one, MINPACK where it stops short or at a bound."""
+    lower, upper = problem.lower, problem.upper
+    if problem.exact is not None:
+        outcome = solve_exact(problem.exact, x0, lower, upper, max_nfev=100 * (x0.size + 1))
+        at_bound = any(is_at_bound(v, problem.spec(n)) for v, n in zip(outcome.x.tolist(), problem.free, strict=True))
+        if outcome.success and not at_bound:
+            return outcome
+    return solve(problem.residuals, x0, lower, upper, scale=problem.scale)
+
+
+@dataclass(frozen=True)
+class Solved:
+    """A solver's optimum before its standard errors, metrics and diagnostics are worked out.
+
+    The K profile's refits need only the sum of squares and the values; :meth:`result` builds the
+    whole :class:`FitResult` (see :func:`build_result` for the other fields).
+    """
+
+    problem: Problem
+    x: Array
+    sse: float
+    message: str
+    solver: SolverName
+    nfev: int | None = None
+    jac: Array | None = None
+    predicted: Array | None = None
+    r2_uncentered: float | None = None
+
+    @property
+    def values(self) -> dict[str, float]:
+        return {**self.problem.fixed, **dict(zip(self.problem.free, np.asarray(self.x, dtype=float).tolist(),
+                                                 strict=True))}
+
+    def result(self) -> FitResult:
+        return build_result(self.problem, self.x, message=self.message, jac=self.jac, predicted=self.predicted,
+                            r2_uncentered=self.r2_uncentered, solver=self.solver, nfev=self.nfev)
 
 
 def build_result(

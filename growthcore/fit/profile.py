@@ -23,6 +23,8 @@ from growthcore.budget import BudgetExceeded, check_budget
 from growthcore.fit.result import CapacityProfile, FitResult
 
 Array = np.ndarray
+#: A refit with K held: its sum of squares and every constant's value, or None where it failed.
+Refit = tuple[float, dict[str, float]] | None
 #: Relative precision of an interval end in K.
 ROOT_RTOL = 1e-8
 
@@ -44,10 +46,13 @@ def likelihood_ratio_threshold(sse_min: float, n: int) -> float:
     return sse_min * math.exp(chi95 / n)
 
 
-def capacity_profile(result: FitResult, refit_with_k: Callable[[float, dict[str, float]], FitResult],
+def capacity_profile(result: FitResult, refit_with_k: Callable[[float, dict[str, float]], Refit],
                      *, points: int = 25) -> CapacityProfile | None:
     """Scan K over a log grid from K̂/4 to 4·K̂ (each refit warm-started from its neighbour), then
-    locate both cuts' crossings between the bracketing grid values with Brent's method."""
+    locate both cuts' crossings between the bracketing grid values with Brent's method.
+
+    ``refit_with_k(K, start)`` gives the optimum's sum of squares and values only: the profile needs
+    no standard errors, so its refits skip them."""
     if not result.success or result.metrics is None or "K" not in result.values or result.parameter("K").fixed:
         return None
     k_hat = result.values["K"]
@@ -66,9 +71,9 @@ def capacity_profile(result: FitResult, refit_with_k: Callable[[float, dict[str,
         for k in branch:
             check_budget()
             refit = refit_with_k(float(k), start)
-            if refit.success and refit.metrics is not None:
-                sse_by_k[float(k)] = refit.metrics.sse
-                start = {n: v for n, v in refit.values.items() if n != "K"}
+            if refit is not None:
+                sse_by_k[float(k)] = refit[0]
+                start = {n: v for n, v in refit[1].items() if n != "K"}
                 start_by_k[float(k)] = start
             else:
                 sse_by_k[float(k)] = math.nan
@@ -80,7 +85,7 @@ def capacity_profile(result: FitResult, refit_with_k: Callable[[float, dict[str,
 
     def profile_at(k: float, near: float) -> float:
         refit = refit_with_k(k, start_by_k.get(near, start_by_k[k_hat]))
-        return refit.metrics.sse if refit.success and refit.metrics is not None else math.nan
+        return refit[0] if refit is not None else math.nan
 
     def ends(cut: float) -> tuple[float | None, float | None]:
         return (_crossing(ks, sse, cut, k_hat, -1, profile_at), _crossing(ks, sse, cut, k_hat, +1, profile_at))

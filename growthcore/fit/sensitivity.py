@@ -34,7 +34,7 @@ def path_jacobian(form: DifferenceForm, values: Mapping[str, float], free: Seque
     known = form.increment_partials(states, values) if form.increment_partials is not None else {}
     zero = np.zeros(states.shape)
     forcing = np.array([
-        zero if name == "p0" else known[name] if name in known else _central_partial(form, states, values, name)
+        zero if name == "p0" else known[name] if name in known else central_partial(form, states, values, name)
         for name in free
     ]).T
     return _linear_recursion(multiplier, forcing, np.array([1.0 if name == "p0" else 0.0 for name in free]))
@@ -66,7 +66,7 @@ def _linear_recursion(a: Array, b: Array, s0: Array) -> Array:
     return out
 
 
-def _central_partial(form: DifferenceForm, states: Array, values: Mapping[str, float], name: str) -> Array:
+def central_partial(form: DifferenceForm, states: Array, values: Mapping[str, float], name: str) -> Array:
     h = PARTIAL_STEP * max(abs(values[name]), 1e-3)
     up = form.increment(states, {**values, name: values[name] + h})
     down = form.increment(states, {**values, name: values[name] - h})

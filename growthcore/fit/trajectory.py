@@ -10,17 +10,17 @@ error) or ln p − ln p̂ (log, i.e. multiplicative error).
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
+from collections.abc import Callable, Iterable, Iterator, Mapping
 from typing import Any
 
 import numpy as np
 
 from growthcore.budget import check_budget
 from growthcore.data import Series
-from growthcore.fit.increments import consecutive_pairs, fit_increments
-from growthcore.fit.lm import Evaluation, solve_exact
-from growthcore.fit.nls import NLSOutcome, solve
-from growthcore.fit.problem import P0_DIFFERENCE, Problem, build_result, is_at_bound
+from growthcore.fit.increments import consecutive_pairs, solve_increments
+from growthcore.fit.lm import Evaluation, evaluation
+from growthcore.fit.nls import NLSOutcome
+from growthcore.fit.problem import P0_DIFFERENCE, Problem, Solved, solve_problem
 from growthcore.fit.result import FitResult, FitSettings, Grid, as_error_model, failed
 from growthcore.fit.sensitivity import path_jacobian
 from growthcore.fit.simulate import iterate, path_of
@@ -45,6 +45,23 @@ def fit_trajectory(
 
     A curve's p0 is its state at ``time_origin`` (default: the first time in the series).
     """
+    solved = solve_trajectory(series, form, model=model, error=error, fixed=fixed, start=start, terms=terms,
+                              time_origin=time_origin)
+    return solved if isinstance(solved, FitResult) else solved.result()
+
+
+def solve_trajectory(
+    series: Series,
+    form: ModelForm,
+    *,
+    model: str,
+    error: str,
+    fixed: Mapping[str, float],
+    start: Mapping[str, float],
+    terms: tuple[str, ...] = (),
+    time_origin: float | None = None,
+) -> Solved | FitResult:
+    """The optimum of :func:`fit_trajectory` before its result is built, or the failed result."""
     used = series.used
     t, p = series.t[used], series.p[used]
     if (error == "log" or form.needs_positive) and not p.min() > 0:
@@ -81,10 +98,9 @@ def _too_few(model: str, error: str, form: ModelForm, n: int, k: int) -> FitResu
 def _best(problem: Problem, candidates: Iterable[Array]) -> NLSOutcome | None:
     """Try starts in order (they may be built lazily) until one converges to a good enough fit."""
     best = None
-    lower, upper = problem.lower, problem.upper
     for x0 in candidates:
         check_budget()
-        outcome = _solve_one(problem, x0, lower, upper)
+        outcome = solve_problem(problem, x0)
         if outcome.finite and (best is None or outcome.sse < best.sse * (1 - 1e-9)):
             best = outcome
         if outcome.success and best is outcome and _good_enough(problem, outcome):
@@ -92,22 +108,12 @@ def _best(problem: Problem, candidates: Iterable[Array]) -> NLSOutcome | None:
     return best
 
 
-def _solve_one(problem: Problem, x0: Array, lower: Array, upper: Array) -> NLSOutcome:
-    """The exact-Jacobian solver where the problem has one, MINPACK where it stops short or at a bound."""
-    if problem.exact is not None:
-        outcome = solve_exact(problem.exact, x0, lower, upper, max_nfev=100 * (x0.size + 1))
-        at_bound = any(is_at_bound(v, problem.spec(n)) for v, n in zip(outcome.x.tolist(), problem.free, strict=True))
-        if outcome.success and not at_bound:
-            return outcome
-    return solve(problem.residuals, x0, lower, upper, scale=problem.scale)
-
-
 def _good_enough(problem: Problem, outcome: NLSOutcome) -> bool:
     """A converged start is accepted unless residuals are large beside the spread of the data."""
     return outcome.sse < 0.5 * problem.spread
 
 
-def _finish(problem: Problem, best: NLSOutcome | None, form: ModelForm) -> FitResult:
+def _finish(problem: Problem, best: NLSOutcome | None, form: ModelForm) -> Solved | FitResult:
     if best is None:
         return failed(problem.model, "trajectory", problem.error,
                       "no start converged to a finite path: the form cannot follow these data "
@@ -117,9 +123,8 @@ def _finish(problem: Problem, best: NLSOutcome | None, form: ModelForm) -> FitRe
         return failed(problem.model, "trajectory", problem.error,
                       f"did not converge from any start: {best.message} (best SSE {best.sse:.6g}); "
                       "the form may not suit these data, or fix a constant", form=form)
-    return build_result(problem, best.x, jac=best.jac, predicted=best.predicted,
-                        message=f"nonlinear least squares on the path ({best.message})",
-                        solver=best.solver, nfev=best.nfev)
+    return Solved(problem, best.x, best.sse, f"nonlinear least squares on the path ({best.message})", best.solver,
+                  nfev=best.nfev, jac=best.jac, predicted=best.predicted)
 
 
 def curve_problem(t: Array, p: Array, form: CurveForm, *, model: str, error: str,
@@ -155,11 +160,11 @@ def _curve_evaluation(form: CurveForm, free: tuple[str, ...], fixed: Mapping[str
 
         return np.broadcast_to(form.value(elapsed, v), elapsed.shape), states_jacobian
 
-    return _evaluation(free, fixed, observed, error, at)
+    return evaluation(free, fixed, observed, error, at)
 
 
-def _fit_curve(t: Array, p: Array, form: CurveForm, *, model: str, error: str,
-               fixed: Mapping[str, float], start: Mapping[str, float], t_first: float, origin: float) -> FitResult:
+def _fit_curve(t: Array, p: Array, form: CurveForm, *, model: str, error: str, fixed: Mapping[str, float],
+               start: Mapping[str, float], t_first: float, origin: float) -> Solved | FitResult:
     problem = curve_problem(t, p, form, model=model, error=error, fixed=fixed, t_first=t_first, origin=origin)
     too_few = _too_few(model, error, form, p.size, len(problem.free))
     if too_few:
@@ -170,8 +175,8 @@ def _fit_curve(t: Array, p: Array, form: CurveForm, *, model: str, error: str,
     return _finish(problem, _best(problem, vectors), form)
 
 
-def _fit_difference(series: Series, form: DifferenceForm, *, model: str, error: str,
-                    fixed: Mapping[str, float], start: Mapping[str, float], terms: tuple[str, ...]) -> FitResult:
+def _fit_difference(series: Series, form: DifferenceForm, *, model: str, error: str, fixed: Mapping[str, float],
+                    start: Mapping[str, float], terms: tuple[str, ...]) -> Solved | FitResult:
     step = series.step()
     if not step.regular or step.index is None or step.h is None:
         return failed(model, "trajectory", error, step.message, form=form)
@@ -212,8 +217,8 @@ def _fit_difference(series: Series, form: DifferenceForm, *, model: str, error: 
         quick = quick_seed(series, form, {**defaults, **shape_fixed})
         if quick is not None:
             yield {**defaults, **quick, "p0": max(first, 1e-9)}
-        inc = fit_increments(series, form, model=model, fixed=shape_fixed, start=start, terms=terms)
-        if inc.success:
+        inc = solve_increments(series, form, model=model, fixed=shape_fixed, start=start, terms=terms)
+        if isinstance(inc, Solved):
             yield {**inc.values, "p0": first}
         for factor in (1.0, 1.5):
             yield {**defaults, "K": k0 * factor}
@@ -237,36 +242,7 @@ def _path_evaluation(form: DifferenceForm, free: tuple[str, ...], fixed: Mapping
 
         return (path if whole else path[offset]), states_jacobian
 
-    return _evaluation(free, fixed, observed, error, at)
-
-
-def _evaluation(free: tuple[str, ...], fixed: Mapping[str, float], observed: Array, error: str,
-                at: Callable[[dict[str, Any]], tuple[Array, Callable[[], Array]]]) -> Evaluation:
-    """An :data:`Evaluation` from ``at(values)`` = (predicted states, d states / d free constants).
-
-    Residuals and the Jacobian are on the error scale. Runs under the caller's ``np.errstate``
-    (:func:`growthcore.fit.fit` silences numpy warnings).
-    """
-    log = error == "log"
-    target = np.log(observed) if log else observed
-    base = dict(fixed)
-
-    def evaluate(x: Sequence[float]) -> tuple[Array, float, Callable[[], Array], Array] | None:
-        values = dict(base)
-        values.update(zip(free, x, strict=True))
-        predicted, states_jacobian = at(values)
-        residuals = target - (np.log(predicted) if log else predicted)
-        sse = float(residuals @ residuals)
-        if not math.isfinite(sse):
-            return None
-
-        def jacobian() -> Array:
-            jac = states_jacobian()
-            return jac / predicted[:, None] if log else jac
-
-        return residuals, sse, jacobian, predicted
-
-    return evaluate
+    return evaluation(free, fixed, observed, error, at)
 
 
 def quick_seed(series: Series, form: DifferenceForm, guesses: Mapping[str, float]) -> dict[str, float] | None:

@@ -63,6 +63,22 @@ def test_trajectory_profile_end_is_a_root_of_the_profile() -> None:
         assert again.metrics.sse == pytest.approx(prof.threshold, rel=1e-6)
 
 
+@pytest.mark.parametrize("model", ["ricker", "beverton-holt", "gompertz"])
+def test_increments_profile_ends_are_roots_of_the_profile(model: str) -> None:
+    """The profile's refits keep only each optimum's SSE; a whole fit with K held at either end of
+    either interval has the SSE of that cut (Bates & Watts 1988, §6.1, the profile's definition)."""
+    s = uspop()
+    prof = fit(s, model, method="increments").profile
+    assert prof is not None
+    found = 0
+    for cut, ends in ((prof.threshold, prof.interval), (prof.threshold_lr, prof.interval_lr)):
+        for end in (e for e in ends if e is not None):  # an end beyond 4·K̂ is reported open
+            found += 1
+            again = fit(s, model, method="increments", capacity=end, profile=False)
+            assert again.metrics.sse == pytest.approx(cut, rel=1e-6), (model, end)
+    assert found >= 2
+
+
 def test_the_screen_names_both_cuts() -> None:
     from growthcore.app.callbacks.fits import compute_fits
     from growthcore.app.components.comparison import parameter_lines
