@@ -30,7 +30,9 @@ from growthcore.budget import budget_paused
 from growthcore.errors import GrowthcoreInputError
 
 #: Modules the worker server imports once, so that each job starts without importing them again.
-PRELOAD = ["numpy", "scipy.optimize", "growthcore.io", "growthcore.batch", "growthcore.uncertainty",
+#: ``__main__`` is the script that started the server: without it every job would run that script
+#: again (as ``__mp_main__``) before starting its work.
+PRELOAD = ["__main__", "numpy", "scipy.optimize", "growthcore.io", "growthcore.batch", "growthcore.uncertainty",
            "growthcore.app.callbacks.data", "growthcore.app.callbacks.series.read",
            "growthcore.app.callbacks.series.run",
            "growthcore.app.callbacks.dynamics.bootstrap", "growthcore.app.callbacks.batch_tables"]

@@ -12,6 +12,7 @@ from dash import Dash, Input, Output, State, ctx, html, no_update
 
 from growthcore.errors import ChoiceNotFound, GrowthcoreInputError, ImportFailure
 from growthcore.io import load_bytes
+from growthcore.io.sniff import OLE_SIGNATURE, ZIP_SIGNATURES
 from growthcore.limits import DEFAULT as DEFAULT_LIMITS
 from growthcore.limits import Limits
 
@@ -49,6 +50,30 @@ def decode_source(source: Mapping[str, Any], max_bytes: int | None = None) -> by
     except (binascii.Error, ValueError):
         raise GrowthcoreInputError(f"{source.get('filename', 'upload')}: the upload arrived damaged "
                                    "(not valid base64); try again") from None
+
+
+#: A text file up to this size is read in the request's own thread, under the light-request budget: its
+#: reading takes milliseconds and is bounded by the size the server checks first, while starting a worker
+#: process takes 10 to 100 ms. Workbooks (compressed, so their size says little) and larger files are
+#: read by a worker.
+LIGHT_READ_BYTES = 256 * 1024
+
+
+def is_light_read(source: Mapping[str, Any]) -> bool:
+    """Whether ``source`` is a small text file (see :data:`LIGHT_READ_BYTES`)."""
+    b64 = source.get("b64")
+    if not isinstance(b64, str) or len(b64) * 3 // 4 > LIGHT_READ_BYTES:
+        return False
+    try:
+        head = base64.b64decode(b64[:12], validate=True)
+    except (binascii.Error, ValueError):
+        return False  # damaged: the worker's read says so
+    return bool(head) and not head.startswith((*ZIP_SIGNATURES, OLE_SIGNATURE))
+
+
+def reader_for(source: Mapping[str, Any], run: Any) -> Any:
+    """``run`` (a worker) for a file that is heavy to read, the calling thread for a small text file."""
+    return direct if is_light_read(source) else run
 
 
 def value_columns(text: str | None) -> str | list[str] | None:
@@ -156,8 +181,8 @@ def on_import(contents: str | None, _apply: int, pick: str | None, filename: str
     keep_pick = pick if trigger == ids.SERIES_PICK or (trigger == ids.MAP_APPLY and pick) else None
     try:
         limits = limits or dataclasses.replace(DEFAULT_LIMITS, max_bytes=max_bytes)
-        data = run("reading the file", import_source, source, pick=keep_pick, limits=limits,
-                   keep_what_fits=new_upload, **mapping)
+        data = reader_for(source, run)("reading the file", import_source, source, pick=keep_pick, limits=limits,
+                                       keep_what_fits=new_upload, **mapping)
     except GrowthcoreInputError as exc:
         message = str(exc).splitlines()[0]
         retry = bool(new_upload or trigger == ids.MAP_APPLY)

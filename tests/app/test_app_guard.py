@@ -14,6 +14,7 @@ import threading
 import time
 
 import pytest
+from dash import no_update
 
 from growthcore.app import ids
 from growthcore.app.callbacks.data import import_source, on_import
@@ -185,3 +186,44 @@ def test_a_result_that_cannot_travel_is_named() -> None:
     with pytest.raises(RuntimeError, match=r"failed in its worker \((PicklingError|AttributeError|TypeError)"):
         runner.run("a job", threading.Lock)  # a lock cannot be pickled back
     assert runner.bounded("in this thread", threading.Lock) is not None
+
+
+# ----------------------------------------------------------------------------- which reads need a worker
+
+def _counting_runner() -> tuple[list[str], object]:
+    jobs: list[str] = []
+
+    def run(what, func, *args, **kwargs):
+        jobs.append(what)
+        return func(*args, **kwargs)
+
+    return jobs, run
+
+
+def test_a_small_text_file_is_read_in_the_request_a_workbook_or_large_file_by_a_worker(tmp_path) -> None:
+    """Starting a worker costs more than reading a small CSV (measured in tests/benchmarks/bench_browser.py):
+    a series switch of a small text file is read in the request's thread; a workbook, whose packed size says
+    little about its cells, and a file over LIGHT_READ_BYTES go to a worker."""
+    import pandas as pd
+
+    from growthcore.app.callbacks.data import LIGHT_READ_BYTES, is_light_read
+
+    small = {"filename": "invented_culture.csv", "b64": _b64(_culture())}
+    rows = LIGHT_READ_BYTES // 40  # four wells, lines of over 40 bytes
+    large = {"filename": "invented_wells.csv",
+             "b64": _b64(b"Time (h),A1,A2,A3,A4\n" + b"".join(
+                 b"%d,%.6f,%.6f,%.6f,%.6f\n" % (i, 1 + i * 1e-6, 2 + i * 1e-6, 3 + i * 1e-6, 4 + i * 1e-6)
+                 for i in range(rows)))}
+    book_path = tmp_path / "invented_culture.xlsx"
+    pd.DataFrame({"Time (h)": range(24), "OD": [1.0 + i for i in range(24)]}).to_excel(book_path, index=False)
+    book = {"filename": book_path.name, "b64": _b64(book_path.read_bytes())}
+    assert is_light_read(small)
+    assert not is_light_read(large) and len(large["b64"]) * 3 // 4 > LIGHT_READ_BYTES
+    assert not is_light_read(book)
+    assert not is_light_read({"filename": "damaged.csv", "b64": "%%%%not base64%%%%"})
+    for source, expected in ((small, []), (book, ["reading the file"]), (large, ["reading the file"])):
+        jobs, run = _counting_runner()
+        out = on_import(None, 0, None, None, source, None, None, None, None, None, None, trigger=ids.SERIES_PICK,
+                        run=run, max_bytes=DEFAULT.max_bytes)
+        assert jobs == expected, source["filename"]
+        assert out[1] is not no_update and out[1]["series_names"], (source["filename"], out[2])  # read either way

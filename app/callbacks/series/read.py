@@ -21,7 +21,7 @@ from growthcore.numbers import finite_or_none
 from ... import ids
 from ...heavy import direct, runner_of
 from ...state import check_points
-from ..data import DEFAULT_MAX_BYTES, decode_source, server_limits, value_columns
+from ..data import DEFAULT_MAX_BYTES, decode_source, reader_for, server_limits, value_columns
 
 
 def series_to_plain(s: Series) -> dict[str, Any]:
@@ -75,7 +75,7 @@ def read_all_series(source: Mapping[str, Any] | None, data: Mapping[str, Any] | 
         raise PreventUpdate
     limits = limits or dataclasses.replace(DEFAULT_LIMITS, max_bytes=DEFAULT_MAX_BYTES)
     return {"key": key, "source": data.get("source", ""), "mapping": mapping,
-            **run("reading every series", plain_series, source, mapping, limits)}
+            **reader_for(source, run)("reading every series", plain_series, source, mapping, limits)}
 
 
 def plain_series(source: Mapping[str, Any], mapping: Mapping[str, Any], limits: Limits) -> dict[str, Any]:
