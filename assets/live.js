@@ -1,5 +1,6 @@
 /* What the page does on its own, without a request: the order of the comparison table, and the
-   preview of a K being dragged (panels follow the slider; the server's fit is committed on release). */
+   preview of a K being dragged (panels follow the slider or the K line's handle; the server's fit is
+   committed on release). */
 (function () {
   "use strict";
   var NS = "growthcore_live";
@@ -120,6 +121,7 @@
       }
     });
     var layout = Object.assign({}, gd.layout);
+    if (handle) { layout.yaxis = Object.assign({}, layout.yaxis, {range: handle.range, autorange: false}); }
     var log = layout.yaxis && layout.yaxis.type === "log";
     if (layout.shapes && layout.shapes.length) {
       layout.shapes = layout.shapes.slice();
@@ -136,20 +138,8 @@
 
   var pending = null;
 
-  /* Only a drag previews: the slider also reports a drag value when the server sets its value, and a
-     preview then would draw over the server's figures. */
-  var dragging = false;
-  document.addEventListener("pointerdown", function (e) {
-    dragging = !!(e.target && e.target.closest && e.target.closest("#model-k-slider"));
-  }, true);
-  document.addEventListener("pointerup", function () { dragging = false; }, true);
-
-  /* The slider's drag value: drawn at the next frame (moves faster than frames are coalesced). */
-  function preview(drag, store) {
-    var nu = window.dash_clientside.no_update;
-    if (!dragging || drag === null || drag === undefined || !store || !window.Plotly) { return nu; }
-    var K = rounded(Number(drag));
-    if (!(K > 0)) { return nu; }
+  /* Draws the preview at K at the next frame (pointer moves come faster than frames; the last one wins). */
+  function schedule(store, K) {
     var first = pending === null;
     pending = {store: store, K: K};
     if (first) {
@@ -161,8 +151,48 @@
         window.__gcPreviewK = job.K;
       });
     }
+  }
+
+  /* Only a drag previews: the slider also reports a drag value when the server sets its value, and a
+     preview then would draw over the server's figures. */
+  var dragging = false;
+  document.addEventListener("pointerdown", function (e) {
+    dragging = !!(e.target && e.target.closest && e.target.closest("#model-k-slider"));
+  }, true);
+  document.addEventListener("pointerup", function () { dragging = false; }, true);
+
+  /* The slider's drag value. */
+  function preview(drag, store) {
+    var nu = window.dash_clientside.no_update;
+    if (!dragging || drag === null || drag === undefined || !store || !window.Plotly) { return nu; }
+    var K = rounded(Number(drag));
+    if (K > 0) { schedule(store, K); }
     return nu;  // nothing for Dash to store: a store update per pointer move costs the page a render
   }
+
+  /* The K line's handle (the trajectory's first shape) being dragged: plotly reports the move only on
+     release, so the pointer is followed here. K is read from the pointer through the y axis as it was
+     when the drag began, which is also how plotly works out the value it reports on release; the axis
+     keeps that range while the preview draws (growthcore/figures/trajectory.py, CAPACITY_SHAPE). */
+  var latest = null, handle = null;
+  function keep(store) {
+    latest = store || null;
+    return window.dash_clientside.no_update;
+  }
+  document.addEventListener("pointerdown", function (e) {
+    var hit = e.target && e.target.closest && e.target.closest("#panel-trajectory .shapelayer path[data-index='0']");
+    var gd = hit ? plotOf("panel-trajectory") : null;
+    var full = gd && gd._fullLayout;
+    if (!full || !full.shapes || !full.shapes.length || !(full.shapes[0].yanchor > 0)) { handle = null; return; }
+    var ya = full.yaxis;
+    handle = {axis: ya, y0: e.clientY, p0: ya.l2p(ya.d2l(full.shapes[0].yanchor)), range: ya.range.slice()};
+  }, true);
+  document.addEventListener("pointermove", function (e) {
+    if (!handle || !latest || !window.Plotly) { return; }
+    var K = rounded(handle.axis.l2d(handle.axis.p2l(handle.p0 + e.clientY - handle.y0)));
+    if (K > 0 && isFinite(K)) { schedule(latest, K); }
+  }, true);
+  document.addEventListener("pointerup", function () { handle = null; }, true);
 
   /* The trajectory's relayout events: only those that moved a shape's anchor (the K line) go to the
      server. Autosize, zoom and pan events would otherwise start a reply that cancels one in flight. */
@@ -202,6 +232,6 @@
 
   window.dash_clientside = window.dash_clientside || {};
   window.dash_clientside[NS] = Object.assign(window.dash_clientside[NS] || {},
-                                             {sort: sort, preview: preview, previewNumbers: previewNumbers,
+                                             {sort: sort, preview: preview, keep: keep, previewNumbers: previewNumbers,
                                               kDrop: kDrop, drawWhenSeen: drawWhenSeen});
 })();

@@ -4,8 +4,8 @@ A K typed, released on the slider or dropped with the K line, a new series, an e
 choice of forms is answered by one request whose reply holds all that changes: the committed K and
 its controls, the fits store, panels 1 to 5 and the key, the comparison table, and panel 7 (which
 fit it describes, its dynamics, its bootstrap status and a forecast already asked for). Outputs whose
-inputs did not change are sent as ``no_update``; the drag of the slider is previewed in the browser
-(assets/live.js) and committed here on release.
+inputs did not change are sent as ``no_update``; a drag of the slider or of the K line is previewed in the
+browser (assets/live.js) and committed here on release.
 """
 
 from __future__ import annotations
@@ -166,14 +166,17 @@ def live_update(trigger: Any, k_input: float | None, k_slider: float | None, rel
 
 
 def register(app: Dash) -> None:
-    # the slider being dragged: panel 2's lines, the K line and the increments fits that hold K follow in
-    # the browser (assets/live.js); the value on release comes to the callback below
+    # the slider or the K line's handle being dragged: panel 2's lines, the K line and the increments fits
+    # that hold K follow in the browser (assets/live.js); the value on release comes to the callback below
     app.clientside_callback(ClientsideFunction(namespace="growthcore_live", function_name="kDrop"),
                             Output(ids.K_DROP, "data"), Input(ids.G_TRAJECTORY, "relayoutData"),
                             prevent_initial_call=True)
     app.clientside_callback(ClientsideFunction(namespace="growthcore_live", function_name="preview"),
                             Input(ids.K_SLIDER, "drag_value"),
                             State(ids.PREVIEW, "data"), prevent_initial_call=True)
+    # the K line's handle is followed from pointer events, which need the preview's inputs at hand
+    app.clientside_callback(ClientsideFunction(namespace="growthcore_live", function_name="keep"),
+                            Input(ids.PREVIEW, "data"), prevent_initial_call=True)
 
     @app.callback(
         Output(ids.CAPACITY, "data"), Output(ids.K_INPUT, "value"), Output(ids.K_SLIDER, "value"),

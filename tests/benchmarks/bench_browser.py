@@ -12,8 +12,9 @@ requests, their bytes and those in flight; a step ends when no request has been 
   the requests and kB brought down per change;
 - an upload of an invented 100-point file: until the trajectory panel is drawn for it;
 - switching between the series of an invented long file of three series;
-- a drag of the K slider: how often per second the K line, panel 2's regression line and panel 3's
-  one-step-ahead path change while the pointer moves (read at every animation frame);
+- a drag of the K slider, and one of the K line's handle: how often per second the K line, panel 2's
+  regression line and panel 3's one-step-ahead path change while the pointer moves (read at every
+  animation frame), and, for the handle, that the table shows the K it was dropped at;
 - an export of every file type (record, PNGs, CSV, HTML): until the last file is saved;
 - the floor: one round trip to the server with no work behind it, and one ``Plotly.react`` of a small
   figure, in the same browser.
@@ -228,6 +229,31 @@ def drag(driver: Any, moves: int = 40, pause: float = 0.025) -> tuple[list[float
     return rates, span, moves
 
 
+def drag_line(driver: Any, moves: int = 40, pause: float = 0.025) -> tuple[list[float], float, int, str]:
+    """Drags the K line's handle (panel 3's first shape) up in small moves; updates per second as for the
+    slider, the drag's length (s), the pointer moves made, and the K the page shows once the drop settled."""
+    from selenium.webdriver.common.action_chains import ActionChains
+    from selenium.webdriver.common.by import By
+
+    driver.execute_script("document.getElementById('panel-trajectory').scrollIntoView({block: 'center'})")
+    handle = driver.find_element(By.CSS_SELECTOR, "#panel-trajectory .shapelayer path[data-index='0']")
+    driver.execute_script(FRAMES)
+    start = driver.execute_script("return performance.now()")
+    chain = ActionChains(driver, duration=0).move_to_element(handle).click_and_hold()
+    for _ in range(moves):
+        chain = chain.move_by_offset(0, -1).pause(pause)
+    chain.perform()
+    end = driver.execute_script("return performance.now()")
+    changes = driver.execute_script("window.__gcFrames.run = false; return window.__gcFrames.changes;")
+    previewed = driver.execute_script("return window.__gcPreviewK")
+    ActionChains(driver, duration=0).release().perform()
+    shown = f"K = {previewed:g}"
+    _settle(driver, driver.execute_script(INSTRUMENT), lambda: shown in _text(driver, "comparison-table"))
+    span = (end - start) / 1000
+    rates = [len([t for t in c if start <= t <= end]) / span for c in changes]
+    return rates, span, moves, f"{previewed:g}"
+
+
 def export_all(driver: Any, downloads: str) -> tuple[float, int]:
     """Every file type at once: seconds from the click until the last file is saved, and how many files."""
     from selenium.webdriver.common.by import By
@@ -311,6 +337,10 @@ def main() -> int:
         print(f"dragging the K slider ({moves} pointer moves in {span:.1f} s): the K line follows at {rates[0]:.1f} "
               f"updates/s, panel 2's line at {rates[1]:.1f}, the one-step-ahead path at {rates[2]:.1f} "
               f"(target {TARGETS['drag_fps']:.0f})")
+        rates, span, moves, dropped = drag_line(driver)
+        print(f"dragging the K line's handle ({moves} pointer moves in {span:.1f} s): the K line follows at "
+              f"{rates[0]:.1f} updates/s, panel 2's line at {rates[1]:.1f}, the one-step-ahead path at {rates[2]:.1f} "
+              f"(target {TARGETS['drag_fps']:.0f}); dropped at K = {dropped}, which the table then shows")
         ex_s, ex_n = export_all(driver, downloads)
         print(f"export of the record, every PNG, the CSV and the HTML report: {ex_s:.1f} s for {ex_n} files "
               f"(target {TARGETS['export_s']:.0f} s)")

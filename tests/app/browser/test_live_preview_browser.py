@@ -104,3 +104,37 @@ def test_dragging_the_slider_moves_k_and_panel_two_then_the_release_refits(serve
     page.wait_idle(driver)
     committed = driver.execute_script("return window.__gcPreviewK")
     assert f"K = {committed:g}" in page.text(driver, "panel-candidate-summary")
+
+
+def test_dragging_the_k_line_moves_k_and_panel_two_then_the_drop_commits_it(server_url: str,
+                                                                            make_driver: Any) -> None:
+    """plotly reports a shape's move only when it is dropped: the page follows the pointer itself, and the
+    K it previews is the K plotly reports on the drop (both read the y axis as it was when the drag began)."""
+    from selenium.webdriver.common.action_chains import ActionChains
+    from selenium.webdriver.common.by import By
+
+    driver = make_driver()
+    page.open_demo(driver, server_url)
+    page.hold_k(driver)
+    look = ("const t = document.querySelector('#panel-trajectory .js-plotly-plot'),"
+            " c = document.querySelector('#panel-candidate .js-plotly-plot');"
+            "const k = t.data.find(d => d.meta === 'capacity');"
+            "const line = c.data.find(d => String(d.uid || '').startsWith('candidate-line-'));"
+            "return [k.y[0], line.name, t._fullLayout.shapes[0].yanchor];")
+    k0, line0, anchor0 = driver.execute_script(look)
+    assert anchor0 == k0
+    driver.execute_script("document.getElementById('panel-trajectory').scrollIntoView({block: 'center'})")
+    handle = driver.find_element(By.CSS_SELECTOR, "#panel-trajectory .shapelayer path[data-index='0']")
+    chain = ActionChains(driver, duration=0).move_to_element(handle).click_and_hold()
+    for _ in range(8):
+        chain = chain.move_by_offset(0, 3).pause(0.1)  # down: a lower K
+    chain.perform()
+    # while the pointer is down: the K line, its handle and panel 2's line have moved
+    k1, line1, anchor1 = wait(driver, lambda d: (lambda v: v if v[0] != k0 else None)(d.execute_script(look)))
+    assert k1 < k0 and line1 != line0 and anchor1 == k1
+    assert driver.execute_script("return window.__gcPreviewK") == k1
+    ActionChains(driver, duration=0).release().perform()
+    wait(driver, lambda d: f"K = {k1:g} (held)" in "\n".join(page.comparison_rows(d)))
+    page.wait_idle(driver)
+    assert f"K = {k1:g}" in page.text(driver, "panel-candidate-summary")
+    assert float(driver.find_element(By.ID, "model-k-input").get_attribute("value")) == k1
