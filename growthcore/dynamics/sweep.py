@@ -83,8 +83,13 @@ def _first_of_equal(late: Array, tol: float) -> Array:
     return mask
 
 
+#: Late states drawn per rate value: a chaotic band reads as one at 32 (its windows of period up to 32 as
+#: windows), and every state more is a point the browser draws (about 30 µs each in SVG).
+SHOWN_STATES = 32
+
+
 def sweep(result: FitResult, *, parameter: str | None = None, interval: tuple[float, float] | None = None,
-          points: int = 300, shown: int = 64, span: tuple[float, float] | None = None) -> Sweep | None:
+          points: int = 300, shown: int = SHOWN_STATES, span: tuple[float, float] | None = None) -> Sweep | None:
     """Long-run states over ``points`` values of the rate; None for curves or forms without a rate.
 
     ``interval`` defaults to the t-based 95% interval of the rate; pass the bootstrap interval when there is one.

@@ -11,7 +11,7 @@ are not linear in any constant (Ricker, Beverton–Holt) fit p_{n+1} on p_n by n
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Iterator, Mapping
 from dataclasses import replace
 from typing import Any
 
@@ -207,15 +207,7 @@ def _shape_start(name: str, start: Mapping[str, float], observed: Array, x: Arra
 
 def _fit_nonlinear(problem: Problem, form: DifferenceForm, x: Array,
                    start: Mapping[str, float]) -> Solved | FitResult:
-    states = np.concatenate([x, problem.observed[-1:]])
-    k0 = capacity_start(states)
-    growth = float(np.median(problem.observed / np.where(x != 0, x, np.nan)))
-    growth = growth if math.isfinite(growth) and growth > 0 else 1.5
-    guesses = {"K": k0, "lambda": max(growth, 1.05) ** 2, "r": max(math.log(max(growth, 1.05)) * 2.0, 0.05), "c": 0.0}
-    candidates = []
-    for factor in (1.0, 1.5, 0.7):
-        base = {**guesses, "K": k0 * factor, **start}
-        candidates.append(np.array([problem.spec(n).clip(base.get(n, 1.0)) for n in problem.free]))
+    candidates = _nonlinear_starts(problem, x, start)
     best = None
     for x0 in candidates:
         outcome = solve_problem(problem, x0)
@@ -231,6 +223,24 @@ def _fit_nonlinear(problem: Problem, form: DifferenceForm, x: Array,
                       f"nonlinear least squares of p_{{n+1}} on p_n did not converge: {best.message}", form=form)
     return Solved(problem, best.x, best.sse, f"nonlinear least squares of p_{{n+1}} on p_n ({best.message})",
                   best.solver, nfev=best.nfev, jac=best.jac, predicted=best.predicted)
+
+
+def _nonlinear_starts(problem: Problem, x: Array, start: Mapping[str, float]) -> Iterator[Array]:
+    """Guesses from the data with K at 1, 1.5 and 0.7 times its first guess, each completed by ``start``;
+    a ``start`` for every free constant (each refit of the K profile) is the one start."""
+    def vector(values: Mapping[str, float]) -> Array:
+        return np.array([problem.spec(n).clip(values.get(n, 1.0)) for n in problem.free])
+
+    if all(n in start for n in problem.free):
+        yield vector(start)
+        return
+    states = np.concatenate([x, problem.observed[-1:]])
+    k0 = capacity_start(states)
+    growth = float(np.median(problem.observed / np.where(x != 0, x, np.nan)))
+    growth = growth if math.isfinite(growth) and growth > 0 else 1.5
+    guesses = {"K": k0, "lambda": max(growth, 1.05) ** 2, "r": max(math.log(max(growth, 1.05)) * 2.0, 0.05), "c": 0.0}
+    for factor in (1.0, 1.5, 0.7):
+        yield vector({**guesses, "K": k0 * factor, **start})
 
 
 def _pairs_evaluation(form: DifferenceForm, free: tuple[str, ...], fixed: Mapping[str, float], x: Array,

@@ -48,12 +48,19 @@ TARGETS = {"k_ms": 300.0, "k_kb": 150.0, "upload_ms": 1000.0, "switch_ms": 500.0
 #: Counts the page's Dash requests: how many, their bytes, and how many are in flight.
 INSTRUMENT = """
 if (!window.__gc) {
-  window.__gc = {requests: 0, bytes: 0, inflight: 0, last: performance.now(), busy: 0};
+  window.__gc = {requests: 0, bytes: 0, inflight: 0, last: performance.now(), busy: 0, changed: 0};
   // work the page does after the last reply (drawing the figures, laying out the table) is waited for too:
-  // the end of the last long task (over 50 ms) counts, and the next frame after it
-  new PerformanceObserver(list => list.getEntries().forEach(e => {
-    window.__gc.busy = Math.max(window.__gc.busy, e.startTime + e.duration);
-  })).observe({type: 'longtask', buffered: true});
+  // the end of the last long task (over 50 ms), and the last change to the page (a figure redrawn in
+  // several shorter tasks is seen by its changes; the observer runs as the task that made them ends)
+  const seen = e => { window.__gc.busy = Math.max(window.__gc.busy, e.startTime + e.duration); };
+  window.__gc.tasks = new PerformanceObserver(list => list.getEntries().forEach(seen));
+  window.__gc.tasks.observe({type: 'longtask', buffered: true});
+  window.__gc.seen = seen;
+  // a dropdown's menu closing (its portal leaving the page) is not work the step waits for
+  const menu = m => m.target.id === 'react-entry-point' || m.target.nodeType !== 1 && !m.target.parentElement ||
+    !!(m.target.nodeType === 1 ? m.target : m.target.parentElement).closest('[role=listbox]');
+  new MutationObserver(list => { if (list.some(m => !menu(m))) { window.__gc.changed = performance.now(); } }).observe(
+    document.body, {subtree: true, childList: true, attributes: true, characterData: true});
   const plain = window.fetch.bind(window);
   window.fetch = async function (...args) {
     const url = String(args[0] && args[0].url || args[0]);
@@ -75,10 +82,13 @@ window.__gc.requests = 0; window.__gc.bytes = 0;
 return performance.now();
 """
 
+#: Long tasks not yet handed to the observer are taken first: a check that runs right after a long task
+#: would otherwise miss it and end the step early.
 SETTLED = """
 const g = window.__gc, now = performance.now();
+g.tasks.takeRecords().forEach(g.seen);
 const loading = document.querySelectorAll('[data-dash-is-loading]').length;
-const end = Math.max(g.last, g.busy);
+const end = Math.max(g.last, g.busy, g.changed);
 return (g.inflight === 0 && loading === 0 && now - end >= arguments[0]) ? [end, g.requests, g.bytes] : null;
 """
 
