@@ -3,8 +3,10 @@
 A heavy job runs in a fresh process forked from a small server of workers, so that
 
 - light requests (a K change, a panel redraw) are answered by the server's own threads while a
-  heavy job runs: at most ``slots`` heavy jobs at once, and a job that cannot get a slot within
-  ``wait_s`` is refused with a message rather than queued without end;
+  heavy job runs: at most ``slots`` heavy jobs at once, at most ``queue`` more waiting for a slot
+  (each waiting job holds a server thread, so more would leave none for light requests: a job
+  beyond them is refused at once), and a job that cannot get a slot within ``wait_s`` is refused
+  with a message rather than queued without end;
 - a job that runs past its time budget is stopped (the process is killed) and the tab is told so;
 - a job that asks for more memory than ``memory_bytes`` fails in its own process with an
   out-of-memory message, and whatever a job allocated goes back to the system when it ends, so
@@ -22,7 +24,8 @@ import multiprocessing as mp
 import pickle
 import threading
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from typing import Any
 
@@ -47,6 +50,8 @@ class HeavyConfig:
     """How heavy jobs run: in worker processes (the server) or in the calling thread (unit tests)."""
 
     slots: int = 2
+    #: heavy jobs that may wait for a slot; the server needs more threads than ``slots + queue``
+    queue: int = 2
     wait_s: float = 10.0
     budget_s: float = 60.0
     memory_bytes: int = 3 * 1024**3
@@ -85,9 +90,11 @@ class HeavyRunner:
     def __init__(self, config: HeavyConfig | None = None) -> None:
         self.config = config or HeavyConfig()
         self._slots = threading.BoundedSemaphore(self.config.slots)
+        self._admitted = threading.BoundedSemaphore(self.config.slots + self.config.queue)
         self._context: Any = None
         self._lock = threading.Lock()
         self.running = 0
+        self.waiting = 0
 
     def _ctx(self) -> Any:
         with self._lock:
@@ -113,34 +120,47 @@ class HeavyRunner:
             return self._run(what, func, args, kwargs)
 
     def _run(self, what: str, func: Callable[..., Any], args: Any, kwargs: Any) -> Any:
-        cfg = self.config
-        if not self._slots.acquire(timeout=cfg.wait_s):
-            raise HeavyRefused(f"the server is busy with {cfg.slots} heavy job(s) from other tabs; {what} was not "
-                               f"started within {cfg.wait_s:g} s: try again in a moment")
-        self.running += 1
-        try:
-            if not cfg.processes:
+        with self._slot(what):
+            if not self.config.processes:
                 return func(*args, **kwargs)
             return self._in_process(what, func, args, kwargs)
-        finally:
-            self.running -= 1
-            self._slots.release()
 
     def bounded(self, what: str, func: Callable[..., Any], *args: Any, **kwargs: Any) -> Any:
         """``func`` under the same bound on heavy jobs, in the calling thread (for results that do
         not travel between processes, such as fitted forms), and under the request's light-work
         budget (the wait for a slot is not counted)."""
-        with budget_paused():
-            free = self._slots.acquire(timeout=self.config.wait_s)
-        if not free:
-            raise HeavyRefused(f"the server is busy with {self.config.slots} heavy job(s) from other tabs; {what} "
-                               f"was not started within {self.config.wait_s:g} s: try again in a moment")
-        self.running += 1
-        try:
+        with self._slot(what):
             return func(*args, **kwargs)
+
+    def _count(self, name: str, step: int) -> None:
+        with self._lock:
+            setattr(self, name, getattr(self, name) + step)
+
+    @contextmanager
+    def _slot(self, what: str) -> Iterator[None]:
+        """One of the ``slots``, waited for (the request's budget paused) while at most ``queue``
+        other jobs wait; HeavyRefused at once when the queue is full, or after ``wait_s``."""
+        cfg = self.config
+        busy = f"the server is busy with {cfg.slots} heavy job(s) from other tabs; {what} was not started"
+        if not self._admitted.acquire(blocking=False):
+            raise HeavyRefused(f"{busy} ({cfg.queue} more are waiting): try again in a moment")
+        try:
+            self._count("waiting", 1)
+            try:
+                with budget_paused():
+                    free = self._slots.acquire(timeout=cfg.wait_s)
+            finally:
+                self._count("waiting", -1)
+            if not free:
+                raise HeavyRefused(f"{busy} within {cfg.wait_s:g} s: try again in a moment")
+            self._count("running", 1)
+            try:
+                yield
+            finally:
+                self._count("running", -1)
+                self._slots.release()
         finally:
-            self.running -= 1
-            self._slots.release()
+            self._admitted.release()
 
     def _in_process(self, what: str, func: Callable[..., Any], args: Any, kwargs: Any) -> Any:
         cfg = self.config

@@ -216,11 +216,16 @@ def serve(app: Dash, *, host: str = "127.0.0.1", port: int = 8050, open_browser:
           threads: int = DEFAULT_THREADS) -> None:
     """Serve with waitress until interrupted; warn when the address is reachable from the network.
 
-    The server answers only to the loopback names and ``host``; more threads than heavy-job
-    slots, so that light requests are answered while heavy jobs run.
+    The server answers only to the loopback names and ``host``. It needs more threads than heavy
+    jobs may hold (those running and those waiting for a slot), so that light requests are
+    answered however many heavy ones arrive.
     """
     from waitress import serve as waitress_serve
 
+    heavy = app.server.config["GROWTHCORE_HEAVY"].config
+    if threads <= heavy.slots + heavy.queue:
+        raise ValueError(f"serve needs more than {heavy.slots + heavy.queue} threads (the heavy jobs running and "
+                         f"waiting) so that light requests are answered; got {threads}")
     app.server.config["GROWTHCORE_ALLOWED_HOSTS"] = allowed_hosts_for(host)
     app.server.config["GROWTHCORE_HEAVY"].warm()
 

@@ -158,6 +158,50 @@ def test_heavy_jobs_beyond_the_slots_wait_then_are_refused() -> None:
     assert runner.run("after", sum, [2]) == 2
 
 
+def test_heavy_jobs_beyond_the_queue_are_refused_at_once() -> None:
+    """A job waiting for a slot holds a server thread: past ``slots + queue`` jobs the next is refused
+    without waiting, so that threads stay free for light requests however many heavy ones arrive."""
+    runner = HeavyRunner(HeavyConfig(slots=1, queue=1, wait_s=30, processes=False))
+    release, running = threading.Event(), threading.Event()
+
+    def hold() -> None:
+        running.set()
+        release.wait(10)
+
+    first = threading.Thread(target=runner.run, args=("holding", hold))
+    first.start()
+    assert running.wait(5)
+    second = threading.Thread(target=runner.bounded, args=("waiting", sum, [1]))
+    second.start()
+    for _ in range(500):
+        if runner.waiting == 1:
+            break
+        time.sleep(0.01)
+    assert runner.waiting == 1 and runner.running == 1
+    for call in (runner.run, runner.bounded):
+        started = time.monotonic()
+        with pytest.raises(HeavyRefused, match=r"busy with 1 heavy job.*\(1 more are waiting\)"):
+            call("a third job", sum, [2])
+        assert time.monotonic() - started < 5  # refused at once, not after the 30 s wait
+    release.set()
+    first.join(10)
+    second.join(10)
+    assert runner.running == runner.waiting == 0
+    assert runner.run("after", sum, [3]) == 3
+
+
+def test_serve_keeps_threads_for_light_requests(app, monkeypatch) -> None:
+    import waitress
+
+    from growthcore.app.server import DEFAULT_THREADS, serve
+
+    heavy = HeavyConfig()
+    assert DEFAULT_THREADS > heavy.slots + heavy.queue
+    monkeypatch.setattr(waitress, "serve", lambda wsgi, **kw: None)
+    with pytest.raises(ValueError, match=rf"more than {heavy.slots + heavy.queue} threads"):
+        serve(app, threads=heavy.slots + heavy.queue, open_browser=False)
+
+
 def test_defaults_meet_the_app_limits() -> None:
     from growthcore.app.components.dynamics import MAX_RESAMPLES
 
