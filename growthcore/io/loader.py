@@ -7,7 +7,7 @@ import math
 import os
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import NamedTuple
+from typing import BinaryIO, NamedTuple
 
 import numpy as np
 
@@ -80,9 +80,23 @@ def read_file(path: str | os.PathLike[str], max_bytes: int = DEFAULT_MAX_BYTES) 
     _check_size(size, name, max_bytes)
     try:
         with open(path, "rb") as fh:
-            return name, fh.read(max_bytes + 1)
+            return name, _read_at_most(fh, max_bytes + 1)
     except OSError as exc:
         raise ImportFailure(f"{name}: cannot be read ({exc.strerror or exc})") from None
+
+
+def _read_at_most(fh: BinaryIO, limit: int) -> bytes:
+    """Up to ``limit`` bytes of ``fh``, in pieces: memory follows what the file holds, not the limit
+    (``read(limit)`` sets aside ``limit`` bytes at once, however small the file)."""
+    pieces: list[bytes] = []
+    got = 0
+    while got < limit:
+        piece = fh.read(min(limit - got, 1 << 20))
+        if not piece:
+            break
+        pieces.append(piece)
+        got += len(piece)
+    return b"".join(pieces)
 
 
 def load_bytes(
