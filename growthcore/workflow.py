@@ -59,6 +59,10 @@ def _whole(value: Any) -> bool:
     return isinstance(value, int) and not isinstance(value, bool)
 
 
+def _finite(value: Any) -> bool:
+    return isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)
+
+
 # --------------------------------------------------------------------------------------------
 # 1. The plan
 
@@ -85,6 +89,13 @@ class Extras:
             value = getattr(self, name)
             if value is not None and not _whole(value):
                 raise PlanError(f"{{0}} must be a whole number; got {_text(value)}", name)
+        if self.seed < 0:  # the generator takes seeds of 0 and more
+            raise PlanError(f"{{0}} must be 0 or larger; got {self.seed}", "seed")
+        if self.bound is not None and not _finite(self.bound):
+            raise PlanError(f"{{0}} must be a finite number; got {_text(self.bound)}", "bound")
+        for level in self.levels:
+            if not _finite(level):
+                raise PlanError(f"{{0}} must be a finite number; got {_text(level)}", "levels")
         boot, steps, span = self.bootstrap, self.forecast_steps, self.forecast_span
         if boot is not None and boot < 1:
             raise PlanError(f"{{0}} needs a positive number of resamples; got {boot}", "bootstrap")
@@ -94,7 +105,7 @@ class Extras:
         if steps is not None and steps > LIMITS.max_forecast_steps:
             raise PlanError(f"{{0}} {steps:,} is over the limit of {LIMITS.max_forecast_steps:,} steps: refused",
                             "forecast_steps")
-        if span is not None and not (isinstance(span, (int, float)) and math.isfinite(span)):
+        if span is not None and not _finite(span):
             raise PlanError(f"{{0}} must be a finite time span; got {_text(span)}", "forecast_span")
         if steps is not None and span is not None:
             raise PlanError("give {0} or {1}, not both", "forecast_steps", "forecast_span")

@@ -226,6 +226,39 @@ def test_capacity_must_be_finite_and_positive(tmp_path: Path, capsys) -> None:
     assert not (tmp_path / "r.json").exists()
 
 
+@pytest.mark.parametrize("args, message", [
+    (["--level", "nan"], "--level must be a finite number; got nan"),
+    (["--level", "inf"], "--level must be a finite number; got inf"),
+    (["--forecast", "3", "--bound", "nan"], "--bound must be a finite number; got nan"),
+    (["--bootstrap", "30", "--seed", "-5"], "--seed must be 0 or larger; got -5"),
+])
+def test_later_step_options_must_be_usable(tmp_path: Path, capsys, args: list[str], message: str) -> None:
+    """Bad values of the later steps are bad input (exit 1, one line), not an internal error after the fits."""
+    data = tmp_path / "c.csv"
+    data.write_text(_culture(), encoding="utf-8")
+    assert main(["fit", str(data), *args, "--no-profile", "--out", str(tmp_path / "r.json")]) == 1
+    err = capsys.readouterr().err
+    assert message in err and "internal error" not in err and len(err.strip().splitlines()) == 1
+    assert not (tmp_path / "r.json").exists()
+
+
+@pytest.mark.parametrize("value", ["nan", "inf", "0", "-2"])
+def test_serve_upload_limit_must_be_finite_and_positive(value: str, capsys) -> None:
+    assert main(["serve", "--max-upload-mb", value, "--no-browser"]) == 1
+    err = capsys.readouterr().err
+    assert "--max-upload-mb must be a finite number above 0" in err and "internal error" not in err
+
+
+def test_a_large_byte_limit_costs_only_the_bytes_read(tmp_path: Path) -> None:
+    """The file is read in pieces up to the limit: a limit of a petabyte on a small file is not set aside."""
+    from growthcore.io import load_file
+
+    path = tmp_path / "c.csv"
+    path.write_text(_culture(), encoding="utf-8")
+    assert load_file(path, max_bytes=10**15).series[0].t.size == 24
+    assert main(["inspect", str(path), "--max-bytes", str(10**15)]) == 0
+
+
 def test_cli_options_over_limits_refused_before_work(tmp_path: Path, capsys) -> None:
     data = tmp_path / "c.csv"
     data.write_text(_culture(), encoding="utf-8")

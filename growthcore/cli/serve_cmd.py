@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import math
 import os
 
 from growthcore.errors import GrowthcoreInputError
@@ -26,8 +27,8 @@ def run(args: argparse.Namespace) -> int:
         raise GrowthcoreInputError(f"--data {args.data}: no such file")
     if not 0 < args.port < 65536:
         raise GrowthcoreInputError(f"--port must be between 1 and 65535; got {args.port}")
-    if args.max_upload_mb <= 0:
-        raise GrowthcoreInputError(f"--max-upload-mb must be positive; got {args.max_upload_mb:g}")
+    if not (math.isfinite(args.max_upload_mb) and args.max_upload_mb > 0):
+        raise GrowthcoreInputError(f"--max-upload-mb must be a finite number above 0; got {args.max_upload_mb:g}")
     from growthcore.app.server import create_app, serve  # the dashboard loads only for this command
 
     app = create_app(args.data, max_upload_bytes=int(args.max_upload_mb * 1_000_000))

@@ -182,6 +182,8 @@ def bootstrap(
     """
     if resamples < 1:
         raise GrowthcoreInputError(f"`resamples` must be at least 1; got {resamples}")
+    if not (isinstance(seed, (int, np.integer)) and not isinstance(seed, bool) and seed >= 0):
+        raise GrowthcoreInputError(f"`seed` must be a whole number 0 or larger; got {seed!r}")
     if resamples > LIMITS.max_resamples:
         raise GrowthcoreInputError(f"{resamples:,} resamples, over the limit of {LIMITS.max_resamples:,}: refused")
     stop = resamples if stop is None else min(int(stop), resamples)

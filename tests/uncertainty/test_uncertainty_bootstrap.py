@@ -136,6 +136,18 @@ def test_increments_needs_its_series() -> None:
         bootstrap(res, resamples=10)
 
 
+def test_a_negative_seed_is_an_input_error() -> None:
+    # numpy's generators take seeds of 0 and more; a negative one is a bad argument, named as such
+    from growthcore.errors import GrowthcoreInputError
+
+    series = simulated(8)
+    res = fit(series, "logistic", method="trajectory")
+    for seed in (-1, 1.5, True):
+        with pytest.raises(GrowthcoreInputError, match="`seed` must be a whole number 0 or larger"):
+            bootstrap(res, series=series, resamples=10, seed=seed)  # type: ignore[arg-type]
+    assert bootstrap(res, series=series, resamples=10, seed=np.int64(3)).done == 10
+
+
 def test_failed_refits_are_counted_not_raised() -> None:
     # a form that cannot follow the data: refits overflow for some resamples, yet nothing raises
     rng = np.random.default_rng(0)
