@@ -174,6 +174,30 @@ def test_killed_writer_leaves_the_old_file(tmp_path: Path) -> None:
     assert json.loads(path.read_text(encoding="utf-8")) == {"old": True}
 
 
+@pytest.mark.parametrize("command, name", [("fit", "r.json"), ("batch", "b.csv"), ("batch", "b.json")])
+def test_command_line_outputs_replace_the_old_file_only_whole(tmp_path: Path, monkeypatch, capsys,
+                                                              command: str, name: str) -> None:
+    """``fit --out`` and ``batch --out`` write through the atomic writer: a write stopped before its
+    rename (here the disk is full at the rename) leaves the old file whole and nothing beside it."""
+    import growthcore.io.writer as writer
+
+    data = tmp_path / "c.csv"
+    data.write_text(_culture(), encoding="utf-8")
+    out = tmp_path / name
+    out.write_text("old\n", encoding="utf-8")
+
+    def full(*_args: object) -> None:
+        raise OSError(28, "No space left on device")
+
+    monkeypatch.setattr(writer.os, "replace", full)
+    args = ["fit", str(data), "--no-profile"] if command == "fit" else ["batch", str(data), "--model", "logistic"]
+    assert main([*args, "--out", str(out)]) != 0
+    err = capsys.readouterr().err
+    assert "Traceback" not in err and "No space left on device" in err
+    assert out.read_text(encoding="utf-8") == "old\n"
+    assert sorted(os.listdir(tmp_path)) == sorted(["c.csv", name])
+
+
 # ----------------------------------------------------------------------------- grouping patterns
 
 PATTERNS = [r"^(.*)_rep\d+$", r"(?P<group>[A-H])\d+", r"^([A-Z]+)", r"(a|ab)(c|bcd)(d*)", r"(a+)+$", r"x*",
