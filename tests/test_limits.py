@@ -141,6 +141,26 @@ def test_too_few_points_counts_points() -> None:
         load_bytes(b"Time (h),OD\n0,0.1\n1,0.2\n", "few.csv")
 
 
+def test_values_that_differ_only_in_surrounding_spaces_are_named_when_merged() -> None:
+    """Trimmed values are read as one: said in a note for a condition column (all of whose values may
+    then be one, so that the rows are read as one series) and for workbooks as for text files."""
+    well = ["A1", "A1 ", " A1"]
+    text = "well,Time (h),OD\n" + "".join(f"{w},{i},{0.1 * 2 ** i + k}\n" for k, w in enumerate(well) for i in range(4))
+    notes = load_bytes(text.encode(), "wells.csv").report.notes
+    assert "'well' value 'A1' is written with surrounding spaces in row(s) 6-13 and without them elsewhere: " \
+           "read as one value" in notes
+    cells: dict[str, object] = {"A1": "well", "B1": "Time (h)", "C1": "OD"}
+    for i in range(8):
+        cells[f"A{i + 2}"] = "B2" if i < 4 else "B2 "
+        cells[f"B{i + 2}"], cells[f"C{i + 2}"] = i % 4, 0.1 * 2 ** (i % 4) + i // 4
+    for i in range(4):
+        cells[f"A{i + 10}"], cells[f"B{i + 10}"], cells[f"C{i + 10}"] = "C3", i, 0.2 * 2 ** i
+    imported = load_bytes(_xlsx(cells, "A1:C13"), "wells.xlsx", series="well")
+    assert [s.name for s in imported.series] == ["B2", "C3"]
+    assert ("series id 'B2' is written with surrounding spaces in row(s) 6-9 and without them elsewhere: "
+            "read as one series") in imported.report.notes
+
+
 # ----------------------------------------------------------------------------- atomic writes
 
 def test_failed_write_leaves_the_old_file(tmp_path: Path) -> None:

@@ -231,6 +231,7 @@ class _Builder:
                 bad_time_rows.add(i)
                 self._leave_out(rownums[i], tcol, tcells[i], why, data_idx[i])
 
+        self._note_padded_values(layout.conditions, rows, rownums, data_idx)
         groups: list[tuple[str, Column, list[_Point] | _Columns, tuple[tuple[str, str], ...]]] = []
         if layout.ids:
             row_ids = [self._id_of(layout, r) for r in rows]
@@ -355,6 +356,29 @@ class _Builder:
                 self.notes.append(f"series id {key!r} is written with surrounding spaces in row(s) {_ranges(where)} "
                                   "and without them elsewhere: read as one series")
         return by_id
+
+    def _note_padded_values(self, columns: Sequence[Column], rows: Sequence[Sequence[object]],
+                            rownums: Sequence[int], data_idx: Sequence[int]) -> None:
+        """A note for each value of a condition column written with surrounding spaces in some rows and
+        without them in others: read as one value (the column may then be constant, so that rows
+        the spaces told apart are read as one series)."""
+        if not self.table.padded:
+            return
+        for c in columns:
+            padded: dict[str, list[int]] = {}
+            plain: set[str] = set()
+            for i, r in enumerate(rows):
+                key = cell_key(_cell(r, c.index))
+                if key is None:
+                    continue
+                if (data_idx[i], c.index) in self.table.padded:
+                    padded.setdefault(key, []).append(rownums[i])
+                else:
+                    plain.add(key)
+            for key, where in padded.items():
+                if key in plain:
+                    self.notes.append(f"{c.label!r} value {key!r} is written with surrounding spaces in row(s) "
+                                      f"{_ranges(where)} and without them elsewhere: read as one value")
 
     def _conditions(self, layout: Layout, rows: Sequence[Sequence[object]],
                     row_ids: Sequence[str | None]) -> dict[str, tuple[tuple[str, str], ...]]:

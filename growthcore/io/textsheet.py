@@ -10,7 +10,7 @@ from collections import Counter
 import numpy as np
 
 from growthcore.errors import ImportFailure
-from growthcore.io.table import MAX_PADDED, Table
+from growthcore.io.table import Table, padded_cells
 from growthcore.limits import DEFAULT, Limits
 
 #: Delimiters tried, in the order that wins a tie (a semicolon file with decimal commas also
@@ -107,22 +107,9 @@ def read_text_table(text: str, filename: str, encoding: str, limits: Limits = DE
         encoding=encoding,
         delimiter=delimiter,
         notes=notes,
-        padded=_padded_text(raw) if _SPACE_BY_CELL.search(text) else set(),
+        padded=padded_cells(raw) if _SPACE_BY_CELL.search(text) else set(),
     )
 
 
 #: A space or tab next to a delimiter or a line end: only then can a cell have been trimmed.
 _SPACE_BY_CELL = re.compile(r"[ \t][,;|\t\r\n]|[,;|\n][ \t]|^[ \t]", re.MULTILINE)
-
-
-def _padded_text(raw: list[list[str]]) -> set[tuple[int, int]]:
-    """(row index, column) of text cells (not numbers) that had spaces around them, up to MAX_PADDED."""
-    found: set[tuple[int, int]] = set()
-    for i, r in enumerate(raw):
-        for j, c in enumerate(r):
-            s = c.strip()
-            if s is not c and s and not (s[0].isdigit() or s[0] in "+-."):
-                found.add((i, j))
-                if len(found) >= MAX_PADDED:
-                    return found
-    return found

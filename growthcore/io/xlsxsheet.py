@@ -8,7 +8,7 @@ import zipfile
 from typing import Any
 
 from growthcore.errors import ChoiceNotFound, ImportFailure
-from growthcore.io.table import Table
+from growthcore.io.table import Table, padded_cells
 from growthcore.limits import DEFAULT, Limits
 
 #: Most members a workbook archive may have before it is refused.
@@ -188,6 +188,7 @@ def _read(book: Any, data: bytes, filename: str, sheet: str | None, limits: Limi
         shown = ", ".join(walked.merged[:5]) + (" ..." if len(walked.merged) > 5 else "")
         notes.append(f"merged cells ({shown}): each is read as one value in its top-left cell")
     rows = [[_clean(v) for v in r] for r in walked.rows]
+    padded = padded_cells(walked.rows)
     formulas: dict[str, Any] = {}
     title = chosen.title
 
@@ -212,6 +213,7 @@ def _read(book: Any, data: bytes, filename: str, sheet: str | None, limits: Limi
         sheet=title,
         notes=notes,
         formula_at=formula_at,
+        padded=padded,
     )
 
 
