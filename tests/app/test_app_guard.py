@@ -215,6 +215,34 @@ def test_the_app_reopens_every_record_the_command_line_reopens(app) -> None:
     assert app.server.config["MAX_CONTENT_LENGTH"] > MAX_RECORD_UPLOAD
 
 
+def test_the_app_refuses_a_rehashed_record_the_command_line_refuses(tmp_path) -> None:
+    """A record re-sealed with more points than an import lets through is refused by the app with
+    the command line's own message (the same check of growthcore.reopen), before any refit."""
+    import json
+
+    from growthcore.app.callbacks.export import on_record_upload
+    from growthcore.cli import main
+    from growthcore.record import seal
+
+    data, out = tmp_path / "c.csv", tmp_path / "r.json"
+    data.write_bytes(_culture())
+    assert main(["fit", str(data), "--out", str(out), "--no-profile"]) == 0
+    record = json.loads(out.read_text(encoding="utf-8"))
+    last = record["data"]["points"][-1]
+    record["data"]["points"] = [dict(last, t=float(i), row=i + 2) for i in range(DEFAULT.max_points + 1)]
+    text = json.dumps(seal(record))
+    started = time.monotonic()
+    reply = on_record_upload("data:application/json;base64," + _b64(text.encode()), "forged.json")
+    assert "Not reopened" in str(reply[-1]) and "over the limit of 20,000 points" in str(reply[-1])
+    from dash import no_update
+
+    assert all(x is no_update for x in reply[:-1])  # the session is unchanged
+    assert time.monotonic() - started < 30
+    forged = tmp_path / "forged.json"
+    forged.write_text(text, encoding="utf-8")
+    assert main(["fit", "--from-record", str(forged)]) == 1
+
+
 def test_forged_settings_cannot_ask_for_unbounded_fits() -> None:
     from growthcore.app.callbacks.fits import compute_fits
     from growthcore.errors import GrowthcoreInputError
