@@ -62,6 +62,7 @@ def cobweb_figure(web: Mapping[str, Any] | None, labels: Mapping[str, Any]) -> F
                        "line": {"width": 2, "color": theme.CAPACITY}},
             "customdata": [[e.get("multiplier")] for e in chosen],
             "hovertemplate": "p* = %{x:.4g}<br>f'(p*) = %{customdata[0]:.3g}<extra></extra>",
+            "cliponaxis": False,  # p* = 0 sits on both axes: clipped, its circle would be a quarter
         })
     finite_f = [v for v in web["f"] if v is not None]
     y_top = max([top, *finite_f]) if finite_f else top

@@ -63,6 +63,9 @@ def test_cobweb_figure() -> None:
     assert "fitted map f(p)" in names and "stable equilibrium" in names and "unstable equilibrium" in names
     assert "birds" in fig["layout"]["xaxis"]["title"]["text"]
     assert "step n + 1" in fig["layout"]["yaxis"]["title"]["text"]
+    # the equilibrium p* = 0 lies on both axes, at the corner of the plot: its marker is drawn whole
+    assert fig["layout"]["xaxis"]["range"][0] == 0.0
+    assert all(t["cliponaxis"] is False for t in fig["data"] if "equilibrium" in t["name"])
     assert cobweb_figure(None, LABELS)["layout"]["annotations"]
 
 
