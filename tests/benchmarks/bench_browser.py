@@ -367,9 +367,9 @@ def main() -> int:
             _settle(driver, driver.execute_script("return performance.now()"), lambda: True)
             sw = [switch(driver, name) for name in names]
             sw_ms = statistics.median(x[0] for x in sw)
+            sw_req, sw_kb = statistics.median(x[1] for x in sw), statistics.median(x[2] for x in sw) / 1000
             print(f"switching series, {where}: median {sw_ms:.0f} ms (target {TARGETS['switch_ms']:.0f}), "
-                  f"{statistics.median(x[1] for x in sw):g} requests, {statistics.median(x[2] for x in sw) / 1000:.0f} kB"
-                  f"; each: {', '.join(f'{x[0]:.0f}' for x in sw)} ms")
+                  f"{sw_req:g} requests, {sw_kb:.0f} kB; each: {', '.join(f'{x[0]:.0f}' for x in sw)} ms")
     finally:
         driver.quit()
         server.close()
