@@ -84,7 +84,7 @@ def _first_of_equal(late: Array, tol: float) -> Array:
 
 
 #: Late states drawn per rate value: a chaotic band reads as one at 32 (its windows of period up to 32 as
-#: windows), and every state more is a point the browser draws (about 30 µs each in SVG).
+#: windows), and every state more is sent to the browser (which draws them as cells of one image).
 SHOWN_STATES = 32
 
 

@@ -10,7 +10,7 @@ from growthcore.data import Series
 from growthcore.dynamics import analyse, cobweb, sweep
 from growthcore.figures.common import unpacked
 from growthcore.figures.dynamics import (
-    SVG_POINTS,
+    SWEEP_ROWS,
     cobweb_figure,
     forecast_band_traces,
     sweep_figure,
@@ -80,13 +80,25 @@ def test_sweep_marks_the_fitted_rate_and_interval() -> None:
     assert all(p == 2 for r, p in zip(sw.grid, sw.periods, strict=True) if 2.05 < r < 2.4)
     fig = sweep_figure(sw.to_dict(), {**LABELS, "rate_unit": "per yr"})
     go.Figure(fig)
-    # the points travel as 32-bit floats: the same points to 7 digits
-    assert unpacked(fig["data"][0]["y"]) == pytest.approx(sw.states.tolist(), rel=1e-6)
-    assert unpacked(fig["data"][0]["x"]) == pytest.approx(sw.rate.tolist(), rel=1e-6)
-    # drawn as SVG at this size (every browser shows it), with WebGL only for very many states
-    assert fig["data"][0]["type"] == "scatter" and len(sw.rate) <= SVG_POINTS
-    many = {**sw.to_dict(), "rate": [1.0] * (SVG_POINTS + 1), "states": [1.0] * (SVG_POINTS + 1)}
-    assert sweep_figure(many, LABELS)["data"][0]["type"] == "scattergl"
+    cells = fig["data"][0]
+    assert cells["type"] == "heatmap"
+    x, y, z = (np.array(unpacked(cells[k])) for k in ("x", "y", "z"))
+    drawn = ~np.isnan(z)
+    # the grid: every rate value a column, rows evenly spaced from the lowest state to the highest
+    rows = np.unique(y)
+    assert np.unique(x) == pytest.approx(np.unique(sw.rate), rel=1e-6)
+    assert rows.size == SWEEP_ROWS and np.diff(rows) == pytest.approx(np.full(rows.size - 1, np.diff(rows).mean()),
+                                                                          rel=1e-3)
+    assert rows[0] == pytest.approx(sw.states.min(), rel=1e-6) and rows[-1] == pytest.approx(sw.states.max(), rel=1e-6)
+    # every long-run state lies in a drawn cell of its column (within half a row), and every drawn cell holds one
+    half = np.diff(rows).mean() / 2 * 1.001
+    same_column = np.isclose(sw.rate[:, None], x[drawn][None, :], rtol=1e-6, atol=0)
+    in_row = np.abs(sw.states[:, None] - y[drawn][None, :]) <= half
+    assert (same_column & in_row).any(axis=1).all()  # no state left out
+    assert (same_column & in_row).any(axis=0).all()  # no cell without a state
+    # the fixed point below r = 2 is one cell a column; the cost of drawing does not grow with the states
+    assert all(np.count_nonzero(drawn & np.isclose(x, r, rtol=1e-6)) == 1 for r in sw.grid if 0.5 < r < 1.9)
+    assert np.count_nonzero(drawn) <= sw.rate.size
     shapes = fig["layout"]["shapes"]
     assert shapes[0]["type"] == "rect" and shapes[0]["x0"] == pytest.approx(sw.interval[0])
     assert shapes[1]["x0"] == pytest.approx(res.values["r"])
