@@ -11,13 +11,13 @@ from __future__ import annotations
 from dash import Dash
 
 from ..request_budget import BudgetedRegistration
-from . import batch_tables, comparison, data, exclusions, explore, highlight, live, panels, settings
+from . import batch_tables, comparison, data, exclusions, explore, follow, highlight, live, panels, settings
 from . import export as export_callbacks
 from . import population as population_callbacks
 from .dynamics import bootstrap, describe, forecast
 from .series import choose, groups, overview, read, run
 
-MODULES = (data, settings, live, exclusions, explore, panels, comparison, highlight, export_callbacks,
+MODULES = (data, settings, live, exclusions, follow, explore, panels, comparison, highlight, export_callbacks,
            describe, bootstrap, forecast, read, groups, run, overview, choose, batch_tables, population_callbacks)
 
 

@@ -8,7 +8,6 @@ from typing import Any
 from dash import ALL, Dash, Input, Output, State, ctx, no_update
 
 from .. import ids
-from ..components.exclusions import exclusion_items
 from ..state import empty_exclusions, restore_exclusion, toggle_exclusion, undo_exclusion
 
 
@@ -98,5 +97,4 @@ def register(app: Dash) -> None:
         resets = tuple(None if g == trigger else no_update for g in ids.GRAPHS)
         return (new if new is not None else no_update, *resets)
 
-    app.callback(Output(ids.EXCLUSION_LIST, "children"), Input(ids.EXCLUSIONS, "data"), State(ids.DATA, "data"))(
-        lambda state, data: exclusion_items(data, state))
+    # the list of excluded points is drawn in app/callbacks/follow.py

@@ -18,6 +18,7 @@ from growthcore.app.callbacks.dynamics.forecast import (
     fresh_inputs,
 )
 from growthcore.app.callbacks.fits import compute_fits
+from growthcore.app.callbacks.follow import follow
 from growthcore.app.callbacks.live import View, panel_seven
 from growthcore.app.server import create_app
 from tests.open_data import data_store, lynx, uspop
@@ -63,7 +64,13 @@ def test_a_forecast_of_one_file_is_dropped_when_another_is_fitted(app_map: dict)
 def test_forecast_level_bound_and_length_reset_on_new_data(app_map: dict) -> None:
     key = next(k for k in app_map if f"{ids.FC_BOUND}.value" in k)
     assert f"{ids.DYN_LEVEL}.value" in key and f"{ids.FC_AMOUNT}.value" in key
-    assert _inputs(app_map, f"{ids.FC_BOUND}.value") == {ids.DATA}
+    assert ids.DATA in _inputs(app_map, f"{ids.FC_BOUND}.value")
     assert fresh_inputs(data_store(uspop(), "f2", value_unit=""), 5e8, 2e8, 30) == (None, None, 10)
+    # only new data clear them: other points used, another group or the page's first call leave them
+    data = data_store(uspop(), "f2", value_unit="")
+    for triggered, fields in (({f"{ids.DATA}.data"}, [None, None, 10]),
+                              ({f"{ids.EXCLUSIONS}.data"}, [no_update] * 3), (set(), [no_update] * 3),
+                              ({f"{ids.GROUP_FILTER}.value"}, [no_update] * 3)):
+        assert list(follow(triggered, data, None, None, None, None, 5e8, 2e8, 30)[1:4]) == fields, triggered
     # fields already fresh are left alone (a new value would redraw panel 7 for nothing)
     assert fresh_inputs(data_store(uspop(), "f2", value_unit=""), None, None, 10) == (no_update,) * 3

@@ -145,9 +145,7 @@ def register(app: Dash) -> None:
             raise PreventUpdate
         return compute_forecast(current["request"], label, fits_store, data, exclusions, done)
 
-    app.callback(Output(ids.FC_BOUND, "value"), Output(ids.DYN_LEVEL, "value"), Output(ids.FC_AMOUNT, "value"),
-                 Input(ids.DATA, "data"), State(ids.FC_BOUND, "value"), State(ids.DYN_LEVEL, "value"),
-                 State(ids.FC_AMOUNT, "value"), prevent_initial_call=True)(fresh_inputs)
+    # new data clear the fields (fresh_inputs) in app/callbacks/follow.py
 
     app.callback(Output(ids.FC_NOTES, "children"), Input(ids.FORECAST, "data"),
                  State(ids.FITS, "data"))(lambda store, fits_store: forecast_notes(store, fits_store))

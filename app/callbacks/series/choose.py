@@ -111,9 +111,4 @@ def register(app: Dash) -> None:
     )
     def _highlight(data, view, batch):
         return highlight_patches(data, view, batch)
-
-    app.callback(
-        Output(ids.SERIES_POSITION, "children"),
-        Input(ids.DATA, "data"), Input(ids.BATCH_SERIES, "data"), Input(ids.BATCH_GROUPS, "data"),
-        Input(ids.GROUP_FILTER, "value"),
-    )(position_text)
+    # the series' place in its file (position_text) is written in app/callbacks/follow.py
