@@ -15,10 +15,10 @@ from . import batch_tables, comparison, data, exclusions, explore, follow, highl
 from . import export as export_callbacks
 from . import population as population_callbacks
 from .dynamics import bootstrap, describe, forecast
-from .series import choose, groups, overview, read, run
+from .series import choose, groups, overview, run
 
 MODULES = (data, settings, live, exclusions, follow, explore, panels, comparison, highlight, export_callbacks,
-           describe, bootstrap, forecast, read, groups, run, overview, choose, batch_tables, population_callbacks)
+           describe, bootstrap, forecast, groups, run, overview, choose, batch_tables, population_callbacks)
 
 
 def register_all(app: Dash) -> None:

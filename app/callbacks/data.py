@@ -161,7 +161,8 @@ def on_import(contents: str | None, _apply: int, pick: str | None, filename: str
               value: str | None, series_column: str | None, time_unit: str | None, sheet: str | None,
               replicates: str | None = None, *, trigger: str | None, max_bytes: int = DEFAULT_MAX_BYTES,
               limits: Limits | None = None, run: Any = direct) -> tuple[Any, ...]:
-    """Outputs: source, data, message, summary, report, series options, series value, column list,
+    """Outputs: source, data, message, summary, report, series options, series value, column list (the
+    options and the columns left as they are for another series of the same file),
     the six mapping fields, and the upload's contents (cleared, so that the same file can be read again).
 
     A new upload becomes the file the mapping fields apply to, even when it cannot be read, and is
@@ -197,9 +198,12 @@ def on_import(contents: str | None, _apply: int, pick: str | None, filename: str
         shown = ", ".join(f"{_LABELS[c]} {mapping[c]!r}" for c in data["dropped"])
         lines.append(f" Not in this file, so read as guessed: {shown}.")
     ok = html.Div(lines, className="message message-ok")
+    # another series of the same file: its series and columns are those on the page already (sent again,
+    # the page would build the menu and the column list anew)
+    same_file = trigger == ids.SERIES_PICK
     return (stored, data, ok, summary(data), data["report_text"],
-            [{"label": n, "value": n} for n in names], data["name"],
-            [html.Option(value=c) for c in columns], *cleared, reset)
+            no_update if same_file else [{"label": n, "value": n} for n in names], data["name"],
+            no_update if same_file else [html.Option(value=c) for c in columns], *cleared, reset)
 
 
 #: How the mapping fields are named on the page, for messages.

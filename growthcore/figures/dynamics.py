@@ -15,6 +15,7 @@ from typing import Any
 
 from growthcore.figures import theme
 from growthcore.figures.common import Figure, axis_title, base_layout, message_figure, packed
+from growthcore.figures.margins import TRAJECTORY_PLOT_PX, with_left_margin
 
 MAP = "#0072B2"        # blue: the fitted map and the sweep points
 PATH = "#E69F00"       # orange: the cobweb staircase
@@ -69,7 +70,7 @@ def cobweb_figure(web: Mapping[str, Any] | None, labels: Mapping[str, Any]) -> F
     y_top = max([top, *finite_f]) if finite_f else top
     layout["yaxis"]["range"] = [min(0.0, min(finite_f, default=0.0)), 1.05 * y_top]
     layout["xaxis"]["range"] = [0.0, top]
-    return {"data": traces, "layout": layout}
+    return with_left_margin({"data": traces, "layout": layout})
 
 
 #: Rows of state cells in the sweep: a cell is about a pixel high in the dashboard's panel (and the
@@ -138,7 +139,7 @@ def sweep_figure(sweep: Mapping[str, Any] | None, labels: Mapping[str, Any]) -> 
                                   "showarrow": False, "xanchor": "left", "yanchor": "top", "align": "left",
                                   "font": {"size": 11, "color": theme.INK}, "bgcolor": "rgba(255,255,255,0.8)"}]
     layout["shapes"] = shapes
-    return {"data": traces, "layout": layout}
+    return with_left_margin({"data": traces, "layout": layout})
 
 
 def forecast_band_traces(points: Sequence[Mapping[str, Any]], *, colour: str = MAP, name: str = "forecast",
@@ -175,4 +176,4 @@ def with_forecast_band(figure: Mapping[str, Any], points: Sequence[Mapping[str, 
             "x": last_observed, "xref": "x", "y": 0.02, "yref": "paper", "text": "forecast →", "showarrow": False,
             "xanchor": "left", "font": {"size": 11, "color": theme.MUTED}}]
         out["layout"] = layout
-    return out
+    return with_left_margin(out, TRAJECTORY_PLOT_PX)

@@ -20,6 +20,7 @@ from growthcore.figures.common import (
     rate_unit,
     state_axis,
 )
+from growthcore.figures.margins import with_left_margin
 
 #: What panel 2 says when no chosen form has a single rate term to regress on.
 NO_CANDIDATE = ("This panel regresses the change per step on one rate term, and no chosen form has one{why}. "
@@ -57,7 +58,7 @@ def change_figure(change: Mapping[str, Any], labels: Mapping[str, Any], *, again
     hover = f"{xh}<br>Δp/Δt = %{{y:.4g}} {rate_unit(vu, tu)}<br>row %{{customdata[1]}}"
     trace = observation_trace(x, change["rate"], change["index"], rows, change["used"], name="change per step",
                               hover=hover)
-    return {"data": [trace, highlight_trace()], "layout": layout}
+    return with_left_margin({"data": [trace, highlight_trace()], "layout": layout})
 
 
 def candidate_figure(candidates: Sequence[Mapping[str, Any]], labels: Mapping[str, Any], *, both: bool = False,
@@ -117,7 +118,7 @@ def candidate_figure(candidates: Sequence[Mapping[str, Any]], labels: Mapping[st
             "line": {"color": colour, "dash": dash, "width": 2}, "hoverinfo": "skip",
         })
     data.append(highlight_trace())
-    return {"data": data, "layout": layout}
+    return with_left_margin({"data": data, "layout": layout})
 
 
 def _zero_line() -> dict[str, Any]:

@@ -22,6 +22,7 @@ from growthcore.figures.common import (
     points_marker,
     state_axis,
 )
+from growthcore.figures.margins import with_left_margin
 
 _NONE = ("No converged fit to show. Choose at least one form in the Model section; when a fit failed, "
          "the comparison table (panel 6) says why.")
@@ -95,7 +96,7 @@ def _residual_figure(fits: Sequence[Mapping[str, Any]], labels: Mapping[str, Any
     highlights = [highlight_trace()]
     if len(scales) == 2:
         highlights.append(dict(highlight_trace(), yaxis="y2"))
-    return {"data": [*data, *highlights], "layout": layout}
+    return with_left_margin({"data": [*data, *highlights], "layout": layout})
 
 
 def residual_time_figure(fits: Sequence[Mapping[str, Any]], labels: Mapping[str, Any], *,
@@ -146,7 +147,7 @@ def observed_predicted_figure(fits: Sequence[Mapping[str, Any]], labels: Mapping
         ahead = " (one step ahead)" if f["method"] == "increments" else ""
         data.append(_points(styles[k], f, f["predicted"], f["observed"], labels,
                             f"predicted{ahead} = %{{x:.4g}} {vu}<br>observed = %{{y:.4g}} {vu}"))
-    return {"data": [*data, highlight_trace()], "layout": layout}
+    return with_left_margin({"data": [*data, highlight_trace()], "layout": layout})
 
 
 def _axis_value(v: float, scale: str | None) -> float:

@@ -20,6 +20,7 @@ from growthcore.figures.common import (
     rows_or_positions,
     state_axis,
 )
+from growthcore.figures.margins import TRAJECTORY_PLOT_PX, with_left_margin
 
 #: ``layout.shapes``: the K line's drag handle comes first; the drag callback reads it. The line is a
 #: trace: a shape on a graph whose shapes can be dragged takes every click along it.
@@ -98,7 +99,7 @@ def trajectory_figure(data: Mapping[str, Any], used: Sequence[bool], fits: Seque
                                       "xref": "paper", "yref": "paper", "x": 1.0, "y": 1.0, "xanchor": "right",
                                       "yanchor": "bottom", "showarrow": False,
                                       "font": {"size": 11, "color": theme.MUTED}})
-    return {"data": [*traces, obs, highlight_trace()], "layout": layout}
+    return with_left_margin({"data": [*traces, obs, highlight_trace()], "layout": layout}, TRAJECTORY_PLOT_PX)
 
 
 def _line(f: Mapping[str, Any], style: Mapping[str, str], path: Mapping[str, Any], name: str, tu: str, vu: str,

@@ -274,6 +274,8 @@ def test_series_picker_switches_between_series_of_one_file() -> None:
     out = on_import(None, 0, "R2", None, source, first, None, None, None, None, None, trigger=ids.SERIES_PICK)
     assert out[1]["name"] == "R2" and out[1]["key"] != first["key"]
     assert out[0] is no_update  # the file itself is unchanged
+    # and so are its series and columns: the menu and the column list on the page are not sent again
+    assert out[5] is no_update and out[7] is no_update and out[6] == "R2"
 
 
 def test_file_refused_by_the_browser_gets_a_message() -> None:

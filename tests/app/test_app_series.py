@@ -19,7 +19,13 @@ from dash.exceptions import PreventUpdate
 from growthcore.app import ids
 from growthcore.app.callbacks.data import import_source
 from growthcore.app.callbacks.follow import follow
-from growthcore.app.callbacks.series.choose import choose_series, highlight_patches, position_text, step_series
+from growthcore.app.callbacks.series.choose import (
+    choose_series,
+    highlight_patches,
+    position_text,
+    read_or_frame,
+    step_series,
+)
 from growthcore.app.callbacks.series.groups import compute_groups, members
 from growthcore.app.callbacks.series.overview import grid_figure, page_choice, plate_figure, quantity_options
 from growthcore.app.callbacks.series.read import read_all_series, series_from_plain, series_to_plain
@@ -298,6 +304,13 @@ def test_highlight_moves_only_on_the_grid_of_the_file_shown(tmp_path: Any) -> No
     assert plate.to_plotly_json()["operations"][0]["params"]["value"]["x0"] == 2.5
     with pytest.raises(PreventUpdate):
         highlight_patches({**data, "sha256": "other"}, view, batch)
+    # the reply to new data: another series of this file moves the frame only, another file is read anew
+    source = _source(WIDE)
+    *kept, grid2, plate2 = read_or_frame(source, {**data, "name": "A3"}, batch, view)
+    assert kept == [no_update] * 4 and grid2.to_plotly_json() == grid.to_plotly_json()
+    long = os.path.join(ROOT, "sample_data", "reactor_replicates_long.csv")
+    read, *hidden, grid3, plate3 = read_or_frame(_source(long), import_source(_source(long)), batch, view)
+    assert read["key"] != batch["key"] and hidden == [False, False, True] and grid3 is plate3 is no_update
 
 
 def test_nothing_of_the_batch_listens_to_k() -> None:

@@ -9,10 +9,15 @@ from typing import Any
 from dash import ClientsideFunction, Dash, Input, Output, Patch, State, ctx, no_update
 from dash.exceptions import PreventUpdate
 
+from growthcore.limits import Limits
+
 from ... import ids
 from ...components.series import ALL_GROUPS
+from ...heavy import direct, runner_of
+from ..data import server_limits
 from .groups import members
 from .overview import highlight_shape, plate_highlight
+from .read import read_all_series
 
 
 def clicked_series(click: Mapping[str, Any] | None) -> str | None:
@@ -85,7 +90,26 @@ def highlight_patches(data: Mapping[str, Any] | None, view: Mapping[str, Any] | 
     return grid, plate
 
 
+def read_or_frame(source: Mapping[str, Any] | None, data: Mapping[str, Any] | None,
+                  previous: Mapping[str, Any] | None, view: Mapping[str, Any] | None, *, limits: Limits | None = None,
+                  run: Any = direct) -> tuple[Any, ...]:
+    """Outputs for new data: the file's series, whether the picker, the overview and the plate box are
+    hidden, and the patches that move the frame of the grid and the plate map.
+
+    Another series of the same file only moves the frame (one callback for both, so a series switch
+    sets off one callback fewer); another file or other choices are read anew, and the grid and the map
+    drawn for them frame the series shown."""
+    try:
+        batch = read_all_series(source, data, previous, limits=limits, run=run)
+    except PreventUpdate:
+        return (no_update,) * 4 + highlight_patches(data, view, previous)  # raises where nothing moves
+    return batch, batch is None, batch is None, not (batch and batch.get("plate")), no_update, no_update
+
+
 def register(app: Dash) -> None:
+    limits = server_limits(app)
+    run = runner_of(app)
+
     @app.callback(
         Output(ids.SERIES_PICK, "value", allow_duplicate=True),
         Input(ids.GRID, "clickData"), Input(ids.PLATE, "clickData"), Input(ids.SERIES_PREV, "n_clicks"),
@@ -102,13 +126,16 @@ def register(app: Dash) -> None:
                             Input(ids.GRID, "clickData"), Input(ids.PLATE, "clickData"), State(ids.MAIN, "id"),
                             prevent_initial_call=True)
 
-    # the frame around the shown series moves without redrawing the grid or the map
+    # new data: every series of another file read, or the frame around the series shown moved without
+    # redrawing the grid or the map
     @app.callback(
+        Output(ids.BATCH_SERIES, "data"), Output(ids.PICKER_BOX, "hidden"), Output(ids.SERIES_OVERVIEW, "hidden"),
+        Output(ids.PLATE_BOX, "hidden"),
         Output(ids.GRID, "figure", allow_duplicate=True), Output(ids.PLATE, "figure", allow_duplicate=True),
         Input(ids.DATA, "data"),
-        State(ids.GRID_VIEW, "data"), State(ids.BATCH_SERIES, "data"),
-        prevent_initial_call=True,
+        State(ids.SOURCE, "data"), State(ids.BATCH_SERIES, "data"), State(ids.GRID_VIEW, "data"),
+        prevent_initial_call="initial_duplicate",
     )
-    def _highlight(data, view, batch):
-        return highlight_patches(data, view, batch)
+    def _read(data, source, previous, view):
+        return read_or_frame(source, data, previous, view, limits=limits, run=run)
     # the series' place in its file (position_text) is written in app/callbacks/follow.py

@@ -8,7 +8,6 @@ from collections.abc import Mapping
 from typing import Any
 
 import numpy as np
-from dash import Dash, Input, Output, State
 from dash.exceptions import PreventUpdate
 
 from growthcore.batch import plate_format
@@ -18,10 +17,9 @@ from growthcore.limits import DEFAULT as DEFAULT_LIMITS
 from growthcore.limits import Limits
 from growthcore.numbers import finite_or_none
 
-from ... import ids
-from ...heavy import direct, runner_of
+from ...heavy import direct
 from ...state import check_points
-from ..data import DEFAULT_MAX_BYTES, decode_source, reader_for, server_limits, value_columns
+from ..data import DEFAULT_MAX_BYTES, decode_source, reader_for, value_columns
 
 
 def series_to_plain(s: Series) -> dict[str, Any]:
@@ -90,18 +88,3 @@ def plain_series(source: Mapping[str, Any], mapping: Mapping[str, Any], limits: 
             "plate": list(fmt) if fmt else None, "time_unit": first.time_unit, "value_unit": first.value_unit,
             "report": report.to_dict(),
             "conditions": list(report.columns_with("condition") + report.columns_with("covariate"))}
-
-
-def register(app: Dash) -> None:
-    limits = server_limits(app)
-    run = runner_of(app)
-
-    @app.callback(
-        Output(ids.BATCH_SERIES, "data"), Output(ids.PICKER_BOX, "hidden"), Output(ids.SERIES_OVERVIEW, "hidden"),
-        Output(ids.PLATE_BOX, "hidden"),
-        Input(ids.DATA, "data"),
-        State(ids.SOURCE, "data"), State(ids.BATCH_SERIES, "data"),
-    )
-    def _read(data, source, previous):
-        batch = read_all_series(source, data, previous, limits=limits, run=run)
-        return batch, batch is None, batch is None, not (batch and batch.get("plate"))
