@@ -59,8 +59,8 @@ def cobweb_figure(web: Mapping[str, Any] | None, labels: Mapping[str, Any]) -> F
         traces.append({
             "type": "scatter", "mode": "markers", "x": [e["value"] for e in chosen], "y": [e["value"] for e in chosen],
             "name": "stable equilibrium" if stable else "unstable equilibrium",
-            "marker": {"size": 11, "color": theme.CAPACITY if stable else theme.PAPER,
-                       "symbol": "circle" if stable else "circle-open",
+            # an open symbol is drawn in the marker's colour (its ring), so both take the capacity colour
+            "marker": {"size": 11, "color": theme.CAPACITY, "symbol": "circle" if stable else "circle-open",
                        "line": {"width": 2, "color": theme.CAPACITY}},
             "customdata": [[e.get("multiplier")] for e in chosen],
             "hovertemplate": "p* = %{x:.4g}<br>f'(p*) = %{customdata[0]:.3g}<extra></extra>",

@@ -66,6 +66,9 @@ def test_cobweb_figure() -> None:
     # the equilibrium p* = 0 lies on both axes, at the corner of the plot: its marker is drawn whole
     assert fig["layout"]["xaxis"]["range"][0] == 0.0
     assert all(t["cliponaxis"] is False for t in fig["data"] if "equilibrium" in t["name"])
+    # plotly.js draws an open symbol's ring in the marker's colour: on the paper's colour it would not show
+    unstable = next(t for t in fig["data"] if t["name"] == "unstable equilibrium")
+    assert unstable["marker"]["symbol"] == "circle-open" and unstable["marker"]["color"] not in ("#ffffff", "white")
     assert cobweb_figure(None, LABELS)["layout"]["annotations"]
 
 
