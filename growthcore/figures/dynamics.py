@@ -79,10 +79,11 @@ SWEEP_ROWS = 200
 
 
 def sweep_cells(rate: Sequence[float | None], states: Sequence[float | None], rows: int = SWEEP_ROWS,
-                ) -> tuple[list[float], list[float], list[float | None], float]:
-    """The long-run states as cells of a grid: each rate value (a column) against ``rows`` evenly spaced
-    state values from the lowest state to the highest; ``x, y, z`` in columns (z = 1 where a state falls,
-    None for the cells that only fix the grid) and the rows' spacing.
+                grid: Sequence[float | None] = ()) -> tuple[list[float], list[float], list[float | None], float]:
+    """The long-run states as cells of a grid: each rate value (a column; every value of ``grid`` too,
+    so that one whose states all ran off stays an empty column) against ``rows`` evenly spaced state
+    values from the lowest state to the highest; ``x, y, z`` in columns (z = 1 where a state falls, None
+    for the cells that only fix the grid) and the rows' spacing.
 
     A browser draws the cells as one image, so the cost of the plot does not grow with the states shown
     (as SVG markers, 800 states took about 100 ms to redraw here)."""
@@ -93,7 +94,7 @@ def sweep_cells(rate: Sequence[float | None], states: Sequence[float | None], ro
     lo = min(v for _, v in pairs)
     hi = max(v for _, v in pairs)
     step = (hi - lo) / (rows - 1) if hi > lo else max(abs(lo), 1.0) * 1e-3
-    columns = sorted({r for r, _ in pairs})
+    columns = sorted({r for r, _ in pairs} | {float(g) for g in grid if g is not None and math.isfinite(g)})
     filled = {(r, round((v - lo) / step)) for r, v in pairs}
     # cells that only fix the grid (every column and every row present, so plotly.js makes each cell the
     # same size and leaves no state in a cell stretched to its neighbours), drawn as gaps
@@ -112,7 +113,7 @@ def sweep_figure(sweep: Mapping[str, Any] | None, labels: Mapping[str, Any]) -> 
     layout = base_layout(axis_title(f"rate {name}", unit), axis_title(f"long-run {labels.get('quantity', 'state')}",
                                                                          labels.get("value_unit", "")),
                          uirevision=labels.get("uirevision"), title=labels.get("title", ""))
-    x, y, z, step = sweep_cells(sweep["rate"], sweep["states"])
+    x, y, z, step = sweep_cells(sweep["rate"], sweep["states"], grid=sweep.get("grid") or ())
     traces: list[dict[str, Any]] = [{
         "type": "heatmap", "x": packed(x), "y": packed(y), "z": packed(z), "name": "long-run states",
         "colorscale": [[0.0, MAP], [1.0, MAP]], "zmin": 0.0, "zmax": 1.0, "showscale": False, "zsmooth": False,

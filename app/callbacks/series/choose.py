@@ -1,5 +1,6 @@
 """Choosing a series: a click on the grid or the plate map, or the previous and next buttons, opens it
-in the panels; the frame on the grid and the map follows the series shown."""
+in the panels; the frame on the grid and the map follows the series shown, in the same reply that
+reads every series of another file (read.py)."""
 
 from __future__ import annotations
 
