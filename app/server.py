@@ -24,6 +24,7 @@ from growthcore.limits import Limits
 
 from . import ids
 from .callbacks import register_all
+from .callbacks.export import record_upload_chars
 from .heavy import HeavyConfig, HeavyRunner
 from .layout import build_layout
 from .request_budget import CONFIG_KEY as LIGHT_BUDGET_KEY
@@ -101,7 +102,7 @@ def create_app(data_path: str | None = None, *, max_upload_bytes: int = DEFAULT_
     # the browser sends files up to twice the limit (so that the server can say why it refuses them);
     # base64 inflates by 4/3, and the import request also carries the previous file and series
     # a reopened record is as large as the record limit allows (base64 again)
-    record_upload = 4 * (DEFAULT_LIMITS.max_record_bytes // 3 + 1)
+    record_upload = record_upload_chars(limits or DEFAULT_LIMITS)
     app.server.config["MAX_CONTENT_LENGTH"] = max(5 * max_upload_bytes, record_upload) + 2_000_000
     app.server.config["GROWTHCORE_MAX_UPLOAD"] = max_upload_bytes
     app.server.config["GROWTHCORE_LIMITS"] = dataclasses.replace(limits or DEFAULT_LIMITS, max_bytes=max_upload_bytes)

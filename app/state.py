@@ -16,7 +16,8 @@ from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.figures.plain import quantity_name
 from growthcore.io import ImportResult
-from growthcore.limits import DEFAULT as LIMITS
+from growthcore.limits import DEFAULT as DEFAULT_LIMITS
+from growthcore.limits import Limits
 from growthcore.numbers import finite_list
 
 USER_REASON = "excluded by the user"
@@ -45,11 +46,20 @@ def data_to_store(imported: ImportResult, series: Series, *, source: str) -> dic
     }
 
 
-def check_points(n: int, name: object) -> None:
+def current_limits() -> Limits:
+    """The limits of the server answering this request (``create_app(limits=)``); the defaults outside a
+    request (a worker process is handed its limits instead)."""
+    from flask import current_app, has_app_context
+
+    limits = current_app.config.get("GROWTHCORE_LIMITS") if has_app_context() else None
+    return limits if isinstance(limits, Limits) else DEFAULT_LIMITS
+
+
+def check_points(n: int, name: object, limits: Limits | None = None) -> None:
     """Refuse a series from the tab with more points than the import would ever have let through."""
-    if n > LIMITS.max_points:
-        raise GrowthcoreInputError(f"series {name!r} has {n:,} points, over the limit of {LIMITS.max_points:,} "
-                                   "points: refused")
+    most = (limits or current_limits()).max_points
+    if n > most:
+        raise GrowthcoreInputError(f"series {name!r} has {n:,} points, over the limit of {most:,} points: refused")
 
 
 def series_from_store(data: Mapping[str, Any], exclusions: Mapping[str, Any] | None = None) -> Series:

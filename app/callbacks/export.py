@@ -22,7 +22,7 @@ from growthcore import workflow
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.io.report import ImportResult
-from growthcore.limits import DEFAULT as LIMITS
+from growthcore.limits import Limits
 from growthcore.record import DataSource
 from growthcore.reopen import RecordError, parse_record, reopen
 from growthcore.report.images import PANEL_SIZES, SHEET_SIZES
@@ -34,7 +34,7 @@ from growthcore.workflow import Extras
 
 from .. import ids
 from ..heavy import runner_of
-from ..state import data_to_store, empty_exclusions, series_from_store
+from ..state import current_limits, data_to_store, empty_exclusions, series_from_store
 from .data import summary
 from .fits import session_plan
 from .settings import expand_forms
@@ -48,7 +48,6 @@ SHEET = "summary-sheet"
 FORMS_IN_NAME = 40
 #: A record upload is refused beyond this size (base64 text), before decoding: the record size
 #: limit of ``growthcore fit --from-record``, which every accepted input stays under.
-MAX_RECORD_UPLOAD = 4 * (LIMITS.max_record_bytes // 3 + 1)
 
 
 # --------------------------------------------------------------------------------------------
@@ -292,10 +291,17 @@ def data_to_store_without_report(series: Series, source: DataSource) -> dict[str
     return data_to_store(ImportResult(series=(series,), report=report), series, source=source.source or "record")
 
 
+def record_upload_chars(limits: Limits) -> int:
+    """Base64 characters of the largest record a server with ``limits`` reopens."""
+    return 4 * (limits.max_record_bytes // 3 + 1)
+
+
 def decode_upload(contents: str, filename: str) -> bytes:
+    """The record's bytes, refused above the answering server's record limit."""
     _, _, b64 = contents.partition(",")
-    if len(b64) > MAX_RECORD_UPLOAD:
-        raise RecordError(filename, [f"is larger than {MAX_RECORD_UPLOAD * 3 // 4 // 1_000_000} MB; records that "
+    most = record_upload_chars(current_limits())
+    if len(b64) > most:
+        raise RecordError(filename, [f"is larger than {most * 3 // 4 // 1_000_000} MB; records that "
                                      "large are refused"])
     try:
         return base64.b64decode(b64, validate=True)

@@ -11,10 +11,9 @@ from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
 from growthcore.figures.plain import fit_to_store
 from growthcore.fit import FitResult
-from growthcore.limits import DEFAULT as LIMITS
 from growthcore.workflow import Extras, Plan, fit_plan
 
-from ..state import rows_to_store, series_from_store
+from ..state import current_limits, rows_to_store, series_from_store
 
 
 def held_capacity(settings: Mapping[str, Any], capacity: float | None) -> float | None:
@@ -52,9 +51,10 @@ def compute_fits(data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] |
     if data is None or settings is None:
         return None
     models, methods = settings.get("models") or [], 2 if settings.get("method") == "both" else 1
-    if len(models) * methods > LIMITS.max_fits:  # the settings come from the tab: bounded here
+    most = current_limits().max_fits  # the settings come from the tab: bounded here, by this server's limits
+    if len(models) * methods > most:
         raise GrowthcoreInputError(f"{len(models)} forms by {methods} method(s) is over the limit of "
-                                   f"{LIMITS.max_fits} fits: refused")
+                                   f"{most} fits: refused")
     series, fits, notes = session_fits(data, exclusions, settings, capacity)
     k = held_capacity(settings, capacity)
     rows = compare(fits)

@@ -209,10 +209,43 @@ def test_defaults_meet_the_app_limits() -> None:
 
 
 def test_the_app_reopens_every_record_the_command_line_reopens(app) -> None:
-    from growthcore.app.callbacks.export import MAX_RECORD_UPLOAD
+    from growthcore.app.callbacks.export import record_upload_chars
 
-    assert MAX_RECORD_UPLOAD * 3 // 4 >= DEFAULT.max_record_bytes  # base64 carries 3 bytes in 4 characters
-    assert app.server.config["MAX_CONTENT_LENGTH"] > MAX_RECORD_UPLOAD
+    assert record_upload_chars(DEFAULT) * 3 // 4 >= DEFAULT.max_record_bytes  # base64: 3 bytes in 4 characters
+    assert app.server.config["MAX_CONTENT_LENGTH"] > record_upload_chars(DEFAULT)
+
+
+def test_checks_of_what_the_tab_sends_use_the_servers_own_limits() -> None:
+    """A server made with other limits holds the tab's data, settings and records to those limits, not
+    to the defaults: points of a series, fits asked for, size of a reopened record, chunks of a batch."""
+    import dataclasses
+
+    from growthcore.app.callbacks.export import decode_upload
+    from growthcore.app.callbacks.fits import compute_fits
+    from growthcore.app.callbacks.series.run import fit_chunk
+    from growthcore.app.server import create_app
+    from growthcore.app.state import current_limits, series_from_store
+    from growthcore.errors import GrowthcoreInputError
+    from growthcore.reopen import RecordError
+
+    tight = dataclasses.replace(DEFAULT, max_points=30, max_fits=2, max_record_bytes=3_000, max_series=2)
+    app = create_app(limits=tight)
+    store = {"t": list(range(40)), "p": [1.0 + 0.1 * k for k in range(40)], "name": "s", "key": "k"}
+    record = "data:application/json;base64," + "A" * 8_000
+    series_from_store(store)  # outside a request: the defaults
+    with app.server.test_request_context():
+        assert current_limits().max_points == 30
+        with pytest.raises(GrowthcoreInputError, match="over the limit of 30 points"):
+            series_from_store(store)
+        with pytest.raises(GrowthcoreInputError, match="over the limit of 2 fits"):
+            compute_fits({**store, "t": store["t"][:20], "p": store["p"][:20]}, None,
+                         {"models": ["logistic", "gompertz", "ricker"], "method": "increments"}, None)
+        with pytest.raises(RecordError, match="larger than"):
+            decode_upload(record, "big.json")
+    job = {"chunk": 1, "models": ["logistic"], "methods": ["increments"]}
+    batch = {"series": [store, store, store]}
+    with pytest.raises(GrowthcoreInputError, match="not one this server makes"):
+        fit_chunk(job, batch, None, 0, tight)
 
 
 def test_the_app_refuses_a_rehashed_record_the_command_line_refuses(tmp_path) -> None:

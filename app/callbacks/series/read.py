@@ -31,8 +31,8 @@ def series_to_plain(s: Series) -> dict[str, Any]:
     }
 
 
-def series_from_plain(d: Mapping[str, Any]) -> Series:
-    check_points(len(d["t"]), d.get("name"))
+def series_from_plain(d: Mapping[str, Any], limits: Limits | None = None) -> Series:
+    check_points(len(d["t"]), d.get("name"), limits)
     return Series(
         t=np.asarray(d["t"], dtype=float), p=np.asarray([math.nan if v is None else v for v in d["p"]], dtype=float),
         name=d["name"], time_unit=d.get("time_unit", ""), value_unit=d.get("value_unit", ""),

@@ -21,10 +21,12 @@ from growthcore.batch.views import overview_panels
 from growthcore.errors import GrowthcoreInputError
 from growthcore.figures.plain import fit_label
 from growthcore.limits import DEFAULT as DEFAULT_LIMITS
+from growthcore.limits import Limits
 
 from ... import ids
 from ...heavy import direct, runner_of
 from ...ticks import allow_next_tick, seconds_since, stopped
+from ..data import server_limits
 from .read import series_from_plain
 
 CHUNK_MIN = 16          # series per tick at least ...
@@ -71,7 +73,7 @@ def _thin(t: Sequence[float], p: Sequence[float | None]) -> tuple[list[float], l
 
 
 def fit_chunk(job: Mapping[str, Any], batch: Mapping[str, Any], groups: Mapping[str, Any] | None,
-              index: int) -> dict[str, Any]:
+              index: int, limits: Limits = DEFAULT_LIMITS) -> dict[str, Any]:
     """Every form (and method) of the job fitted to chunk ``index`` of the series, as plain data.
 
     Returns {"labels": [...], "fits": {label: {series id: entry}}, "failed": n} where each entry has
@@ -79,14 +81,14 @@ def fit_chunk(job: Mapping[str, Any], batch: Mapping[str, Any], groups: Mapping[
     """
     size = int(job["chunk"])
     # the job and the series come from the tab: bounded here by the server's own limits
-    if len(batch["series"]) > DEFAULT_LIMITS.max_series or not 1 <= size <= chunk_size(len(batch["series"])):
+    if len(batch["series"]) > limits.max_series or not 1 <= size <= chunk_size(len(batch["series"])):
         raise GrowthcoreInputError(f"a batch chunk of {size} of {len(batch['series'])} series is not one this server "
                                    "makes: start the run again")
     fits_asked = len(job["models"]) * len(job["methods"])
-    if fits_asked > DEFAULT_LIMITS.max_fits:
-        raise GrowthcoreInputError(f"{fits_asked} fits per series, over the limit of {DEFAULT_LIMITS.max_fits}: "
+    if fits_asked > limits.max_fits:
+        raise GrowthcoreInputError(f"{fits_asked} fits per series, over the limit of {limits.max_fits}: "
                                    "refused")
-    chunk = [series_from_plain(d) for d in batch["series"][index * size:(index + 1) * size]]
+    chunk = [series_from_plain(d, limits) for d in batch["series"][index * size:(index + 1) * size]]
     mapping = groups.get("groups", {}) if groups and groups.get("key") == batch.get("key") else {}
     data = from_series(chunk, groups={n: g for n, g in mapping.items()})
     fits: dict[str, dict[str, Any]] = {}
@@ -117,7 +119,8 @@ def fit_chunk(job: Mapping[str, Any], batch: Mapping[str, Any], groups: Mapping[
 
 def run_tick(n_intervals: int | None, job: Mapping[str, Any] | None, batch: Mapping[str, Any] | None,
              groups: Mapping[str, Any] | None, progress: Mapping[str, Any] | None,
-             cancel: Mapping[str, Any] | None, *, now: float | None = None, run: Any = direct) -> tuple[Any, Any, Any]:
+             cancel: Mapping[str, Any] | None, *, now: float | None = None, run: Any = direct,
+             limits: Limits = DEFAULT_LIMITS) -> tuple[Any, Any, Any]:
     """One tick: fit the next chunk. Outputs: fits-store Patch, progress, tick max_intervals."""
     if not n_intervals or not job or not batch:
         raise PreventUpdate
@@ -132,7 +135,7 @@ def run_tick(n_intervals: int | None, job: Mapping[str, Any] | None, batch: Mapp
         base["error"] = "The file changed during the run; start it again for the new file."
         return no_update, base, no_update
     try:
-        out = run("the batch chunk", fit_chunk, job, batch, groups, index)
+        out = run("the batch chunk", fit_chunk, job, batch, groups, index, limits)
     except GrowthcoreInputError as exc:
         base["error"] = str(exc).splitlines()[0]
         return no_update, base, no_update
@@ -196,6 +199,7 @@ def progress_view(job: Mapping[str, Any] | None, progress: Mapping[str, Any] | N
 
 def register(app: Dash) -> None:
     run = runner_of(app)
+    limits = server_limits(app)
 
     @app.callback(
         Output(ids.BATCH_JOB, "data"), Output(ids.BATCH_FITS, "data"), Output(ids.BATCH_PROGRESS, "data"),
@@ -218,7 +222,7 @@ def register(app: Dash) -> None:
         prevent_initial_call=True,
     )
     def _tick(n, job, batch, groups, progress, cancel):
-        return run_tick(n, job, batch, groups, progress, cancel, run=run)
+        return run_tick(n, job, batch, groups, progress, cancel, run=run, limits=limits)
 
     app.callback(
         Output(ids.BATCH_CANCEL, "data"), Output(ids.BATCH_TICK, "disabled", allow_duplicate=True),
