@@ -176,6 +176,22 @@ def test_failed_write_leaves_the_old_file(tmp_path: Path) -> None:
     assert path.read_text(encoding="utf-8") == "new\n"
 
 
+def test_a_write_that_fails_names_the_file_it_was_for(tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """The message names the file asked for, not the temporary one beside it, in the engine and the CLI."""
+    import errno
+
+    from growthcore.cli import main
+
+    missing = tmp_path / "no such folder" / "record.json"
+    with pytest.raises(OSError) as caught:
+        atomic_write_text(missing, "new\n")
+    assert str(caught.value).startswith(f"{missing} was not written (") and caught.value.errno == errno.ENOENT
+    assert ".part" not in str(caught.value)
+    demo = Path(__file__).resolve().parents[1] / "sample_data" / "algae_photobioreactor.csv"
+    assert main(["fit", str(demo), "--model", "logistic", "--out", str(missing)]) == 1
+    assert f"{missing} was not written" in capsys.readouterr().err
+
+
 def test_killed_writer_leaves_the_old_file(tmp_path: Path) -> None:
     """kill -9 in the middle of a write: the old file is whole, never empty or cut."""
     path = tmp_path / "out.json"

@@ -33,7 +33,10 @@ def atomic_writer(path: str | os.PathLike[str], mode: str = "w", *, encoding: st
     target = os.fspath(path)
     folder = os.path.dirname(os.path.abspath(target))
     binary = "b" in mode
-    fd, tmp = tempfile.mkstemp(dir=folder, prefix="." + os.path.basename(target) + ".", suffix=".part")
+    try:
+        fd, tmp = tempfile.mkstemp(dir=folder, prefix="." + os.path.basename(target) + ".", suffix=".part")
+    except OSError as exc:
+        raise _not_written(target, exc) from exc
     try:
         os.fchmod(fd, 0o666 & ~_umask())  # the permissions a plain open() would give
         handle: IO[Any] = (os.fdopen(fd, "wb") if binary
@@ -43,9 +46,11 @@ def atomic_writer(path: str | os.PathLike[str], mode: str = "w", *, encoding: st
             fh.flush()
             os.fsync(fh.fileno())
         os.replace(tmp, target)
-    except BaseException:
+    except BaseException as exc:
         with contextlib.suppress(OSError):
             os.unlink(tmp)
+        if isinstance(exc, OSError):
+            raise _not_written(target, exc) from exc
         raise
     with contextlib.suppress(OSError):  # not every platform can open a folder
         dir_fd = os.open(folder, os.O_RDONLY)
@@ -53,6 +58,13 @@ def atomic_writer(path: str | os.PathLike[str], mode: str = "w", *, encoding: st
             os.fsync(dir_fd)
         finally:
             os.close(dir_fd)
+
+
+def _not_written(target: str, exc: OSError) -> OSError:
+    """The error of a failed write, naming the file it was for (not the temporary one beside it)."""
+    error = OSError(f"{target} was not written ({exc.strerror or exc}); a file already there is unchanged")
+    error.errno = exc.errno  # what went wrong stays readable; the message says it in one line
+    return error
 
 
 def atomic_write_text(path: str | os.PathLike[str], text: str, *, encoding: str = "utf-8") -> None:
