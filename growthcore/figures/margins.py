@@ -6,8 +6,8 @@ wider or narrower than the last one's cost that second draw on every redraw (abo
 switch here). So the figures ask for the margin their labels will need: the ticks are chosen as
 plotly.js chooses them on a linear axis (a step of 2, 5 or 10 times a power of ten, the axis cut in
 4 to 9 + 1 pieces of at least 40 px) over the range its autorange gives. Where no estimate is made (log
-axes, ticks of 1000 or more, which plotly.js writes in SI units) automargin alone decides, as it does
-wherever the estimate falls short.
+axes, and ranges plotly.js writes with a power of ten: an end at 10^4 or more, or both ends under
+10^-3) automargin alone decides, as it does wherever the estimate falls short.
 """
 
 from __future__ import annotations
@@ -46,15 +46,17 @@ def tick_step(span: float, plot_px: float) -> float:
 
 
 def tick_labels(lo: float, hi: float, plot_px: float) -> list[str] | None:
-    """The labels of the ticks between ``lo`` and ``hi``; None where plotly.js would write them otherwise
-    (1000 or more) or the range is empty."""
+    """The labels of the ticks between ``lo`` and ``hi``; None where plotly.js writes them with a power
+    of ten (an end of the range at 10^4 or more, or both under 10^-3 in size) or the range is empty."""
     if not (math.isfinite(lo) and math.isfinite(hi)) or hi <= lo:
+        return None
+    if abs(math.floor(math.log10(max(abs(lo), abs(hi))) + 0.01)) > 3:
         return None
     step = tick_step(hi - lo, plot_px)
     decimals = max(0, -math.floor(math.log10(step) + 1e-9))
     first, last = math.ceil(lo / step - 1e-9), math.floor(hi / step + 1e-9)
     values = [k * step for k in range(first, last + 1)]
-    if not values or max(abs(v) for v in values) >= 1000.0:
+    if not values:
         return None
     labels = []
     for v in values:

@@ -30,7 +30,10 @@ def test_tick_labels_are_written_as_plotly_writes_them() -> None:
     assert tick_labels(-0.3, 0.33, PANEL_PLOT_PX) == ["−0.3", "−0.2", "−0.1", "0", "0.1", "0.2", "0.3"]
     assert tick_labels(-0.2, 3.2, PANEL_PLOT_PX) == ["0", "0.5", "1", "1.5", "2", "2.5", "3"]
     assert tick_labels(-0.2, 3.4, PANEL_PLOT_PX) == ["0", "1", "2", "3"]  # a span of 3.6: steps of 1
-    assert tick_labels(0.0, 2500.0, PANEL_PLOT_PX) is None  # 1000 and more: SI units, left to plotly.js
+    assert tick_labels(0.0, 2500.0, PANEL_PLOT_PX) == ["0", "500", "1000", "1500", "2000", "2500"]
+    # a power of ten (plotly.js: an end of the range past 10^±3): left to automargin
+    assert tick_labels(0.0, 25_000.0, PANEL_PLOT_PX) is None
+    assert tick_labels(0.0001, 0.0009, PANEL_PLOT_PX) is None
     assert tick_labels(1.0, 1.0, PANEL_PLOT_PX) is None
 
 
