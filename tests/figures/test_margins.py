@@ -49,7 +49,7 @@ def test_the_margin_holds_the_widest_label_of_the_padded_range() -> None:
     assert left_margin(_figure([0.1, 4.1]), PANEL_PLOT_PX) == 36
     assert left_margin(_figure([0.08, 3.14]), PANEL_PLOT_PX) == 46
     assert left_margin(_figure([-0.25, 0.21]), PANEL_PLOT_PX) == 53
-    # no estimate: a log axis, an empty figure, ticks in SI units; the margin is then left as it was
+    # no estimate: a log axis, an empty figure, a range written with a power of ten; the margin is left as it was
     assert left_margin(_figure([1.0, 100.0], log=True), PANEL_PLOT_PX) is None
     assert left_margin(_figure([]), PANEL_PLOT_PX) is None
     fig = with_left_margin(_figure([0.0, 5e4]))
