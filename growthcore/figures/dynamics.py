@@ -13,6 +13,8 @@ import math
 from collections.abc import Mapping, Sequence
 from typing import Any
 
+import numpy as np
+
 from growthcore.figures import theme
 from growthcore.figures.common import Figure, axis_title, base_layout, message_figure, packed
 from growthcore.figures.margins import TRAJECTORY_PLOT_PX, with_left_margin
@@ -87,20 +89,31 @@ def sweep_cells(rate: Sequence[float | None], states: Sequence[float | None], ro
 
     A browser draws the cells as one image, so the cost of the plot does not grow with the states shown
     (as SVG markers, 800 states took about 100 ms to redraw here)."""
-    pairs = [(float(r), float(v)) for r, v in zip(rate, states, strict=True)
-             if r is not None and v is not None and math.isfinite(r) and math.isfinite(v)]
-    if not pairs:
+    r = np.array([np.nan if v is None else v for v in rate], dtype=float)
+    v = np.array([np.nan if x is None else x for x in states], dtype=float)
+    if r.shape != v.shape:
+        raise ValueError("the sweep's rates and states differ in length")
+    ok = np.isfinite(r) & np.isfinite(v)
+    if not ok.any():
         return [], [], [], 0.0
-    lo = min(v for _, v in pairs)
-    hi = max(v for _, v in pairs)
+    r, v = r[ok], v[ok]
+    lo, hi = float(v.min()), float(v.max())
     step = (hi - lo) / (rows - 1) if hi > lo else max(abs(lo), 1.0) * 1e-3
-    columns = sorted({r for r, _ in pairs} | {float(g) for g in grid if g is not None and math.isfinite(g)})
-    filled = {(r, round((v - lo) / step)) for r, v in pairs}
+    extra = np.array([g for g in grid if g is not None and math.isfinite(g)], dtype=float)
+    columns = np.unique(np.concatenate([r, extra]))
+    # a state's cell: its column (an index into columns) and its row
+    filled = np.unique(np.stack([np.searchsorted(columns, r), np.rint((v - lo) / step).astype(np.int64)]), axis=1)
     # cells that only fix the grid (every column and every row present, so plotly.js makes each cell the
     # same size and leaves no state in a cell stretched to its neighbours), drawn as gaps
-    fixing = {(c, 0) for c in columns} | {(columns[0], j) for j in range(rows if hi > lo else 1)}
-    cells = [(c, j, 1.0) for c, j in sorted(filled)] + [(c, j, None) for c, j in sorted(fixing - filled)]
-    return ([c for c, _, _ in cells], [lo + j * step for _, j, _ in cells], [z for _, _, z in cells], step)
+    n_rows = rows if hi > lo else 1
+    fixing = np.concatenate([np.stack([np.arange(columns.size), np.zeros(columns.size, dtype=np.int64)]),
+                             np.stack([np.zeros(n_rows, dtype=np.int64), np.arange(n_rows)])], axis=1)
+    taken = set(zip(filled[0].tolist(), filled[1].tolist(), strict=True))
+    gaps = sorted({(c, j) for c, j in zip(fixing[0].tolist(), fixing[1].tolist(), strict=True)} - taken)
+    col = np.concatenate([filled[0], np.array([c for c, _ in gaps], dtype=np.int64)])
+    row = np.concatenate([filled[1], np.array([j for _, j in gaps], dtype=np.int64)])
+    z: list[float | None] = [1.0] * filled.shape[1] + [None] * len(gaps)
+    return columns[col].tolist(), (lo + row * step).tolist(), z, step
 
 
 def sweep_figure(sweep: Mapping[str, Any] | None, labels: Mapping[str, Any]) -> Figure:
