@@ -46,8 +46,6 @@ LIVE_PANELS = ((ids.G_CHANGE, "change-against-state", "Change per unit time agai
 SHEET = "summary-sheet"
 #: Longest run of form ids in a file name; beyond it the name counts the remaining forms.
 FORMS_IN_NAME = 40
-#: A record upload is refused beyond this size (base64 text), before decoding: the record size
-#: limit of ``growthcore fit --from-record``, which every accepted input stays under.
 
 
 # --------------------------------------------------------------------------------------------
@@ -292,7 +290,9 @@ def data_to_store_without_report(series: Series, source: DataSource) -> dict[str
 
 
 def record_upload_chars(limits: Limits) -> int:
-    """Base64 characters of the largest record a server with ``limits`` reopens."""
+    """Base64 characters of the largest record a server with ``limits`` reopens: an upload beyond them is
+    refused before decoding (the record size limit of ``growthcore fit --from-record``, which every
+    accepted input stays under)."""
     return 4 * (limits.max_record_bytes // 3 + 1)
 
 

@@ -101,18 +101,16 @@ def sweep_cells(rate: Sequence[float | None], states: Sequence[float | None], ro
     step = (hi - lo) / (rows - 1) if hi > lo else max(abs(lo), 1.0) * 1e-3
     extra = np.array([g for g in grid if g is not None and math.isfinite(g)], dtype=float)
     columns = np.unique(np.concatenate([r, extra]))
-    # a state's cell: its column (an index into columns) and its row
-    filled = np.unique(np.stack([np.searchsorted(columns, r), np.rint((v - lo) / step).astype(np.int64)]), axis=1)
+    filled = np.zeros((columns.size, rows if hi > lo else 1), dtype=bool)
+    filled[np.searchsorted(columns, r), np.rint((v - lo) / step).astype(np.int64)] = True
     # cells that only fix the grid (every column and every row present, so plotly.js makes each cell the
     # same size and leaves no state in a cell stretched to its neighbours), drawn as gaps
-    n_rows = rows if hi > lo else 1
-    fixing = np.concatenate([np.stack([np.arange(columns.size), np.zeros(columns.size, dtype=np.int64)]),
-                             np.stack([np.zeros(n_rows, dtype=np.int64), np.arange(n_rows)])], axis=1)
-    taken = set(zip(filled[0].tolist(), filled[1].tolist(), strict=True))
-    gaps = sorted({(c, j) for c, j in zip(fixing[0].tolist(), fixing[1].tolist(), strict=True)} - taken)
-    col = np.concatenate([filled[0], np.array([c for c, _ in gaps], dtype=np.int64)])
-    row = np.concatenate([filled[1], np.array([j for _, j in gaps], dtype=np.int64)])
-    z: list[float | None] = [1.0] * filled.shape[1] + [None] * len(gaps)
+    fixing = np.zeros_like(filled)
+    fixing[:, 0] = fixing[0, :] = True
+    col_f, row_f = np.nonzero(filled)
+    col_g, row_g = np.nonzero(fixing & ~filled)
+    col, row = np.concatenate([col_f, col_g]), np.concatenate([row_f, row_g])
+    z: list[float | None] = [1.0] * col_f.size + [None] * col_g.size
     return columns[col].tolist(), (lo + row * step).tolist(), z, step
 
 

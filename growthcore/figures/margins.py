@@ -12,12 +12,11 @@ axes, and ranges plotly.js writes with a power of ten: an end at 10^4 or more, o
 
 from __future__ import annotations
 
-import base64
 import math
-from collections.abc import Iterable, Mapping
+from collections.abc import Mapping
 from typing import Any
 
-import numpy as np
+from growthcore.figures.common import unpacked
 
 #: Height in px of the plotting area of a dashboard panel: a 300 px graph less its top (10) and bottom
 #: (44: the x tick labels and title) margins. The trajectory panel is 320 px high.
@@ -69,20 +68,12 @@ def label_px(label: str) -> float:
     return sum(CHAR_PX.get(c, DIGIT_PX) for c in label)
 
 
-def _numbers(values: Any) -> Iterable[float]:
-    if isinstance(values, Mapping) and "bdata" in values:
-        return np.frombuffer(base64.b64decode(values["bdata"]), dtype=f"<{values['dtype']}").astype(float)
-    if isinstance(values, (list, tuple)):
-        return (float(v) for v in values if isinstance(v, (int, float)) and not isinstance(v, bool))
-    return ()
-
-
 def y_extent(fig: Mapping[str, Any]) -> tuple[float, float] | None:
     """Lowest and highest y of the figure's traces and y-referenced shapes (what autorange spans)."""
     ys: list[float] = []
     for trace in fig.get("data", []):
         if trace.get("visible", True) is not False:
-            ys.extend(v for v in _numbers(trace.get("y", [])) if math.isfinite(v))
+            ys.extend(v for v in unpacked(trace.get("y") or []) if math.isfinite(v))
     for shape in fig.get("layout", {}).get("shapes") or []:
         if shape.get("yref") == "y":
             keys = ("yanchor",) if shape.get("ysizemode") == "pixel" else ("y0", "y1")
@@ -93,7 +84,7 @@ def y_extent(fig: Mapping[str, Any]) -> tuple[float, float] | None:
 def largest_marker(fig: Mapping[str, Any]) -> float:
     """The size of the largest marker drawn (0 for a figure of lines only)."""
     sizes = [float(t.get("marker", {}).get("size", 6)) for t in fig.get("data", [])
-             if "markers" in str(t.get("mode", "")) and any(True for _ in _numbers(t.get("y", [])))]
+             if "markers" in str(t.get("mode", "")) and unpacked(t.get("y") or [])]
     return max((v for v in sizes if math.isfinite(v)), default=0.0)
 
 
