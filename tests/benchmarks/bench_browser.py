@@ -4,8 +4,10 @@
 
 Starts the real app (create_app + waitress on a loopback port) and drives headless Chromium (Debian's
 ``chromium`` and ``chromium-driver``). The page's own fetch is wrapped to count the Dash callback
-requests, their bytes and those in flight; a step ends when no request has been in flight for
-``QUIET_MS`` and the awaited text is on the page. Measured:
+requests, their bytes and those in flight; a step starts at the page's first input event (the press,
+key or file chosen that WebDriver delivers; the time WebDriver takes before that is printed, not
+counted) and ends when no request has been in flight for ``QUIET_MS`` and the awaited text is on the
+page. Measured:
 
 - a K typed into the number box, with K held at the estimate: until every panel and the comparison
   table show it, nothing loading;
@@ -61,6 +63,11 @@ if (!window.__gc) {
     !!(m.target.nodeType === 1 ? m.target : m.target.parentElement).closest('[role=listbox]');
   new MutationObserver(list => { if (list.some(m => !menu(m))) { window.__gc.changed = performance.now(); } }).observe(
     document.body, {subtree: true, childList: true, attributes: true, characterData: true});
+  // a step starts at its first input event (a press, a key, a file chosen): the moment the user acts.
+  // WebDriver spends tens of milliseconds before its click reaches the page (scrolling the element into
+  // view, finding its centre, checking what covers it), which no user waits for
+  const acted = e => { if (window.__gc.input === null) { window.__gc.input = e.timeStamp; } };
+  ['pointerdown', 'keydown', 'change'].forEach(t => document.addEventListener(t, acted, true));
   const plain = window.fetch.bind(window);
   window.fetch = async function (...args) {
     const url = String(args[0] && args[0].url || args[0]);
@@ -78,9 +85,10 @@ if (!window.__gc) {
     }
   };
 }
-window.__gc.requests = 0; window.__gc.bytes = 0;
+window.__gc.requests = 0; window.__gc.bytes = 0; window.__gc.input = null;
 return performance.now();
 """
+
 
 #: Long tasks not yet handed to the observer are taken first: a check that runs right after a long task
 #: would otherwise miss it and end the step early.
@@ -89,7 +97,7 @@ const g = window.__gc, now = performance.now();
 g.tasks.takeRecords().forEach(g.seen);
 const loading = document.querySelectorAll('[data-dash-is-loading]').length;
 const end = Math.max(g.last, g.busy, g.changed);
-return (g.inflight === 0 && loading === 0 && now - end >= arguments[0]) ? [end, g.requests, g.bytes] : null;
+return (g.inflight === 0 && loading === 0 && now - end >= arguments[0]) ? [end, g.requests, g.bytes, g.input] : null;
 """
 
 
@@ -134,10 +142,24 @@ def _until(driver: Any, condition: Any, timeout: float = 60.0) -> Any:
 
 
 def _settle(driver: Any, start: float, done: Any) -> tuple[float, int, int]:
-    """Milliseconds from ``start`` (page clock) until ``done()`` holds and no request is in flight."""
+    """Milliseconds from the page's first input event after ``start`` (page clock; ``start`` itself when
+    there is none) until ``done()`` holds and no request is in flight."""
     _until(driver, done)
-    last, requests, size = _until(driver, lambda: driver.execute_script(SETTLED, QUIET_MS))
+    last, requests, size, acted = _until(driver, lambda: driver.execute_script(SETTLED, QUIET_MS))
+    if acted is not None and acted >= start:
+        LAGS.append(acted - start)
+        start = acted
     return max(last - start, 0.0), int(requests), int(size)
+
+
+#: Milliseconds from each step's start to the page's first input event: WebDriver's share, not counted.
+LAGS: list[float] = []
+
+
+def _lag() -> str:
+    """WebDriver's share of the steps since LAGS was cleared, for the report."""
+    return f" (not counted: WebDriver's own {statistics.median(LAGS):.0f} ms before each input reached the page)" \
+        if LAGS else ""
 
 
 def _invented(path: str, n: int = 100, series: tuple[str, ...] = ()) -> str:
@@ -334,13 +356,14 @@ def main() -> int:
         trip, draw = floor(driver)
         print(f"floor: server round trip {trip:.1f} ms, Plotly.react of a small figure {draw:.1f} ms")
 
+        LAGS.clear()
         k = k_changes(driver, args.changes)
         k_ms = statistics.median(x[0] for x in k)
         k_kb = statistics.median(x[2] for x in k) / 1000
         k_req = statistics.median(x[1] for x in k)
         print(f"K typed ({len(k)} changes): median {k_ms:.0f} ms (target {TARGETS['k_ms']:.0f}; "
               f"{k_ms / trip:.1f}x the round trip), {k_req:g} requests, {k_kb:.0f} kB (target {TARGETS['k_kb']:.0f})"
-              f"; each: {', '.join(f'{x[0]:.0f}' for x in k)} ms")
+              f"; each: {', '.join(f'{x[0]:.0f}' for x in k)} ms{_lag()}")
 
         rates, span, moves = drag(driver)
         _settle(driver, driver.execute_script("return performance.now()"), lambda: True)
@@ -355,9 +378,10 @@ def main() -> int:
         print(f"export of the record, every PNG, the CSV and the HTML report: {ex_s:.1f} s for {ex_n} files "
               f"(target {TARGETS['export_s']:.0f} s)")
 
+        LAGS.clear()
         up_ms, up_req, up_bytes = upload(driver, _invented(os.path.join(work, "invented_culture_100.csv")))
         print(f"upload of a 100-point file: {up_ms:.0f} ms (target {TARGETS['upload_ms']:.0f}), {up_req} requests, "
-              f"{up_bytes / 1000:.0f} kB")
+              f"{up_bytes / 1000:.0f} kB{_lag()}")
         upload(driver, _invented(os.path.join(work, "invented_cultures_long.csv"), n=60, series=("C1", "C2", "C3")))
         # panel 7 (the cobweb and the sweep, the costliest figures) is redrawn only near the screen
         # (each run starts from the series the last one ended on, so every switch is a change)
@@ -365,11 +389,12 @@ def main() -> int:
                                    ("panel 7 off screen", "panel-change", ("C3", "C1", "C2", "C3"))):
             driver.execute_script(f"document.getElementById('{slot}').scrollIntoView({{block: 'start'}})")
             _settle(driver, driver.execute_script("return performance.now()"), lambda: True)
+            LAGS.clear()
             sw = [switch(driver, name) for name in names]
             sw_ms = statistics.median(x[0] for x in sw)
             sw_req, sw_kb = statistics.median(x[1] for x in sw), statistics.median(x[2] for x in sw) / 1000
             print(f"switching series, {where}: median {sw_ms:.0f} ms (target {TARGETS['switch_ms']:.0f}), "
-                  f"{sw_req:g} requests, {sw_kb:.0f} kB; each: {', '.join(f'{x[0]:.0f}' for x in sw)} ms")
+                  f"{sw_req:g} requests, {sw_kb:.0f} kB; each: {', '.join(f'{x[0]:.0f}' for x in sw)} ms{_lag()}")
     finally:
         driver.quit()
         server.close()
