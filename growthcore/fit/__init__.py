@@ -11,12 +11,13 @@ import numpy as np
 from growthcore.budget import check_budget
 from growthcore.data import Series
 from growthcore.errors import GrowthcoreInputError
+from growthcore.fit.held_k import held_k_refits
 from growthcore.fit.increments import fit_increments, solve_increments
 from growthcore.fit.problem import Solved
 from growthcore.fit.profile import Refit, capacity_profile
 from growthcore.fit.result import ERROR_MODELS, METHODS, CapacityProfile, FitResult, ParameterEstimate, failed
 from growthcore.fit.trajectory import fit_trajectory, solve_trajectory
-from growthcore.models.base import ModelForm
+from growthcore.models.base import DifferenceForm, ModelForm
 from growthcore.models.catalogue import get_form
 
 __all__ = ["fit", "FitResult", "ParameterEstimate", "CapacityProfile", "METHODS", "ERROR_MODELS"]
@@ -111,7 +112,10 @@ def fit(
         with np.errstate(all="ignore"):  # numerical trouble is reported through the status, not warnings
             result = run(fixed_all, start)
             if profile and result.success and "K" in result.values and "K" not in fixed_all:
-                prof = capacity_profile(result, refit_with_k)
+                held = held_k_refits(series, form, fixed_all, refit_with_k) if (
+                    method == "increments" and isinstance(form, DifferenceForm)) else None
+                prof = capacity_profile(result, held.one, refit_grid=held.grid) if held is not None else \
+                    capacity_profile(result, refit_with_k)
                 if prof is not None:
                     result = replace(result, profile=prof)
     except (FloatingPointError, OverflowError, ZeroDivisionError, ValueError, ArithmeticError) as exc:

@@ -47,12 +47,16 @@ def likelihood_ratio_threshold(sse_min: float, n: int) -> float:
 
 
 def capacity_profile(result: FitResult, refit_with_k: Callable[[float, dict[str, float]], Refit],
-                     *, points: int = 25) -> CapacityProfile | None:
+                     *, points: int = 25,
+                     refit_grid: Callable[[Array, dict[str, float]], list[Refit]] | None = None,
+                     ) -> CapacityProfile | None:
     """Scan K over a log grid from K̂/4 to 4·K̂ (each refit warm-started from its neighbour), then
     locate both cuts' crossings between the bracketing grid values with Brent's method.
 
     ``refit_with_k(K, start)`` gives the optimum's sum of squares and values only: the profile needs
-    no standard errors, so its refits skip them."""
+    no standard errors, so its refits skip them. ``refit_grid(Ks, start)``, where given, refits a
+    branch of the grid at once from the optimum's values; a K it leaves as None is refitted alone
+    from its neighbour, as without it."""
     if not result.success or result.metrics is None or "K" not in result.values or result.parameter("K").fixed:
         return None
     k_hat = result.values["K"]
@@ -68,9 +72,10 @@ def capacity_profile(result: FitResult, refit_with_k: Callable[[float, dict[str,
     start_by_k: dict[float, dict[str, float]] = {k_hat: {n: v for n, v in result.values.items() if n != "K"}}
     for branch in (upper[1:], lower):
         start = start_by_k[k_hat]
-        for k in branch:
+        at_once = refit_grid(branch, start) if refit_grid is not None else [None] * branch.size
+        for k, ready in zip(branch, at_once, strict=True):
             check_budget()
-            refit = refit_with_k(float(k), start)
+            refit = ready if ready is not None else refit_with_k(float(k), start)
             if refit is not None:
                 sse_by_k[float(k)] = refit[0]
                 start = {n: v for n, v in refit[1].items() if n != "K"}
@@ -110,9 +115,11 @@ def _crossing(ks: Array, sse: Array, threshold: float, k_hat: float, side: int,
     mask = (ks >= k_hat) if side > 0 else (ks <= k_hat)
     ks, sse = ks[mask], sse[mask]
 
+    known: dict[float, float] = {}
+
     def gap(log_k: float, start: float) -> float:
         check_budget()
-        value = profile_at(math.exp(log_k), start) - threshold
+        value = known[log_k] if log_k in known else profile_at(math.exp(log_k), start) - threshold
         return value if math.isfinite(value) else math.inf
 
     for j in range(1, ks.size):
@@ -121,6 +128,8 @@ def _crossing(ks: Array, sse: Array, threshold: float, k_hat: float, side: int,
         if sse[j] >= threshold > sse[j - 1]:
             inner, outer = float(ks[j - 1]), float(ks[j])
             a, b = sorted((math.log(inner), math.log(outer)))
+            # Brent's method starts at the bracket's ends, whose profile the grid has already
+            known.update({math.log(inner): float(sse[j - 1]) - threshold, math.log(outer): float(sse[j]) - threshold})
             try:
                 root = optimize.brentq(gap, a, b, args=(inner,), xtol=ROOT_RTOL, rtol=ROOT_RTOL, maxiter=100)
             except BudgetExceeded:
