@@ -110,11 +110,10 @@ def candidate_figure(candidates: Sequence[Mapping[str, Any]], labels: Mapping[st
         line_x = [0.0] + [g for g, _ in pairs]
         line_y = [0.0] + [v for _, v in pairs]
         data.append({
-            "type": "scatter", "mode": "lines+markers", "x": line_x, "y": line_y, "legendgroup": c["label"],
+            "type": "scatter", "mode": "lines", "x": line_x, "y": line_y, "legendgroup": c["label"],
             "uid": preview_uid("candidate-line", c["label"]),
             "name": f"g = {c['label']}: {c.get('slope_name', 'b')} = {c['slope']:.4g}, "
                     f"uncentered R² = {c['r2_uncentered']:.3f}",
-            "marker": {"size": 0.1, "color": colour},
             "line": {"color": colour, "dash": dash, "width": 2}, "hoverinfo": "skip",
         })
     data.append(highlight_trace())
