@@ -123,11 +123,18 @@ def classify(
         unbounded = huge | (~extinct & rising & (np.abs(d[-1]) > TOL * scale))
         window = tail[-2 * max_period:]
         period = np.zeros(m, dtype=int)
-        for q in range(max_period, 0, -1):
-            # descending, so the smallest matching q is kept; a fixed point also matches every q
-            gap = np.abs(window[q:] - window[:-q])
-            moved = np.max(np.where(np.isnan(gap), np.inf, gap), axis=0)
-            period = np.where(moved <= TOL * max(scale, 1e-300) * 10.0, q, period)
+        unmatched = np.arange(m)
+        limit = TOL * max(scale, 1e-300) * 10.0
+        for q in range(1, max_period + 1):
+            # ascending, each set leaving at its smallest matching q (a fixed point also matches every q);
+            # a gap that is not a number (NaN or inf − inf) makes the max NaN, which matches no q
+            moved = np.max(np.abs(window[q:] - window[:-q]), axis=0)
+            hit = moved <= limit
+            if hit.any():
+                period[unmatched[hit]] = q
+                unmatched, window = unmatched[~hit], window[:, ~hit]
+                if not unmatched.size:
+                    break
         deriv = np.abs(form.next_state_dp(tail, values))
         lyap = np.mean(np.log(np.where(deriv > 0, deriv, 1e-300)), axis=0)
         slope = form.next_state_dp(tail[-1:], values)[0]
