@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import base64
 import dataclasses
+import gc
 import ipaddress
 import logging
 import os
@@ -213,6 +214,17 @@ def is_loopback(host: str) -> bool:
         return False
 
 
+def freeze_startup_heap() -> None:
+    """Move everything built so far (the modules, the app) out of the cyclic garbage collector's sight.
+
+    These objects live as long as the process. Left in the collector's oldest generation, each full
+    collection walks all of them: a pause of about 70 ms inside whichever request set it off (one in
+    six series switches on these machines). Afterwards a full collection walks what requests made.
+    """
+    gc.collect()
+    gc.freeze()
+
+
 def serve(app: Dash, *, host: str = "127.0.0.1", port: int = 8050, open_browser: bool = True,
           threads: int = DEFAULT_THREADS) -> None:
     """Serve with waitress until interrupted; warn when the address is reachable from the network.
@@ -238,5 +250,6 @@ def serve(app: Dash, *, host: str = "127.0.0.1", port: int = 8050, open_browser:
     if open_browser:
         threading.Timer(1.0, lambda: webbrowser.open(url)).start()
     limit = int(app.server.config["MAX_CONTENT_LENGTH"])
+    freeze_startup_heap()
     waitress_serve(app.server, host=host, port=port, threads=threads, max_request_body_size=limit,
                    ident="growthcore")

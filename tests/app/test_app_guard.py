@@ -202,6 +202,25 @@ def test_serve_keeps_threads_for_light_requests(app, monkeypatch) -> None:
         serve(app, threads=heavy.slots + heavy.queue, open_browser=False)
 
 
+def test_serve_takes_the_startup_heap_out_of_the_collectors_walks(app, monkeypatch) -> None:
+    """Common practice (the gc module's documentation on gc.freeze): objects that live as long as the
+    process are frozen before serving, so that full collections during requests do not walk them."""
+    import gc
+
+    import waitress
+
+    from growthcore.app.server import serve
+
+    frozen: list[int] = []
+    monkeypatch.setattr(waitress, "serve", lambda wsgi, **kw: frozen.append(gc.get_freeze_count()))
+    monkeypatch.setattr(app.server.config["GROWTHCORE_HEAVY"], "warm", lambda: None)
+    try:
+        serve(app, open_browser=False)
+    finally:
+        gc.unfreeze()
+    assert frozen and frozen[0] > 10_000  # the modules and the app, at least
+
+
 def test_defaults_meet_the_app_limits() -> None:
     from growthcore.app.components.dynamics import MAX_RESAMPLES
 

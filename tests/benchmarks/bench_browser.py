@@ -336,9 +336,10 @@ def main() -> int:
     args = ap.parse_args()
     from waitress import create_server
 
-    from growthcore.app.server import create_app
+    from growthcore.app.server import create_app, freeze_startup_heap
 
     app = create_app()
+    freeze_startup_heap()  # as `serve` does before it answers
     port = _free_port()
     server = create_server(app.server, host="127.0.0.1", port=port, threads=6)
     threading.Thread(target=server.run, daemon=True).start()
