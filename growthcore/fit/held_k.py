@@ -25,7 +25,7 @@ import numpy as np
 
 from growthcore.budget import check_budget
 from growthcore.data import Series
-from growthcore.fit.increments import _pairs_evaluation
+from growthcore.fit.increments import pairs_evaluation
 from growthcore.fit.lm import ACCEPT_RATIO, solve_exact
 from growthcore.fit.problem import is_at_bound
 from growthcore.fit.profile import Refit
@@ -53,15 +53,18 @@ class HeldKRefits:
         """Every constant left is a coefficient of the form's basis: a regression through the origin."""
         return self.form.basis is not None and all(n in self.form.linear for n in self.free)
 
+    @property
+    def exact(self) -> bool:
+        """The form has no linear coefficients, so the full solve takes exact Levenberg–Marquardt too (the
+        others concentrate their coefficients out first, which is the full solve's to do)."""
+        return self.form.basis is None or not self.form.linear
+
     def one(self, k: float, start: Mapping[str, float]) -> Refit:
         """The refit at one K, warm-started from ``start``."""
         if self.linear:
             return self._regression(k)
         fixed = {**self.fixed, "K": k}
-        # the full solve's own route: exact Levenberg–Marquardt for forms with no linear coefficients
-        # (the others concentrate them out first, which is theirs to do)
-        exact = None if self.form.basis is not None and self.form.linear else _pairs_evaluation(
-            self.form, self.free, fixed, self.x, self.y_next)
+        exact = pairs_evaluation(self.form, self.free, fixed, self.x, self.y_next) if self.exact else None
         if exact is None:
             return self.fallback(k, start)
         specs = [self.form.spec(n) for n in self.free]
@@ -80,7 +83,7 @@ class HeldKRefits:
         """The refits at every K of ``ks``, all started from ``start``; None where the full solve must decide."""
         if self.linear:
             return [self._regression(float(k)) for k in ks]
-        if len(self.free) != 1 or self.form.increment_partials is None:
+        if len(self.free) != 1 or self.form.increment_partials is None or not self.exact:
             return [None] * len(ks)
         return self._gauss_newton(np.asarray(ks, dtype=float), start)
 

@@ -96,7 +96,7 @@ def solve_increments(
                       settings=FitSettings(fixed=dict(fixed), pairs=int(x.size), t_first=grid.t0,
                                           p_first=float(series.p[series.used][0])),
                       exact=None if form.basis is not None and form.linear else
-                      _pairs_evaluation(form, free, fixed, x, y_next))
+                      pairs_evaluation(form, free, fixed, x, y_next))
     dy = y_next - x
     if form.basis is not None and form.linear:
         return _fit_linear(problem, form, x, dy, start)
@@ -243,7 +243,7 @@ def _nonlinear_starts(problem: Problem, x: Array, start: Mapping[str, float]) ->
         yield vector({**guesses, "K": k0 * factor, **start})
 
 
-def _pairs_evaluation(form: DifferenceForm, free: tuple[str, ...], fixed: Mapping[str, float], x: Array,
+def pairs_evaluation(form: DifferenceForm, free: tuple[str, ...], fixed: Mapping[str, float], x: Array,
                       y_next: Array) -> Evaluation | None:
     """p_{n+1} predicted from p_n and, on demand, its exact Jacobian (∂Δ/∂θ; central differences for a
     constant the form has no closed-form partial for); None for a form without partials."""

@@ -128,3 +128,7 @@ def test_forms_with_another_free_shape_constant_are_left_to_the_full_solve() -> 
     start = {"r": 0.3, "theta": 1.0}
     assert refits.grid(np.array([300.0, 400.0]), start) == [None, None]
     assert refits.one(300.0, start) == full(300.0, start) and calls == [300.0]
+    # θ alone left (r fixed by the user): a shape constant the full solve concentrates the rate out for
+    held_r = held_k_refits(series, form, {"r": 0.3}, counted)
+    assert held_r is not None and held_r.free == ("theta",) and not held_r.exact
+    assert held_r.grid(np.array([300.0]), {"theta": 1.0}) == [None]
