@@ -46,13 +46,18 @@ def data_to_store(imported: ImportResult, series: Series, *, source: str) -> dic
     }
 
 
+def limits_in(config: Mapping[str, Any]) -> Limits:
+    """The limits a server's configuration holds (``create_app(limits=)``), else the defaults."""
+    limits = config.get("GROWTHCORE_LIMITS")
+    return limits if isinstance(limits, Limits) else DEFAULT_LIMITS
+
+
 def current_limits() -> Limits:
-    """The limits of the server answering this request (``create_app(limits=)``); the defaults outside a
-    request (a worker process is handed its limits instead)."""
+    """The limits of the server answering this request; the defaults outside a request (a worker process
+    is handed its limits instead)."""
     from flask import current_app, has_app_context
 
-    limits = current_app.config.get("GROWTHCORE_LIMITS") if has_app_context() else None
-    return limits if isinstance(limits, Limits) else DEFAULT_LIMITS
+    return limits_in(current_app.config) if has_app_context() else DEFAULT_LIMITS
 
 
 def check_points(n: int, name: object, limits: Limits | None = None) -> None:

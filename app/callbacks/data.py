@@ -18,7 +18,7 @@ from growthcore.limits import Limits
 
 from .. import ids
 from ..heavy import direct, runner_of
-from ..state import data_to_store
+from ..state import data_to_store, limits_in
 from .exclusions import update_exclusions
 
 DEFAULT_MAX_BYTES = 10_000_000
@@ -32,7 +32,7 @@ def source_from_upload(contents: str, filename: str, max_bytes: int = DEFAULT_MA
 
 def server_limits(app: Dash) -> Limits:
     """The limits of this server (its configuration, never the tab's state)."""
-    return app.server.config.get("GROWTHCORE_LIMITS") or DEFAULT_LIMITS
+    return limits_in(app.server.config)
 
 
 def decode_source(source: Mapping[str, Any], max_bytes: int | None = None) -> bytes:

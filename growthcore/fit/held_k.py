@@ -80,10 +80,9 @@ class HeldKRefits:
         return outcome.sse, {**fixed, **dict(zip(self.free, values, strict=True))}
 
     def grid(self, ks: Array, start: Mapping[str, float]) -> list[Refit]:
-        """The refits at every K of ``ks``, all started from ``start``; None where the full solve must decide."""
-        if self.linear:
-            return [self._regression(float(k)) for k in ks]
-        if len(self.free) != 1 or self.form.increment_partials is None or not self.exact:
+        """The refits at every K of ``ks``, all started from ``start``; None where each K is refitted alone
+        (:meth:`one`: a regression in closed form costs no more alone, and the scan stops where it may)."""
+        if self.linear or len(self.free) != 1 or self.form.increment_partials is None or not self.exact:
             return [None] * len(ks)
         return self._gauss_newton(np.asarray(ks, dtype=float), start)
 
@@ -158,7 +157,7 @@ class HeldKRefits:
                 if converged.any():
                     # the last Gauss–Newton step is kept where it does not raise the sum of squares
                     final = np.where(converged, np.clip(theta + newton, spec.lower, spec.upper), theta)
-                    f_res, f_sse, _ = at(final)
+                    _, f_sse, _ = at(final)
                     better = converged & np.isfinite(f_sse) & (f_sse <= sse)
                     theta, sse = np.where(better, final, theta), np.where(better, f_sse, sse)
                     settled |= converged
