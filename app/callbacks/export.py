@@ -33,9 +33,12 @@ from growthcore.uncertainty import DEFAULT_SEED
 from growthcore.workflow import Extras
 
 from .. import ids
+from ..components.dynamics import MAX_RESAMPLES
 from ..heavy import runner_of
 from ..state import current_limits, data_to_store, empty_exclusions, series_from_store
 from .data import summary
+from .dynamics.forecast import step_limit
+from .dynamics.reopened import steps_from_settings
 from .fits import session_plan
 from .settings import expand_forms
 
@@ -320,8 +323,11 @@ def refusal(exc: RecordError) -> html.Div:
 
 def on_record_upload(contents: str | None, filename: str | None, *, run: Any = None) -> tuple[Any, ...]:
     """Outputs: source, data, exclusions, data summary, report text, series options, series value,
-    the six model controls, the pending K, the data message and the record message."""
-    keep = (no_update,) * 15
+    the six model controls, the pending K, the forecast asked for, the data message and the record message.
+
+    The data store carries panel 7's fields as the record's settings give them (``later``, set by
+    app/callbacks/follow.py once the data are on the page)."""
+    keep = (no_update,) * 16
     if not contents:
         return (*keep, no_update)
     name = filename or "record.json"
@@ -330,6 +336,8 @@ def on_record_upload(contents: str | None, filename: str | None, *, run: Any = N
         record = run("reading the record", parse_record, raw, name=name) if run else parse_record(raw, name=name)
         data, exclusions = stores_from_record(record, name=name)
         controls = controls_from_record(record)
+        later = steps_from_settings(record.get("settings") or {}, max_steps=step_limit(),
+                                    max_resamples=min(MAX_RESAMPLES, current_limits().max_resamples))
     except RecordError as exc:
         return (*keep, refusal(exc))
     except GrowthcoreInputError as exc:
@@ -343,12 +351,16 @@ def on_record_upload(contents: str | None, filename: str | None, *, run: Any = N
             "are recomputed from the record's data and settings.")
     if also:
         text += f" The controls also fit {', '.join(also)}, which the record does not hold."
+    if later["notes"]:
+        text += " " + " ".join(later["notes"])
+    data["later"] = later
+    forecast = {"request": later["request"], "key": data["key"]} if later["request"] else None
     data_message = html.Div(f"Data from the fit record {name} (first read from {data['source']}).",
                             className="message message-ok")
     return (None, data, exclusions, summary(data), data["report_text"],
             [{"label": data["name"], "value": data["name"]}],
             data["name"], controls["forms"], controls["constant"], controls["terms"], controls["method"],
-            controls["error"], controls["k_mode"], pending, data_message,
+            controls["error"], controls["k_mode"], pending, forecast, data_message,
             html.Div(text, className="message message-ok"))
 
 
@@ -383,6 +395,7 @@ def register(app: Dash) -> None:
         Output(ids.FORMS, "value"), Output(ids.CONSTANT, "value"), Output(ids.TERMS, "value"),
         Output(ids.METHOD, "value"), Output(ids.ERROR, "value"), Output(ids.K_MODE, "value"),
         Output(ids.PENDING_CAPACITY, "data", allow_duplicate=True),
+        Output(ids.FORECAST, "data", allow_duplicate=True),
         Output(ids.DATA_MESSAGE, "children", allow_duplicate=True),
         Output(ids.RECORD_MESSAGE, "children"),
         Input(ids.RECORD_UPLOAD, "contents"), State(ids.RECORD_UPLOAD, "filename"),

@@ -83,15 +83,16 @@ class Forecast:
                    None if crossing is None else dict(crossing), str(d.get("caution", FORECAST_CAUTION)))
 
 
-def _check_steps(n: int, span: float | None) -> None:
-    limit = LIMITS.max_forecast_steps
+def _check_steps(n: int, span: float | None, limit: int) -> None:
     if n > limit:
         what = f"a span of {span:g} is {n:,} steps" if span is not None else f"{n:,} steps"
         raise GrowthcoreInputError(f"a forecast of {what}, over the limit of {limit:,} steps: refused")
 
 
-def future_times(result: FitResult, *, steps: int | None, span: float | None) -> Array:
-    """Grid steps past the last observation (difference forms), or evenly spaced times (curves)."""
+def future_times(result: FitResult, *, steps: int | None, span: float | None,
+                 max_steps: int = LIMITS.max_forecast_steps) -> Array:
+    """Grid steps past the last observation (difference forms), or evenly spaced times (curves); more
+    than ``max_steps`` steps are refused."""
     if (steps is None) == (span is None):
         raise GrowthcoreInputError("give either `steps` or `span` for a forecast, not both and not neither")
     if steps is not None and steps < 1:
@@ -105,10 +106,10 @@ def future_times(result: FitResult, *, steps: int | None, span: float | None) ->
         n = steps if steps is not None else int(min(math.floor(span / h + 1e-9), 2**62))  # type: ignore[operator]
         if n < 1:
             raise GrowthcoreInputError(f"a span of {span:g} is shorter than one step h = {h:g}")
-        _check_steps(n, span)
+        _check_steps(n, span, max_steps)
         return t_last + h * np.arange(1, n + 1)
     if steps is not None:
-        _check_steps(steps, None)
+        _check_steps(steps, None, max_steps)
         dt = float(np.ptp(result.t)) / max(result.t.size - 1, 1) or 1.0
         return t_last + dt * np.arange(1, steps + 1)
     assert span is not None  # exactly one of steps and span was given
@@ -145,6 +146,7 @@ def forecast(
     bound: float | None = None,
     seed: int = DEFAULT_SEED,
     draws: int = 2000,
+    max_steps: int = LIMITS.max_forecast_steps,
 ) -> Forecast:
     """Forecast ``steps`` grid steps (or a time ``span``) past the last observation.
 
@@ -154,12 +156,13 @@ def forecast(
         approximation (``draws`` of them).
     series : the data (needed for increments fits only, to rebuild their residual pool).
     bound : a plausibility bound on the state; the result says when the forecast passes it.
+    max_steps : the most steps a forecast may take (a span is counted in steps of the fit's grid).
     """
     if not result.success or result.form is None:
         raise GrowthcoreInputError(f"the {result.model} fit did not converge: nothing to forecast")
     if not 0.0 < level < 1.0:
         raise GrowthcoreInputError(f"`level` must lie between 0 and 1; got {level}")
-    t_future = future_times(result, steps=steps, span=span)
+    t_future = future_times(result, steps=steps, span=span, max_steps=max_steps)
     problem = refit_problem(result, series if result.method == "increments" else None) \
         if result.method != "increments" or series is not None else None
     names = tuple(p.name for p in result.parameters if not p.fixed)

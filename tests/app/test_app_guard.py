@@ -115,7 +115,25 @@ def test_forged_forecast_request_is_checked_again() -> None:
     data, fits = _fit_store()
     label = fits["fits"][0]["label"]
     out = compute_forecast({"mode": "steps", "amount": 500_000_000, "bound": None}, label, fits, data, None, {})
-    assert "Steps ahead must be a whole number from 1 to 2000" in out["error"]
+    assert "Steps ahead must be a whole number from 1 to 2,000" in out["error"]
+    # a time span is counted in the fit's steps: a long one is refused before any draw is made
+    started = time.monotonic()
+    out = compute_forecast({"mode": "span", "amount": 1e12, "bound": None}, label, fits, data, None, {})
+    assert "over the limit of 2,000 steps: refused" in out["error"] and time.monotonic() - started < 5
+
+
+def test_forecast_length_is_the_servers() -> None:
+    """A server configured for shorter forecasts refuses longer ones, typed as steps or as a time span."""
+    data, fits = _fit_store()
+    label = fits["fits"][0]["label"]
+    app = create_app(limits=Limits(max_forecast_steps=30))
+    with app.server.app_context():
+        assert "from 1 to 30;" in compute_forecast({"mode": "steps", "amount": 31, "bound": None}, label, fits, data,
+                                                   None, {})["error"]
+        span = compute_forecast({"mode": "span", "amount": 1e3, "bound": None}, label, fits, data, None, {})
+        assert "over the limit of 30 steps" in span["error"]
+        assert len(compute_forecast({"mode": "steps", "amount": 30, "bound": None}, label, fits, data, None,
+                                    {})["points"]) == 30
 
 
 def test_pattern_length_is_the_servers() -> None:

@@ -332,7 +332,7 @@ def test_nothing_of_the_batch_listens_to_k() -> None:
     batch = {"key": "k", "names": ["A1", "A2"]}
     listed, *fields, place = follow({f"{ids.EXCLUSIONS}.data"}, {"name": "A1", "key": "d"}, None, batch, None, None,
                                     None, None, 10)
-    assert place is no_update and fields == [no_update] * 3 and listed is not no_update
+    assert place is no_update and fields == [no_update] * 6 and listed is not no_update
 
 
 def test_soybean_plots_group_by_year_and_variety_in_the_many_series_section(tmp_path: Any) -> None:

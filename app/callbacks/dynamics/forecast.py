@@ -17,12 +17,21 @@ from growthcore.uncertainty import forecast
 
 from ... import ids
 from ...components.dynamics import fmt
+from ...state import current_limits
 from .which_fit import done_for, find_fit, fit_signature, rebuild
 
+#: The most steps panel 7 forecasts (each step holds a band of 2,000 draws); a server whose configuration
+#: allows fewer forecasts fewer (:func:`step_limit`), a time span included.
 MAX_FORECAST_STEPS = 2000
 
 
-def forecast_request(mode: str | None, amount: Any, bound: Any) -> dict[str, Any]:
+def step_limit() -> int:
+    """The most steps a forecast of the answering server may take."""
+    return min(MAX_FORECAST_STEPS, current_limits().max_forecast_steps)
+
+
+def forecast_request(mode: str | None, amount: Any, bound: Any, *, max_steps: int = MAX_FORECAST_STEPS
+                     ) -> dict[str, Any]:
     """The user's forecast choice, checked; ``error`` says what is wrong."""
     try:
         value = float(amount)
@@ -39,8 +48,8 @@ def forecast_request(mode: str | None, amount: Any, bound: Any) -> dict[str, Any
         if not (math.isfinite(value) and value > 0):
             return {"error": f"The time span must be a positive number; got {amount!r}."}
         return {"mode": "span", "amount": value, "bound": b}
-    if not (math.isfinite(value) and value == int(value) and 1 <= value <= MAX_FORECAST_STEPS):
-        return {"error": f"Steps ahead must be a whole number from 1 to {MAX_FORECAST_STEPS}; got {amount!r}."}
+    if not (math.isfinite(value) and value == int(value) and 1 <= value <= max_steps):
+        return {"error": f"Steps ahead must be a whole number from 1 to {max_steps:,}; got {amount!r}."}
     return {"mode": "steps", "amount": int(value), "bound": b}
 
 
@@ -48,8 +57,10 @@ def compute_forecast(request: Mapping[str, Any], label: str | None, fits_store: 
                      data: Mapping[str, Any] | None, exclusions: Mapping[str, Any] | None,
                      done: Mapping[str, Any] | None) -> dict[str, Any]:
     """The forecast store: the request, the fit it belongs to and the band (or the reason there is none)."""
+    max_steps = step_limit()
     if not request.get("error"):  # a stored request comes back from the tab: checked again here
-        request = forecast_request(request.get("mode"), request.get("amount"), request.get("bound"))
+        request = forecast_request(request.get("mode"), request.get("amount"), request.get("bound"),
+                                   max_steps=max_steps)
     out: dict[str, Any] = {"request": dict(request), "label": label, "key": (fits_store or {}).get("key")}
     if request.get("error"):
         return {**out, "error": request["error"]}
@@ -63,7 +74,7 @@ def compute_forecast(request: Mapping[str, Any], label: str | None, fits_store: 
         steps = request["amount"] if request["mode"] == "steps" else None
         span = request["amount"] if request["mode"] == "span" else None
         fc = forecast(result, steps=steps, span=span, boot=boot, series=series, bound=request.get("bound"),
-                      seed=boot.seed if boot is not None else 20240601)
+                      seed=boot.seed if boot is not None else 20240601, max_steps=max_steps)
     except GrowthcoreInputError as exc:
         return {**out, "error": str(exc).splitlines()[0]}
     return {**out, **fc.to_dict(), "last_observed": float(result.t[-1])}
@@ -136,7 +147,8 @@ def register(app: Dash) -> None:
         if trigger == ids.FC_CLEAR:
             return None
         if trigger == ids.FC_RUN:
-            return compute_forecast(forecast_request(mode, amount, bound), label, fits_store, data, exclusions, done)
+            return compute_forecast(forecast_request(mode, amount, bound, max_steps=step_limit()), label, fits_store,
+                                    data, exclusions, done)
         # another fit described or a finished bootstrap redraws a forecast already asked for;
         # a forecast of other data (another file or series) is dropped, not carried over
         if current and forecast_is_stale(current, fits_store):

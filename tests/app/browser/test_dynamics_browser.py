@@ -113,3 +113,28 @@ def test_panel_seven_is_drawn_when_it_comes_into_view(server_url: str, make_driv
     assert text(driver, "dynamics-equilibria") == described  # not redrawn off screen
     scroll_to(driver, "slot-dynamics")
     wait(driver, lambda d: "3.5" in text(d, "dynamics-equilibria") and text(d, "dynamics-equilibria") != described)
+
+
+def test_a_reopened_record_sets_panel_seven_and_draws_its_forecast(server_url: str, make_driver: Callable[..., Any],
+                                                                   artifacts: str) -> None:
+    """The kept command-line record (the invented island census, a bootstrap of 20, a forecast of 3 steps, a level of
+    300): reopened, panel 7's fields hold its settings and its forecast is drawn with the fits."""
+    import os
+
+    from selenium.webdriver.common.by import By
+
+    record = os.path.join(os.path.dirname(os.path.dirname(os.path.dirname(os.path.abspath(__file__)))),
+                          "fixtures", "fit-record-v1.json")
+    driver = make_driver(1280, 800)
+    _open(driver, server_url)
+    driver.find_element(By.CSS_SELECTOR, "#export-record-upload input[type=file]").send_keys(record)
+    wait(driver, lambda d: "Reopened fit-record-v1.json" in text(d, "export-record-message"))
+    assert "press Run bootstrap" in text(driver, "export-record-message")
+    wait(driver, lambda d: "3 points to t = 2026" in text(d, "forecast-notes"))
+    values = driver.execute_script("return ['bootstrap-resamples', 'bootstrap-seed', 'forecast-amount', "
+                                   "'dynamics-level'].map(i => document.getElementById(i).value)")
+    assert values == ["20", "20240601", "3", "300"]
+    names = driver.execute_script("return document.getElementById('panel-trajectory')"
+                                  ".querySelector('.js-plotly-plot').data.map(t => t.name);")
+    assert any(n and n.startswith("forecast:") for n in names)
+    shot(driver, artifacts, "dynamics_reopened_record", "slot-dynamics", pause=0.4)
