@@ -17,6 +17,8 @@ from .panels import GRAPH_CONFIG
 
 #: Upper limit of resamples one run may ask for (the refits travel through the browser store).
 MAX_RESAMPLES = 10_000
+#: The fewest resamples panel 7 runs.
+MIN_RESAMPLES = 20
 #: Pause between one chunk's answer and the next request (ms); the next chunk waits for the answer.
 TICK_MS = 30
 
@@ -100,7 +102,7 @@ def dynamics_section() -> html.Section:
         html.Div([
             html.H4("Bootstrap by residual resampling", className="dyn-subtitle"),
             html.Div([
-                _field("Resamples", dcc.Input(id=ids.BOOT_N, type="number", value=DEFAULT_RESAMPLES, min=20,
+                _field("Resamples", dcc.Input(id=ids.BOOT_N, type="number", value=DEFAULT_RESAMPLES, min=MIN_RESAMPLES,
                                               max=MAX_RESAMPLES, step=1, style=INPUT), ids.BOOT_N),
                 _field("Seed", dcc.Input(id=ids.BOOT_SEED, type="number", value=DEFAULT_SEED, min=0, step=1,
                                          style=INPUT), ids.BOOT_SEED),

@@ -20,11 +20,12 @@ from growthcore.app.callbacks import export as ex
 from growthcore.app.callbacks.capacity import update_capacity
 from growthcore.app.callbacks.data import import_source
 from growthcore.app.callbacks.dynamics.forecast import DEFAULT_AMOUNT
-from growthcore.app.callbacks.dynamics.reopened import MIN_RESAMPLES, steps_from_settings
+from growthcore.app.callbacks.dynamics.reopened import steps_from_settings
 from growthcore.app.callbacks.fits import compute_fits
 from growthcore.app.callbacks.follow import follow
 from growthcore.app.callbacks.live import View, panel_seven
 from growthcore.app.callbacks.settings import build_settings
+from growthcore.app.components.dynamics import MIN_RESAMPLES
 from growthcore.app.server import DEMO_FILE, create_app, read_source
 from growthcore.limits import Limits
 from growthcore.workflow import Extras

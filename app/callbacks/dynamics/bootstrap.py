@@ -14,7 +14,7 @@ from growthcore.errors import GrowthcoreInputError
 from growthcore.uncertainty import BootstrapResult, bootstrap
 
 from ... import ids
-from ...components.dynamics import MAX_RESAMPLES, intervals_table
+from ...components.dynamics import MAX_RESAMPLES, MIN_RESAMPLES, intervals_table
 from ...heavy import direct, runner_of
 from ...ticks import allow_next_tick, cancel_pressed, seconds_since
 from ..data import server_limits
@@ -43,9 +43,9 @@ def start_run(run_clicks: int, cancel_clicks: int | None, resamples: Any, seed: 
     fit = find_fit(fits_store, label)
     base = {"run": int(run_clicks or 0), "cancel_seen": int(cancel_clicks or 0), "label": label, "done": 0,
             "result": None, "elapsed": 0.0, "computing": 0.0, "started": time.time(), "chunk": FIRST_CHUNK}
-    if n is None or not 20 <= n <= MAX_RESAMPLES:
-        return {**base, "state": "refused", "message": f"Resamples must be a whole number from 20 to {MAX_RESAMPLES}; "
-                                                       f"got {resamples!r}."}
+    if n is None or not MIN_RESAMPLES <= n <= MAX_RESAMPLES:
+        return {**base, "state": "refused", "message": f"Resamples must be a whole number from {MIN_RESAMPLES} to "
+                                                       f"{MAX_RESAMPLES}; got {resamples!r}."}
     if s is None or s < 0:
         return {**base, "state": "refused", "message": f"The seed must be a whole number 0 or larger; got {seed!r}."}
     if fit is None or fit.get("status") != "converged" or fits_store is None:

@@ -15,10 +15,8 @@ from dash import no_update
 from growthcore.errors import PlanError
 from growthcore.workflow import Extras
 
-from ...components.dynamics import fmt
+from ...components.dynamics import MIN_RESAMPLES, fmt
 
-#: The fewest resamples panel 7 runs (its field's least value).
-MIN_RESAMPLES = 20
 #: How the messages call a record's settings.
 SETTING_NAMES = {name: f"settings.{name}" for name in
                  ("bootstrap", "seed", "forecast_steps", "forecast_span", "bound", "levels")}
