@@ -33,10 +33,10 @@ from growthcore.uncertainty import DEFAULT_SEED
 from growthcore.workflow import Extras
 
 from .. import ids
-from ..components.dynamics import MAX_RESAMPLES
 from ..heavy import runner_of
 from ..state import current_limits, data_to_store, empty_exclusions, series_from_store
 from .data import summary
+from .dynamics.bootstrap import resample_limit
 from .dynamics.forecast import step_limit
 from .dynamics.reopened import steps_from_settings
 from .fits import session_plan
@@ -337,7 +337,7 @@ def on_record_upload(contents: str | None, filename: str | None, *, run: Any = N
         data, exclusions = stores_from_record(record, name=name)
         controls = controls_from_record(record)
         later = steps_from_settings(record.get("settings") or {}, max_steps=step_limit(),
-                                    max_resamples=min(MAX_RESAMPLES, current_limits().max_resamples))
+                                    max_resamples=resample_limit(current_limits()))
     except RecordError as exc:
         return (*keep, refusal(exc))
     except GrowthcoreInputError as exc:

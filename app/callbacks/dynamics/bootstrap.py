@@ -11,6 +11,7 @@ from typing import Any
 from dash import Dash, Input, Output, State, ctx, html, no_update
 
 from growthcore.errors import GrowthcoreInputError
+from growthcore.limits import Limits
 from growthcore.uncertainty import BootstrapResult, bootstrap
 
 from ... import ids
@@ -26,6 +27,11 @@ TARGET_SECONDS = 0.4
 MAX_CHUNK = 1000
 #: Bootstraps kept per session (one per fit signature), oldest dropped first.
 KEEP_DONE = 8
+
+
+def resample_limit(limits: Limits) -> int:
+    """The most resamples a run of a server with ``limits`` may take."""
+    return min(MAX_RESAMPLES, limits.max_resamples)
 
 
 def _as_int(x: Any) -> int | None:
@@ -190,8 +196,7 @@ def boot_intervals(summary: Mapping[str, Any] | None, fits_store: Mapping[str, A
 
 
 def register(app: Dash) -> None:
-    limits = server_limits(app)
-    max_resamples = min(MAX_RESAMPLES, limits.max_resamples)
+    max_resamples = resample_limit(server_limits(app))
     heavy_run = runner_of(app)
 
     @app.callback(Output(ids.BOOT, "data"), Output(ids.BOOT_DONE, "data"), Output(ids.BOOT_SUMMARY, "data"),
